@@ -1,0 +1,149 @@
+package main
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"io"
+	"os"
+	"strings"
+
+	"github.com/spf13/pflag"
+	"golang.org/x/term"
+)
+
+// env is what a command may touch of the outside world, so tests can run commands in-process.
+type env struct {
+	stdin  io.Reader
+	stdout io.Writer
+	stderr io.Writer
+	tty    bool // stderr is a terminal: progress bars are drawn
+}
+
+func newEnv() *env {
+	return &env{stdin: os.Stdin, stdout: os.Stdout, stderr: os.Stderr, tty: term.IsTerminal(int(os.Stderr.Fd()))}
+}
+
+// command is one sluice subcommand.
+type command interface {
+	name() string
+	summary() string
+	// flags returns the command's flag set, with usage text and examples.
+	flags() *pflag.FlagSet
+	run(ctx context.Context, e *env, fs *pflag.FlagSet) error
+}
+
+// usageError is a mistake in the command line: exit status 2.
+type usageError struct{ msg string }
+
+func (u *usageError) Error() string { return u.msg }
+
+func usagef(format string, a ...any) error { return &usageError{fmt.Sprintf(format, a...)} }
+
+func commands() []command {
+	return []command{&indexCmd{}, &pickCmd{}, &demoCmd{}}
+}
+
+const intro = `sluice chooses the rows of a large JSONL instruction pool that are most like a small set of
+target-task rows, as many as a FLOP budget allows once the cost of choosing them is paid.
+
+Usage:
+  sluice <command> [flags]
+
+Commands:
+%s  help        show help for a command
+
+Run 'sluice help <command>' or 'sluice <command> --help' for its flags and examples.
+
+Before you train on what sluice keeps: pools carry other people's licences and personal data, a
+selected subset narrows what the model sees, lexical scores measure overlap with the target rows and
+not quality, and evaluation sets must be removed from the pool (decontaminated) before selection.
+`
+
+func run(ctx context.Context, args []string, e *env) int {
+	cmds := commands()
+	list := func() string {
+		var b strings.Builder
+		for _, c := range cmds {
+			fmt.Fprintf(&b, "  %-10s  %s\n", c.name(), c.summary())
+		}
+		return b.String()
+	}
+	if len(args) == 0 {
+		fmt.Fprintf(e.stderr, intro, list())
+		return 2
+	}
+	name := args[0]
+	if name == "help" || name == "-h" || name == "--help" {
+		if len(args) > 1 && name == "help" {
+			for _, c := range cmds {
+				if c.name() == args[1] {
+					fs := c.flags()
+					fs.SetOutput(e.stdout)
+					fs.Usage()
+					return 0
+				}
+			}
+			fmt.Fprintf(e.stderr, "sluice: no command %q\n", args[1])
+			return 2
+		}
+		fmt.Fprintf(e.stdout, intro, list())
+		return 0
+	}
+	if name == "version" || name == "--version" {
+		fmt.Fprintln(e.stdout, "sluice", version())
+		return 0
+	}
+	for _, c := range cmds {
+		if c.name() != name {
+			continue
+		}
+		fs := c.flags()
+		fs.SetOutput(e.stderr)
+		for _, a := range args[1:] {
+			if a == "--" {
+				break
+			}
+			if a == "-h" || a == "--help" {
+				// Help asked for is output, on stdout, and a success.
+				fs.SetOutput(e.stdout)
+			}
+		}
+		if err := fs.Parse(args[1:]); err != nil {
+			if errors.Is(err, pflag.ErrHelp) {
+				return 0
+			}
+			fmt.Fprintf(e.stderr, "sluice %s: %v\nRun 'sluice %s --help' for usage.\n", name, err, name)
+			return 2
+		}
+		err := c.run(ctx, e, fs)
+		var ue *usageError
+		switch {
+		case err == nil:
+			return 0
+		case errors.As(err, &ue):
+			fmt.Fprintf(e.stderr, "sluice %s: %v\nRun 'sluice %s --help' for usage.\n", name, err, name)
+			return 2
+		default:
+			fmt.Fprintf(e.stderr, "sluice %s: %v\n", name, err)
+			return 1
+		}
+	}
+	fmt.Fprintf(e.stderr, "sluice: no command %q\n\n", name)
+	fmt.Fprintf(e.stderr, intro, list())
+	return 2
+}
+
+// newFlags makes a GNU-style flag set whose usage shows the synopsis, the flags and examples.
+func newFlags(name, synopsis, about, examples string) *pflag.FlagSet {
+	fs := pflag.NewFlagSet(name, pflag.ContinueOnError)
+	fs.SortFlags = false
+	fs.Usage = func() {
+		w := fs.Output()
+		fmt.Fprintf(w, "Usage:\n  %s\n\n%s\n\nFlags:\n%s", synopsis, strings.TrimSpace(about), fs.FlagUsages())
+		if examples != "" {
+			fmt.Fprintf(w, "\nExamples:\n%s\n", strings.TrimRight(examples, "\n"))
+		}
+	}
+	return fs
+}

@@ -1,0 +1,166 @@
+package main
+
+import (
+	"bufio"
+	"context"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"os"
+	"path/filepath"
+	"sort"
+
+	"github.com/spf13/pflag"
+
+	"sluice/cmd/sluice/demodata"
+	"sluice/index"
+	"sluice/score"
+	selection "sluice/select"
+)
+
+type demoCmd struct{}
+
+func (*demoCmd) name() string    { return "demo" }
+func (*demoCmd) summary() string { return "index and pick on the demo data built into sluice" }
+
+// The demo's budget and model are chosen so that roughly the target topic's share of the pool fits.
+const (
+	demoBudget      = "6e12"
+	demoTrainParams = 125e6
+)
+
+func (*demoCmd) flags() *pflag.FlagSet {
+	fs := newFlags("demo", "sluice demo [--out DIR]",
+		`Writes the built-in demo pool and target rows to DIR, indexes the pool, picks rows for the target
+task under a small budget, and says what was kept and where the files are. The scenario is invented.`,
+		`  sluice demo
+  sluice demo --out /tmp/sluice-demo --method tfidf`)
+	fs.String("out", "sluice-demo", "folder for the demo's files (made or reused)")
+	fs.String("method", "bm25", "scoring: bm25 or tfidf")
+	fs.String("aggregate", "sum", "over target rows: sum or max")
+	fs.BoolP("quiet", "q", false, "print nothing but errors")
+	return fs
+}
+
+func (c *demoCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
+	out, _ := fs.GetString("out")
+	quiet, _ := fs.GetBool("quiet")
+	ms, _ := fs.GetString("method")
+	as, _ := fs.GetString("aggregate")
+	p := score.DefaultParams()
+	var err error
+	if p.Method, err = score.ParseMethod(ms); err != nil {
+		return usagef("--method: %v", err)
+	}
+	if p.Aggregate, err = score.ParseAggregate(as); err != nil {
+		return usagef("--aggregate: %v", err)
+	}
+	if err := os.MkdirAll(out, 0o755); err != nil {
+		return fmt.Errorf("demo: %w", err)
+	}
+	pool, target := filepath.Join(out, "pool.jsonl"), filepath.Join(out, "target.jsonl")
+	for _, f := range []struct {
+		path string
+		data []byte
+	}{{pool, demodata.Pool()}, {target, demodata.Target()}} {
+		if err := os.WriteFile(f.path, f.data, 0o644); err != nil {
+			return fmt.Errorf("demo: %w", err)
+		}
+	}
+	say := func(format string, a ...any) {
+		if !quiet {
+			fmt.Fprintf(e.stdout, format, a...)
+		}
+	}
+	say("%s\n\n", demodata.Scenario)
+	idx := filepath.Join(out, "index")
+	say("$ sluice index --out %s --id id %s\n", idx, pool)
+	st, err := index.Build(ctx, idx, []string{pool}, index.Options{ID: "id"})
+	if err != nil {
+		return err
+	}
+	say("indexed %d rows (%s; %d terms)\n\n", st.Rows, st.Text, st.Terms)
+
+	run := filepath.Join(out, "run")
+	say("$ sluice pick --index %s --target %s --method %s --aggregate %s --budget %s --train-params 125M --out %s\n",
+		idx, target, p.Method, p.Aggregate, demoBudget, run)
+	cfg := &pickConfig{indexDir: idx, target: target, params: p, trainN: demoTrainParams, epochs: 1,
+		out: run, quiet: quiet, budgetHow: "--budget " + demoBudget, sel: selection.Options{}}
+	if _, err := fmt.Sscanf(demoBudget, "%g", &cfg.budget); err != nil {
+		return err
+	}
+	de := *e
+	de.stderr = e.stdout // the demo's whole story goes to stdout
+	pr, err := doPick(ctx, &de, cfg)
+	if err != nil {
+		return err
+	}
+	if quiet {
+		return nil
+	}
+	topics, err := topicCounts(pool, filepath.Join(run, "kept.jsonl"))
+	if err != nil {
+		return err
+	}
+	want := demodata.TargetTopic
+	say("\nkept rows by topic (pool share in brackets):\n")
+	for _, t := range topics {
+		mark := ""
+		if t.name == want {
+			mark = "   <- the target task"
+		}
+		say("  %-24s %4d of %4d kept  (%4.1f%% of pool)%s\n", t.name, t.kept, t.pool, 100*float64(t.pool)/float64(st.Rows), mark)
+	}
+	if len(pr.kept) > 0 {
+		var hit int
+		for _, t := range topics {
+			if t.name == want {
+				hit = t.kept
+			}
+		}
+		say("precision: %.1f%% of kept rows are %s\n", 100*float64(hit)/float64(len(pr.kept)), want)
+	}
+	say("\nfiles:\n  %s  the kept rows, byte for byte\n  %s  every row's score, rank and fate\n  %s  the FLOP ledger\n",
+		filepath.Join(run, "kept.jsonl"), filepath.Join(run, "scores.jsonl"), filepath.Join(run, "ledger.json"))
+	return nil
+}
+
+type topicCount struct {
+	name       string
+	pool, kept int
+}
+
+func topicCounts(pool, kept string) ([]topicCount, error) {
+	count := func(path string, into map[string]int) error {
+		f, err := os.Open(path)
+		if err != nil {
+			return err
+		}
+		defer f.Close()
+		sc := bufio.NewScanner(f)
+		sc.Buffer(nil, 1<<20)
+		for sc.Scan() {
+			var row struct{ Topic string }
+			if err := json.Unmarshal(sc.Bytes(), &row); err != nil {
+				return fmt.Errorf("%s: %w", path, err)
+			}
+			into[row.Topic]++
+		}
+		return sc.Err()
+	}
+	p, k := map[string]int{}, map[string]int{}
+	if err := errors.Join(count(pool, p), count(kept, k)); err != nil {
+		return nil, fmt.Errorf("demo: %w", err)
+	}
+	var out []topicCount
+	for name, n := range p {
+		out = append(out, topicCount{name: name, pool: n, kept: k[name]})
+	}
+	sort.Slice(out, func(i, j int) bool {
+		if out[i].kept != out[j].kept {
+			return out[i].kept > out[j].kept
+		}
+		return out[i].name < out[j].name
+	})
+	return out, nil
+}

@@ -1,0 +1,134 @@
+package main
+
+import (
+	"context"
+	"fmt"
+	"os"
+	"strings"
+
+	"github.com/spf13/pflag"
+
+	"sluice/budget"
+	"sluice/index"
+	"sluice/index/analysis"
+)
+
+type indexCmd struct{}
+
+func (*indexCmd) name() string    { return "index" }
+func (*indexCmd) summary() string { return "stream JSONL pool files into a persistent index" }
+
+func (*indexCmd) flags() *pflag.FlagSet {
+	fs := newFlags("index", "sluice index --out DIR [flags] POOL...",
+		`Reads every POOL file (JSONL; plain, gzip or zstd, found by magic bytes; "-" is stdin) once and
+writes an inverted index to DIR that any number of later picks reuse. Rows that cannot be read are
+counted and quarantined in DIR/rejected.jsonl with their file, line and reason; nothing is dropped
+silently. The index is published only when complete: a killed build leaves the previous index or none.
+
+The text of a row comes from --text, a comma-separated list of JSON paths where [] walks an array
+(prompt,completion  instruction,input,output  messages[].content). Without it, the first known shape
+found in the first rows is used, and the summary says which.
+
+Pools hold other people's text: check each source's licence and whether it carries personal data
+before you index and train on it.`,
+		`  sluice index --out pool.idx train-*.jsonl.zst
+  sluice index --out pool.idx --text 'messages[].content' --id uid chats.jsonl.gz
+  zcat dump.jsonl.gz | sluice index --out pool.idx --analyzer plain -`)
+	fs.String("out", "", "index folder to write (required)")
+	fs.String("text", "", "JSON paths of the text fields, comma-separated; [] walks an array (default: detect)")
+	fs.String("id", "", "field holding each row's id (default: file:line)")
+	fs.String("tokens", "", "field holding each row's token count for the ledger (default: UTF-8 bytes / 4)")
+	fs.String("analyzer", index.DefaultAnalyzer, "text analysis: "+strings.Join(analysis.Names(), " or "))
+	fs.String("mem", "512MiB", "memory for postings before sorted runs spill to disk")
+	fs.String("max-row-bytes", "64MiB", "longer rows are quarantined without being loaded")
+	fs.Int("workers", 0, "goroutines analysing rows (default: one per core)")
+	fs.Bool("strict", false, "stop at the first bad row (exit 1) instead of quarantining it")
+	fs.Bool("dry-run", false, "read, parse and analyse every row and report, but write no index")
+	fs.BoolP("quiet", "q", false, "print nothing but errors")
+	return fs
+}
+
+func (c *indexCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
+	out, _ := fs.GetString("out")
+	dry, _ := fs.GetBool("dry-run")
+	if out == "" && !dry {
+		return usagef("--out is required")
+	}
+	pools := fs.Args()
+	if len(pools) == 0 {
+		return usagef("no pool files given")
+	}
+	opt := index.Options{}
+	opt.Text, _ = fs.GetString("text")
+	opt.ID, _ = fs.GetString("id")
+	opt.Tokens, _ = fs.GetString("tokens")
+	opt.Analyzer, _ = fs.GetString("analyzer")
+	opt.Workers, _ = fs.GetInt("workers")
+	opt.Strict, _ = fs.GetBool("strict")
+	opt.DryRun = dry
+	quiet, _ := fs.GetBool("quiet")
+	if _, err := analysis.New(opt.Analyzer); err != nil {
+		return usagef("--analyzer: %v", err)
+	}
+	memS, _ := fs.GetString("mem")
+	mem, err := budget.ParseSize(memS)
+	if err != nil {
+		return usagef("--mem: %v", err)
+	}
+	if mem < 16<<20 {
+		return usagef("--mem %s: at least 16MiB is needed", memS)
+	}
+	opt.Mem = mem
+	mrS, _ := fs.GetString("max-row-bytes")
+	mr, err := budget.ParseSize(mrS)
+	if err != nil || mr <= 0 || mr > 1<<31 {
+		return usagef("--max-row-bytes %q: give a size from 1 byte to 2GiB", mrS)
+	}
+	opt.MaxRowBytes = int(mr)
+	if opt.Workers < 0 {
+		return usagef("--workers %d: must be 0 or more", opt.Workers)
+	}
+	var total int64
+	for _, p := range pools {
+		if p == "-" {
+			continue
+		}
+		fi, err := os.Stat(p)
+		if err != nil {
+			return fmt.Errorf("read %w", err)
+		}
+		if fi.IsDir() {
+			return fmt.Errorf("read %s: is a folder, not a JSONL file", p)
+		}
+		total += fi.Size()
+	}
+	bar := newProgress(e, quiet, total, "indexing")
+	opt.Progress = bar.add
+	st, err := index.Build(ctx, out, pools, opt)
+	bar.done()
+	if err != nil {
+		return err
+	}
+	if !quiet {
+		if dry {
+			out = "nothing (--dry-run)"
+		}
+		printIndexSummary(e, out, &st.Meta)
+	}
+	return nil
+}
+
+func printIndexSummary(e *env, out string, m *index.Meta) {
+	how := "given"
+	if m.TextDetected {
+		how = "detected; pass --text to choose"
+	}
+	fmt.Fprintf(e.stderr, "indexed %d rows from %d file(s) into %s\n", m.Rows, len(m.Sources), out)
+	fmt.Fprintf(e.stderr, "  text fields   %s (%s)\n", m.Text, how)
+	fmt.Fprintf(e.stderr, "  analyzer      %s\n", m.Analyzer)
+	fmt.Fprintf(e.stderr, "  rows          read %d = indexed %d + quarantined %d (blank lines skipped: %d)\n", m.RowsRead, m.Rows, m.RowsRejected, m.BlankLines)
+	fmt.Fprintf(e.stderr, "  terms         %d distinct, %d postings, mean row length %.1f terms\n", m.Terms, m.Postings, m.AvgLen)
+	if m.RowsRejected > 0 {
+		fmt.Fprintf(e.stderr, "  quarantine    %s/rejected.jsonl\n", out)
+	}
+}

@@ -1,0 +1,185 @@
+package main
+
+import (
+	"bufio"
+	"bytes"
+	"context"
+	"encoding/json"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+
+	"sluice/budget"
+	"sluice/cmd/sluice/demodata"
+)
+
+// sluice runs the command in-process and returns its exit status, stdout and stderr.
+func sluice(t *testing.T, args ...string) (int, string, string) {
+	t.Helper()
+	var out, errb bytes.Buffer
+	code := run(context.Background(), args, &env{stdin: strings.NewReader(""), stdout: &out, stderr: &errb})
+	return code, out.String(), errb.String()
+}
+
+type scoreLine struct {
+	ID     string   `json:"id"`
+	Score  float64  `json:"score"`
+	Rank   int      `json:"rank"`
+	Kept   bool     `json:"kept"`
+	Reason string   `json:"reason"`
+	Tokens int64    `json:"tokens"`
+	Target *string  `json:"target"`
+	Ledger *float64 `json:"ledger"`
+}
+
+func readScores(t *testing.T, path string) []scoreLine {
+	t.Helper()
+	f, err := os.Open(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer f.Close()
+	var out []scoreLine
+	sc := bufio.NewScanner(f)
+	for sc.Scan() {
+		var s scoreLine
+		if err := json.Unmarshal(sc.Bytes(), &s); err != nil {
+			t.Fatalf("%s: %v", path, err)
+		}
+		out = append(out, s)
+	}
+	return out
+}
+
+// TestIndexAndPick runs the two commands on the demo data and checks the promises of a run folder:
+// kept rows byte-identical to the pool, every row scored once, the ledger within the budget.
+func TestIndexAndPick(t *testing.T) {
+	dir := t.TempDir()
+	pool, target := filepath.Join(dir, "pool.jsonl"), filepath.Join(dir, "target.jsonl")
+	os.WriteFile(pool, demodata.Pool(), 0o644)
+	os.WriteFile(target, demodata.Target(), 0o644)
+	idx := filepath.Join(dir, "idx")
+	if code, _, stderr := sluice(t, "index", "--quiet", "--id", "id", "--out", idx, pool); code != 0 {
+		t.Fatalf("index: exit %d: %s", code, stderr)
+	}
+	poolLines := map[string]string{}
+	for _, l := range strings.SplitAfter(string(demodata.Pool()), "\n") {
+		if l == "" {
+			continue
+		}
+		var r struct{ ID string }
+		json.Unmarshal([]byte(l), &r)
+		poolLines[r.ID] = l
+	}
+	for _, method := range []string{"bm25", "tfidf"} {
+		for _, agg := range []string{"sum", "max"} {
+			for _, fill := range []string{"--fill=false", "--fill"} {
+				t.Run(method+"/"+agg+fill, func(t *testing.T) {
+					out := filepath.Join(dir, "run-"+method+agg+fill)
+					code, _, stderr := sluice(t, "pick", "--index", idx, "--target", target, "--method", method,
+						"--aggregate", agg, fill, "--budget", "5e12", "--train-params", "125M", "--out", out)
+					if code != 0 {
+						t.Fatalf("pick: exit %d: %s", code, stderr)
+					}
+					if !strings.Contains(stderr, "picked") {
+						t.Errorf("no summary on stderr: %q", stderr)
+					}
+					scores := readScores(t, filepath.Join(out, "scores.jsonl"))
+					if len(scores) != len(poolLines) {
+						t.Fatalf("%d score lines for %d rows", len(scores), len(poolLines))
+					}
+					var want strings.Builder
+					seen := map[string]bool{}
+					ranks := map[int]bool{}
+					var kept int
+					for _, s := range scores {
+						if seen[s.ID] {
+							t.Fatalf("row %s scored twice", s.ID)
+						}
+						seen[s.ID] = true
+						ranks[s.Rank] = true
+						if s.Ledger == nil || *s.Ledger > 5e12 {
+							t.Fatalf("row %s: ledger %v over the budget", s.ID, s.Ledger)
+						}
+						if s.Kept {
+							kept++
+							want.WriteString(poolLines[s.ID])
+						} else if s.Reason == "" {
+							t.Errorf("row %s not kept without a reason", s.ID)
+						}
+					}
+					if len(ranks) != len(scores) || kept == 0 {
+						t.Errorf("ranks not a permutation (%d distinct) or nothing kept (%d)", len(ranks), kept)
+					}
+					got, _ := os.ReadFile(filepath.Join(out, "kept.jsonl"))
+					if string(got) != want.String() {
+						t.Errorf("kept.jsonl is not the kept pool lines byte for byte")
+					}
+					var led struct {
+						Budget float64       `json:"budget"`
+						Total  float64       `json:"total_flops"`
+						Lines  []budget.Line `json:"lines"`
+						Stop   string        `json:"stop"`
+					}
+					b, _ := os.ReadFile(filepath.Join(out, "ledger.json"))
+					if err := json.Unmarshal(b, &led); err != nil {
+						t.Fatal(err)
+					}
+					if led.Total > led.Budget || led.Stop == "" || len(led.Lines) < 4 {
+						t.Errorf("ledger: total %g budget %g stop %q lines %d", led.Total, led.Budget, led.Stop, len(led.Lines))
+					}
+					var sum float64
+					for _, l := range led.Lines {
+						sum += l.FLOPs
+					}
+					if sum != led.Total {
+						t.Errorf("ledger lines add to %g, total says %g", sum, led.Total)
+					}
+				})
+			}
+		}
+	}
+}
+
+func TestDemo(t *testing.T) {
+	out := filepath.Join(t.TempDir(), "demo")
+	code, stdout, stderr := sluice(t, "demo", "--out", out)
+	if code != 0 {
+		t.Fatalf("demo: exit %d: %s", code, stderr)
+	}
+	for _, want := range []string{"sluice index", "sluice pick", "precision", "kept.jsonl"} {
+		if !strings.Contains(stdout, want) {
+			t.Errorf("demo output lacks %q:\n%s", want, stdout)
+		}
+	}
+}
+
+func TestUsageErrors(t *testing.T) {
+	dir := t.TempDir()
+	for _, tc := range []struct {
+		args []string
+		code int
+		msg  string
+	}{
+		{nil, 2, "Usage"},
+		{[]string{"nope"}, 2, "no command"},
+		{[]string{"index"}, 2, "--out is required"},
+		{[]string{"index", "--out", dir + "/i"}, 2, "no pool files"},
+		{[]string{"index", "--out", dir + "/i", "--mem", "lots", "x"}, 2, "--mem"},
+		{[]string{"index", "--out", dir + "/i", dir + "/missing.jsonl"}, 1, "missing.jsonl"},
+		{[]string{"pick", "--index", dir, "--target", "t", "--out", "o", "--train-params", "1B"}, 2, "a budget is required"},
+		{[]string{"pick", "--index", dir, "--target", "t", "--out", "o", "--budget", "-1", "--train-params", "1B"}, 2, "--budget"},
+		{[]string{"pick", "--index", dir, "--target", "t", "--out", "o", "--budget", "1e18", "--train-params", "1B", "--gpu-hours", "3"}, 2, "either --budget"},
+		{[]string{"pick", "--index", dir, "--target", "t", "--out", "o", "--gpu-hours", "3", "--train-params", "1B"}, 2, "no defaults"},
+		{[]string{"pick", "--index", dir, "--target", "t", "--out", "o", "--budget", "1e18", "--train-params", "1B", "--epochs", "0"}, 2, "--epochs"},
+		{[]string{"pick", "--index", dir, "--target", "t", "--out", dir + "/o", "--budget", "1e18", "--train-params", "1B"}, 1, "not a sluice index"},
+		{[]string{"pick", "--help"}, 0, ""},
+		{[]string{"help", "index"}, 0, ""},
+	} {
+		code, stdout, stderr := sluice(t, tc.args...)
+		if code != tc.code || !strings.Contains(stdout+stderr, tc.msg) {
+			t.Errorf("sluice %q: exit %d (want %d), output %q lacks %q", tc.args, code, tc.code, stdout+stderr, tc.msg)
+		}
+	}
+}

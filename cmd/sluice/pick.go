@@ -1,0 +1,484 @@
+package main
+
+import (
+	"bufio"
+	"context"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"math"
+	"os"
+	"path/filepath"
+	"strconv"
+	"strings"
+	"time"
+
+	"github.com/spf13/pflag"
+
+	"sluice/budget"
+	"sluice/index"
+	"sluice/index/atomicdir"
+	"sluice/score"
+	selection "sluice/select"
+)
+
+type pickCmd struct{}
+
+func (*pickCmd) name() string { return "pick" }
+func (*pickCmd) summary() string {
+	return "score an index against target rows and keep the best under a FLOP budget"
+}
+
+func (*pickCmd) flags() *pflag.FlagSet {
+	fs := newFlags("pick", "sluice pick --index DIR --target FILE --budget FLOPS --train-params N --out RUN [flags]",
+		`Scores every indexed row against the target rows (BM25 or TF-IDF cosine, with the pool's
+statistics), ranks the rows by score (ties in input order) and keeps them from the top while the
+ledger - selection cost over the whole pool, charged first, plus 6 x parameters x tokens x epochs for
+each kept row - stays within the budget. The pool is not read again except to copy the kept rows.
+
+Writes, into RUN (published only when complete):
+  kept.jsonl    the kept rows, byte for byte as in the pool, in input order
+  scores.jsonl  one object per indexed row: id, score, rank, kept, reason, tokens, target, ledger
+  ledger.json   every cost line with its count, unit cost and formula; totals, budget, stop reason
+
+The budget is --budget FLOPS (2.5e18, 400P, 3E) or --gpu-hours with --gpu-flops (the GPU's peak
+FLOP/s for your precision) and --mfu (the fraction of peak your training reaches; 0.3-0.5 is common
+practice for dense transformer training). There are no defaults for --gpu-flops and --mfu.
+
+Selection narrows what the model sees: rows unlike the target rows are dropped, with whatever they
+taught. Lexical scores measure word overlap with the target rows, not quality or safety. Remove your
+evaluation sets from the pool before picking, or the pick will find them.`,
+		`  sluice pick --index pool.idx --target support.jsonl --budget 2.5e18 --train-params 1.3B --out run1
+  sluice pick --index pool.idx --target support.jsonl --method tfidf --aggregate max \
+      --gpu-hours 64 --gpu-flops 312T --mfu 0.4 --train-params 7B --epochs 2 --fill --out run2`)
+	fs.String("index", "", "index folder made by 'sluice index' (required)")
+	fs.String("target", "", "JSONL file of target-task rows (required)")
+	fs.String("target-text", "", "JSON paths of the target's text fields (default: the index's)")
+	fs.String("target-id", "", "field holding each target row's id (default: the index's id field, else file:line)")
+	fs.String("method", "bm25", "scoring: bm25 or tfidf")
+	fs.String("aggregate", "sum", "over target rows: sum (the set as one query) or max (nearest target row)")
+	fs.Float64("k1", 1.2, "BM25 term-frequency saturation")
+	fs.Float64("b", 0.75, "BM25 length normalisation")
+	fs.String("budget", "", "total FLOPs for selection plus training, e.g. 2.5e18 or 400P")
+	fs.Float64("gpu-hours", 0, "budget as GPU hours (with --gpu-flops and --mfu)")
+	fs.String("gpu-flops", "", "peak FLOP/s of one GPU, e.g. 989T")
+	fs.Float64("mfu", 0, "model FLOPs utilisation, a fraction in (0,1]")
+	fs.String("train-params", "", "parameters of the model to be trained, e.g. 7B or 1.3e9 (required)")
+	fs.Float64("epochs", 1, "training epochs over the kept rows")
+	fs.Bool("fill", false, "after the first row that does not fit, keep scanning for rows that do")
+	fs.Int("max-rows", 0, "keep at most this many rows (0: no limit)")
+	fs.Float64("min-score", 0, "keep only rows scoring at least this; rows sharing no term are never kept")
+	fs.String("out", "", "run folder to write (required)")
+	fs.BoolP("quiet", "q", false, "print nothing but errors")
+	return fs
+}
+
+// pickConfig is a pick fully resolved from flags; the demo builds one directly.
+type pickConfig struct {
+	indexDir   string
+	target     string
+	targetText string
+	targetID   string
+	params     score.Params
+	budget     float64
+	budgetHow  string
+	trainN     float64
+	epochs     float64
+	sel        selection.Options
+	out        string
+	quiet      bool
+}
+
+func (c *pickCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
+	if fs.NArg() > 0 {
+		return usagef("unexpected argument %q", fs.Arg(0))
+	}
+	cfg, err := pickConfigFrom(fs)
+	if err != nil {
+		return err
+	}
+	_, err = doPick(ctx, e, cfg)
+	return err
+}
+
+func pickConfigFrom(fs *pflag.FlagSet) (*pickConfig, error) {
+	str := func(n string) string { v, _ := fs.GetString(n); return v }
+	num := func(n string) float64 { v, _ := fs.GetFloat64(n); return v }
+	cfg := &pickConfig{indexDir: str("index"), target: str("target"), targetText: str("target-text"), targetID: str("target-id"), out: str("out")}
+	cfg.quiet, _ = fs.GetBool("quiet")
+	for _, req := range []struct{ v, name string }{{cfg.indexDir, "--index"}, {cfg.target, "--target"}, {cfg.out, "--out"}} {
+		if req.v == "" {
+			return nil, usagef("%s is required", req.name)
+		}
+	}
+	var err error
+	p := score.DefaultParams()
+	if p.Method, err = score.ParseMethod(str("method")); err != nil {
+		return nil, usagef("--method: %v", err)
+	}
+	if p.Aggregate, err = score.ParseAggregate(str("aggregate")); err != nil {
+		return nil, usagef("--aggregate: %v", err)
+	}
+	p.K1, p.B = num("k1"), num("b")
+	if !(p.K1 >= 0 && !math.IsInf(p.K1, 0)) {
+		return nil, usagef("--k1 %v: must be a finite number, 0 or more", p.K1)
+	}
+	if !(p.B >= 0 && p.B <= 1) {
+		return nil, usagef("--b %v: must be between 0 and 1", p.B)
+	}
+	cfg.params = p
+
+	b, gh, gf, mfu := str("budget"), num("gpu-hours"), str("gpu-flops"), num("mfu")
+	switch {
+	case b != "" && (gh != 0 || gf != "" || mfu != 0):
+		return nil, usagef("give either --budget or --gpu-hours with --gpu-flops and --mfu, not both")
+	case b != "":
+		if cfg.budget, err = budget.ParseFLOPs(b); err != nil {
+			return nil, usagef("--budget: %v", err)
+		}
+		cfg.budgetHow = "--budget " + b
+	case gh != 0 || gf != "" || mfu != 0:
+		if gh == 0 || gf == "" || mfu == 0 {
+			return nil, usagef("--gpu-hours needs --gpu-flops and --mfu too (there are no defaults for them)")
+		}
+		peak, err := budget.ParseFLOPs(gf)
+		if err != nil {
+			return nil, usagef("--gpu-flops: %v", err)
+		}
+		if cfg.budget, err = budget.FromGPUHours(gh, peak, mfu); err != nil {
+			return nil, usagef("%v", err)
+		}
+		cfg.budgetHow = fmt.Sprintf("%g GPU-hours x %s FLOP/s x MFU %g", gh, gf, mfu)
+	default:
+		return nil, usagef("a budget is required: --budget FLOPS, or --gpu-hours with --gpu-flops and --mfu")
+	}
+	tp := str("train-params")
+	if tp == "" {
+		return nil, usagef("--train-params is required (parameters of the model you will train, e.g. 7B)")
+	}
+	if cfg.trainN, err = budget.ParseCount(tp); err != nil {
+		return nil, usagef("--train-params: %v", err)
+	}
+	cfg.epochs = num("epochs")
+	if !(cfg.epochs > 0 && !math.IsInf(cfg.epochs, 0)) {
+		return nil, usagef("--epochs %v: must be a finite number above 0", cfg.epochs)
+	}
+	cfg.sel.Fill, _ = fs.GetBool("fill")
+	cfg.sel.MaxRows, _ = fs.GetInt("max-rows")
+	if cfg.sel.MaxRows < 0 {
+		return nil, usagef("--max-rows %d: must be 0 or more", cfg.sel.MaxRows)
+	}
+	cfg.sel.MinScore = num("min-score")
+	if math.IsNaN(cfg.sel.MinScore) || math.IsInf(cfg.sel.MinScore, 0) {
+		return nil, usagef("--min-score %v: must be finite", cfg.sel.MinScore)
+	}
+	return cfg, nil
+}
+
+// pickResult is what a pick did, for the summary and the demo.
+type pickResult struct {
+	ix      *index.Index
+	targets []index.Target
+	res     *score.Result
+	dec     []selection.Decision
+	sum     selection.Summary
+	ledger  *budget.Ledger
+	tokens  []int64
+	kept    []int
+}
+
+func doPick(ctx context.Context, e *env, cfg *pickConfig) (*pickResult, error) {
+	if err := checkRunTarget(cfg.out); err != nil {
+		return nil, err
+	}
+	started := time.Now()
+	ix, err := index.Open(cfg.indexDir)
+	if err != nil {
+		return nil, err
+	}
+	defer ix.Close()
+	m := ix.Meta()
+	an, err := ix.NewAnalyzer()
+	if err != nil {
+		return nil, err
+	}
+	spec := cfg.targetText
+	if spec == "" {
+		spec = m.Text
+	}
+	tid := cfg.targetID
+	if tid == "" {
+		tid = m.IDField
+	}
+	targets, trej, err := index.ReadTargets(cfg.target, spec, tid, an, m.MaxRowBytes)
+	if err != nil {
+		return nil, err
+	}
+	if len(targets) == 0 {
+		return nil, fmt.Errorf("read target %s: no usable target rows (%d quarantined)", cfg.target, len(trej))
+	}
+	qs := make([]score.Query, len(targets))
+	for i, t := range targets {
+		qs[i] = score.Query{ID: t.ID, Terms: t.Terms}
+	}
+	res, err := score.Score(ctx, ix, qs, cfg.params)
+	if err != nil {
+		return nil, err
+	}
+
+	led := &budget.Ledger{Budget: cfg.budget}
+	led.AddSelection("analyse pool rows (index build)", "term", float64(m.TotalLen), budget.FLOPsPerToken,
+		fmt.Sprintf("%d FLOPs x %d pool terms", budget.FLOPsPerToken, m.TotalLen))
+	led.AddSelection("analyse target rows", "term", float64(res.Work.TargetTokens), budget.FLOPsPerToken,
+		fmt.Sprintf("%d FLOPs x %d target terms", budget.FLOPsPerToken, res.Work.TargetTokens))
+	led.AddSelection(fmt.Sprintf("score pool (%s, %s): postings visited", cfg.params.Method, cfg.params.Aggregate), "posting", float64(res.Work.Postings), budget.FLOPsPerPosting,
+		fmt.Sprintf("%d FLOPs x %d postings in %d passes", budget.FLOPsPerPosting, res.Work.Postings, res.Work.Passes))
+
+	n := ix.NumRows()
+	costs := make([]float64, n)
+	tokens := make([]int64, n)
+	for r := 0; r < n; r++ {
+		t, ok, tb := ix.RowTokens(r)
+		if !ok {
+			t = int64(budget.EstimateTokens(int(tb)))
+		}
+		tokens[r] = t
+		costs[r] = budget.TrainFLOPs(cfg.trainN, float64(t), cfg.epochs)
+	}
+	opt := cfg.sel
+	opt.Budget = cfg.budget
+	opt.Fixed = led.Selection()
+	dec, sum, err := selection.Pick(res.Scores, costs, opt)
+	if err != nil {
+		return nil, err
+	}
+	var kept []int
+	var keptTokens int64
+	for r, d := range dec {
+		if d.Kept {
+			kept = append(kept, r)
+			keptTokens += tokens[r]
+		}
+	}
+	led.AddTraining(fmt.Sprintf("train %s-parameter model on kept rows", fmtCount(cfg.trainN)), "token", float64(keptTokens)*cfg.epochs, 6*cfg.trainN,
+		fmt.Sprintf("6 x %g parameters x %d tokens x %g epochs", cfg.trainN, keptTokens, cfg.epochs))
+	led.Stop = stopText(sum, cfg)
+	tokSrc := "UTF-8 bytes of the text fields / 4, rounded up (rule of thumb for English, common practice)"
+	if m.TokensField != "" {
+		tokSrc = fmt.Sprintf("field %q of each row", m.TokensField)
+	}
+	led.Notes = append(led.Notes,
+		"budget: "+cfg.budgetHow,
+		"tokens per row: "+tokSrc,
+		"selection cost is charged over the whole pool before any row is kept",
+		fmt.Sprintf("rows: read %d = indexed %d + quarantined %d; target rows %d (+%d quarantined)", m.RowsRead, m.Rows, m.RowsRejected, len(targets), len(trej)),
+	)
+	if led.Total() > cfg.budget {
+		// selection.Pick keeps nothing when the fixed cost is over budget; the ledger then says so.
+		led.Notes = append(led.Notes, "the selection cost alone exceeds the budget: nothing kept")
+	}
+	pr := &pickResult{ix: ix, targets: targets, res: res, dec: dec, sum: sum, ledger: led, tokens: tokens, kept: kept}
+	if err := writeRun(cfg, pr, trej); err != nil {
+		return nil, err
+	}
+	if !cfg.quiet {
+		printPickSummary(e, cfg, pr, time.Since(started))
+	}
+	return pr, nil
+}
+
+func stopText(s selection.Summary, cfg *pickConfig) string {
+	switch s.Stop.String() {
+	case "budget":
+		return fmt.Sprintf("budget: the row ranked %d did not fit in what was left", s.StopRank)
+	case "exhausted":
+		return "every row with a score was considered"
+	case "max-rows":
+		return fmt.Sprintf("max-rows: %d rows kept", cfg.sel.MaxRows)
+	case "min-score":
+		return fmt.Sprintf("min-score: the rows from rank %d on score below %g", s.StopRank, cfg.sel.MinScore)
+	case "no-match":
+		return fmt.Sprintf("no-match: the rows from rank %d on share no term with the target rows", s.StopRank)
+	case "fixed-over-budget":
+		return "fixed-over-budget: the selection cost alone exceeds the budget"
+	}
+	return s.Stop.String()
+}
+
+// checkRunTarget refuses to replace anything but an earlier run folder or an empty one, before any
+// work is done.
+func checkRunTarget(dir string) error {
+	fi, err := os.Stat(dir)
+	if errors.Is(err, os.ErrNotExist) {
+		parent := filepath.Dir(filepath.Clean(dir))
+		if pfi, perr := os.Stat(parent); perr != nil || !pfi.IsDir() {
+			return fmt.Errorf("write run %s: parent folder %s does not exist", dir, parent)
+		}
+		return nil
+	}
+	if err != nil {
+		return fmt.Errorf("write run: %w", err)
+	}
+	if !fi.IsDir() {
+		return fmt.Errorf("write run %s: exists and is not a folder", dir)
+	}
+	entries, err := os.ReadDir(dir)
+	if err != nil {
+		return fmt.Errorf("write run: %w", err)
+	}
+	if len(entries) == 0 {
+		return nil
+	}
+	if _, err := os.Stat(filepath.Join(dir, "ledger.json")); err == nil {
+		return nil
+	}
+	return fmt.Errorf("write run %s: refusing to replace a folder that is not a sluice run", dir)
+}
+
+func writeRun(cfg *pickConfig, pr *pickResult, trej []index.Reject) error {
+	tmp, err := atomicdir.Temp(cfg.out)
+	if err != nil {
+		return err
+	}
+	ok := false
+	defer func() {
+		if !ok {
+			os.RemoveAll(tmp)
+		}
+	}()
+	if err := writeFile(filepath.Join(tmp, "kept.jsonl"), func(w *bufio.Writer) error {
+		return pr.ix.CopyRows(w, pr.kept)
+	}); err != nil {
+		return err
+	}
+	if err := writeFile(filepath.Join(tmp, "scores.jsonl"), func(w *bufio.Writer) error {
+		return writeScores(w, pr)
+	}); err != nil {
+		return err
+	}
+	if err := writeFile(filepath.Join(tmp, "ledger.json"), func(w *bufio.Writer) error {
+		b, err := json.MarshalIndent(pr.ledger, "", "  ")
+		if err != nil {
+			return err
+		}
+		_, err = w.Write(append(b, '\n'))
+		return err
+	}); err != nil {
+		return err
+	}
+	if err := writeFile(filepath.Join(tmp, "rejected.jsonl"), func(w *bufio.Writer) error {
+		enc := json.NewEncoder(w)
+		for i := range trej {
+			if err := enc.Encode(&trej[i]); err != nil {
+				return err
+			}
+		}
+		return nil
+	}); err != nil {
+		return err
+	}
+	if err := atomicdir.Publish(tmp, cfg.out); err != nil {
+		return err
+	}
+	ok = true
+	return nil
+}
+
+// writeFile creates path, lets fill write it through a buffer, then flushes and fsyncs it.
+func writeFile(path string, fill func(w *bufio.Writer) error) error {
+	f, err := os.Create(path)
+	if err != nil {
+		return fmt.Errorf("write %w", err)
+	}
+	w := bufio.NewWriterSize(f, 1<<20)
+	err = fill(w)
+	if err == nil {
+		err = w.Flush()
+	}
+	if err == nil {
+		err = f.Sync()
+	}
+	if cerr := f.Close(); err == nil {
+		err = cerr
+	}
+	if err != nil {
+		return fmt.Errorf("write %s: %w", path, err)
+	}
+	return nil
+}
+
+// writeScores writes one line per indexed row in input order. Scores are printed with the fewest
+// digits that read back to the same float64, so the file agrees with explanations to the bit.
+func writeScores(w *bufio.Writer, pr *pickResult) error {
+	var b []byte
+	for r, d := range pr.dec {
+		b = append(b[:0], `{"id":`...)
+		b = appendJSONString(b, pr.ix.RowID(r))
+		b = append(b, `,"score":`...)
+		b = strconv.AppendFloat(b, pr.res.Scores[r], 'g', -1, 64)
+		b = append(b, `,"rank":`...)
+		b = strconv.AppendInt(b, int64(d.Rank), 10)
+		b = append(b, `,"kept":`...)
+		b = strconv.AppendBool(b, d.Kept)
+		if !d.Kept {
+			b = append(b, `,"reason":`...)
+			b = appendJSONString(b, d.Reason.String())
+		}
+		b = append(b, `,"tokens":`...)
+		b = strconv.AppendInt(b, pr.tokens[r], 10)
+		b = append(b, `,"target":`...)
+		if t := pr.res.Best[r]; t >= 0 {
+			b = appendJSONString(b, pr.targets[t].ID)
+		} else {
+			b = append(b, "null"...)
+		}
+		b = append(b, `,"ledger":`...)
+		b = strconv.AppendFloat(b, d.LedgerAfter, 'g', -1, 64)
+		b = append(b, "}\n"...)
+		if _, err := w.Write(b); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+func appendJSONString(b []byte, s string) []byte {
+	q, _ := json.Marshal(s)
+	return append(b, q...)
+}
+
+func fmtCount(v float64) string {
+	switch {
+	case v >= 1e9:
+		return strconv.FormatFloat(v/1e9, 'g', 4, 64) + "B"
+	case v >= 1e6:
+		return strconv.FormatFloat(v/1e6, 'g', 4, 64) + "M"
+	}
+	return strconv.FormatFloat(v, 'g', -1, 64)
+}
+
+func fmtFLOPs(v float64) string { return strconv.FormatFloat(v, 'e', 3, 64) }
+
+func printPickSummary(e *env, cfg *pickConfig, pr *pickResult, took time.Duration) {
+	l := pr.ledger
+	var keptTok int64
+	for _, r := range pr.kept {
+		keptTok += pr.tokens[r]
+	}
+	pct := func(v float64) string {
+		if l.Budget == 0 {
+			return "-"
+		}
+		return fmt.Sprintf("%.1f%%", 100*v/l.Budget)
+	}
+	var sb strings.Builder
+	fmt.Fprintf(&sb, "picked %d of %d rows (%d tokens) with %s/%s against %d target rows in %s\n",
+		len(pr.kept), pr.ix.NumRows(), keptTok, cfg.params.Method, cfg.params.Aggregate, len(pr.targets), took.Round(time.Millisecond))
+	fmt.Fprintf(&sb, "  budget     %s FLOPs (%s)\n", fmtFLOPs(l.Budget), cfg.budgetHow)
+	fmt.Fprintf(&sb, "  selection  %s FLOPs (%s)\n", fmtFLOPs(l.Selection()), pct(l.Selection()))
+	fmt.Fprintf(&sb, "  training   %s FLOPs (%s)\n", fmtFLOPs(l.Training()), pct(l.Training()))
+	fmt.Fprintf(&sb, "  left       %s FLOPs (%s)\n", fmtFLOPs(l.Left()), pct(l.Left()))
+	fmt.Fprintf(&sb, "  stopped    %s\n", l.Stop)
+	fmt.Fprintf(&sb, "  wrote      %s/{kept.jsonl,scores.jsonl,ledger.json}\n", cfg.out)
+	fmt.Fprint(e.stderr, sb.String())
+}

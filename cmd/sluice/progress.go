@@ -1,0 +1,35 @@
+package main
+
+import (
+	"github.com/schollz/progressbar/v3"
+)
+
+// progress draws a byte-count bar on stderr when it is a terminal and --quiet is not set; otherwise
+// every method is a no-op, so callers need not check.
+type progress struct{ bar *progressbar.ProgressBar }
+
+func newProgress(e *env, quiet bool, total int64, what string) *progress {
+	if quiet || !e.tty {
+		return &progress{}
+	}
+	return &progress{bar: progressbar.NewOptions64(total,
+		progressbar.OptionSetWriter(e.stderr),
+		progressbar.OptionSetDescription(what),
+		progressbar.OptionShowBytes(true),
+		progressbar.OptionSetWidth(30),
+		progressbar.OptionThrottle(100_000_000),
+		progressbar.OptionClearOnFinish(),
+	)}
+}
+
+func (p *progress) add(n int64) {
+	if p.bar != nil {
+		p.bar.Add64(n)
+	}
+}
+
+func (p *progress) done() {
+	if p.bar != nil {
+		p.bar.Finish()
+	}
+}

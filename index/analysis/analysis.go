@@ -1,0 +1,215 @@
+package analysis
+
+import (
+	"errors"
+	"fmt"
+	"strings"
+	"unicode/utf8"
+
+	bleveanalysis "github.com/blevesearch/bleve/v2/analysis"
+	"github.com/blevesearch/bleve/v2/analysis/analyzer/custom"
+	"github.com/blevesearch/bleve/v2/analysis/lang/en"
+	"github.com/blevesearch/bleve/v2/analysis/token/lowercase"
+	"github.com/blevesearch/bleve/v2/analysis/tokenizer/unicode"
+	"github.com/blevesearch/bleve/v2/registry"
+	porterstemmer "github.com/blevesearch/go-porterstemmer"
+)
+
+// ErrUnknownAnalyzer is returned by New for a name not listed by Names.
+var ErrUnknownAnalyzer = errors.New("unknown analyzer")
+
+// Default is the name of the analyzer used when none is chosen.
+const Default = "english"
+
+const (
+	english = "english"
+	plain   = "plain"
+)
+
+// Names returns the names accepted by New, the default first.
+func Names() []string { return []string{english, plain} }
+
+// An Analyzer turns text into index terms. It keeps scratch buffers and a
+// stem cache, so it is not safe for concurrent use: use one per goroutine.
+type Analyzer struct {
+	name     string
+	describe string
+	bleve    bleveanalysis.Analyzer
+	stem     bool // possessive, stop words and stemming (english)
+
+	stop bleveanalysis.TokenMap
+	// cache remembers stems: the vocabulary of a pool is unbounded, but
+	// term frequencies are Zipfian, so a bounded cache that is emptied when
+	// full keeps a high hit rate with a few MB per Analyzer.
+	cache *stemCache
+
+	term    []byte // the current term, lowercased
+	runes   []rune // stemmer input
+	stemBuf []byte // stemmer output
+	copy    []byte // text handed to bleve, which lowercases in place
+}
+
+// New returns the analyzer called name (see Names).
+func New(name string) (*Analyzer, error) {
+	cache := registry.NewCache()
+	a := &Analyzer{name: name}
+	var err error
+	switch name {
+	case english:
+		a.describe = "unicode words; possessive 's removed; lowercase; English stop words (bleve stop_en); Porter stemmer (bleve porter)"
+		a.stem = true
+		if a.bleve, err = cache.AnalyzerNamed(en.AnalyzerName); err != nil {
+			return nil, fmt.Errorf("analyzer %s: %w", name, err)
+		}
+		if a.stop, err = cache.TokenMapNamed(en.StopName); err != nil {
+			return nil, fmt.Errorf("analyzer %s: %w", name, err)
+		}
+		a.cache = newStemCache()
+	case plain:
+		a.describe = "unicode words; lowercase"
+		a.bleve, err = cache.DefineAnalyzer(plain, map[string]interface{}{
+			"type":          custom.Name,
+			"tokenizer":     unicode.Name,
+			"token_filters": []string{lowercase.Name},
+		})
+		if err != nil {
+			return nil, fmt.Errorf("analyzer %s: %w", name, err)
+		}
+	default:
+		return nil, fmt.Errorf("analyzer %q: %w (known: %s)", name, ErrUnknownAnalyzer, strings.Join(Names(), ", "))
+	}
+	return a, nil
+}
+
+// Name returns the name the analyzer was made with.
+func (a *Analyzer) Name() string { return a.name }
+
+// Describe returns the analyzer chain in words, for index metadata.
+func (a *Analyzer) Describe() string { return a.describe }
+
+// Terms returns the terms of text in order.
+func (a *Analyzer) Terms(text []byte) []string {
+	var terms []string
+	a.Each(text, func(term []byte) { terms = append(terms, string(term)) })
+	return terms
+}
+
+// Each calls fn with every term of text, in order. The terms are exactly
+// those of bleve's analyzer chain. term is only valid during the call and
+// must not be modified. text is not modified.
+//
+// Text made of ASCII runs is analyzed by hand; the stretches around
+// non-ASCII bytes, cut where bleve's tokenizer is bound to start a new
+// segment, go to bleve's analyzer, and so does text that is not valid UTF-8,
+// because bleve's tokenizer stops early there.
+func (a *Analyzer) Each(text []byte, fn func(term []byte)) {
+	pos := 0
+	for pos < len(text) {
+		j := pos + asciiPrefix(text[pos:])
+		if j == len(text) {
+			a.eachASCII(text[pos:], fn)
+			return
+		}
+		if pos == 0 && !utf8.Valid(text[j:]) {
+			a.bleveEach(text, fn)
+			return
+		}
+		k := j
+		for k > pos && !cutBefore(text, k) {
+			k--
+		}
+		a.eachASCII(text[pos:k], fn)
+		end := j + 1
+		for end < len(text) && !cutBefore(text, end) {
+			end++
+		}
+		a.bleveEach(text[k:end], fn)
+		pos = end
+	}
+}
+
+// bleveEach runs bleve's analyzer on a copy of text: its lowercase filter
+// writes into the input.
+func (a *Analyzer) bleveEach(text []byte, fn func(term []byte)) {
+	if len(text) == 0 {
+		return
+	}
+	a.copy = append(a.copy[:0], text...)
+	for _, tok := range a.bleve.Analyze(a.copy) {
+		fn(tok.Term)
+	}
+}
+
+// eachASCII analyzes text that is all ASCII and starts and ends where
+// bleve's tokenizer starts a segment.
+func (a *Analyzer) eachASCII(text []byte, fn func(term []byte)) {
+	for i := 0; i < len(text); {
+		if classes[text[i]] > cWord {
+			i++
+			continue
+		}
+		start := i
+		i = wordEnd(text, i+1)
+		a.emit(text[start:i], fn)
+	}
+}
+
+// emit runs one ASCII token through the token filters.
+func (a *Analyzer) emit(tok []byte, fn func(term []byte)) {
+	if a.stem {
+		// bleve possessive_en: a trailing 's or 'S, before lowercasing.
+		if n := len(tok); n >= 2 && (tok[n-1] == 's' || tok[n-1] == 'S') && tok[n-2] == '\'' {
+			tok = tok[:n-2]
+		}
+	}
+	t := a.term[:0]
+	h := uint32(hashSeed)
+	for _, c := range tok {
+		if 'A' <= c && c <= 'Z' {
+			c += 'a' - 'A'
+		}
+		t = append(t, c)
+		h = hashStep(h, c)
+	}
+	a.term = t
+	if !a.stem {
+		fn(t)
+		return
+	}
+	if len(t) > cacheMaxKey {
+		if stem, stop := a.analyzeWord(t); !stop {
+			fn(stem)
+		}
+		return
+	}
+	stem, stop, ok, slot := a.cache.lookup(t, h)
+	if !ok {
+		stem, stop = a.analyzeWord(t)
+		a.cache.insert(slot, t, h, stem, stop)
+	}
+	if stop {
+		return
+	}
+	a.term = append(a.term[:0], stem...)
+	fn(a.term)
+}
+
+// analyzeWord applies bleve's stop_en and porter filters to a lowercased
+// ASCII word. The stem is only valid until the next call.
+func (a *Analyzer) analyzeWord(w []byte) (stem []byte, stop bool) {
+	if _, stop := a.stop[string(w)]; stop {
+		return nil, true
+	}
+	r := a.runes[:0]
+	for _, c := range w {
+		r = append(r, rune(c))
+	}
+	a.runes = r
+	s := porterstemmer.StemWithoutLowerCasing(r)
+	b := a.stemBuf[:0]
+	for _, c := range s {
+		b = utf8.AppendRune(b, c)
+	}
+	a.stemBuf = b
+	return b, false
+}

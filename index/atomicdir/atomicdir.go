@@ -1,0 +1,69 @@
+package atomicdir
+
+import (
+	"errors"
+	"fmt"
+	"os"
+	"path/filepath"
+
+	"golang.org/x/sys/unix"
+)
+
+// Temp makes an empty working folder beside dir, on the same file system so it can be renamed into
+// place. Its name starts with a dot and says it is temporary.
+func Temp(dir string) (string, error) {
+	clean := filepath.Clean(dir)
+	tmp, err := os.MkdirTemp(filepath.Dir(clean), "."+filepath.Base(clean)+".tmp-")
+	if err != nil {
+		return "", fmt.Errorf("make working folder for %s: %w", dir, err)
+	}
+	return tmp, nil
+}
+
+// Publish makes tmp appear at dir. Every file in tmp must already be synced. If dir exists it is
+// swapped out in one step where the system allows (renameat2 RENAME_EXCHANGE) and then removed.
+func Publish(tmp, dir string) error {
+	if err := syncDir(tmp); err != nil {
+		return fmt.Errorf("publish %s: %w", dir, err)
+	}
+	parent := filepath.Dir(filepath.Clean(dir))
+	err := os.Rename(tmp, dir)
+	if err != nil {
+		var le *os.LinkError
+		if !errors.As(err, &le) || !(errors.Is(err, unix.ENOTEMPTY) || errors.Is(err, unix.EEXIST)) {
+			return fmt.Errorf("publish %s: %w", dir, err)
+		}
+		if xerr := unix.Renameat2(unix.AT_FDCWD, tmp, unix.AT_FDCWD, dir, unix.RENAME_EXCHANGE); xerr != nil {
+			// Without an exchange, move the old folder aside first: a crash between the two renames
+			// leaves no folder at dir, which is "none", never a partial one.
+			old := tmp + ".old"
+			if rerr := os.Rename(dir, old); rerr != nil {
+				return fmt.Errorf("publish %s: %w", dir, rerr)
+			}
+			if rerr := os.Rename(tmp, dir); rerr != nil {
+				return fmt.Errorf("publish %s: %w", dir, rerr)
+			}
+			tmp = old
+		}
+		// tmp now holds the old folder.
+		if err := os.RemoveAll(tmp); err != nil {
+			return fmt.Errorf("publish %s: remove previous: %w", dir, err)
+		}
+	}
+	if err := syncDir(parent); err != nil {
+		return fmt.Errorf("publish %s: %w", dir, err)
+	}
+	return nil
+}
+
+func syncDir(dir string) error {
+	f, err := os.Open(dir)
+	if err != nil {
+		return err
+	}
+	defer f.Close()
+	if err := f.Sync(); err != nil && !errors.Is(err, unix.EINVAL) {
+		return err
+	}
+	return nil
+}

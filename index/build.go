@@ -1,0 +1,834 @@
+package index
+
+import (
+	"bufio"
+	"context"
+	"crypto/sha256"
+	"encoding/binary"
+	"encoding/hex"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"hash"
+	"hash/crc32"
+	"io"
+	"os"
+	"path/filepath"
+	"runtime"
+	"strconv"
+	"sync"
+	"unicode/utf8"
+
+	"sluice/index/analysis"
+	"sluice/index/atomicdir"
+	"sluice/index/jsonl"
+)
+
+// Options control a build. The zero value is usable: the text shape is detected, ids are file:line,
+// the analyzer is english and memory is bounded at DefaultMem.
+type Options struct {
+	Text        string // field spec, e.g. "prompt,completion"; "" detects a known shape
+	ID          string // field holding the row id; "" uses file:line
+	Tokens      string // field holding a token count for the ledger; "" estimates from text bytes
+	Analyzer    string // analysis.Names(); "" is "english"
+	Mem         int64  // bytes of postings held in memory before a sorted run is spilled to disk
+	Workers     int    // goroutines analysing rows; 0 is GOMAXPROCS
+	MaxRowBytes int    // longer lines are quarantined without being loaded; 0 is DefaultMaxRowBytes
+	Strict      bool   // stop at the first bad row instead of quarantining it
+	// DryRun reads, parses and analyses every row and counts what an index would hold, but builds
+	// and writes nothing: a check of a pool, and the floor a build is measured against.
+	DryRun bool
+	// Progress, when set, is called from one goroutine with the number of pool bytes read since
+	// the previous call.
+	Progress func(n int64)
+
+	batchRows int // rows per batch handed to a worker; tests make it small to force many spills
+}
+
+// Defaults for Options.
+const (
+	DefaultMem         = 512 << 20
+	DefaultMaxRowBytes = 64 << 20
+	DefaultAnalyzer    = "english"
+)
+
+// Stats describe a finished build.
+type Stats struct {
+	Meta
+	Runs int // sorted runs spilled to disk before the merge
+}
+
+// RowError is a bad row met with Options.Strict.
+type RowError struct {
+	File   string
+	Line   int64
+	Offset int64
+	Reason string
+	Err    error
+}
+
+func (e *RowError) Error() string {
+	return fmt.Sprintf("%s:%d: %s", e.File, e.Line, e.Reason)
+}
+
+func (e *RowError) Unwrap() error { return e.Err }
+
+const (
+	batchBytes = 4 << 20
+	batchRows  = 1 << 14
+	localBits  = 24 // a posting key is batch<<localBits | row within batch
+	sampleRows = 100
+)
+
+type lineRef struct {
+	start, end int   // in batch.buf
+	off        int64 // in the decompressed source
+	n          int   // bytes including the newline
+	line       int64
+	tooLong    bool
+}
+
+type batch struct {
+	seq   int
+	src   int
+	buf   []byte
+	lines []lineRef
+}
+
+// rowRec is one fixed-size record of the rows file.
+type rowRec struct {
+	off       uint64
+	n         uint32
+	line      uint32
+	src       uint32
+	alen      uint32
+	textBytes uint32
+	tokens    uint32 // noTokens when the row gave no count
+	crc       uint32
+}
+
+const (
+	rowRecSize = 36
+	noTokens   = ^uint32(0)
+)
+
+func (r *rowRec) put(b []byte) {
+	binary.LittleEndian.PutUint64(b[0:], r.off)
+	binary.LittleEndian.PutUint32(b[8:], r.n)
+	binary.LittleEndian.PutUint32(b[12:], r.line)
+	binary.LittleEndian.PutUint32(b[16:], r.src)
+	binary.LittleEndian.PutUint32(b[20:], r.alen)
+	binary.LittleEndian.PutUint32(b[24:], r.textBytes)
+	binary.LittleEndian.PutUint32(b[28:], r.tokens)
+	binary.LittleEndian.PutUint32(b[32:], r.crc)
+}
+
+func getRowRec(b []byte) rowRec {
+	return rowRec{
+		off:       binary.LittleEndian.Uint64(b[0:]),
+		n:         binary.LittleEndian.Uint32(b[8:]),
+		line:      binary.LittleEndian.Uint32(b[12:]),
+		src:       binary.LittleEndian.Uint32(b[16:]),
+		alen:      binary.LittleEndian.Uint32(b[20:]),
+		textBytes: binary.LittleEndian.Uint32(b[24:]),
+		tokens:    binary.LittleEndian.Uint32(b[28:]),
+		crc:       binary.LittleEndian.Uint32(b[32:]),
+	}
+}
+
+var errTooLong = errors.New("row too long")
+
+// Reject is a quarantined row, as written to rejected.jsonl.
+type Reject struct {
+	File   string `json:"file"`
+	Line   int64  `json:"line"`
+	Offset int64  `json:"offset"`
+	Reason string `json:"reason"`
+	Raw    string `json:"raw"` // the row's bytes, quoted as a Go string literal so any byte survives
+}
+
+type batchOut struct {
+	seq     int
+	src     int
+	rows    []rowRec
+	ids     [][]byte
+	rejects []Reject
+	blank   int64
+	err     error
+}
+
+// Build reads the pool files in order and publishes an index at dir. An existing index at dir is
+// replaced only once the new one is complete; a folder that is not an index is never overwritten.
+func Build(ctx context.Context, dir string, sources []string, opt Options) (*Stats, error) {
+	if len(sources) == 0 {
+		return nil, errors.New("build index: no pool files")
+	}
+	if opt.Analyzer == "" {
+		opt.Analyzer = DefaultAnalyzer
+	}
+	if opt.Mem <= 0 {
+		opt.Mem = DefaultMem
+	}
+	if opt.Workers <= 0 {
+		opt.Workers = runtime.GOMAXPROCS(0)
+	}
+	if opt.MaxRowBytes <= 0 {
+		opt.MaxRowBytes = DefaultMaxRowBytes
+	}
+	if opt.batchRows <= 0 || opt.batchRows > batchRows {
+		opt.batchRows = batchRows
+	}
+	if _, err := jsonl.NewExtractor(jsonl.Shapes()[0], opt.ID, opt.Tokens); err != nil {
+		return nil, fmt.Errorf("build index: %w", err)
+	}
+	probe, err := analysis.New(opt.Analyzer)
+	if err != nil {
+		return nil, fmt.Errorf("build index: %w", err)
+	}
+	var spec jsonl.Spec
+	if opt.Text != "" {
+		if spec, err = jsonl.ParseSpec(opt.Text); err != nil {
+			return nil, fmt.Errorf("build index: --text: %w", err)
+		}
+	}
+	stdinCount := 0
+	for _, s := range sources {
+		if s == "-" {
+			stdinCount++
+		}
+	}
+	if stdinCount > 1 {
+		return nil, errors.New("build index: stdin (-) given more than once")
+	}
+	if opt.DryRun && dir == "" {
+		dir = filepath.Join(os.TempDir(), "sluice-dry-run")
+	} else if err := checkTarget(dir); err != nil {
+		return nil, err
+	}
+	tmp, err := atomicdir.Temp(dir)
+	if err != nil {
+		return nil, fmt.Errorf("build index: %w", err)
+	}
+	published := false
+	defer func() {
+		if !published {
+			os.RemoveAll(tmp)
+		}
+	}()
+	b := &builder{
+		opt:   opt,
+		tmp:   tmp,
+		spec:  spec,
+		meta:  Meta{Format: Format, Version: Version, Analyzer: probe.Name(), AnalyzerChain: probe.Describe(), IDField: opt.ID, TokensField: opt.Tokens, MaxRowBytes: opt.MaxRowBytes},
+		paths: sources,
+	}
+	st, err := b.run(ctx)
+	if err != nil {
+		return nil, err
+	}
+	if opt.DryRun {
+		return st, nil
+	}
+	if err := atomicdir.Publish(tmp, dir); err != nil {
+		return nil, err
+	}
+	published = true
+	return st, nil
+}
+
+type builder struct {
+	opt   Options
+	tmp   string
+	spec  jsonl.Spec
+	meta  Meta
+	paths []string
+
+	workers []*worker
+	base    []int64 // first row number of each batch
+	srcRows map[int]int64
+}
+
+func (b *builder) run(ctx context.Context) (*Stats, error) {
+	ctx, cancel := context.WithCancel(ctx)
+	defer cancel()
+
+	batches := make(chan *batch, b.opt.Workers*2)
+	outs := make(chan *batchOut, b.opt.Workers*2)
+	runDir := filepath.Join(b.tmp, "runs")
+	if err := os.Mkdir(runDir, 0o755); err != nil {
+		return nil, fmt.Errorf("build index: %w", err)
+	}
+	memPer := b.opt.Mem / int64(b.opt.Workers)
+	var wg sync.WaitGroup
+	var werr error
+	var werrOnce sync.Once
+	for i := 0; i < b.opt.Workers; i++ {
+		a, _ := analysis.New(b.opt.Analyzer)
+		w := &worker{id: i, an: a, dict: make(map[string]int32), memLimit: memPer, runDir: runDir, strict: b.opt.Strict, dry: b.opt.DryRun, needIDs: b.opt.ID != "", idField: b.opt.ID}
+		b.workers = append(b.workers, w)
+	}
+
+	// The reader detects the text shape from the first rows before any worker starts, so every
+	// worker gets the same spec.
+	var readErr, err error
+	readDone := make(chan struct{})
+	specReady := make(chan struct{})
+	go func() {
+		defer close(readDone)
+		defer close(batches)
+		readErr = b.read(ctx, batches, specReady)
+		if readErr != nil {
+			cancel()
+		}
+	}()
+	select {
+	case <-specReady:
+	case <-readDone:
+	}
+	if readErr != nil {
+		return nil, readErr
+	}
+	for _, w := range b.workers {
+		if w.ex, err = jsonl.NewExtractor(b.spec, b.opt.ID, b.opt.Tokens); err != nil {
+			return nil, fmt.Errorf("build index: %w", err)
+		}
+		wg.Add(1)
+		go func(w *worker) {
+			defer wg.Done()
+			if err := w.work(ctx, batches, outs, b.paths); err != nil {
+				werrOnce.Do(func() { werr = err })
+				cancel()
+				for range batches {
+				}
+			}
+		}(w)
+	}
+	go func() { wg.Wait(); close(outs) }()
+
+	cerr := b.collect(ctx, outs)
+	if cerr != nil {
+		cancel()
+		for range outs {
+		}
+	}
+	<-readDone
+	for _, err := range []error{readErr, werr, cerr} {
+		if err != nil {
+			return nil, err
+		}
+	}
+	if err := ctx.Err(); err != nil {
+		return nil, err
+	}
+	if b.opt.DryRun {
+		st := &Stats{Meta: b.meta}
+		return st, nil
+	}
+	for _, w := range b.workers {
+		if err := w.finish(); err != nil {
+			return nil, err
+		}
+	}
+	st, err := b.merge(ctx)
+	if err != nil {
+		return nil, err
+	}
+	if err := os.RemoveAll(runDir); err != nil {
+		return nil, fmt.Errorf("build index: %w", err)
+	}
+	if err := b.writeMeta(); err != nil {
+		return nil, err
+	}
+	st.Meta = b.meta
+	return st, nil
+}
+
+// read streams every source into batches. It owns b.meta.Sources until it returns.
+func (b *builder) read(ctx context.Context, out chan<- *batch, specReady chan<- struct{}) error {
+	seq := 0
+	ready := false
+	signal := func() {
+		if !ready {
+			ready = true
+			close(specReady)
+		}
+	}
+	defer signal()
+	var sample []*batch
+	flushSample := func() error {
+		if ready {
+			return nil
+		}
+		if b.opt.Text == "" {
+			var lines [][]byte
+			for _, bt := range sample {
+				for _, l := range bt.lines {
+					if !l.tooLong {
+						lines = append(lines, bt.buf[l.start:l.end])
+					}
+				}
+			}
+			spec, err := jsonl.Detect(lines)
+			if err != nil {
+				return fmt.Errorf("build index: %s: no --text given and %w", b.paths[0], err)
+			}
+			b.spec = spec
+			b.meta.TextDetected = true
+		}
+		b.meta.Text = b.spec.String()
+		signal()
+		for _, bt := range sample {
+			select {
+			case out <- bt:
+			case <-ctx.Done():
+				return ctx.Err()
+			}
+		}
+		sample = nil
+		return nil
+	}
+	for si, path := range b.paths {
+		src, err := b.openSource(path)
+		if err != nil {
+			return err
+		}
+		sc := jsonl.NewScanner(src.r, b.opt.MaxRowBytes)
+		cur := &batch{seq: seq, src: si}
+		sampled := 0
+		send := func() error {
+			if len(cur.lines) == 0 {
+				return nil
+			}
+			if !ready {
+				sample = append(sample, cur)
+			} else {
+				select {
+				case out <- cur:
+				case <-ctx.Done():
+					return ctx.Err()
+				}
+			}
+			seq++
+			cur = &batch{seq: seq, src: si, buf: make([]byte, 0, batchBytes)}
+			return nil
+		}
+		for sc.Scan() {
+			line := sc.Bytes()
+			ref := lineRef{off: sc.Offset(), n: sc.Len(), line: sc.Line(), tooLong: sc.TooLong()}
+			ref.start = len(cur.buf)
+			cur.buf = append(cur.buf, line...)
+			ref.end = len(cur.buf)
+			cur.lines = append(cur.lines, ref)
+			sampled++
+			if !ready && sampled >= sampleRows {
+				if err := send(); err != nil {
+					src.close()
+					return err
+				}
+				if err := flushSample(); err != nil {
+					src.close()
+					return err
+				}
+			}
+			if len(cur.buf) >= batchBytes || len(cur.lines) >= b.opt.batchRows {
+				if err := send(); err != nil {
+					src.close()
+					return err
+				}
+			}
+		}
+		if err := sc.Err(); err != nil {
+			src.close()
+			return fmt.Errorf("read %s: %w", path, err)
+		}
+		if err := send(); err != nil {
+			src.close()
+			return err
+		}
+		if err := src.close(); err != nil {
+			return err
+		}
+		b.meta.Sources = append(b.meta.Sources, src.meta())
+	}
+	if !ready && len(sample) == 0 && b.opt.Text == "" {
+		return fmt.Errorf("build index: %s: the pool is empty: %w", b.paths[0], jsonl.ErrNoShape)
+	}
+	return flushSample()
+}
+
+// source is one pool file being read: its raw bytes are hashed on the way in, and stdin is also
+// stored in the index folder so kept rows can later be copied from it.
+type source struct {
+	path   string
+	f      *os.File
+	store  *os.File
+	stored string
+	h      hash.Hash
+	size   int64
+	comp   jsonl.Compression
+	r      io.Reader
+	rc     io.Closer
+	prog   func(int64)
+}
+
+type countingReader struct {
+	r    io.Reader
+	n    *int64
+	prog func(int64)
+}
+
+func (c countingReader) Read(p []byte) (int, error) {
+	n, err := c.r.Read(p)
+	*c.n += int64(n)
+	if c.prog != nil && n > 0 {
+		c.prog(int64(n))
+	}
+	return n, err
+}
+
+func (b *builder) openSource(path string) (*source, error) {
+	s := &source{path: path, h: sha256.New(), prog: b.opt.Progress}
+	var raw io.Reader
+	if path == "-" {
+		s.f = os.Stdin
+		s.stored = stdinPrefix
+		st, err := os.Create(filepath.Join(b.tmp, s.stored))
+		if err != nil {
+			return nil, fmt.Errorf("build index: %w", err)
+		}
+		s.store = st
+		raw = io.TeeReader(os.Stdin, st)
+	} else {
+		f, err := os.Open(path)
+		if err != nil {
+			return nil, fmt.Errorf("read %w", err)
+		}
+		if fi, err := f.Stat(); err == nil && fi.IsDir() {
+			f.Close()
+			return nil, fmt.Errorf("read %s: is a folder, not a JSONL file", path)
+		}
+		s.f = f
+		raw = f
+	}
+	raw = io.TeeReader(countingReader{r: raw, n: &s.size, prog: s.prog}, s.h)
+	r, comp, err := jsonl.NewReader(bufio.NewReaderSize(raw, 1<<20))
+	if err != nil {
+		s.close()
+		return nil, fmt.Errorf("read %s: %w", path, err)
+	}
+	s.r, s.comp = r, comp
+	if c, ok := r.(io.Closer); ok {
+		s.rc = c
+	}
+	return s, nil
+}
+
+func (s *source) close() error {
+	if s.rc != nil {
+		s.rc.Close()
+		s.rc = nil
+	}
+	if s.f != nil && s.f != os.Stdin {
+		s.f.Close()
+	}
+	s.f = nil
+	if s.store != nil {
+		err := s.store.Sync()
+		if cerr := s.store.Close(); err == nil {
+			err = cerr
+		}
+		s.store = nil
+		if err != nil {
+			return fmt.Errorf("store stdin: %w", err)
+		}
+	}
+	return nil
+}
+
+func (s *source) meta() Source {
+	return Source{Path: s.path, Stored: s.stored, Size: s.size, SHA256: hex.EncodeToString(s.h.Sum(nil)), Compression: s.comp.String()}
+}
+
+// collect receives batch results in any order and writes rows, ids and rejects in input order.
+func (b *builder) collect(ctx context.Context, outs <-chan *batchOut) error {
+	rowsW, err := newFileWriter(filepath.Join(b.tmp, rowsFile))
+	if err != nil {
+		return err
+	}
+	defer rowsW.abort()
+	var idsW *fileWriter
+	if b.opt.ID != "" {
+		if idsW, err = newFileWriter(filepath.Join(b.tmp, idsFile)); err != nil {
+			return err
+		}
+		defer idsW.abort()
+	}
+	rejW, err := newFileWriter(filepath.Join(b.tmp, rejectedFile))
+	if err != nil {
+		return err
+	}
+	defer rejW.abort()
+
+	pending := map[int]*batchOut{}
+	next := 0
+	var rec [rowRecSize]byte
+	var vbuf [binary.MaxVarintLen64]byte
+	srcRows := map[int]int64{}
+	enc := json.NewEncoder(rejW.w)
+	for o := range outs {
+		if o.err != nil {
+			return o.err
+		}
+		pending[o.seq] = o
+		for {
+			o, ok := pending[next]
+			if !ok {
+				break
+			}
+			delete(pending, next)
+			b.base = append(b.base, b.meta.Rows)
+			for i := range o.rows {
+				o.rows[i].put(rec[:])
+				if _, err := rowsW.w.Write(rec[:]); err != nil {
+					return rowsW.fail(err)
+				}
+				b.meta.TotalLen += int64(o.rows[i].alen)
+				b.meta.TextBytes += int64(o.rows[i].textBytes)
+			}
+			if idsW != nil {
+				for _, id := range o.ids {
+					n := binary.PutUvarint(vbuf[:], uint64(len(id)))
+					idsW.w.Write(vbuf[:n])
+					if _, err := idsW.w.Write(id); err != nil {
+						return idsW.fail(err)
+					}
+				}
+			}
+			for i := range o.rejects {
+				if err := enc.Encode(&o.rejects[i]); err != nil {
+					return rejW.fail(err)
+				}
+			}
+			n := int64(len(o.rows))
+			b.meta.Rows += n
+			srcRows[o.src] += n
+			b.meta.RowsRejected += int64(len(o.rejects))
+			b.meta.BlankLines += o.blank
+			next++
+		}
+		if err := ctx.Err(); err != nil {
+			return err
+		}
+	}
+	if len(pending) != 0 {
+		return errors.New("build index: internal error: batches missing")
+	}
+	b.meta.RowsRead = b.meta.Rows + b.meta.RowsRejected
+	if b.meta.Rows > 0 {
+		b.meta.AvgLen = float64(b.meta.TotalLen) / float64(b.meta.Rows)
+	}
+	for _, w := range []*fileWriter{rowsW, idsW, rejW} {
+		if w == nil {
+			continue
+		}
+		if err := w.close(); err != nil {
+			return err
+		}
+	}
+	b.srcRows = srcRows
+	return nil
+}
+
+// worker analyses batches into an in-memory inverted index of its own, spilling sorted runs when its
+// share of Options.Mem is used.
+type worker struct {
+	id       int
+	an       *analysis.Analyzer
+	ex       *jsonl.Extractor
+	dict     map[string]int32
+	terms    []string
+	post     [][]byte
+	last     []uint64
+	df       []uint32
+	counts   []int32
+	touched  []int32
+	mem      int64
+	memLimit int64
+	runDir   string
+	runs     []string
+	strict   bool
+	dry      bool
+	needIDs  bool
+	idField  string
+}
+
+func (w *worker) work(ctx context.Context, in <-chan *batch, out chan<- *batchOut, paths []string) error {
+	for bt := range in {
+		o, err := w.do(bt, paths)
+		if err != nil {
+			return err
+		}
+		select {
+		case out <- o:
+		case <-ctx.Done():
+			return ctx.Err()
+		}
+		if w.mem >= w.memLimit {
+			if err := w.spill(); err != nil {
+				return err
+			}
+		}
+	}
+	return nil
+}
+
+// do analyses one batch. Postings go into the worker's own dictionary; row records, ids and
+// rejects go back to the collector, which alone knows global row numbers.
+func (w *worker) do(bt *batch, paths []string) (*batchOut, error) {
+	o := &batchOut{seq: bt.seq, src: bt.src}
+	file := paths[bt.src]
+	local := uint64(0)
+	for _, l := range bt.lines {
+		line := bt.buf[l.start:l.end]
+		reject := func(reason string, cause error) error {
+			if w.strict {
+				return &RowError{File: file, Line: l.line, Offset: l.off, Reason: reason, Err: cause}
+			}
+			raw := line
+			o.rejects = append(o.rejects, Reject{File: file, Line: l.line, Offset: l.off, Reason: reason, Raw: quoteRaw(raw)})
+			return nil
+		}
+		if l.tooLong {
+			if err := reject(fmt.Sprintf("row longer than --max-row-bytes (%d bytes)", l.n), errTooLong); err != nil {
+				return nil, err
+			}
+			continue
+		}
+		if isBlank(line) {
+			o.blank++
+			continue
+		}
+		if l.line > int64(^uint32(0)) {
+			return nil, fmt.Errorf("read %s:%d: more than %d lines in one file", file, l.line, ^uint32(0))
+		}
+		key := uint64(bt.seq)<<localBits | local
+		alen := 0
+		w.touched = w.touched[:0]
+		row, err := w.ex.Extract(line, func(part []byte) {
+			w.an.Each(part, func(term []byte) {
+				alen++
+				if w.dry {
+					return
+				}
+				id, ok := w.dict[string(term)]
+				if !ok {
+					id = int32(len(w.terms))
+					t := string(term)
+					w.dict[t] = id
+					w.terms = append(w.terms, t)
+					w.post = append(w.post, nil)
+					w.last = append(w.last, 0)
+					w.df = append(w.df, 0)
+					w.counts = append(w.counts, 0)
+					w.mem += int64(len(t)) + 96
+				}
+				if w.counts[id] == 0 {
+					w.touched = append(w.touched, id)
+				}
+				w.counts[id]++
+			})
+		})
+		if err != nil {
+			for _, id := range w.touched {
+				w.counts[id] = 0
+			}
+			if err := reject(reasonOf(err), err); err != nil {
+				return nil, err
+			}
+			continue
+		}
+		if w.needIDs && !row.HasID {
+			for _, id := range w.touched {
+				w.counts[id] = 0
+			}
+			if err := reject(fmt.Sprintf("no id in field %q", w.idField), jsonl.ErrBadID); err != nil {
+				return nil, err
+			}
+			continue
+		}
+		if row.HasTokens && row.Tokens >= int64(noTokens) {
+			for _, id := range w.touched {
+				w.counts[id] = 0
+			}
+			if err := reject("token count too large", jsonl.ErrBadTokens); err != nil {
+				return nil, err
+			}
+			continue
+		}
+		var buf [2 * binary.MaxVarintLen64]byte
+		for _, id := range w.touched {
+			n := binary.PutUvarint(buf[:], key-w.last[id])
+			n += binary.PutUvarint(buf[n:], uint64(w.counts[id]))
+			before := cap(w.post[id])
+			w.post[id] = append(w.post[id], buf[:n]...)
+			w.mem += int64(cap(w.post[id]) - before)
+			w.last[id] = key
+			w.df[id]++
+			w.counts[id] = 0
+		}
+		rec := rowRec{off: uint64(l.off), n: uint32(l.n), line: uint32(l.line), src: uint32(bt.src), alen: uint32(alen), textBytes: uint32(min(row.TextBytes, int(^uint32(0)))), tokens: noTokens}
+		if row.HasTokens {
+			rec.tokens = uint32(row.Tokens)
+		}
+		// The crc covers the line as copied, newline included, so a copy can be checked.
+		rec.crc = crcLine(line, l.n)
+		o.rows = append(o.rows, rec)
+		if w.needIDs {
+			o.ids = append(o.ids, append([]byte(nil), row.ID...))
+		}
+		local++
+	}
+	return o, nil
+}
+
+// crcLine is the CRC-32C of a line as it stands in the source: its bytes and, when n says the line
+// ended with one, the newline.
+func crcLine(line []byte, n int) uint32 {
+	c := crc32.Update(0, castagnoli, line)
+	if n > len(line) {
+		c = crc32.Update(c, castagnoli, []byte{'\n'})
+	}
+	return c
+}
+
+func isBlank(b []byte) bool {
+	for _, c := range b {
+		switch c {
+		case ' ', '\t', '\r', '\n':
+		default:
+			return false
+		}
+	}
+	return true
+}
+
+// reasonOf words a row error for the quarantine; jsonl's errors already say kind, field and detail.
+func reasonOf(err error) string {
+	return err.Error()
+}
+
+// quoteRaw keeps every byte of a bad row in a form JSON can carry: valid UTF-8 stays readable,
+// anything else is escaped as in a Go string literal.
+func quoteRaw(b []byte) string {
+	const maxRaw = 64 << 10
+	cut := ""
+	if len(b) > maxRaw {
+		cut = fmt.Sprintf(" … (%d more bytes)", len(b)-maxRaw)
+		b = b[:maxRaw]
+	}
+	if utf8.Valid(b) {
+		return string(b) + cut
+	}
+	q := strconv.Quote(string(b))
+	return q[1:len(q)-1] + cut
+}

@@ -1,0 +1,214 @@
+package index
+
+import (
+	"bytes"
+	"context"
+	"errors"
+	"fmt"
+	"math"
+	"os"
+	"path/filepath"
+	"slices"
+	"sort"
+	"testing"
+
+	"sluice/index/analysis"
+)
+
+// testPool writes a pool whose rows mix shared and rare words, with a bad row and a blank line.
+func testPool(t *testing.T, rows int) string {
+	t.Helper()
+	words := []string{"harbour", "ferry", "tide", "engine", "bread", "oven", "ledger", "tax", "rope", "knot", "storm", "wind"}
+	var b bytes.Buffer
+	for i := 0; i < rows; i++ {
+		fmt.Fprintf(&b, `{"id":"r%d","prompt":"`, i)
+		for j := 0; j < 3+i%7; j++ {
+			fmt.Fprintf(&b, "%s ", words[(i*7+j*j)%len(words)])
+		}
+		fmt.Fprintf(&b, `word%d","completion":"%s %s"}`+"\n", i%13, words[i%len(words)], words[(i/3)%len(words)])
+		if i == 5 {
+			b.WriteString("{not json\n\n")
+		}
+	}
+	p := filepath.Join(t.TempDir(), "pool.jsonl")
+	if err := os.WriteFile(p, b.Bytes(), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	return p
+}
+
+func build(t *testing.T, pool string, opt Options) (string, *Stats) {
+	t.Helper()
+	dir := filepath.Join(t.TempDir(), "idx")
+	st, err := Build(context.Background(), dir, []string{pool}, opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return dir, st
+}
+
+// TestBuildMatchesBruteForce checks every posting, df, length and norm against a direct count over
+// the rows, whatever the number of workers and however often runs are spilled.
+func TestBuildMatchesBruteForce(t *testing.T) {
+	pool := testPool(t, 3000)
+	an, _ := analysis.New("english")
+	// Brute force: analyse each good row directly.
+	data, _ := os.ReadFile(pool)
+	type doc map[string]uint32
+	var docs []doc
+	var lens []int
+	for _, line := range bytes.Split(data, []byte("\n")) {
+		if len(line) == 0 || line[0] != '{' || !bytes.Contains(line, []byte(`"prompt"`)) {
+			continue
+		}
+		d := doc{}
+		n := 0
+		// prompt then completion, the detected shape
+		for _, field := range []string{`"prompt":"`, `"completion":"`} {
+			i := bytes.Index(line, []byte(field)) + len(field)
+			j := i + bytes.IndexByte(line[i:], '"')
+			an.Each(line[i:j], func(term []byte) { d[string(term)]++; n++ })
+		}
+		docs = append(docs, d)
+		lens = append(lens, n)
+	}
+	var ref []byte
+	for _, tc := range []struct {
+		workers int
+		mem     int64
+	}{{1, 0}, {2, 0}, {2, 4 << 10}, {3, 1 << 10}} {
+		t.Run(fmt.Sprintf("workers=%d/mem=%d", tc.workers, tc.mem), func(t *testing.T) {
+			dir, st := build(t, pool, Options{Workers: tc.workers, Mem: tc.mem, batchRows: 64})
+			if tc.mem > 0 && st.Runs <= tc.workers {
+				t.Errorf("expected spills with mem %d, got %d runs", tc.mem, st.Runs)
+			}
+			ix, err := Open(dir)
+			if err != nil {
+				t.Fatal(err)
+			}
+			defer ix.Close()
+			if ix.NumRows() != len(docs) {
+				t.Fatalf("rows %d, want %d", ix.NumRows(), len(docs))
+			}
+			m := ix.Meta()
+			if m.RowsRejected != 1 || m.BlankLines != 1 || m.RowsRead != int64(len(docs))+1 {
+				t.Errorf("counts: read %d rejected %d blank %d", m.RowsRead, m.RowsRejected, m.BlankLines)
+			}
+			df := map[string]int{}
+			for _, d := range docs {
+				for term := range d {
+					df[term]++
+				}
+			}
+			if ix.NumTerms() != len(df) {
+				t.Errorf("terms %d, want %d", ix.NumTerms(), len(df))
+			}
+			n := float64(len(docs))
+			for term, want := range df {
+				rows, tfs, err := ix.Postings(term, nil, nil)
+				if err != nil {
+					t.Fatal(err)
+				}
+				if len(rows) != want || ix.DF(term) != want {
+					t.Fatalf("%q: %d postings, df %d, want %d", term, len(rows), ix.DF(term), want)
+				}
+				if !slices.IsSorted(rows) {
+					t.Fatalf("%q: rows not ascending", term)
+				}
+				for i, r := range rows {
+					if docs[r][term] != tfs[i] {
+						t.Fatalf("%q row %d: tf %d, want %d", term, r, tfs[i], docs[r][term])
+					}
+				}
+			}
+			var total int
+			for r, d := range docs {
+				total += lens[r]
+				if ix.RowLen(r) != lens[r] {
+					t.Fatalf("row %d len %d, want %d", r, ix.RowLen(r), lens[r])
+				}
+				terms := make([]string, 0, len(d))
+				for term := range d {
+					terms = append(terms, term)
+				}
+				sort.Strings(terms)
+				var s float64
+				for _, term := range terms {
+					w := float64(d[term]) * (math.Log((1+n)/(1+float64(df[term]))) + 1)
+					s += w * w
+				}
+				if got, want := ix.RowNorm(r), math.Sqrt(s); math.Abs(got-want) > 1e-12*want {
+					t.Fatalf("row %d norm %v, want %v", r, got, want)
+				}
+				if id := ix.RowID(r); id != fmt.Sprintf("r%d", r) && m.IDField != "" {
+					t.Fatalf("row %d id %q", r, id)
+				}
+			}
+			if want := float64(total) / n; math.Abs(ix.AvgLen()-want) > 1e-9 {
+				t.Errorf("avg len %v, want %v", ix.AvgLen(), want)
+			}
+			// The same input gives the same bytes whatever the workers and spills.
+			var all []byte
+			for _, f := range []string{lexiconFile, postingsFile, rowsFile, normsFile, rejectedFile, metaFile} {
+				b, err := os.ReadFile(filepath.Join(dir, f))
+				if err != nil {
+					t.Fatal(err)
+				}
+				all = append(all, b...)
+			}
+			if ref == nil {
+				ref = all
+			} else if !bytes.Equal(ref, all) {
+				t.Errorf("index bytes differ from the first build")
+			}
+		})
+	}
+}
+
+func TestCopyRowsByteExact(t *testing.T) {
+	pool := testPool(t, 200)
+	dir, _ := build(t, pool, Options{ID: "id"})
+	ix, err := Open(dir)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer ix.Close()
+	var buf bytes.Buffer
+	rows := []int{150, 3, 0, 77}
+	if err := ix.CopyRows(&buf, rows); err != nil {
+		t.Fatal(err)
+	}
+	data, _ := os.ReadFile(pool)
+	var want []byte
+	for _, r := range []int{0, 3, 77, 150} {
+		loc := ix.RowLocation(r)
+		want = append(want, data[loc.Offset:loc.Offset+loc.Length]...)
+		if ix.RowID(r) != fmt.Sprintf("r%d", r) {
+			t.Errorf("row %d id %q", r, ix.RowID(r))
+		}
+	}
+	if !bytes.Equal(buf.Bytes(), want) {
+		t.Errorf("copied rows differ:\n%s\nwant\n%s", buf.Bytes(), want)
+	}
+	// A changed pool is refused, not copied.
+	data[ix.RowLocation(3).Offset+10] ^= 1
+	os.WriteFile(pool, data, 0o644)
+	if err := ix.CopyRows(&buf, []int{3}); !errors.Is(err, ErrSourceChanged) {
+		t.Errorf("changed pool: err %v, want ErrSourceChanged", err)
+	}
+}
+
+func TestOpenDamaged(t *testing.T) {
+	pool := testPool(t, 50)
+	dir, _ := build(t, pool, Options{})
+	p := filepath.Join(dir, postingsFile)
+	b, _ := os.ReadFile(p)
+	b[len(b)/2] ^= 0xff
+	os.WriteFile(p, b, 0o644)
+	if _, err := Open(dir); !errors.Is(err, ErrDamaged) {
+		t.Errorf("damaged postings: %v, want ErrDamaged", err)
+	}
+	if _, err := Open(t.TempDir()); !errors.Is(err, ErrNotIndex) {
+		t.Errorf("empty folder: %v, want ErrNotIndex", err)
+	}
+}

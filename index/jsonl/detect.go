@@ -1,0 +1,112 @@
+package jsonl
+
+import (
+	"bytes"
+	"errors"
+	"fmt"
+	"slices"
+	"strconv"
+	"strings"
+
+	"github.com/valyala/fastjson"
+)
+
+// ErrNoShape is wrapped by the error Detect returns when no known shape fits.
+var ErrNoShape = errors.New("no known row shape fits")
+
+// maxKeysShown bounds the keys listed in a Detect error.
+const maxKeysShown = 30
+
+// Detect returns the first of Shapes that fits every sample line holding a
+// JSON object: the first key of each of its paths is present and its first
+// path yields a string. Blank lines and lines that are not JSON objects are
+// left out, as Extract would reject them anyway. When nothing fits, the
+// error wraps ErrNoShape and names the shapes tried and the top-level keys
+// seen.
+func Detect(lines [][]byte) (Spec, error) {
+	shapes := Shapes()
+	fits := make([]bool, len(shapes))
+	for i := range fits {
+		fits[i] = true
+	}
+	var (
+		p    fastjson.Parser
+		w    Extractor
+		keys = make(map[string]bool)
+		rows int
+	)
+	for _, line := range lines {
+		line = bytes.TrimPrefix(line, bom)
+		if blank(line) {
+			continue
+		}
+		v, err := p.ParseBytes(line)
+		if err != nil {
+			continue
+		}
+		o, err := v.Object()
+		if err != nil {
+			continue
+		}
+		rows++
+		o.Visit(func(k []byte, _ *fastjson.Value) {
+			if len(keys) <= maxKeysShown {
+				keys[string(k)] = true
+			}
+		})
+		for i, sh := range shapes {
+			if fits[i] {
+				fits[i] = w.fits(v, o, sh)
+			}
+		}
+	}
+	if rows == 0 {
+		return Spec{}, fmt.Errorf("%w: none of the %d sample lines is a JSON object", ErrNoShape, len(lines))
+	}
+	for i, ok := range fits {
+		if ok {
+			return shapes[i], nil
+		}
+	}
+	var b strings.Builder
+	b.WriteString("tried")
+	for i, sh := range shapes {
+		if i > 0 {
+			b.WriteByte(',')
+		}
+		b.WriteByte(' ')
+		b.WriteString(strconv.Quote(sh.String()))
+	}
+	b.WriteString("; top-level keys seen:")
+	names := make([]string, 0, len(keys))
+	for k := range keys {
+		names = append(names, k)
+	}
+	slices.Sort(names)
+	for i, k := range names {
+		if i == maxKeysShown {
+			b.WriteString(" ...")
+			break
+		}
+		if i > 0 {
+			b.WriteByte(',')
+		}
+		b.WriteByte(' ')
+		b.WriteString(strconv.Quote(k))
+	}
+	if len(names) == 0 {
+		b.WriteString(" none")
+	}
+	return Spec{}, fmt.Errorf("%w in %d sample rows: %s", ErrNoShape, rows, b.String())
+}
+
+// fits reports whether the row v (whose object is o) has the shape sh.
+func (w *Extractor) fits(v *fastjson.Value, o *fastjson.Object, sh Spec) bool {
+	for _, pa := range sh.paths {
+		if o.Get(pa[0].key) == nil {
+			return false
+		}
+	}
+	w.parts, w.found, w.idx = w.parts[:0], false, w.idx[:0]
+	return w.collect(v, sh.paths[0], 0) == nil && w.found
+}

@@ -1,0 +1,436 @@
+package jsonl
+
+import (
+	"bytes"
+	"errors"
+	"fmt"
+	"math"
+	"strconv"
+	"strings"
+	"unicode"
+	"unicode/utf8"
+
+	"github.com/valyala/fastjson"
+)
+
+// Row errors. Extract returns them inside a *RowError, so errors.Is finds
+// them and the error text says which field was at fault.
+var (
+	ErrEmpty     = errors.New("blank line")
+	ErrNotJSON   = errors.New("malformed JSON")
+	ErrNotObject = errors.New("not a JSON object")
+	ErrNoText    = errors.New("no text")
+	ErrEmptyText = errors.New("empty text")
+	ErrBadText   = errors.New("text is not a string")
+	ErrBadUTF8   = errors.New("text is not valid UTF-8")
+	ErrBadID     = errors.New("bad id")
+	ErrBadTokens = errors.New("bad token count")
+)
+
+// RowError says why a row cannot be used.
+type RowError struct {
+	Kind   error  // one of the Err* row errors above
+	Path   string // the field at fault, such as "messages[2].content"; may be empty
+	Detail string // what was found; may be empty
+}
+
+func (e *RowError) Error() string {
+	var b strings.Builder
+	b.WriteString(e.Kind.Error())
+	if e.Path != "" {
+		b.WriteString(": ")
+		b.WriteString(e.Path)
+	}
+	if e.Detail != "" {
+		b.WriteString(": ")
+		b.WriteString(e.Detail)
+	}
+	return b.String()
+}
+
+func (e *RowError) Unwrap() error { return e.Kind }
+
+// Row is what Extract learns about a row besides its text.
+type Row struct {
+	ID        []byte // string ids unescaped, number ids in their JSON source form; valid until the next Extract
+	HasID     bool
+	Tokens    int64
+	HasTokens bool
+	TextBytes int // total bytes of the text parts
+}
+
+// Extractor pulls the fields of a Spec out of JSONL rows. It reuses its
+// parser's memory from row to row, so it must not be shared between
+// goroutines; make one per goroutine.
+type Extractor struct {
+	spec   Spec
+	id     path
+	tokens path
+	p      fastjson.Parser
+	parts  [][]byte
+	found  bool
+	idx    []int // array indexes on the way down, for error paths
+	idBuf  []byte
+	tokBuf []byte
+}
+
+// NewExtractor returns an Extractor for spec. idField and tokensField are
+// dotted paths (the key syntax of Spec, without "[]") of a row's id and
+// token count; "" means the rows have none.
+func NewExtractor(spec Spec, idField, tokensField string) (*Extractor, error) {
+	if len(spec.paths) == 0 {
+		return nil, fmt.Errorf("%w: no paths", ErrBadSpec)
+	}
+	e := &Extractor{spec: spec}
+	var err error
+	if e.id, err = parseField("id", idField); err != nil {
+		return nil, err
+	}
+	if e.tokens, err = parseField("token", tokensField); err != nil {
+		return nil, err
+	}
+	return e, nil
+}
+
+func parseField(what, s string) (path, error) {
+	if s == "" {
+		return nil, nil
+	}
+	sp, err := ParseSpec(s)
+	if err != nil {
+		return nil, fmt.Errorf("%s field: %w", what, err)
+	}
+	if len(sp.paths) != 1 {
+		return nil, fmt.Errorf("%s field: %w %q: want one path", what, ErrBadSpec, s)
+	}
+	for _, sg := range sp.paths[0] {
+		if sg.arrays > 0 {
+			return nil, fmt.Errorf("%s field: %w %q: \"[]\" is not allowed here", what, ErrBadSpec, s)
+		}
+	}
+	return sp.paths[0], nil
+}
+
+// Spec returns the spec e extracts.
+func (e *Extractor) Spec() Spec { return e.spec }
+
+var bom = []byte("\xef\xbb\xbf")
+
+// blank reports whether line holds nothing but white space (and a BOM).
+func blank(line []byte) bool {
+	line = bytes.TrimPrefix(line, bom)
+	for _, c := range line {
+		if !isSpace(c) {
+			return false
+		}
+	}
+	return true
+}
+
+// Extract parses line and calls fn, which may be nil, with each text part:
+// the unescaped string values of the spec's paths, in spec order and, in
+// arrays, in array order. Empty strings are passed too; nulls and missing
+// keys are skipped. fn is called only when the row has no error, and a part
+// is valid only until the next Extract.
+//
+// A UTF-8 byte order mark before the JSON and a trailing "\r" or "\n" are
+// ignored, so Scanner lines of BOM-prefixed and CRLF files parse as they
+// are. Of repeated keys the first counts. Raw control characters inside
+// strings are passed through, as the parser allows them. On a text error
+// the returned Row still carries the id and token count.
+func (e *Extractor) Extract(line []byte, fn func(part []byte)) (Row, error) {
+	line = bytes.TrimPrefix(line, bom)
+	if blank(line) {
+		return Row{}, &RowError{Kind: ErrEmpty}
+	}
+	v, err := e.p.ParseBytes(line)
+	if err != nil {
+		return Row{}, &RowError{Kind: ErrNotJSON, Detail: err.Error()}
+	}
+	if t := v.Type(); t != fastjson.TypeObject {
+		return Row{}, &RowError{Kind: ErrNotObject, Detail: "found " + typeName(v)}
+	}
+	var row Row
+	if e.id != nil {
+		if err := e.getID(v, &row); err != nil {
+			return Row{}, err
+		}
+	}
+	if e.tokens != nil {
+		if err := e.getTokens(v, &row); err != nil {
+			return Row{}, err
+		}
+	}
+	e.parts, e.found = e.parts[:0], false
+	for _, pa := range e.spec.paths {
+		e.idx = e.idx[:0]
+		if err := e.collect(v, pa, 0); err != nil {
+			return row, err
+		}
+	}
+	if !e.found {
+		return row, &RowError{Kind: ErrNoText, Detail: "no string at " + e.spec.String()}
+	}
+	empty := true
+	for i, part := range e.parts {
+		if !utf8.Valid(part) {
+			return row, &RowError{Kind: ErrBadUTF8, Detail: fmt.Sprintf("text part %d, byte %d", i+1, invalidAt(part))}
+		}
+		row.TextBytes += len(part)
+		if empty && !allSpace(part) {
+			empty = false
+		}
+	}
+	if empty {
+		return row, &RowError{Kind: ErrEmptyText, Detail: "only empty or white-space strings at " + e.spec.String()}
+	}
+	if fn != nil {
+		for _, part := range e.parts {
+			fn(part)
+		}
+	}
+	return row, nil
+}
+
+func invalidAt(b []byte) int {
+	for i := 0; i < len(b); {
+		r, n := utf8.DecodeRune(b[i:])
+		if r == utf8.RuneError && n == 1 {
+			return i
+		}
+		i += n
+	}
+	return -1
+}
+
+func allSpace(b []byte) bool {
+	for i := 0; i < len(b); {
+		c := b[i]
+		if c < utf8.RuneSelf {
+			if c != ' ' && (c < '\t' || c > '\r') {
+				return false
+			}
+			i++
+			continue
+		}
+		r, n := utf8.DecodeRune(b[i:])
+		if !unicode.IsSpace(r) {
+			return false
+		}
+		i += n
+	}
+	return true
+}
+
+func typeName(v *fastjson.Value) string {
+	switch v.Type() {
+	case fastjson.TypeTrue, fastjson.TypeFalse:
+		return "a boolean"
+	case fastjson.TypeNull:
+		return "null"
+	case fastjson.TypeObject:
+		return "an object"
+	case fastjson.TypeArray:
+		return "an array"
+	}
+	return "a " + v.Type().String()
+}
+
+// collect appends the strings found at pa[i:] below v, which is an object.
+func (e *Extractor) collect(v *fastjson.Value, pa path, i int) error {
+	o, _ := v.Object()
+	c := o.Get(pa[i].key)
+	if c == nil || c.Type() == fastjson.TypeNull {
+		return nil
+	}
+	return e.descend(c, pa, i, pa[i].arrays)
+}
+
+// descend handles the value c found at key pa[i], with arrays levels of
+// "[]" still to walk.
+func (e *Extractor) descend(c *fastjson.Value, pa path, i, arrays int) error {
+	switch {
+	case arrays > 0:
+		a, err := c.Array()
+		if err != nil {
+			return e.badText(pa, i, pa[i].arrays-arrays, typeName(c)+", want an array")
+		}
+		for j, el := range a {
+			if el.Type() == fastjson.TypeNull {
+				continue
+			}
+			e.idx = append(e.idx, j)
+			err := e.descend(el, pa, i, arrays-1)
+			e.idx = e.idx[:len(e.idx)-1]
+			if err != nil {
+				return err
+			}
+		}
+		return nil
+	case i+1 < len(pa):
+		if c.Type() != fastjson.TypeObject {
+			return e.badText(pa, i, pa[i].arrays, typeName(c)+", want an object")
+		}
+		return e.collect(c, pa, i+1)
+	}
+	s, err := c.StringBytes()
+	if err != nil {
+		return e.badText(pa, i, pa[i].arrays, typeName(c)+", want a string")
+	}
+	e.found = true
+	e.parts = append(e.parts, s)
+	return nil
+}
+
+// badText builds the error for a wrong type at pa[:i+1] after its first
+// levels of "[]", naming the array indexes taken on the way.
+func (e *Extractor) badText(pa path, i, levels int, detail string) error {
+	var b strings.Builder
+	k := 0
+	for j := 0; j <= i; j++ {
+		if j > 0 {
+			b.WriteByte('.')
+		}
+		b.WriteString(pa[j].key)
+		n := pa[j].arrays
+		if j == i {
+			n = levels
+		}
+		for range n {
+			if k < len(e.idx) {
+				fmt.Fprintf(&b, "[%d]", e.idx[k])
+			}
+			k++
+		}
+	}
+	return &RowError{Kind: ErrBadText, Path: b.String(), Detail: detail}
+}
+
+// lookup follows a dotted path through objects. It returns nil when a key
+// is missing or null, and an error detail when it meets a non-object.
+func lookup(v *fastjson.Value, pa path) (*fastjson.Value, string) {
+	for j, sg := range pa {
+		if j > 0 && v.Type() != fastjson.TypeObject {
+			return nil, pa[:j].String() + " is " + typeName(v) + ", want an object"
+		}
+		o, _ := v.Object()
+		v = o.Get(sg.key)
+		if v == nil || v.Type() == fastjson.TypeNull {
+			return nil, ""
+		}
+	}
+	return v, ""
+}
+
+func (e *Extractor) getID(v *fastjson.Value, row *Row) error {
+	c, bad := lookup(v, e.id)
+	if bad != "" {
+		return &RowError{Kind: ErrBadID, Path: e.id.String(), Detail: bad}
+	}
+	if c == nil {
+		return nil
+	}
+	switch c.Type() {
+	case fastjson.TypeString:
+		s, _ := c.StringBytes()
+		if len(s) == 0 {
+			return &RowError{Kind: ErrBadID, Path: e.id.String(), Detail: "empty string"}
+		}
+		if !utf8.Valid(s) {
+			return &RowError{Kind: ErrBadID, Path: e.id.String(), Detail: "not valid UTF-8"}
+		}
+		row.ID = s
+	case fastjson.TypeNumber:
+		e.idBuf = c.MarshalTo(e.idBuf[:0])
+		if !isJSONNumber(e.idBuf) {
+			return &RowError{Kind: ErrBadID, Path: e.id.String(), Detail: fmt.Sprintf("%q is not a JSON number", e.idBuf)}
+		}
+		row.ID = e.idBuf
+	default:
+		return &RowError{Kind: ErrBadID, Path: e.id.String(), Detail: typeName(c) + ", want a string or number"}
+	}
+	row.HasID = true
+	return nil
+}
+
+// maxExactInt is the largest integer below which every integer is exactly
+// a float64 (2^53, IEEE 754 binary64).
+const maxExactInt = 1 << 53
+
+func (e *Extractor) getTokens(v *fastjson.Value, row *Row) error {
+	c, bad := lookup(v, e.tokens)
+	if bad != "" {
+		return &RowError{Kind: ErrBadTokens, Path: e.tokens.String(), Detail: bad}
+	}
+	if c == nil {
+		return nil
+	}
+	if c.Type() != fastjson.TypeNumber {
+		return &RowError{Kind: ErrBadTokens, Path: e.tokens.String(), Detail: typeName(c) + ", want a non-negative integer"}
+	}
+	raw := c.MarshalTo(e.tokBuf[:0])
+	e.tokBuf = raw
+	fail := func() error {
+		return &RowError{Kind: ErrBadTokens, Path: e.tokens.String(), Detail: fmt.Sprintf("%s, want a non-negative integer", raw)}
+	}
+	if !isJSONNumber(raw) {
+		return fail()
+	}
+	if n, err := strconv.ParseInt(string(raw), 10, 64); err == nil {
+		if n < 0 {
+			return fail()
+		}
+		row.Tokens, row.HasTokens = n, true
+		return nil
+	}
+	// Writers that go through float64 print counts like 512.0 or 1e3.
+	f, err := strconv.ParseFloat(string(raw), 64)
+	if err != nil || f < 0 || f > maxExactInt || f != math.Trunc(f) {
+		return fail()
+	}
+	row.Tokens, row.HasTokens = int64(f), true
+	return nil
+}
+
+// isJSONNumber reports whether b follows the number grammar of RFC 8259
+// section 6, which the parser does not enforce.
+func isJSONNumber(b []byte) bool {
+	i := 0
+	if i < len(b) && b[i] == '-' {
+		i++
+	}
+	switch {
+	case i < len(b) && b[i] == '0':
+		i++
+	case i < len(b) && b[i] >= '1' && b[i] <= '9':
+		for i < len(b) && b[i] >= '0' && b[i] <= '9' {
+			i++
+		}
+	default:
+		return false
+	}
+	if i < len(b) && b[i] == '.' {
+		i++
+		d := i
+		for i < len(b) && b[i] >= '0' && b[i] <= '9' {
+			i++
+		}
+		if i == d {
+			return false
+		}
+	}
+	if i < len(b) && (b[i] == 'e' || b[i] == 'E') {
+		i++
+		if i < len(b) && (b[i] == '+' || b[i] == '-') {
+			i++
+		}
+		d := i
+		for i < len(b) && b[i] >= '0' && b[i] <= '9' {
+			i++
+		}
+		if i == d {
+			return false
+		}
+	}
+	return i == len(b)
+}

@@ -1,0 +1,266 @@
+package jsonl
+
+import (
+	"errors"
+	"strings"
+	"testing"
+	"unicode/utf8"
+)
+
+func mustSpec(t testing.TB, s string) Spec {
+	t.Helper()
+	sp, err := ParseSpec(s)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return sp
+}
+
+func TestExtract(t *testing.T) {
+	const pc = "prompt,completion"
+	tests := []struct {
+		name   string
+		spec   string
+		id     string
+		tokens string
+		line   string
+		parts  []string
+		row    Row
+		err    error  // nil, or the sentinel wrapped
+		msg    string // a piece of the error text
+	}{
+		{name: "plain", spec: pc, line: `{"prompt":"a","completion":"b"}`, parts: []string{"a", "b"}, row: Row{TextBytes: 2}},
+		{name: "spec order not key order", spec: pc, line: `{"completion":"b","prompt":"a"}`, parts: []string{"a", "b"}, row: Row{TextBytes: 2}},
+		{name: "missing second path", spec: pc, line: `{"prompt":"a"}`, parts: []string{"a"}, row: Row{TextBytes: 1}},
+		{name: "null second path", spec: pc, line: `{"prompt":"a","completion":null}`, parts: []string{"a"}, row: Row{TextBytes: 1}},
+		{name: "empty part kept", spec: "instruction,input,output", line: `{"instruction":"do","input":"","output":"ok"}`, parts: []string{"do", "", "ok"}, row: Row{TextBytes: 4}},
+		{name: "escapes", spec: pc, line: `{"prompt":"a\nb\t\"q\"\\\/\u00e9\ud83d\ude00"}`, parts: []string{"a\nb\t\"q\"\\/é😀"}, row: Row{TextBytes: 15}},
+		{name: "raw utf8", spec: pc, line: `{"prompt":"日本"}`, parts: []string{"日本"}, row: Row{TextBytes: 6}},
+		{name: "BOM", spec: pc, line: "\xef\xbb\xbf{\"prompt\":\"a\"}", parts: []string{"a"}, row: Row{TextBytes: 1}},
+		{name: "CRLF", spec: pc, line: "{\"prompt\":\"a\"}\r", parts: []string{"a"}, row: Row{TextBytes: 1}},
+		{name: "trailing newline", spec: pc, line: "{\"prompt\":\"a\"}\r\n", parts: []string{"a"}, row: Row{TextBytes: 1}},
+		{name: "white space around", spec: pc, line: " \t{\"prompt\" : \"a\" } ", parts: []string{"a"}, row: Row{TextBytes: 1}},
+		{name: "messages", spec: "messages[].content", line: `{"messages":[{"role":"user","content":"hi"},{"role":"assistant","content":"yo"}]}`, parts: []string{"hi", "yo"}, row: Row{TextBytes: 4}},
+		{name: "messages null content skipped", spec: "messages[].content", line: `{"messages":[{"content":null},{"role":"x"},null,{"content":"yo"}]}`, parts: []string{"yo"}, row: Row{TextBytes: 2}},
+		{name: "conversations", spec: "conversations[].value", line: `{"conversations":[{"from":"human","value":"q"},{"from":"gpt","value":"a"}]}`, parts: []string{"q", "a"}, row: Row{TextBytes: 2}},
+		{name: "array of strings", spec: "turns[]", line: `{"turns":["x","y",null,"z"]}`, parts: []string{"x", "y", "z"}, row: Row{TextBytes: 3}},
+		{name: "nested arrays", spec: "grid[][]", line: `{"grid":[["a","b"],[],["c"]]}`, parts: []string{"a", "b", "c"}, row: Row{TextBytes: 3}},
+		{name: "dotted", spec: "a.b.c", line: `{"a":{"b":{"c":"deep"}}}`, parts: []string{"deep"}, row: Row{TextBytes: 4}},
+		{name: "dotted missing middle", spec: "a.b.c,t", line: `{"a":{},"t":"x"}`, parts: []string{"x"}, row: Row{TextBytes: 1}},
+		{name: "first duplicate key wins", spec: "text", line: `{"text":"one","text":"two"}`, parts: []string{"one"}, row: Row{TextBytes: 3}},
+		{name: "escaped key", spec: "text", line: `{"t\u0065xt":"k"}`, parts: []string{"k"}, row: Row{TextBytes: 1}},
+		{name: "key with dot", spec: `a\.b`, line: `{"a.b":"k","a":{"b":"no"}}`, parts: []string{"k"}, row: Row{TextBytes: 1}},
+		{name: "raw control character passed through", spec: "text", line: "{\"text\":\"a\x01b\"}", parts: []string{"a\x01b"}, row: Row{TextBytes: 3}},
+		{name: "lone surrogate kept as written", spec: "text", line: `{"text":"\ud800x"}`, parts: []string{`\ud800x`}, row: Row{TextBytes: 7}},
+
+		// ids and token counts
+		{name: "string id and tokens", spec: pc, id: "id", tokens: "n", line: `{"id":"r-1","n":42,"prompt":"a"}`, parts: []string{"a"}, row: Row{ID: []byte("r-1"), HasID: true, Tokens: 42, HasTokens: true, TextBytes: 1}},
+		{name: "escaped string id", spec: pc, id: "id", line: `{"id":"r\u002f1","prompt":"a"}`, parts: []string{"a"}, row: Row{ID: []byte("r/1"), HasID: true, TextBytes: 1}},
+		{name: "number id in source form", spec: pc, id: "id", line: `{"id":12.50e1,"prompt":"a"}`, parts: []string{"a"}, row: Row{ID: []byte("12.50e1"), HasID: true, TextBytes: 1}},
+		{name: "negative number id", spec: pc, id: "id", line: `{"id":-3,"prompt":"a"}`, parts: []string{"a"}, row: Row{ID: []byte("-3"), HasID: true, TextBytes: 1}},
+		{name: "big number id", spec: pc, id: "id", line: `{"id":123456789012345678901234567890,"prompt":"a"}`, parts: []string{"a"}, row: Row{ID: []byte("123456789012345678901234567890"), HasID: true, TextBytes: 1}},
+		{name: "dotted id", spec: pc, id: "meta.id", tokens: "meta.stats.tokens", line: `{"meta":{"id":7,"stats":{"tokens":9}},"prompt":"a"}`, parts: []string{"a"}, row: Row{ID: []byte("7"), HasID: true, Tokens: 9, HasTokens: true, TextBytes: 1}},
+		{name: "missing id", spec: pc, id: "id", tokens: "n", line: `{"prompt":"a"}`, parts: []string{"a"}, row: Row{TextBytes: 1}},
+		{name: "null id", spec: pc, id: "id", line: `{"id":null,"prompt":"a"}`, parts: []string{"a"}, row: Row{TextBytes: 1}},
+		{name: "float tokens", spec: pc, tokens: "n", line: `{"n":512.0,"prompt":"a"}`, parts: []string{"a"}, row: Row{Tokens: 512, HasTokens: true, TextBytes: 1}},
+		{name: "exponent tokens", spec: pc, tokens: "n", line: `{"n":1e3,"prompt":"a"}`, parts: []string{"a"}, row: Row{Tokens: 1000, HasTokens: true, TextBytes: 1}},
+		{name: "zero tokens", spec: pc, tokens: "n", line: `{"n":0,"prompt":"a"}`, parts: []string{"a"}, row: Row{Tokens: 0, HasTokens: true, TextBytes: 1}},
+		{name: "bool id", spec: pc, id: "id", line: `{"id":true,"prompt":"a"}`, err: ErrBadID, msg: "bad id: id: a boolean"},
+		{name: "object id", spec: pc, id: "id", line: `{"id":{},"prompt":"a"}`, err: ErrBadID, msg: "an object"},
+		{name: "empty id", spec: pc, id: "id", line: `{"id":"","prompt":"a"}`, err: ErrBadID, msg: "empty string"},
+		{name: "NaN id", spec: pc, id: "id", line: `{"id":NaN,"prompt":"a"}`, err: ErrBadID, msg: "not a JSON number"},
+		{name: "sloppy number id", spec: pc, id: "id", line: `{"id":01,"prompt":"a"}`, err: ErrBadID, msg: "not a JSON number"},
+		{name: "id below a string", spec: pc, id: "meta.id", line: `{"meta":"x","prompt":"a"}`, err: ErrBadID, msg: "meta is a string"},
+		{name: "string tokens", spec: pc, tokens: "n", line: `{"n":"5","prompt":"a"}`, err: ErrBadTokens, msg: "a string"},
+		{name: "negative tokens", spec: pc, tokens: "n", line: `{"n":-1,"prompt":"a"}`, err: ErrBadTokens, msg: "-1"},
+		{name: "fractional tokens", spec: pc, tokens: "n", line: `{"n":1.5,"prompt":"a"}`, err: ErrBadTokens, msg: "1.5"},
+		{name: "huge tokens", spec: pc, tokens: "n", line: `{"n":1e400,"prompt":"a"}`, err: ErrBadTokens},
+		{name: "int64 overflow tokens", spec: pc, tokens: "n", line: `{"n":9223372036854775808,"prompt":"a"}`, err: ErrBadTokens},
+
+		// rows to quarantine
+		{name: "blank", spec: pc, line: "", err: ErrEmpty},
+		{name: "spaces", spec: pc, line: " \t ", err: ErrEmpty},
+		{name: "CR only", spec: pc, line: "\r", err: ErrEmpty},
+		{name: "BOM only", spec: pc, line: "\xef\xbb\xbf\r", err: ErrEmpty},
+		{name: "truncated", spec: pc, line: `{"prompt":"a"`, err: ErrNotJSON, msg: "malformed JSON: cannot parse JSON"},
+		{name: "bare key", spec: pc, line: `{prompt:"a"}`, err: ErrNotJSON},
+		{name: "trailing garbage", spec: pc, line: `{"prompt":"a"} x`, err: ErrNotJSON, msg: "unexpected tail"},
+		{name: "two objects", spec: pc, line: `{"prompt":"a"}{"prompt":"b"}`, err: ErrNotJSON},
+		{name: "NUL after", spec: pc, line: "{\"prompt\":\"a\"}\x00", err: ErrNotJSON},
+		{name: "NUL before", spec: pc, line: "\x00{\"prompt\":\"a\"}", err: ErrNotJSON},
+		{name: "NUL between", spec: pc, line: "{\"prompt\":\x00\"a\"}", err: ErrNotJSON},
+		{name: "BOM twice", spec: pc, line: "\xef\xbb\xbf\xef\xbb\xbf{\"prompt\":\"a\"}", err: ErrNotJSON},
+		{name: "too deep", spec: pc, line: `{"prompt":` + strings.Repeat("[", 400) + strings.Repeat("]", 400) + "}", err: ErrNotJSON},
+		{name: "array row", spec: pc, line: `["a"]`, err: ErrNotObject, msg: "found an array"},
+		{name: "string row", spec: pc, line: `"a"`, err: ErrNotObject, msg: "found a string"},
+		{name: "number row", spec: pc, line: `12`, err: ErrNotObject, msg: "found a number"},
+		{name: "null row", spec: pc, line: `null`, err: ErrNotObject, msg: "found null"},
+		{name: "no text", spec: pc, line: `{"x":"a"}`, err: ErrNoText, msg: "no string at prompt,completion"},
+		{name: "empty object", spec: pc, line: `{}`, err: ErrNoText},
+		{name: "all null", spec: pc, line: `{"prompt":null,"completion":null}`, err: ErrNoText},
+		{name: "empty array", spec: "turns[]", line: `{"turns":[]}`, err: ErrNoText},
+		{name: "number text", spec: pc, line: `{"prompt":5}`, err: ErrBadText, msg: "text is not a string: prompt: a number, want a string"},
+		{name: "bool text", spec: pc, line: `{"prompt":"a","completion":false}`, err: ErrBadText, msg: "completion: a boolean"},
+		{name: "object text", spec: pc, line: `{"prompt":{"x":"a"}}`, err: ErrBadText, msg: "an object, want a string"},
+		{name: "array text", spec: pc, line: `{"prompt":["a"]}`, err: ErrBadText, msg: "an array, want a string"},
+		{name: "number in messages", spec: "messages[].content", line: `{"messages":[{"content":"a"},{"content":3}]}`, err: ErrBadText, msg: "messages[1].content: a number"},
+		{name: "messages not array", spec: "messages[].content", line: `{"messages":"a"}`, err: ErrBadText, msg: "messages: a string, want an array"},
+		{name: "message not object", spec: "messages[].content", line: `{"messages":["a"]}`, err: ErrBadText, msg: "messages[0]: a string, want an object"},
+		{name: "inner not array", spec: "grid[][]", line: `{"grid":[["a"],"b"]}`, err: ErrBadText, msg: "grid[1]: a string, want an array"},
+		{name: "middle not object", spec: "a.b.c", line: `{"a":{"b":1}}`, err: ErrBadText, msg: "a.b: a number, want an object"},
+		{name: "bad UTF-8", spec: pc, line: "{\"prompt\":\"ok\xffno\"}", err: ErrBadUTF8, msg: "text part 1, byte 2"},
+		{name: "bad UTF-8 in second part", spec: pc, line: "{\"prompt\":\"ok\",\"completion\":\"\xc3\"}", err: ErrBadUTF8, msg: "text part 2, byte 0"},
+		{name: "empty text", spec: pc, line: `{"prompt":"","completion":""}`, err: ErrEmptyText},
+		{name: "white-space text", spec: pc, line: `{"prompt":" \n","completion":"\t"}`, err: ErrEmptyText},
+		{name: "unicode space text", spec: pc, line: `{"prompt":"\u00a0\u3000"}`, err: ErrEmptyText},
+		{name: "empty text and null", spec: "messages[].content", line: `{"messages":[{"content":""},{"content":null}]}`, err: ErrEmptyText},
+	}
+	for _, tt := range tests {
+		t.Run(tt.name, func(t *testing.T) {
+			e, err := NewExtractor(mustSpec(t, tt.spec), tt.id, tt.tokens)
+			if err != nil {
+				t.Fatal(err)
+			}
+			var parts []string
+			row, err := e.Extract([]byte(tt.line), func(p []byte) { parts = append(parts, string(p)) })
+			if tt.err != nil {
+				if !errors.Is(err, tt.err) {
+					t.Fatalf("Extract(%q) error = %v, want %v", tt.line, err, tt.err)
+				}
+				var re *RowError
+				if !errors.As(err, &re) {
+					t.Fatalf("error %v is not a *RowError", err)
+				}
+				if !strings.Contains(err.Error(), tt.msg) {
+					t.Errorf("error %q, want it to contain %q", err, tt.msg)
+				}
+				if parts != nil {
+					t.Errorf("fn called with %q on an error", parts)
+				}
+				return
+			}
+			if err != nil {
+				t.Fatalf("Extract(%q): %v", tt.line, err)
+			}
+			if strings.Join(parts, "|") != strings.Join(tt.parts, "|") || len(parts) != len(tt.parts) {
+				t.Errorf("parts = %q, want %q", parts, tt.parts)
+			}
+			if string(row.ID) != string(tt.row.ID) || row.HasID != tt.row.HasID || row.Tokens != tt.row.Tokens ||
+				row.HasTokens != tt.row.HasTokens || row.TextBytes != tt.row.TextBytes {
+				t.Errorf("row = %+v (ID %q), want %+v (ID %q)", row, row.ID, tt.row, tt.row.ID)
+			}
+		})
+	}
+}
+
+func TestExtractKeepsIDOnTextError(t *testing.T) {
+	e, err := NewExtractor(mustSpec(t, "text"), "id", "n")
+	if err != nil {
+		t.Fatal(err)
+	}
+	row, err := e.Extract([]byte(`{"id":"k","n":3,"text":5}`), nil)
+	if !errors.Is(err, ErrBadText) {
+		t.Fatalf("err = %v, want ErrBadText", err)
+	}
+	if string(row.ID) != "k" || !row.HasID || row.Tokens != 3 || !row.HasTokens {
+		t.Errorf("row = %+v, want id k and 3 tokens", row)
+	}
+}
+
+func TestExtractDoesNotChangeLine(t *testing.T) {
+	e, err := NewExtractor(mustSpec(t, "text"), "", "")
+	if err != nil {
+		t.Fatal(err)
+	}
+	line := []byte(`{"text":"a\nb\u00e9"}`)
+	orig := string(line)
+	if _, err := e.Extract(line, nil); err != nil {
+		t.Fatal(err)
+	}
+	if string(line) != orig {
+		t.Errorf("line changed to %q; rows must stay byte-identical", line)
+	}
+}
+
+func TestNewExtractorErrors(t *testing.T) {
+	sp := mustSpec(t, "text")
+	for _, tt := range []struct {
+		spec       Spec
+		id, tokens string
+	}{
+		{Spec{}, "", ""},
+		{sp, "a..b", ""},
+		{sp, "", "a,b"},
+		{sp, "ids[]", ""},
+	} {
+		if _, err := NewExtractor(tt.spec, tt.id, tt.tokens); !errors.Is(err, ErrBadSpec) {
+			t.Errorf("NewExtractor(%q, %q, %q) = %v, want ErrBadSpec", tt.spec, tt.id, tt.tokens, err)
+		}
+	}
+}
+
+func TestIsJSONNumber(t *testing.T) {
+	// The grammar of RFC 8259 section 6.
+	for _, s := range []string{"0", "-0", "7", "-12", "1.5", "0.25", "1e3", "1E+3", "2.5e-07", "123456789012345678901234567890"} {
+		if !isJSONNumber([]byte(s)) {
+			t.Errorf("isJSONNumber(%q) = false", s)
+		}
+	}
+	for _, s := range []string{"", "-", "+1", "01", "1.", ".5", "1e", "1e+", "NaN", "inf", "1.2.3", "0x10", "--1"} {
+		if isJSONNumber([]byte(s)) {
+			t.Errorf("isJSONNumber(%q) = true", s)
+		}
+	}
+}
+
+func FuzzExtract(f *testing.F) {
+	for _, s := range []string{
+		`{"prompt":"a","completion":"b","id":1,"n":2}`,
+		`{"messages":[{"content":"x"},{"content":null}]}`,
+		`{"turns":["a","\ud83d\ude00"]}`,
+		"\xef\xbb\xbf{\"text\":\"a\"}\r",
+		`{"text":"\u0000\ud800"}`,
+		`{"a":{"b":{"c":"d"}}}`,
+		`[1,2]`,
+		"{\"text\":\"\xff\"}",
+	} {
+		f.Add([]byte(s))
+	}
+	specs := []string{"prompt,completion", "messages[].content", "turns[]", "text,a.b.c", "grid[][]"}
+	var es []*Extractor
+	for _, s := range specs {
+		e, err := NewExtractor(mustSpec(f, s), "id", "n")
+		if err != nil {
+			f.Fatal(err)
+		}
+		es = append(es, e)
+	}
+	f.Fuzz(func(t *testing.T, line []byte) {
+		orig := string(line)
+		for _, e := range es {
+			total := 0
+			row, err := e.Extract(line, func(p []byte) {
+				if !utf8.Valid(p) {
+					t.Fatalf("%s: part %q is not valid UTF-8", e.spec, p)
+				}
+				total += len(p)
+			})
+			if err != nil {
+				var re *RowError
+				if !errors.As(err, &re) {
+					t.Fatalf("%s: error %v is not a *RowError", e.spec, err)
+				}
+				continue
+			}
+			if total != row.TextBytes {
+				t.Fatalf("%s: TextBytes %d, parts hold %d", e.spec, row.TextBytes, total)
+			}
+			if row.HasTokens && row.Tokens < 0 {
+				t.Fatalf("negative tokens %d", row.Tokens)
+			}
+		}
+		if string(line) != orig {
+			t.Fatalf("Extract changed its input")
+		}
+	})
+}

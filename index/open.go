@@ -1,0 +1,311 @@
+package index
+
+import (
+	"bytes"
+	"encoding/binary"
+	"fmt"
+	"hash/crc32"
+	"math"
+	"os"
+	"path/filepath"
+	"sort"
+	"strconv"
+	"syscall"
+
+	"sluice/index/analysis"
+)
+
+// Index is an opened index folder. Its methods are safe for concurrent use except where noted.
+type Index struct {
+	dir  string
+	meta Meta
+
+	terms   []byte   // lexicon terms, concatenated in byte order
+	termEnd []uint32 // end of term i in terms
+	df      []uint32
+	postOff []uint64 // postings of term i are postings[postOff[i]:postOff[i+1]]
+
+	postings []byte // mapped
+	rows     []byte // mapped, rowRecSize per row
+	norms    []float64
+	idOff    []uint64 // where row i's length-prefixed id starts in ids, when the index has an id field
+	ids      []byte
+
+	maps [][]byte
+}
+
+// Open reads an index folder, checking its format version and the checksum of every file.
+func Open(dir string) (*Index, error) {
+	m, err := readMeta(dir)
+	if err != nil {
+		return nil, err
+	}
+	ix := &Index{dir: dir, meta: *m}
+	ok := false
+	defer func() {
+		if !ok {
+			ix.Close()
+		}
+	}()
+	for _, name := range []string{lexiconFile, postingsFile, rowsFile, normsFile, rejectedFile} {
+		if _, listed := m.Files[name]; !listed {
+			return nil, fmt.Errorf("open index %s: meta.json lists no %s: %w", dir, name, ErrDamaged)
+		}
+	}
+	names := make([]string, 0, len(m.Files))
+	for name := range m.Files {
+		names = append(names, name)
+	}
+	sort.Strings(names)
+	data := map[string][]byte{}
+	for _, name := range names {
+		want := m.Files[name]
+		if filepath.Base(name) != name {
+			return nil, fmt.Errorf("open index %s: file name %q: %w", dir, name, ErrDamaged)
+		}
+		b, err := ix.mapFile(name)
+		if err != nil {
+			return nil, err
+		}
+		if int64(len(b)) != want.Size {
+			return nil, fmt.Errorf("open index %s: %s is %d bytes, meta.json says %d: %w", dir, name, len(b), want.Size, ErrDamaged)
+		}
+		if got := fmt.Sprintf("%08x", crc32.Checksum(b, castagnoli)); got != want.CRC32C {
+			return nil, fmt.Errorf("open index %s: %s checksum %s, meta.json says %s: %w", dir, name, got, want.CRC32C, ErrDamaged)
+		}
+		data[name] = b
+	}
+	ix.postings = data[postingsFile]
+	ix.rows = data[rowsFile]
+	n := m.Rows
+	if int64(len(ix.rows)) != n*rowRecSize {
+		return nil, fmt.Errorf("open index %s: rows holds %d bytes for %d rows: %w", dir, len(ix.rows), n, ErrDamaged)
+	}
+	nb := data[normsFile]
+	if int64(len(nb)) != n*8 {
+		return nil, fmt.Errorf("open index %s: norms holds %d bytes for %d rows: %w", dir, len(nb), n, ErrDamaged)
+	}
+	ix.norms = make([]float64, n)
+	for i := range ix.norms {
+		ix.norms[i] = math.Float64frombits(binary.LittleEndian.Uint64(nb[8*i:]))
+	}
+	if err := ix.loadLexicon(data[lexiconFile]); err != nil {
+		return nil, err
+	}
+	if m.IDField != "" {
+		if err := ix.loadIDs(data[idsFile]); err != nil {
+			return nil, err
+		}
+	}
+	ok = true
+	return ix, nil
+}
+
+func (ix *Index) mapFile(name string) ([]byte, error) {
+	path := filepath.Join(ix.dir, name)
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, fmt.Errorf("open index %s: %w: %w", ix.dir, err, ErrDamaged)
+	}
+	defer f.Close()
+	fi, err := f.Stat()
+	if err != nil {
+		return nil, fmt.Errorf("open index %s: %w", ix.dir, err)
+	}
+	if fi.Size() == 0 {
+		return nil, nil
+	}
+	if fi.Size() > math.MaxInt {
+		return nil, fmt.Errorf("open index %s: %s too large", ix.dir, name)
+	}
+	b, err := syscall.Mmap(int(f.Fd()), 0, int(fi.Size()), syscall.PROT_READ, syscall.MAP_SHARED)
+	if err != nil {
+		return nil, fmt.Errorf("open index %s: map %s: %w", ix.dir, name, err)
+	}
+	ix.maps = append(ix.maps, b)
+	return b, nil
+}
+
+func (ix *Index) loadLexicon(b []byte) error {
+	bad := func(what string) error {
+		return fmt.Errorf("open index %s: lexicon: %s: %w", ix.dir, what, ErrDamaged)
+	}
+	nt := ix.meta.Terms
+	ix.termEnd = make([]uint32, 0, nt)
+	ix.df = make([]uint32, 0, nt)
+	ix.postOff = make([]uint64, 1, nt+1)
+	var prev []byte
+	for len(b) > 0 {
+		l, k := binary.Uvarint(b)
+		if k <= 0 || uint64(len(b)-k) < l {
+			return bad("truncated term")
+		}
+		t := b[k : k+int(l)]
+		b = b[k+int(l):]
+		if len(ix.termEnd) > 0 && bytes.Compare(prev, t) >= 0 {
+			return bad("terms out of order")
+		}
+		prev = t
+		df, k := binary.Uvarint(b)
+		if k <= 0 {
+			return bad("truncated df")
+		}
+		b = b[k:]
+		pl, k := binary.Uvarint(b)
+		if k <= 0 {
+			return bad("truncated postings length")
+		}
+		b = b[k:]
+		ix.terms = append(ix.terms, t...)
+		ix.termEnd = append(ix.termEnd, uint32(len(ix.terms)))
+		ix.df = append(ix.df, uint32(df))
+		ix.postOff = append(ix.postOff, ix.postOff[len(ix.postOff)-1]+pl)
+	}
+	if int64(len(ix.df)) != nt || ix.postOff[len(ix.postOff)-1] != uint64(len(ix.postings)) {
+		return bad("counts disagree with meta.json")
+	}
+	return nil
+}
+
+func (ix *Index) loadIDs(b []byte) error {
+	n := ix.meta.Rows
+	ix.idOff = make([]uint64, 0, n+1)
+	off := 0
+	for i := int64(0); i < n; i++ {
+		l, k := binary.Uvarint(b[off:])
+		if k <= 0 || uint64(len(b)-off-k) < l {
+			return fmt.Errorf("open index %s: ids: truncated at row %d: %w", ix.dir, i, ErrDamaged)
+		}
+		ix.idOff = append(ix.idOff, uint64(off))
+		off += k + int(l)
+	}
+	ix.ids = b
+	return nil
+}
+
+// Close releases the index's mappings.
+func (ix *Index) Close() error {
+	var err error
+	for _, b := range ix.maps {
+		if e := syscall.Munmap(b); e != nil && err == nil {
+			err = e
+		}
+	}
+	ix.maps = nil
+	return err
+}
+
+// Meta returns the index's metadata.
+func (ix *Index) Meta() Meta { return ix.meta }
+
+// Dir returns the folder the index was opened from.
+func (ix *Index) Dir() string { return ix.dir }
+
+// NewAnalyzer returns a fresh analyzer of the kind the index was built with.
+func (ix *Index) NewAnalyzer() (*analysis.Analyzer, error) { return analysis.New(ix.meta.Analyzer) }
+
+// NumRows returns the number of indexed rows.
+func (ix *Index) NumRows() int { return int(ix.meta.Rows) }
+
+// AvgLen returns the mean analysed length of a row.
+func (ix *Index) AvgLen() float64 { return ix.meta.AvgLen }
+
+func (ix *Index) rec(row int) rowRec { return getRowRec(ix.rows[row*rowRecSize:]) }
+
+// RowLen returns the analysed length of a row: its number of terms, repeats counted.
+func (ix *Index) RowLen(row int) int { return int(ix.rec(row).alen) }
+
+// RowNorm returns the l2 norm of the row's TF-IDF vector, raw tf times ln((1+N)/(1+df))+1.
+func (ix *Index) RowNorm(row int) float64 { return ix.norms[row] }
+
+// RowTokens returns the row's token count from its count field, or ok=false when the index has
+// none, and the UTF-8 bytes of its text for an estimate.
+func (ix *Index) RowTokens(row int) (tokens int64, ok bool, textBytes int64) {
+	r := ix.rec(row)
+	return int64(r.tokens), r.tokens != noTokens, int64(r.textBytes)
+}
+
+// Location says where a row's bytes stand in its source.
+type Location struct {
+	Source int    // index into Meta().Sources
+	File   string // the path as given when indexing
+	Line   int64
+	Offset int64 // in the decompressed stream
+	Length int64 // bytes including the newline, if it had one
+}
+
+// RowLocation returns where the row came from.
+func (ix *Index) RowLocation(row int) Location {
+	r := ix.rec(row)
+	return Location{Source: int(r.src), File: ix.meta.Sources[r.src].Path, Line: int64(r.line), Offset: int64(r.off), Length: int64(r.n)}
+}
+
+// RowID returns the row's id: its id field, or file:line.
+func (ix *Index) RowID(row int) string {
+	if ix.idOff != nil {
+		b := ix.ids[ix.idOff[row]:]
+		l, k := binary.Uvarint(b)
+		return string(b[k : k+int(l)])
+	}
+	r := ix.rec(row)
+	return ix.meta.Sources[r.src].Path + ":" + strconv.FormatUint(uint64(r.line), 10)
+}
+
+func (ix *Index) term(i int) []byte {
+	start := uint32(0)
+	if i > 0 {
+		start = ix.termEnd[i-1]
+	}
+	return ix.terms[start:ix.termEnd[i]]
+}
+
+func (ix *Index) find(term string) (int, bool) {
+	i := sort.Search(len(ix.termEnd), func(i int) bool { return string(ix.term(i)) >= term })
+	if i < len(ix.termEnd) && string(ix.term(i)) == term {
+		return i, true
+	}
+	return 0, false
+}
+
+// DF returns the number of rows holding term.
+func (ix *Index) DF(term string) int {
+	if i, ok := ix.find(term); ok {
+		return int(ix.df[i])
+	}
+	return 0
+}
+
+// NumTerms returns the size of the lexicon.
+func (ix *Index) NumTerms() int { return len(ix.df) }
+
+// Postings appends the rows holding term, ascending, and their term frequencies.
+func (ix *Index) Postings(term string, rows, tfs []uint32) ([]uint32, []uint32, error) {
+	i, ok := ix.find(term)
+	if !ok {
+		return rows, tfs, nil
+	}
+	b := ix.postings[ix.postOff[i]:ix.postOff[i+1]]
+	row := int64(-1)
+	n := ix.meta.Rows
+	for len(b) > 0 {
+		v, k := binary.Uvarint(b)
+		if k <= 0 {
+			return rows, tfs, fmt.Errorf("index %s: postings of %q: %w", ix.dir, term, ErrDamaged)
+		}
+		b = b[k:]
+		tf := uint64(1)
+		if v&1 == 0 {
+			if tf, k = binary.Uvarint(b); k <= 0 {
+				return rows, tfs, fmt.Errorf("index %s: postings of %q: %w", ix.dir, term, ErrDamaged)
+			}
+			b = b[k:]
+		}
+		row += int64(v >> 1)
+		if row >= n {
+			return rows, tfs, fmt.Errorf("index %s: postings of %q: row %d of %d: %w", ix.dir, term, row, n, ErrDamaged)
+		}
+		rows = append(rows, uint32(row))
+		tfs = append(tfs, uint32(tf))
+	}
+	return rows, tfs, nil
+}

@@ -1,0 +1,203 @@
+package score
+
+import (
+	"fmt"
+	"math"
+	"slices"
+)
+
+// tfScheme and idfScheme make the TF-IDF weighting of query vectors pluggable.
+// Score always uses tfRaw with idfSmooth (the Corpus row norms assume it); the
+// other variants exist so the vector code can be checked against textbook
+// examples that use them.
+type tfScheme uint8
+
+const (
+	tfRaw tfScheme = iota // tf
+	tfLog                 // 1 + log10(tf) for tf > 0
+)
+
+type idfScheme uint8
+
+const (
+	idfSmooth idfScheme = iota // ln((1+N)/(1+df)) + 1
+	idfNone                    // 1
+)
+
+type weighting struct {
+	tf  tfScheme
+	idf idfScheme
+}
+
+// sklearnWeighting is TfidfVectorizer's default: raw tf, smooth idf.
+var sklearnWeighting = weighting{tf: tfRaw, idf: idfSmooth}
+
+func (w weighting) tfWeight(tf int) float64 {
+	if w.tf == tfLog {
+		if tf <= 0 {
+			return 0
+		}
+		return 1 + math.Log10(float64(tf))
+	}
+	return float64(tf)
+}
+
+func (w weighting) idfWeight(n, df int) float64 {
+	if w.idf == idfNone {
+		return 1
+	}
+	return math.Log(float64(1+n)/float64(1+df)) + 1
+}
+
+// unitWeights appends to dst the l2-normalised weights tfWeight(counts[i])·idf[i].
+// The norm is summed in slice order. A zero vector stays zero.
+func unitWeights(dst []float64, counts []int, idf []float64, w weighting) []float64 {
+	start := len(dst)
+	var ss float64
+	for i, c := range counts {
+		x := float64(w.tfWeight(c) * idf[i])
+		dst = append(dst, x)
+		ss += float64(x * x)
+	}
+	if ss == 0 {
+		return dst
+	}
+	nrm := math.Sqrt(ss)
+	for i := start; i < len(dst); i++ {
+		dst[i] /= nrm
+	}
+	return dst
+}
+
+// bm25IDF is ln(1 + (N − df + 0.5)/(df + 0.5)), always positive for 0 ≤ df ≤ N.
+func bm25IDF(n, df int) float64 {
+	return math.Log1p((float64(n-df) + 0.5) / (float64(df) + 0.5))
+}
+
+// plan is the set of queries one Score or Explain call runs. Score and Explain
+// both build it with newPlan so that they share every query weight bit for bit.
+type plan struct {
+	n        int
+	avg      float64
+	vocab    []string  // distinct target terms present in the pool, ascending bytes
+	df       []int     // per vocab term
+	idf      []float64 // per vocab term, for the method
+	targets  []query   // one per target row
+	combined query     // the whole target set as one query (Sum only)
+	tokens   int64
+}
+
+type query struct {
+	terms []int32   // vocab indices, ascending (so terms ascend by bytes)
+	qw    []float64 // query weight per term
+	qi    []float64 // float64(qw·idf), the factor applied to the tf part
+}
+
+func newPlan(c Corpus, q []Query, p Params) (*plan, error) {
+	n := c.NumRows()
+	if n < 0 || uint64(n) > math.MaxUint32+1 {
+		return nil, fmt.Errorf("score: corpus has %d rows: %w", n, ErrBadCorpus)
+	}
+	if len(q) > math.MaxInt32 {
+		return nil, fmt.Errorf("score: %d target rows, at most %d allowed: %w", len(q), math.MaxInt32, ErrInvalidParams)
+	}
+	pl := &plan{n: n, targets: make([]query, len(q))}
+	if p.Method == BM25 {
+		pl.avg = c.AvgLen()
+		if math.IsNaN(pl.avg) || math.IsInf(pl.avg, 0) || pl.avg < 0 {
+			return nil, fmt.Errorf("score: corpus average length %v: %w", pl.avg, ErrBadCorpus)
+		}
+	}
+
+	var all []string
+	for _, qq := range q {
+		pl.tokens += int64(len(qq.Terms))
+		all = append(all, qq.Terms...)
+	}
+	slices.Sort(all)
+	all = slices.Compact(all)
+	index := make(map[string]int32, len(all))
+	for _, t := range all {
+		df := c.DF(t)
+		if df < 0 || df > n {
+			return nil, fmt.Errorf("score: df(%q) = %d with %d rows: %w", t, df, n, ErrBadCorpus)
+		}
+		if df == 0 {
+			continue // no postings, and TF-IDF drops out-of-vocabulary terms
+		}
+		index[t] = int32(len(pl.vocab))
+		pl.vocab = append(pl.vocab, t)
+		pl.df = append(pl.df, df)
+		if p.Method == BM25 {
+			pl.idf = append(pl.idf, bm25IDF(n, df))
+		} else {
+			pl.idf = append(pl.idf, sklearnWeighting.idfWeight(n, df))
+		}
+	}
+
+	var ids []int32
+	var counts []int
+	var idf []float64
+	for j, qq := range q {
+		ids = ids[:0]
+		for _, t := range qq.Terms {
+			if k, ok := index[t]; ok {
+				ids = append(ids, k)
+			}
+		}
+		slices.Sort(ids)
+		tq := &pl.targets[j]
+		counts = counts[:0]
+		for i, k := range ids {
+			if i > 0 && ids[i-1] == k {
+				counts[len(counts)-1]++
+				continue
+			}
+			tq.terms = append(tq.terms, k)
+			counts = append(counts, 1)
+		}
+		if p.Method == BM25 {
+			// Binary query: a repeated target term counts once.
+			for range tq.terms {
+				tq.qw = append(tq.qw, 1)
+			}
+		} else {
+			idf = idf[:0]
+			for _, k := range tq.terms {
+				idf = append(idf, pl.idf[k])
+			}
+			tq.qw = unitWeights(make([]float64, 0, len(counts)), counts, idf, sklearnWeighting)
+		}
+		tq.setQI(pl.idf)
+	}
+
+	if p.Aggregate == Sum {
+		w := make([]float64, len(pl.vocab))
+		for j := range pl.targets {
+			tq := &pl.targets[j]
+			for i, k := range tq.terms {
+				w[k] += tq.qw[i] // BM25: counts target rows holding the term
+			}
+		}
+		cq := &pl.combined
+		for k, x := range w {
+			if x == 0 {
+				continue // possible for TF-IDF only through underflow
+			}
+			if p.Method == TFIDF {
+				x /= float64(len(q))
+			}
+			cq.terms = append(cq.terms, int32(k))
+			cq.qw = append(cq.qw, x)
+		}
+		cq.setQI(pl.idf)
+	}
+	return pl, nil
+}
+
+func (qu *query) setQI(idf []float64) {
+	qu.qi = make([]float64, len(qu.terms))
+	for i, k := range qu.terms {
+		qu.qi[i] = float64(qu.qw[i] * idf[k])
+	}
+}

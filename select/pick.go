@@ -1,0 +1,234 @@
+package selection
+
+import (
+	"cmp"
+	"errors"
+	"fmt"
+	"math"
+	"slices"
+)
+
+// ErrBadInput is wrapped by every error Pick returns.
+var ErrBadInput = errors.New("bad selection input")
+
+// Options are the limits a selection must keep within.
+type Options struct {
+	Budget        float64 // total FLOPs allowed, selection cost included
+	Fixed         float64 // FLOPs already spent before any row is kept (the selection cost)
+	Fill          bool    // keep scanning past the first row that does not fit
+	MaxRows       int     // most rows to keep; 0 means no limit
+	MinScore      float64 // rows scoring below this are not kept
+	KeepUnmatched bool    // allow rows with score <= 0, which share nothing with the target
+}
+
+// A Reason says why a row was not kept.
+type Reason uint8
+
+// Reasons, in the words String gives them in output files.
+const (
+	Kept     Reason = iota // ""
+	BelowCut               // "below-cut": ranked after the stop, not considered
+	Budget                 // "budget": considered, but its cost did not fit
+	MaxRows                // "max-rows": considered after MaxRows rows were kept
+	MinScore               // "min-score": scored below Options.MinScore
+	NoMatch                // "no-match": scored <= 0 and Options.KeepUnmatched is false
+)
+
+var reasonNames = [...]string{
+	Kept: "", BelowCut: "below-cut", Budget: "budget", MaxRows: "max-rows",
+	MinScore: "min-score", NoMatch: "no-match",
+}
+
+// String returns the stable lower-case word used for r in output files; it
+// is empty for Kept.
+func (r Reason) String() string {
+	if int(r) < len(reasonNames) {
+		return reasonNames[r]
+	}
+	return fmt.Sprintf("reason(%d)", r)
+}
+
+// A Stop says why the walk down the ranking ended.
+type Stop uint8
+
+// Stops, in the words String gives them in output files.
+const (
+	StopExhausted       Stop = iota // "exhausted": every row was considered
+	StopBudget                      // "budget": the first row that did not fit, without Fill
+	StopMaxRows                     // "max-rows": MaxRows rows were kept
+	StopMinScore                    // "min-score": the rest scored below MinScore
+	StopNoMatch                     // "no-match": the rest scored <= 0
+	StopFixedOverBudget             // "fixed-over-budget": the selection cost alone exceeds the budget
+)
+
+var stopNames = [...]string{
+	StopExhausted: "exhausted", StopBudget: "budget", StopMaxRows: "max-rows",
+	StopMinScore: "min-score", StopNoMatch: "no-match", StopFixedOverBudget: "fixed-over-budget",
+}
+
+// String returns the stable lower-case word used for s in output files.
+func (s Stop) String() string {
+	if int(s) < len(stopNames) {
+		return stopNames[s]
+	}
+	return fmt.Sprintf("stop(%d)", s)
+}
+
+// A Decision is what Pick decided for one row.
+type Decision struct {
+	Rank   int // 1-based position in the ranking
+	Kept   bool
+	Reason Reason // Kept when Kept is true
+	// LedgerAfter is the ledger total once this row was considered: Fixed
+	// plus the cost of every kept row ranked at or above it.
+	LedgerAfter float64
+}
+
+// A Summary totals a selection.
+type Summary struct {
+	Kept     int     // rows kept
+	KeptCost float64 // sum of the costs of kept rows
+	// Total is Fixed plus the kept costs, accumulated in rank order exactly
+	// as the fit test accumulates them, so Total <= Budget holds without
+	// rounding slack (except under StopFixedOverBudget, where Total is Fixed).
+	// It can differ from Fixed+KeptCost in the last bit.
+	Total    float64
+	Left     float64 // Budget - Total; negative only under StopFixedOverBudget
+	Stop     Stop
+	StopRank int // rank of the row at which the walk stopped; 0 for StopExhausted and StopFixedOverBudget
+}
+
+// Order returns row indices sorted by score, highest first. Ties keep input
+// order (lower index first), so the ranking is deterministic. NaN scores,
+// which Pick rejects, are ranked after every other score.
+func Order(scores []float64) []int {
+	// Sorting (score, index) pairs keeps each comparison's data together;
+	// going through an index slice would touch scores at random.
+	type key struct {
+		score float64
+		row   int
+	}
+	keys := make([]key, len(scores))
+	for i, s := range scores {
+		keys[i] = key{s, i}
+	}
+	// cmp.Compare orders NaN below -Inf and treats -0 and +0 as equal.
+	slices.SortFunc(keys, func(a, b key) int {
+		if c := cmp.Compare(b.score, a.score); c != 0 {
+			return c
+		}
+		return cmp.Compare(a.row, b.row)
+	})
+	idx := make([]int, len(keys))
+	for i, k := range keys {
+		idx[i] = k.row
+	}
+	return idx
+}
+
+// Pick ranks rows by score (as Order does) and keeps them greedily: walking
+// down the ranking, a row is kept if Fixed plus the cost of the rows kept so
+// far plus its own cost is at most Budget. costs[i] is the FLOP cost of
+// keeping row i (its training cost) and decisions[i] is the decision for row
+// i, in input order.
+//
+// Each row considered is checked in this order: MaxRows already reached
+// (reason MaxRows; the walk stops), score <= 0 without KeepUnmatched (NoMatch),
+// score below MinScore (MinScore), then the budget (Budget). Because rows
+// are ranked by score, the first NoMatch or MinScore row ends the walk and
+// every later row gets NoMatch or MinScore by its own score. Without Fill the
+// first row that does not fit ends the walk; with Fill it is skipped and the
+// walk goes on. Rows after a budget or max-rows stop get BelowCut. When Fixed
+// alone exceeds Budget no row is considered and every row gets BelowCut.
+//
+// Scores must not be NaN; costs must be finite and >= 0; Budget and Fixed
+// must be finite and >= 0; MaxRows must be >= 0 and MinScore not NaN.
+func Pick(scores []float64, costs []float64, opt Options) ([]Decision, Summary, error) {
+	if err := check(scores, costs, opt); err != nil {
+		return nil, Summary{}, err
+	}
+	order := Order(scores)
+	dec := make([]Decision, len(scores))
+	total := opt.Fixed
+	sum := Summary{Stop: StopExhausted}
+	if opt.Fixed > opt.Budget {
+		sum.Stop = StopFixedOverBudget
+	}
+	stopped := sum.Stop != StopExhausted
+	byScore := false // the walk ended on a score limit, so later rows are judged by score
+	for r, i := range order {
+		d := &dec[i]
+		d.Rank = r + 1
+		switch {
+		case byScore:
+			d.Reason = scoreReason(scores[i], opt)
+		case stopped:
+			d.Reason = BelowCut
+		case opt.MaxRows > 0 && sum.Kept == opt.MaxRows:
+			d.Reason = MaxRows
+			sum.Stop, sum.StopRank, stopped = StopMaxRows, d.Rank, true
+		case scoreReason(scores[i], opt) != Kept:
+			d.Reason = scoreReason(scores[i], opt)
+			sum.Stop, sum.StopRank, stopped, byScore = StopNoMatch, d.Rank, true, true
+			if d.Reason == MinScore {
+				sum.Stop = StopMinScore
+			}
+		case total+costs[i] <= opt.Budget:
+			total += costs[i]
+			d.Kept = true
+			sum.Kept++
+			sum.KeptCost += costs[i]
+		default:
+			d.Reason = Budget
+			if !opt.Fill {
+				sum.Stop, sum.StopRank, stopped = StopBudget, d.Rank, true
+			}
+		}
+		d.LedgerAfter = total
+	}
+	sum.Total = total
+	sum.Left = opt.Budget - total
+	return dec, sum, nil
+}
+
+// scoreReason is the reason a score alone bars a row, or Kept if it does not.
+func scoreReason(s float64, opt Options) Reason {
+	switch {
+	case !opt.KeepUnmatched && s <= 0:
+		return NoMatch
+	case s < opt.MinScore:
+		return MinScore
+	}
+	return Kept
+}
+
+func check(scores, costs []float64, opt Options) error {
+	if len(scores) != len(costs) {
+		return fmt.Errorf("pick: %d scores but %d costs: %w", len(scores), len(costs), ErrBadInput)
+	}
+	if !finiteNonNeg(opt.Budget) {
+		return fmt.Errorf("pick: budget %v: must be finite and >= 0: %w", opt.Budget, ErrBadInput)
+	}
+	if !finiteNonNeg(opt.Fixed) {
+		return fmt.Errorf("pick: fixed cost %v: must be finite and >= 0: %w", opt.Fixed, ErrBadInput)
+	}
+	if opt.MaxRows < 0 {
+		return fmt.Errorf("pick: max rows %d: must be >= 0: %w", opt.MaxRows, ErrBadInput)
+	}
+	if math.IsNaN(opt.MinScore) {
+		return fmt.Errorf("pick: min score is NaN: %w", ErrBadInput)
+	}
+	for i, s := range scores {
+		if math.IsNaN(s) {
+			return fmt.Errorf("pick: row %d: score is NaN: %w", i, ErrBadInput)
+		}
+	}
+	for i, c := range costs {
+		if !finiteNonNeg(c) {
+			return fmt.Errorf("pick: row %d: cost %v: must be finite and >= 0: %w", i, c, ErrBadInput)
+		}
+	}
+	return nil
+}
+
+func finiteNonNeg(v float64) bool { return v >= 0 && !math.IsInf(v, 1) }

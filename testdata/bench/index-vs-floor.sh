@@ -1,0 +1,55 @@
+#!/usr/bin/env bash
+# Times, in one run on the same files, `sluice index` against its floor (`sluice index --dry-run`:
+# read + parse + analyse with the same analyzer, no index), then a pick with a new 1,000-row target on
+# the built index, and the peak memory of a build over a pool of about 1 GB at the default --mem.
+#
+#   bash testdata/bench/index-vs-floor.sh [SHARED_DIR]     (default ../shared beside the checkout)
+#
+# Needs python3 (for the shared split script and to turn the JSON arrays into JSONL) and GNU time.
+set -euo pipefail
+root=$(cd "$(dirname "$0")/../.." && pwd)
+shared=${1:-$root/../shared}
+work=$(mktemp -d)
+trap 'rm -rf "$work"' EXIT
+cd "$root"
+go build -o "$work/sluice" ./cmd/sluice
+S=$work/sluice
+
+t0=$shared/data/t0-train-50k-per-template/data_per_template
+gpt=$shared/data/gpteacher
+python3 - "$gpt" "$work/gpteacher.jsonl" <<'PY'
+import json, sys, glob, os
+with open(sys.argv[2], "w") as out:
+    for p in sorted(glob.glob(os.path.join(sys.argv[1], "*.json"))):
+        for row in json.load(open(p)):
+            out.write(json.dumps(row, ensure_ascii=False) + "\n")
+PY
+cat "$t0"/*.jsonl > "$work/t0.jsonl"
+
+secs() { /usr/bin/time -f '%e %M' -o "$work/time" "$@" >/dev/null 2>"$work/err" || { cat "$work/err" >&2; exit 1; }; cat "$work/time"; }
+mb() { echo "scale=1; $(stat -c %s "$1") / 1000000" | bc; }
+
+printf '%-14s %8s %10s %10s %8s %10s %8s\n' corpus MB floor_s index_s ratio index_MB/s RSS_MB
+for corpus in t0 gpteacher; do
+	f=$work/$corpus.jsonl
+	text=prompt,completion
+	[ "$corpus" = gpteacher ] && text=instruction,input,response
+	read -r fs _ < <(secs "$S" index --dry-run --quiet --text "$text" "$f")
+	read -r is rss < <(secs "$S" index --quiet --text "$text" --out "$work/$corpus.idx" "$f")
+	printf '%-14s %8s %10s %10s %8s %10s %8s\n' "$corpus" "$(mb "$f")" "$fs" "$is" \
+		"$(echo "scale=2; $fs / $is" | bc)" "$(echo "scale=1; $(mb "$f") / $is" | bc)" "$((rss / 1024))"
+done
+
+# A new 1,000-row target on a built index: pick time against build time.
+python3 "$shared/scripts/t0-split.py" sentiment "$work/split" --target-rows 1000 >/dev/null
+read -r bs _ < <(secs "$S" index --quiet --id id --out "$work/split.idx" "$work/split/pool.jsonl")
+for agg in sum max; do
+	read -r ps _ < <(secs "$S" pick --quiet --index "$work/split.idx" --target "$work/split/target.jsonl" \
+		--aggregate "$agg" --budget 1e30 --train-params 1B --out "$work/run-$agg")
+	echo "pick bm25/$agg with 1000 target rows: ${ps}s against build ${bs}s = $(echo "scale=1; 100 * $ps / $bs" | bc)%"
+done
+
+# Peak memory for a pool of about 1 GB at the default --mem.
+for i in $(seq 1 17); do cat "$work/t0.jsonl"; done > "$work/big.jsonl"
+read -r gs grss < <(secs "$S" index --quiet --text prompt,completion --out "$work/big.idx" "$work/big.jsonl")
+echo "1 GB pool ($(mb "$work/big.jsonl") MB): build ${gs}s, $(echo "scale=1; $(mb "$work/big.jsonl") / $gs" | bc) MB/s, peak RSS $((grss / 1024)) MB"
