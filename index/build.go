@@ -243,9 +243,10 @@ type builder struct {
 	meta  Meta
 	paths []string
 
-	workers []*worker
-	base    []int64 // first row number of each batch
-	srcRows map[int]int64
+	workers     []*worker
+	freeBatches chan *batch
+	base        []int64 // first row number of each batch
+	srcRows     map[int]int64
 }
 
 func (b *builder) run(ctx context.Context) (*Stats, error) {
@@ -259,12 +260,18 @@ func (b *builder) run(ctx context.Context) (*Stats, error) {
 		return nil, fmt.Errorf("build index: %w", err)
 	}
 	memPer := b.opt.Mem / int64(b.opt.Workers)
+	b.freeBatches = make(chan *batch, b.opt.Workers*4)
 	var wg sync.WaitGroup
 	var werr error
 	var werrOnce sync.Once
 	for i := 0; i < b.opt.Workers; i++ {
 		a, _ := analysis.New(b.opt.Analyzer)
-		w := &worker{id: i, an: a, dict: make(map[string]int32), memLimit: memPer, runDir: runDir, strict: b.opt.Strict, dry: b.opt.DryRun, needIDs: b.opt.ID != "", idField: b.opt.ID}
+		w := &worker{free: func(bt *batch) {
+			select {
+			case b.freeBatches <- bt:
+			default:
+			}
+		}, id: i, an: a, dict: make(map[string]int32), memLimit: memPer, runDir: runDir, strict: b.opt.Strict, dry: b.opt.DryRun, needIDs: b.opt.ID != "", idField: b.opt.ID}
 		b.workers = append(b.workers, w)
 	}
 
@@ -343,6 +350,18 @@ func (b *builder) run(ctx context.Context) (*Stats, error) {
 	return st, nil
 }
 
+// newBatch reuses a batch a worker is done with, so the reader does not allocate a buffer per batch.
+func (b *builder) newBatch(seq, src int) *batch {
+	select {
+	case bt := <-b.freeBatches:
+		bt.seq, bt.src = seq, src
+		bt.buf, bt.lines = bt.buf[:0], bt.lines[:0]
+		return bt
+	default:
+		return &batch{seq: seq, src: src, buf: make([]byte, 0, batchBytes+64<<10), lines: make([]lineRef, 0, 1024)}
+	}
+}
+
 // read streams every source into batches. It owns b.meta.Sources until it returns.
 func (b *builder) read(ctx context.Context, out chan<- *batch, specReady chan<- struct{}) error {
 	seq := 0
@@ -393,7 +412,7 @@ func (b *builder) read(ctx context.Context, out chan<- *batch, specReady chan<- 
 			return err
 		}
 		sc := jsonl.NewScanner(src.r, b.opt.MaxRowBytes)
-		cur := &batch{seq: seq, src: si}
+		cur := b.newBatch(seq, si)
 		sampled := 0
 		send := func() error {
 			if len(cur.lines) == 0 {
@@ -409,7 +428,7 @@ func (b *builder) read(ctx context.Context, out chan<- *batch, specReady chan<- 
 				}
 			}
 			seq++
-			cur = &batch{seq: seq, src: si, buf: make([]byte, 0, batchBytes)}
+			cur = b.newBatch(seq, si)
 			return nil
 		}
 		for sc.Scan() {
@@ -642,6 +661,7 @@ func (b *builder) collect(ctx context.Context, outs <-chan *batchOut) error {
 // worker analyses batches into an in-memory inverted index of its own, spilling sorted runs when its
 // share of Options.Mem is used.
 type worker struct {
+	free     func(*batch) // hands a finished batch back to the reader
 	id       int
 	an       *analysis.Analyzer
 	ex       *jsonl.Extractor
@@ -665,6 +685,7 @@ type worker struct {
 func (w *worker) work(ctx context.Context, in <-chan *batch, out chan<- *batchOut, paths []string) error {
 	for bt := range in {
 		o, err := w.do(bt, paths)
+		w.free(bt)
 		if err != nil {
 			return err
 		}
