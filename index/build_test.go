@@ -212,3 +212,67 @@ func TestOpenDamaged(t *testing.T) {
 		t.Errorf("empty folder: %v, want ErrNotIndex", err)
 	}
 }
+
+// TestCompressedAndStdin checks that gzip, zstd and stdin pools give the same index as the plain
+// file, and that kept rows are copied byte for byte from each.
+func TestCompressedAndStdin(t *testing.T) {
+	pool := testPool(t, 300)
+	plain, err := os.ReadFile(pool)
+	if err != nil {
+		t.Fatal(err)
+	}
+	dir := t.TempDir()
+	gz := filepath.Join(dir, "pool.jsonl.gz")
+	zs := filepath.Join(dir, "pool.zst.data") // compression is found by magic bytes, not names
+	writeCompressed(t, gz, zs, plain)
+	refDir, _ := build(t, pool, Options{ID: "id"})
+	ref, _ := Open(refDir)
+	defer ref.Close()
+	rows := []int{0, 5, 6, 150, ref.NumRows() - 1}
+	var want bytes.Buffer
+	if err := ref.CopyRows(&want, rows); err != nil {
+		t.Fatal(err)
+	}
+	for _, tc := range []struct {
+		name, path string
+		stdin      bool
+	}{{"gzip", gz, false}, {"zstd", zs, false}, {"stdin-gzip", gz, true}} {
+		t.Run(tc.name, func(t *testing.T) {
+			src := tc.path
+			if tc.stdin {
+				f, err := os.Open(tc.path)
+				if err != nil {
+					t.Fatal(err)
+				}
+				defer f.Close()
+				old := os.Stdin
+				os.Stdin = f
+				defer func() { os.Stdin = old }()
+				src = "-"
+			}
+			d := filepath.Join(t.TempDir(), "idx")
+			if _, err := Build(context.Background(), d, []string{src}, Options{ID: "id"}); err != nil {
+				t.Fatal(err)
+			}
+			ix, err := Open(d)
+			if err != nil {
+				t.Fatal(err)
+			}
+			defer ix.Close()
+			for _, f := range []string{lexiconFile, postingsFile, normsFile, idsFile} {
+				a, _ := os.ReadFile(filepath.Join(refDir, f))
+				b, _ := os.ReadFile(filepath.Join(d, f))
+				if !bytes.Equal(a, b) {
+					t.Errorf("%s differs from the plain build", f)
+				}
+			}
+			var got bytes.Buffer
+			if err := ix.CopyRows(&got, rows); err != nil {
+				t.Fatal(err)
+			}
+			if !bytes.Equal(got.Bytes(), want.Bytes()) {
+				t.Errorf("copied rows differ from the plain pool's")
+			}
+		})
+	}
+}
