@@ -288,18 +288,18 @@ func doPick(ctx context.Context, e *env, cfg *pickConfig) (*pickResult, error) {
 }
 
 func stopText(s selection.Summary, cfg *pickConfig) string {
-	switch s.Stop.String() {
-	case "budget":
+	switch s.Stop {
+	case selection.StopBudget:
 		return fmt.Sprintf("budget: the row ranked %d did not fit in what was left", s.StopRank)
-	case "exhausted":
+	case selection.StopExhausted:
 		return "every row with a score was considered"
-	case "max-rows":
+	case selection.StopMaxRows:
 		return fmt.Sprintf("max-rows: %d rows kept", cfg.sel.MaxRows)
-	case "min-score":
+	case selection.StopMinScore:
 		return fmt.Sprintf("min-score: the rows from rank %d on score below %g", s.StopRank, cfg.sel.MinScore)
-	case "no-match":
+	case selection.StopNoMatch:
 		return fmt.Sprintf("no-match: the rows from rank %d on share no term with the target rows", s.StopRank)
-	case "fixed-over-budget":
+	case selection.StopFixedOverBudget:
 		return "fixed-over-budget: the selection cost alone exceeds the budget"
 	}
 	return s.Stop.String()

@@ -1,6 +1,7 @@
 package analysis
 
 import (
+	"encoding/binary"
 	"errors"
 	"fmt"
 	"strings"
@@ -38,15 +39,15 @@ type Analyzer struct {
 	stem     bool // possessive, stop words and stemming (english)
 
 	stop bleveanalysis.TokenMap
-	// cache remembers stems: the vocabulary of a pool is unbounded, but
-	// term frequencies are Zipfian, so a bounded cache that is emptied when
-	// full keeps a high hit rate with a few MB per Analyzer.
+	// hot and cache remember what the english chain makes of a word, in
+	// bounded memory (see cache.go): under 5 MB.
+	hot   []hotEntry
 	cache *stemCache
 
-	term    []byte // the current term, lowercased
-	runes   []rune // stemmer input
-	stemBuf []byte // stemmer output
-	copy    []byte // text handed to bleve, which lowercases in place
+	term     []byte // the current term, lowercased
+	runes    []rune // stemmer input
+	stemBuf  []byte // stemmer output
+	bleveBuf []byte // text handed to bleve, which lowercases in place
 }
 
 // New returns the analyzer called name (see Names).
@@ -65,6 +66,7 @@ func New(name string) (*Analyzer, error) {
 			return nil, fmt.Errorf("analyzer %s: %w", name, err)
 		}
 		a.cache = newStemCache()
+		a.hot = make([]hotEntry, 1<<hotBits)
 	case plain:
 		a.describe = "unicode words; lowercase"
 		a.bleve, err = cache.DefineAnalyzer(plain, map[string]interface{}{
@@ -100,8 +102,8 @@ func (a *Analyzer) Terms(text []byte) []string {
 //
 // Text made of ASCII runs is analyzed by hand; the stretches around
 // non-ASCII bytes, cut where bleve's tokenizer is bound to start a new
-// segment, go to bleve's analyzer, and so does text that is not valid UTF-8,
-// because bleve's tokenizer stops early there.
+// segment, go to bleve's analyzer, and so does all of a text that is not
+// valid UTF-8, where bleve's tokenizer can stop before the end.
 func (a *Analyzer) Each(text []byte, fn func(term []byte)) {
 	pos := 0
 	for pos < len(text) {
@@ -134,8 +136,8 @@ func (a *Analyzer) bleveEach(text []byte, fn func(term []byte)) {
 	if len(text) == 0 {
 		return
 	}
-	a.copy = append(a.copy[:0], text...)
-	for _, tok := range a.bleve.Analyze(a.copy) {
+	a.bleveBuf = append(a.bleveBuf[:0], text...)
+	for _, tok := range a.bleve.Analyze(a.bleveBuf) {
 		fn(tok.Term)
 	}
 }
@@ -143,55 +145,79 @@ func (a *Analyzer) bleveEach(text []byte, fn func(term []byte)) {
 // eachASCII analyzes text that is all ASCII and starts and ends where
 // bleve's tokenizer starts a segment.
 func (a *Analyzer) eachASCII(text []byte, fn func(term []byte)) {
+	if len(a.term) < len(text)+pad {
+		a.term = make([]byte, len(text)+pad)
+	}
+	t := a.term
 	for i := 0; i < len(text); {
 		if classes[text[i]] > cWord {
 			i++
 			continue
 		}
-		start := i
-		i = wordEnd(text, i+1)
-		a.emit(text[start:i], fn)
+		var n int
+		i, n = scanWord(text, i, t)
+		if !a.stem {
+			fn(t[:n:n])
+			continue
+		}
+		// bleve possessive_en strips a trailing 's or 'S before lowercasing.
+		if n >= 2 && t[n-1] == 's' && t[n-2] == '\'' {
+			n -= 2
+		}
+		a.emitStemmed(t, n, fn)
 	}
 }
 
-// emit runs one ASCII token through the token filters.
-func (a *Analyzer) emit(tok []byte, fn func(term []byte)) {
-	if a.stem {
-		// bleve possessive_en: a trailing 's or 'S, before lowercasing.
-		if n := len(tok); n >= 2 && (tok[n-1] == 's' || tok[n-1] == 'S') && tok[n-2] == '\'' {
-			tok = tok[:n-2]
+// emitStemmed runs the lowercased ASCII word t[:n] through bleve's stop_en
+// and porter filters, and passes on what is left. t has room for pad bytes
+// after the word.
+func (a *Analyzer) emitStemmed(t []byte, n int, fn func(term []byte)) {
+	binary.LittleEndian.PutUint64(t[n:], 0)
+	binary.LittleEndian.PutUint64(t[n+8:], 0)
+	h := hashPadded(t, n)
+	var e *hotEntry
+	if n <= hotMax {
+		w0, w1 := binary.LittleEndian.Uint64(t), binary.LittleEndian.Uint64(t[8:])
+		e = &a.hot[h>>(64-hotBits)]
+		if e.k0 == w0 && e.k1 == w1 {
+			if e.s0 == 0 {
+				return
+			}
+			binary.LittleEndian.PutUint64(t, e.s0)
+			binary.LittleEndian.PutUint64(t[8:], e.s1)
+			m := paddedLen(e.s0, e.s1)
+			fn(t[:m:m])
+			return
 		}
 	}
-	t := a.term[:0]
-	h := uint32(hashSeed)
-	for _, c := range tok {
-		if 'A' <= c && c <= 'Z' {
-			c += 'a' - 'A'
+	w := t[:n]
+	var stem []byte
+	var stop bool
+	if n > cacheMaxKey {
+		stem, stop = a.analyzeWord(w)
+	} else {
+		var ok bool
+		var slot int
+		stem, stop, ok, slot = a.cache.lookup(w, uint32(h))
+		if !ok {
+			stem, stop = a.analyzeWord(w)
+			a.cache.insert(slot, w, uint32(h), stem, stop)
+			// A word seen once is likely never seen again: keep it out
+			// of the hot level.
+			e = nil
 		}
-		t = append(t, c)
-		h = hashStep(h, c)
 	}
-	a.term = t
-	if !a.stem {
-		fn(t)
-		return
+	if e != nil && (stop || len(stem) > 0 && len(stem) <= hotMax) {
+		var b [16]byte
+		copy(b[:], stem)
+		e.k0, e.k1 = binary.LittleEndian.Uint64(t), binary.LittleEndian.Uint64(t[8:])
+		e.s0, e.s1 = binary.LittleEndian.Uint64(b[:]), binary.LittleEndian.Uint64(b[8:])
 	}
-	if len(t) > cacheMaxKey {
-		if stem, stop := a.analyzeWord(t); !stop {
-			fn(stem)
-		}
-		return
+	if !stop {
+		// A copy, so that fn cannot reach the caches.
+		t = append(t[:0], stem...)
+		fn(t[:len(t):len(t)])
 	}
-	stem, stop, ok, slot := a.cache.lookup(t, h)
-	if !ok {
-		stem, stop = a.analyzeWord(t)
-		a.cache.insert(slot, t, h, stem, stop)
-	}
-	if stop {
-		return
-	}
-	a.term = append(a.term[:0], stem...)
-	fn(a.term)
 }
 
 // analyzeWord applies bleve's stop_en and porter filters to a lowercased

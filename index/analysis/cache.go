@@ -1,12 +1,64 @@
 package analysis
 
-import "bytes"
+import (
+	"bytes"
+	"encoding/binary"
+	"math/bits"
+)
 
-// stemCache maps a lowercased ASCII word to what the english chain makes
-// of it. It is an open-addressing table over one byte arena rather than a
-// Go map: the lookup is most of the cost of a term, and hashing while
-// lowercasing plus one probe into a flat table is markedly faster than a
-// string-keyed map at this size.
+// The english chain caches what it makes of a lowercased ASCII word at two
+// levels, because the lookup is most of the cost of a term. Words are held
+// zero-padded to a multiple of 8 bytes (they never contain a zero byte),
+// so they hash and compare as whole uint64s.
+//
+// The hot level is direct-mapped and small enough to stay in the CPU
+// cache; an entry holds a word and its stem of up to 16 bytes each, so a
+// hit touches one cache line. The frequent words of a text are few, so it
+// catches most terms.
+//
+// The second level is an open-addressing table over a byte arena for the
+// rest of the vocabulary. The vocabulary of a pool is unbounded (numbers,
+// identifiers, typos), so the table starts again empty when it is full:
+// term frequencies are Zipfian, and the words that matter come back at
+// once.
+
+const (
+	hotBits = 13
+	hotMax  = 16 // longest word and stem the hot level holds
+
+	cacheBits       = 16
+	cacheSlots      = 1 << cacheBits
+	cacheMaxEntries = cacheSlots / 2 // keeps probe runs short
+	cacheMaxArena   = 4 << 20
+	cacheMaxKey     = 64 // longer words are rare and stemmed each time
+	stopLen         = 0xFF
+
+	// pad is the room needed after a word in the scratch buffer.
+	pad = 16
+)
+
+// hotEntry holds a zero-padded word and its zero-padded stem; an all-zero
+// stem marks a stop word, an all-zero word an empty entry.
+type hotEntry struct{ k0, k1, s0, s1 uint64 }
+
+// hashPadded hashes the zero-padded word w[:n].
+func hashPadded(w []byte, n int) uint64 {
+	h := uint64(n) * 0x9E3779B97F4A7C15
+	for i := 0; i < n; i += 8 {
+		h = (h ^ binary.LittleEndian.Uint64(w[i:])) * 0xC2B2AE3D27D4EB4F
+	}
+	return h ^ h>>29
+}
+
+// paddedLen returns the length of a word of at most 16 bytes held
+// zero-padded in w0, w1.
+func paddedLen(w0, w1 uint64) int {
+	if w1 != 0 {
+		return 16 - bits.LeadingZeros64(w1)/8
+	}
+	return 8 - bits.LeadingZeros64(w0)/8
+}
+
 type stemCache struct {
 	// slots hold hash<<32 | arena offset+1, 0 when empty.
 	slots []uint64
@@ -16,29 +68,15 @@ type stemCache struct {
 	n     int
 }
 
-const (
-	cacheBits       = 17
-	cacheSlots      = 1 << cacheBits
-	cacheMaxEntries = cacheSlots / 2 // keeps probe runs short
-	cacheMaxArena   = 4 << 20
-	cacheMaxKey     = 64 // longer words are rare and stemmed each time
-	stopLen         = 0xFF
-)
-
 func newStemCache() *stemCache {
 	return &stemCache{slots: make([]uint64, cacheSlots), arena: make([]byte, 0, 64<<10)}
 }
-
-// hashStep folds one byte into an FNV-1a hash.
-func hashStep(h uint32, c byte) uint32 { return (h ^ uint32(c)) * 16777619 }
-
-const hashSeed = 2166136261
 
 // lookup returns the record for key with hash h, or the slot where it
 // belongs when it is absent.
 func (c *stemCache) lookup(key []byte, h uint32) (stem []byte, stop, ok bool, slot int) {
 	mask := uint32(len(c.slots) - 1)
-	i := (h * 0x9E3779B1) >> (32 - cacheBits) & mask
+	i := h & mask
 	for {
 		s := c.slots[i]
 		if s == 0 {
@@ -60,8 +98,7 @@ func (c *stemCache) lookup(key []byte, h uint32) (stem []byte, stop, ok bool, sl
 }
 
 // insert stores key at slot, as returned by a lookup since which nothing
-// was inserted. When the cache is full it starts again empty, so memory
-// stays bounded whatever the vocabulary.
+// was inserted.
 func (c *stemCache) insert(slot int, key []byte, h uint32, stem []byte, stop bool) {
 	if c.n >= cacheMaxEntries || len(c.arena)+2+len(key)+len(stem) > cacheMaxArena {
 		clear(c.slots)
