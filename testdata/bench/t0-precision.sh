@@ -14,6 +14,7 @@ trap 'rm -rf "$work"' EXIT
 cd "$root"
 go build -o "$work/sluice" ./cmd/sluice
 S=$work/sluice
+pct() { awk -v a="$1" -v b="$2" 'BEGIN { printf "%.1f %%", 100 * a / b }'; }
 clusters=$(cut -f3 "$shared/data/t0-train-50k-per-template/files.tsv" | tail -n +2 | sort -u)
 printf '| cluster | pool rows | cluster share | bm25 sum | bm25 max | tfidf sum | tfidf max |\n|---|---|---|---|---|---|---|\n'
 for c in $clusters; do
@@ -21,14 +22,14 @@ for c in $clusters; do
 	n=$(wc -l < "$work/$c/labels.tsv")
 	k=$(awk -F'\t' -v c="$c" '$2 == c' "$work/$c/labels.tsv" | wc -l)
 	"$S" index --quiet --id id --text prompt,completion --out "$work/$c/idx" "$work/$c/pool.jsonl"
-	row="| $c | $n | $(echo "scale=1; 100 * $k / $n" | bc) % |"
+	row="| $c | $n | $(pct "$k" "$n") |"
 	for m in bm25 tfidf; do
 		for a in sum max; do
 			"$S" pick --quiet --index "$work/$c/idx" --target "$work/$c/target.jsonl" --method $m --aggregate $a \
 				--budget 1e30 --train-params 1B --max-rows "$k" --out "$work/$c/run-$m-$a"
 			hit=$(grep -c "\"cluster\": \"$c\"" "$work/$c/run-$m-$a/kept.jsonl" || true)
 			kept=$(wc -l < "$work/$c/run-$m-$a/kept.jsonl")
-			row="$row $(echo "scale=1; 100 * $hit / $kept" | bc) % |"
+			row="$row $(pct "$hit" "$kept") |"
 		done
 	done
 	echo "$row"
