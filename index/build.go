@@ -271,7 +271,7 @@ func (b *builder) run(ctx context.Context) (*Stats, error) {
 			case b.freeBatches <- bt:
 			default:
 			}
-		}, id: i, an: a, dict: make(map[string]int32), memLimit: memPer, runDir: runDir, strict: b.opt.Strict, dry: b.opt.DryRun, needIDs: b.opt.ID != "", idField: b.opt.ID}
+		}, id: i, an: a, dict: newTermTable(), memLimit: memPer, runDir: runDir, strict: b.opt.Strict, dry: b.opt.DryRun, needIDs: b.opt.ID != "", idField: b.opt.ID}
 		b.workers = append(b.workers, w)
 	}
 
@@ -665,7 +665,7 @@ type worker struct {
 	id       int
 	an       *analysis.Analyzer
 	ex       *jsonl.Extractor
-	dict     map[string]int32
+	dict     *termTable
 	terms    []string
 	post     [][]byte
 	last     []uint64
@@ -694,7 +694,7 @@ func (w *worker) work(ctx context.Context, in <-chan *batch, out chan<- *batchOu
 		case <-ctx.Done():
 			return ctx.Err()
 		}
-		if w.mem >= w.memLimit {
+		if w.mem+w.dict.bytes() >= w.memLimit {
 			if err := w.spill(); err != nil {
 				return err
 			}
@@ -741,18 +741,17 @@ func (w *worker) do(bt *batch, paths []string) (*batchOut, error) {
 				if w.dry {
 					return
 				}
-				id, ok := w.dict[string(term)]
-				if !ok {
-					id = int32(len(w.terms))
+				id := w.dict.lookup(term, w.terms, func() int32 {
+					id := int32(len(w.terms))
 					t := string(term)
-					w.dict[t] = id
 					w.terms = append(w.terms, t)
 					w.post = append(w.post, nil)
 					w.last = append(w.last, 0)
 					w.df = append(w.df, 0)
 					w.counts = append(w.counts, 0)
 					w.mem += int64(len(t)) + 96
-				}
+					return id
+				})
 				if w.counts[id] == 0 {
 					w.touched = append(w.touched, id)
 				}

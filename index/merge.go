@@ -53,7 +53,7 @@ func (w *worker) spill() error {
 		return err
 	}
 	w.runs = append(w.runs, path)
-	w.dict = make(map[string]int32, len(w.dict))
+	w.dict = newTermTable()
 	w.terms, w.post, w.last, w.df, w.counts = nil, nil, nil, nil, nil
 	w.mem = 0
 	return nil
