@@ -244,7 +244,9 @@ type builder struct {
 	paths []string
 
 	workers     []*worker
-	freeBatches chan *batch
+	freeBatches chan *batch // batches workers are done with; its capacity bounds how many exist
+	batches     int         // batches made so far
+	maxBatches  int
 	base        []int64 // first row number of each batch
 	srcRows     map[int]int64
 }
@@ -260,7 +262,11 @@ func (b *builder) run(ctx context.Context) (*Stats, error) {
 		return nil, fmt.Errorf("build index: %w", err)
 	}
 	memPer := b.opt.Mem / int64(b.opt.Workers)
-	b.freeBatches = make(chan *batch, b.opt.Workers*4)
+	// Enough batches for every worker to hold one and the channel to it two each, and one for the
+	// reader. The sample read before the workers start may make up to sampleRows more, and the free
+	// channel must still take them all back.
+	b.maxBatches = b.opt.Workers*3 + 2
+	b.freeBatches = make(chan *batch, b.maxBatches+sampleRows)
 	var wg sync.WaitGroup
 	var werr error
 	var werrOnce sync.Once
@@ -350,16 +356,28 @@ func (b *builder) run(ctx context.Context) (*Stats, error) {
 	return st, nil
 }
 
-// newBatch reuses a batch a worker is done with, so the reader does not allocate a buffer per batch.
-func (b *builder) newBatch(seq, src int) *batch {
-	select {
-	case bt := <-b.freeBatches:
-		bt.seq, bt.src = seq, src
-		bt.buf, bt.lines = bt.buf[:0], bt.lines[:0]
-		return bt
-	default:
-		return &batch{seq: seq, src: src, buf: make([]byte, 0, batchBytes+64<<10), lines: make([]lineRef, 0, 1024)}
+// newBatch hands the reader an empty batch. Past the first few it waits for one a worker has
+// finished with, which bounds the memory held in batches and saves zeroing a fresh buffer for each;
+// while the text shape is being detected it never waits, since no worker has started.
+func (b *builder) newBatch(ctx context.Context, seq, src int, detecting bool) (*batch, error) {
+	var bt *batch
+	if !detecting && b.batches >= b.maxBatches {
+		select {
+		case bt = <-b.freeBatches:
+		case <-ctx.Done():
+			return nil, ctx.Err()
+		}
+	} else {
+		select {
+		case bt = <-b.freeBatches:
+		default:
+			b.batches++
+			bt = &batch{buf: make([]byte, 0, batchBytes+64<<10), lines: make([]lineRef, 0, 1024)}
+		}
 	}
+	bt.seq, bt.src = seq, src
+	bt.buf, bt.lines = bt.buf[:0], bt.lines[:0]
+	return bt, nil
 }
 
 // read streams every source into batches. It owns b.meta.Sources until it returns.
@@ -412,7 +430,11 @@ func (b *builder) read(ctx context.Context, out chan<- *batch, specReady chan<- 
 			return err
 		}
 		sc := jsonl.NewScanner(src.r, b.opt.MaxRowBytes)
-		cur := b.newBatch(seq, si)
+		cur, err := b.newBatch(ctx, seq, si, !ready)
+		if err != nil {
+			src.close()
+			return err
+		}
 		sampled := 0
 		send := func() error {
 			if len(cur.lines) == 0 {
@@ -428,8 +450,9 @@ func (b *builder) read(ctx context.Context, out chan<- *batch, specReady chan<- 
 				}
 			}
 			seq++
-			cur = b.newBatch(seq, si)
-			return nil
+			var err error
+			cur, err = b.newBatch(ctx, seq, si, !ready)
+			return err
 		}
 		for sc.Scan() {
 			line := sc.Bytes()

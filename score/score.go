@@ -1,11 +1,15 @@
 package score
 
 import (
+	"cmp"
 	"context"
 	"errors"
 	"fmt"
 	"math"
+	"runtime"
+	"slices"
 	"strings"
+	"sync"
 )
 
 // Corpus is what scoring needs from an index.
@@ -102,12 +106,25 @@ func ParseAggregate(s string) (Aggregate, error) {
 	return 0, fmt.Errorf("score: unknown aggregate %q (want sum or max): %w", s, ErrInvalidParams)
 }
 
-// Params configures scoring. K1 and B are used by BM25 only.
+// Params configures scoring. K1 and B are used by BM25 only; Workers and
+// CacheBytes change how fast Score runs, never what it returns.
 type Params struct {
 	Method    Method
 	Aggregate Aggregate
 	K1, B     float64
+	// Workers is the number of goroutines running the per-target passes;
+	// 0 means runtime.GOMAXPROCS(0).
+	Workers int
+	// CacheBytes bounds the memory Score spends keeping decoded posting lists
+	// (12 bytes a posting) so that each is read from the corpus once; lists
+	// past the bound are read again on every pass that needs them, and the
+	// lists used by the most target rows are kept first. 0 means
+	// DefaultCacheBytes; a negative value keeps nothing.
+	CacheBytes int64
 }
+
+// DefaultCacheBytes is the posting cache bound used when Params.CacheBytes is 0.
+const DefaultCacheBytes = 512 << 20
 
 // DefaultParams returns BM25 with Sum aggregation and k1 = 1.2, b = 0.75
 // (common practice; Robertson and Zaragoza report good results for k1 in 1.2–2 and b near 0.75).
@@ -116,7 +133,7 @@ func DefaultParams() Params {
 }
 
 // Validate reports whether p names a known method and aggregate and has
-// finite k1 ≥ 0 and 0 ≤ b ≤ 1.
+// finite k1 ≥ 0, 0 ≤ b ≤ 1 and Workers ≥ 0.
 func (p Params) Validate() error {
 	switch {
 	case int(p.Method) >= len(methodNames):
@@ -127,6 +144,8 @@ func (p Params) Validate() error {
 		return fmt.Errorf("score: k1 = %v, want finite and >= 0: %w", p.K1, ErrInvalidParams)
 	case math.IsNaN(p.B) || p.B < 0 || p.B > 1:
 		return fmt.Errorf("score: b = %v, want 0 <= b <= 1: %w", p.B, ErrInvalidParams)
+	case p.Workers < 0:
+		return fmt.Errorf("score: %d workers, want >= 0: %w", p.Workers, ErrInvalidParams)
 	}
 	return nil
 }
@@ -139,10 +158,14 @@ type Query struct {
 
 // Work is the work Score really did, for a FLOP ledger.
 type Work struct {
-	Postings     int64 // postings visited, over all passes
-	QueryTerms   int64 // posting lists fetched, over all passes
+	Postings     int64 // postings accumulated into a score, over all passes
+	QueryTerms   int64 // posting lists scored, over all passes
 	TargetTokens int64 // target tokens read while building the queries
 	Passes       int64 // term-at-a-time passes over the index that touched at least one term
+	// PostingsFetched counts the postings decoded from the corpus: each
+	// distinct query term once, plus again per pass for lists that did not
+	// fit in Params.CacheBytes.
+	PostingsFetched int64
 }
 
 // Result holds one score per pool row.
@@ -161,10 +184,20 @@ type Result struct {
 // processed in ascending byte order so that results are reproducible and
 // Explain can repeat the same float operations. In Sum mode one pass scores the
 // combined query and one pass per target row finds Best; in Max mode the
-// per-target passes give both. ctx is checked before every posting list.
+// per-target passes give both.
+//
+// Each distinct query term's posting list is read from c once and kept, with
+// its per-posting tf part, within Params.CacheBytes. The per-target passes run
+// on Params.Workers goroutines, each over a contiguous block of target rows;
+// the blocks are merged in target order, so the Result does not depend on the
+// number of workers. c is only ever used by one goroutine at a time. ctx is
+// checked before every posting list read and every pass.
 func Score(ctx context.Context, c Corpus, q []Query, p Params) (*Result, error) {
 	if err := p.Validate(); err != nil {
 		return nil, err
+	}
+	if err := ctx.Err(); err != nil {
+		return nil, fmt.Errorf("score: %w", err)
 	}
 	pl, err := newPlan(c, q, p)
 	if err != nil {
@@ -179,134 +212,416 @@ func Score(ctx context.Context, c Corpus, q []Query, p Params) (*Result, error) 
 	if len(pl.vocab) == 0 {
 		return res, nil
 	}
-	s := &scorer{c: c, p: p, pl: pl, k1p1: p.K1 + 1, factor: make([]float64, n), work: &res.Work}
-	for i := range s.factor {
-		s.factor[i] = math.NaN()
+	s := &scorer{c: c, p: p, pl: pl, k1p1: p.K1 + 1, factor: make([]float64, n)}
+	if err := s.prepare(ctx); err != nil {
+		return nil, err
 	}
+	res.Work.PostingsFetched = s.fetched
 
 	bestScore := res.Scores
 	if p.Aggregate == Sum {
-		if _, err := s.pass(ctx, &pl.combined, res.Scores, nil, false); err != nil {
+		if err := s.combinedPass(ctx, res.Scores, &res.Work); err != nil {
 			return nil, err
 		}
 		bestScore = make([]float64, n)
 	}
-	acc := make([]float64, n)
-	var touched []uint32
-	for j := range pl.targets {
-		touched, err = s.pass(ctx, &pl.targets[j], acc, touched[:0], true)
-		if err != nil {
-			return nil, err
-		}
-		for _, r := range touched {
-			v := acc[r]
-			if res.Best[r] < 0 || v > bestScore[r] {
-				bestScore[r] = v
-				res.Best[r] = int32(j)
-			}
-			acc[r] = 0
-		}
+	if err := s.targetPasses(ctx, res, bestScore); err != nil {
+		return nil, err
 	}
 	return res, nil
 }
 
-// scorer holds what one Score call reuses across passes.
+// scorer holds what one Score call shares across passes and workers.
 type scorer struct {
 	c    Corpus
+	cmu  sync.Mutex // serialises calls into c from the workers
 	p    Params
 	pl   *plan
 	k1p1 float64
-	// factor caches per pool row the BM25 length normaliser k1·(1−b+b·len/avglen)
-	// or the TF-IDF row norm; NaN means not yet fetched. Filling it lazily
-	// asks the corpus only about rows that some query term reaches.
+	// factor holds per pool row the BM25 length normaliser k1·(1−b+b·len/avglen)
+	// or the TF-IDF row norm, for the rows some query term reaches (prepare
+	// fills it before any worker starts; it is read-only afterwards).
 	factor []float64
+	// cache holds per vocab term its postings and tf parts, or nil rows when
+	// the term did not fit the bound and must be read again.
+	cache     []cachedList
+	allCached bool
+	fetched   int64
+}
+
+type cachedList struct {
 	rows   []uint32
-	tfs    []uint32
-	work   *Work
+	parts  []float64
+	cached bool
 }
 
-// pass adds the contributions of query qu into acc. With track set it appends
-// to touched every row whose accumulator was zero before a contribution, so
-// the caller can visit and reset exactly those rows.
-func (s *scorer) pass(ctx context.Context, qu *query, acc []float64, touched []uint32, track bool) ([]uint32, error) {
-	if len(qu.terms) == 0 {
-		return touched, nil
+// prepare reads every distinct query term once: it validates the postings,
+// fills factor for every row they reach and keeps, within the cache bound, the
+// rows and tf parts. Terms used by more target rows are kept first.
+func (s *scorer) prepare(ctx context.Context) error {
+	pl := s.pl
+	uses := make([]int32, len(pl.vocab))
+	for j := range pl.targets {
+		for _, k := range pl.targets[j].terms {
+			uses[k]++
+		}
 	}
-	s.work.Passes++
-	for i, t := range qu.terms {
+	order := make([]int32, len(pl.vocab))
+	for k := range order {
+		order[k] = int32(k)
+	}
+	slices.SortStableFunc(order, func(a, b int32) int { return cmp.Compare(uses[b], uses[a]) })
+
+	budget := s.p.CacheBytes
+	if budget == 0 {
+		budget = DefaultCacheBytes
+	}
+	for i := range s.factor {
+		s.factor[i] = math.NaN()
+	}
+	s.cache = make([]cachedList, len(pl.vocab))
+	s.allCached = true
+	var rows, tfs []uint32
+	for _, k := range order {
 		if err := ctx.Err(); err != nil {
-			return touched, fmt.Errorf("score: %w", err)
+			return fmt.Errorf("score: %w", err)
 		}
-		term := s.pl.vocab[t]
+		term := pl.vocab[k]
 		var err error
-		s.rows, s.tfs, err = s.c.Postings(term, s.rows[:0], s.tfs[:0])
+		rows, tfs, err = s.fetch(term, rows[:0], tfs[:0])
 		if err != nil {
-			return touched, fmt.Errorf("score: postings of %q: %w", term, err)
+			return err
 		}
-		if len(s.rows) != len(s.tfs) {
-			return touched, fmt.Errorf("score: postings of %q: %d rows but %d tfs: %w", term, len(s.rows), len(s.tfs), ErrBadCorpus)
+		s.fetched += int64(len(rows))
+		for _, r := range rows {
+			if s.factor[r] == s.factor[r] {
+				continue
+			}
+			f, err := rowFactor(s.c, s.p, pl.avg, int(r))
+			if err != nil {
+				return fmt.Errorf("score: postings of %q: %w", term, err)
+			}
+			s.factor[r] = f
 		}
-		s.work.QueryTerms++
-		s.work.Postings += int64(len(s.rows))
-		if s.p.Method == BM25 {
-			touched, err = s.addBM25(acc, qu.qi[i], touched, track)
+		size := int64(len(rows)) * (4 + 8)
+		if size > budget {
+			s.allCached = false
+			continue
+		}
+		budget -= size
+		e := &s.cache[k]
+		e.rows = slices.Clone(rows)
+		e.parts = s.tfParts(make([]float64, len(rows)), rows, tfs)
+		e.cached = true
+	}
+	return nil
+}
+
+// fetch reads and checks the postings of term. The workers call it under cmu
+// because Corpus need not be safe for concurrent use.
+func (s *scorer) fetch(term string, rows, tfs []uint32) ([]uint32, []uint32, error) {
+	rows, tfs, err := s.c.Postings(term, rows, tfs)
+	if err != nil {
+		return rows, tfs, fmt.Errorf("score: postings of %q: %w", term, err)
+	}
+	if len(rows) != len(tfs) {
+		return rows, tfs, fmt.Errorf("score: postings of %q: %d rows but %d tfs: %w", term, len(rows), len(tfs), ErrBadCorpus)
+	}
+	for _, r := range rows {
+		if int(r) >= s.pl.n {
+			return rows, tfs, fmt.Errorf("score: postings of %q: row %d of %d: %w", term, r, s.pl.n, ErrBadCorpus)
+		}
+	}
+	return rows, tfs, nil
+}
+
+// tfParts fills parts with the pool-row side of the term weight; the float
+// expressions must stay identical to those in Explain (bm25Part, tfidfPart).
+func (s *scorer) tfParts(parts []float64, rows, tfs []uint32) []float64 {
+	parts = parts[:len(rows)]
+	tfs = tfs[:len(rows)]
+	factor := s.factor
+	if s.p.Method == BM25 {
+		k1p1 := s.k1p1
+		for i, r := range rows {
+			parts[i] = bm25Part(float64(tfs[i]), k1p1, factor[r])
+		}
+	} else {
+		for i, r := range rows {
+			parts[i] = tfidfPart(float64(tfs[i]), factor[r])
+		}
+	}
+	return parts
+}
+
+// chunkRows is how many pool rows the per-target passes cover at a time when
+// every list is cached: the accumulator of a chunk (32 KiB) stays in the L1
+// cache while all the targets of a worker run over it.
+const chunkRows = 4096
+
+// negZero marks an accumulator that no posting has reached in the current
+// pass. Adding a contribution x ≥ 0 to it gives x exactly, as adding to +0
+// does, so scores are unchanged; a reached row holds +0 or more even when its
+// contributions underflow to zero.
+var negZero = math.Copysign(0, -1)
+
+// targetPasses runs one pass per target row on up to Params.Workers
+// goroutines and leaves the best score per pool row in bestScore and its
+// target in res.Best.
+func (s *scorer) targetPasses(ctx context.Context, res *Result, bestScore []float64) error {
+	nt := len(s.pl.targets)
+	nw := s.p.Workers
+	if nw == 0 {
+		nw = runtime.GOMAXPROCS(0)
+	}
+	nw = max(1, min(nw, nt))
+	n := s.pl.n
+	chunk := n
+	if s.allCached {
+		chunk = chunkRows
+	}
+	ws := make([]*worker, nw)
+	ctx, cancel := context.WithCancel(ctx)
+	defer cancel()
+	var wg sync.WaitGroup
+	for i := range ws {
+		w := &worker{s: s, acc: make([]float64, n), lo: i * nt / nw, hi: (i + 1) * nt / nw, chunk: chunk}
+		if i == 0 {
+			// The first block writes straight into the result.
+			w.bestScore, w.best = bestScore, res.Best
 		} else {
-			touched, err = s.addTFIDF(acc, qu.qi[i], touched, track)
+			w.bestScore, w.best = make([]float64, n), make([]int32, n)
+			for r := range w.best {
+				w.best[r] = -1
+			}
 		}
+		ws[i] = w
+		wg.Go(func() {
+			if w.err = w.run(ctx); w.err != nil {
+				cancel()
+			}
+		})
+	}
+	wg.Wait()
+	for _, w := range ws {
+		if w.err != nil && !errors.Is(w.err, context.Canceled) {
+			return w.err // a corpus error rather than the cancellation it caused
+		}
+	}
+	for _, w := range ws {
+		if w.err != nil {
+			return w.err
+		}
+	}
+	// Blocks hold ascending target ranges, so taking a later block's score
+	// only when strictly higher keeps ties at the lowest target index.
+	for _, w := range ws[1:] {
+		for r, b := range w.best {
+			if b >= 0 && (res.Best[r] < 0 || w.bestScore[r] > bestScore[r]) {
+				bestScore[r] = w.bestScore[r]
+				res.Best[r] = b
+			}
+		}
+	}
+	for _, w := range ws {
+		w.work.add(&res.Work)
+	}
+	return nil
+}
+
+// worker is one goroutine's state: its accumulator, its best score and target
+// per pool row over the block [lo, hi) of target rows, and its share of Work.
+type worker struct {
+	s         *scorer
+	acc       []float64
+	touched   []uint32
+	bestScore []float64
+	best      []int32
+	lo, hi    int
+	chunk     int
+	seg       []segment // per vocab term, its postings in the current chunk
+	rows, tfs []uint32  // scratch for lists read again
+	parts     []float64 // scratch for lists read again
+	work      Work
+	err       error
+}
+
+type segment struct{ lo, hi int32 }
+
+func (w *Work) add(to *Work) {
+	to.Postings += w.Postings
+	to.QueryTerms += w.QueryTerms
+	to.Passes += w.Passes
+	to.PostingsFetched += w.PostingsFetched
+}
+
+// run scores the worker's targets chunk by chunk of pool rows. Within a
+// chunk every target runs in index order and every row sees its terms in the
+// same order as a whole-pool pass would, so chunking changes no result.
+func (w *worker) run(ctx context.Context) error {
+	s := w.s
+	targets := s.pl.targets[w.lo:w.hi]
+	var terms []int32 // the block's vocabulary
+	if s.allCached {
+		mark := make([]bool, len(s.pl.vocab))
+		for j := range targets {
+			for _, k := range targets[j].terms {
+				if !mark[k] {
+					mark[k] = true
+					terms = append(terms, k)
+				}
+			}
+		}
+		w.seg = make([]segment, len(s.pl.vocab))
+	}
+	for j := range targets {
+		if len(targets[j].terms) > 0 {
+			w.work.Passes++
+			w.work.QueryTerms += int64(len(targets[j].terms))
+		}
+	}
+	acc, best, bestScore := w.acc, w.best, w.bestScore
+	for i := range acc {
+		acc[i] = negZero
+	}
+	n := s.pl.n
+	for c0 := 0; c0 < n; c0 += w.chunk {
+		c1 := min(n, c0+w.chunk)
+		for _, k := range terms {
+			rows := s.cache[k].rows
+			sg := &w.seg[k]
+			sg.lo = sg.hi
+			i, _ := slices.BinarySearch(rows[sg.lo:], uint32(c1))
+			sg.hi = sg.lo + int32(i)
+		}
+		for jj := range targets {
+			qu := &targets[jj]
+			j := w.lo + jj
+			if len(qu.terms) == 0 {
+				continue
+			}
+			if err := ctx.Err(); err != nil {
+				return fmt.Errorf("score: %w", err)
+			}
+			var total int
+			if s.allCached {
+				for _, k := range qu.terms {
+					total += int(w.seg[k].hi - w.seg[k].lo)
+				}
+			}
+			// A pass reaching many of the chunk's rows scans the chunk
+			// afterwards; a sparse one records the rows it reaches.
+			dense := 4*total >= c1-c0
+			touched := w.touched[:0]
+			for i, k := range qu.terms {
+				rows, parts, err := w.list(ctx, k)
+				if err != nil {
+					return err
+				}
+				if s.allCached {
+					sg := w.seg[k]
+					rows, parts = rows[sg.lo:sg.hi], parts[sg.lo:sg.hi]
+				}
+				w.work.Postings += int64(len(rows))
+				if dense {
+					accumulate(acc, rows, parts, qu.qi[i])
+				} else {
+					touched = accumulateTrack(acc, rows, parts, qu.qi[i], touched)
+				}
+			}
+			if dense {
+				a, bs, b := acc[c0:c1], bestScore[c0:c1], best[c0:c1]
+				for r, v := range a {
+					if math.Signbit(v) {
+						continue
+					}
+					if b[r] < 0 || v > bs[r] {
+						bs[r] = v
+						b[r] = int32(j)
+					}
+					a[r] = negZero
+				}
+				continue
+			}
+			for _, r := range touched {
+				v := acc[r]
+				if math.Signbit(v) {
+					continue // a repeat: rows whose contributions underflow to 0 are recorded again
+				}
+				if best[r] < 0 || v > bestScore[r] {
+					bestScore[r] = v
+					best[r] = int32(j)
+				}
+				acc[r] = negZero
+			}
+			w.touched = touched
+		}
+	}
+	return nil
+}
+
+// list returns the rows and tf parts of vocab term k, from the cache or read
+// again from the corpus.
+func (w *worker) list(ctx context.Context, k int32) ([]uint32, []float64, error) {
+	s := w.s
+	if e := &s.cache[k]; e.cached {
+		return e.rows, e.parts, nil
+	}
+	if err := ctx.Err(); err != nil {
+		return nil, nil, fmt.Errorf("score: %w", err)
+	}
+	var err error
+	s.cmu.Lock()
+	w.rows, w.tfs, err = s.fetch(s.pl.vocab[k], w.rows[:0], w.tfs[:0])
+	s.cmu.Unlock()
+	if err != nil {
+		return nil, nil, err
+	}
+	w.work.PostingsFetched += int64(len(w.rows))
+	w.parts = s.tfParts(slices.Grow(w.parts[:0], len(w.rows)), w.rows, w.tfs)
+	return w.rows, w.parts, nil
+}
+
+// combinedPass adds the combined query's contributions into acc (Sum only).
+func (s *scorer) combinedPass(ctx context.Context, acc []float64, work *Work) error {
+	qu := &s.pl.combined
+	if len(qu.terms) == 0 {
+		return nil
+	}
+	w := worker{s: s}
+	work.Passes++
+	for i, k := range qu.terms {
+		rows, parts, err := w.list(ctx, k)
 		if err != nil {
-			return touched, fmt.Errorf("score: postings of %q: %w", term, err)
+			return err
 		}
+		work.QueryTerms++
+		work.Postings += int64(len(rows))
+		accumulate(acc, rows, parts, qu.qi[i])
 	}
-	return touched, nil
+	work.PostingsFetched += w.work.PostingsFetched
+	return nil
 }
 
-// addBM25 and addTFIDF are the inner loops; the float expressions must stay
-// identical to those in Explain (bm25Part, tfidfPart, contribution).
-func (s *scorer) addBM25(acc []float64, qi float64, touched []uint32, track bool) ([]uint32, error) {
-	factor := s.factor[:len(acc)]
-	tfs := s.tfs[:len(s.rows)]
-	k1p1 := s.k1p1
-	for i, r := range s.rows {
-		if int(r) >= len(acc) {
-			return touched, fmt.Errorf("row %d of %d: %w", r, len(acc), ErrBadCorpus)
-		}
-		k := factor[r]
-		if k != k {
-			var err error
-			if k, err = rowFactor(s.c, s.p, s.pl.avg, int(r)); err != nil {
-				return touched, err
-			}
-			factor[r] = k
-		}
-		if track && acc[r] == 0 {
-			touched = append(touched, r)
-		}
-		acc[r] += contribution(qi, bm25Part(float64(tfs[i]), k1p1, k))
+// accumulate is the inner loop; the float expression must stay identical to
+// Explain's (contribution).
+func accumulate(acc []float64, rows []uint32, parts []float64, qi float64) {
+	parts = parts[:len(rows)]
+	for i, r := range rows {
+		acc[r] += contribution(qi, parts[i])
 	}
-	return touched, nil
 }
 
-func (s *scorer) addTFIDF(acc []float64, qi float64, touched []uint32, track bool) ([]uint32, error) {
-	factor := s.factor[:len(acc)]
-	tfs := s.tfs[:len(s.rows)]
-	for i, r := range s.rows {
-		if int(r) >= len(acc) {
-			return touched, fmt.Errorf("row %d of %d: %w", r, len(acc), ErrBadCorpus)
-		}
-		nrm := factor[r]
-		if nrm != nrm {
-			var err error
-			if nrm, err = rowFactor(s.c, s.p, s.pl.avg, int(r)); err != nil {
-				return touched, err
-			}
-			factor[r] = nrm
-		}
-		if track && acc[r] == 0 {
+func accumulateTrack(acc []float64, rows []uint32, parts []float64, qi float64, touched []uint32) []uint32 {
+	parts = parts[:len(rows)]
+	for i, r := range rows {
+		a := acc[r]
+		if a == 0 {
 			touched = append(touched, r)
 		}
-		acc[r] += contribution(qi, tfidfPart(float64(tfs[i]), nrm))
+		acc[r] = a + contribution(qi, parts[i])
 	}
-	return touched, nil
+	return touched
 }
 
 // rowFactor returns the per-row quantity the tf part needs: the BM25 length

@@ -3,6 +3,7 @@ package score
 import (
 	"context"
 	"errors"
+	"fmt"
 	"math"
 	"slices"
 	"strings"
@@ -326,7 +327,7 @@ func TestWorkCounts(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		want := Work{Postings: perTarget, QueryTerms: lists, TargetTokens: tokens, Passes: passes}
+		want := Work{Postings: perTarget, QueryTerms: lists, TargetTokens: tokens, Passes: passes, PostingsFetched: unionPostings}
 		if p.Aggregate == Sum {
 			want.Postings += unionPostings
 			want.QueryTerms += int64(len(union))
@@ -576,4 +577,103 @@ func naiveScore(c *memCorpus, doc []string, q []Query, p Params) float64 {
 		s /= float64(len(q))
 	}
 	return s
+}
+
+// The property checked is internal (results independent of scheduling and
+// caching), so no reference values are involved.
+func TestWorkersAndCacheDoNotChangeResult(t *testing.T) {
+	pool, targets := fixtureTexts(t)
+	c := newMemCorpus(pool)
+	// Enough targets for uneven blocks, with repeats so that ties occur.
+	q := slices.Concat(targets, targets[:3], targets)
+	for _, p := range allParams() {
+		var want *Result
+		for _, tc := range []struct {
+			workers int
+			cache   int64
+		}{{1, 0}, {2, 0}, {3, 0}, {len(q) + 5, 0}, {1, -1}, {2, 40}, {3, 1}} {
+			p.Workers, p.CacheBytes = tc.workers, tc.cache
+			res, err := Score(context.Background(), c, q, p)
+			if err != nil {
+				t.Fatal(err)
+			}
+			fetched := res.Work.PostingsFetched
+			res.Work.PostingsFetched = 0 // the one count that depends on the cache
+			if want == nil {
+				want = res
+				continue
+			}
+			name := fmt.Sprintf("%v/%v workers %d cache %d", p.Method, p.Aggregate, tc.workers, tc.cache)
+			if !slices.EqualFunc(res.Scores, want.Scores, func(a, b float64) bool { return math.Float64bits(a) == math.Float64bits(b) }) {
+				t.Errorf("%s: scores differ", name)
+			}
+			if !slices.Equal(res.Best, want.Best) {
+				t.Errorf("%s: best differs", name)
+			}
+			if res.Work != want.Work {
+				t.Errorf("%s: work %+v, want %+v", name, res.Work, want.Work)
+			}
+			if tc.cache != 0 && fetched <= res.Work.Postings/int64(len(q)) {
+				t.Errorf("%s: fetched %d postings, want lists read again", name, fetched)
+			}
+		}
+	}
+}
+
+// A cache bound too small for most lists forces them to be read again on
+// every pass; Explain must still agree bit for bit.
+func TestExplainMatchesScoreTinyCache(t *testing.T) {
+	pool, targets := fixtureTexts(t)
+	c := newMemCorpus(pool)
+	for _, p := range allParams() {
+		p.CacheBytes, p.Workers = 64, 2
+		t.Run(p.Method.String()+"/"+p.Aggregate.String(), func(t *testing.T) {
+			res := checkExplainMatches(t, c, targets, p)
+			var union int64
+			seen := map[string]bool{}
+			for _, qq := range targets {
+				for _, term := range qq.Terms {
+					if !seen[term] {
+						seen[term] = true
+						union += int64(c.DF(term))
+					}
+				}
+			}
+			if res.Work.PostingsFetched <= union {
+				t.Errorf("fetched %d postings, union of lists %d: nothing was read again", res.Work.PostingsFetched, union)
+			}
+		})
+	}
+}
+
+// countingCorpus cancels a context after a number of posting list reads.
+type countingCorpus struct {
+	*memCorpus
+	left   int
+	cancel context.CancelFunc
+}
+
+func (c *countingCorpus) Postings(term string, rows, tfs []uint32) ([]uint32, []uint32, error) {
+	if c.left--; c.left == 0 {
+		c.cancel()
+	}
+	return c.memCorpus.Postings(term, rows, tfs)
+}
+
+func TestCancelDuringPasses(t *testing.T) {
+	pool, targets := fixtureTexts(t)
+	for _, p := range allParams() {
+		for _, cache := range []int64{0, -1} {
+			ctx, cancel := context.WithCancel(context.Background())
+			c := &countingCorpus{memCorpus: newMemCorpus(pool), left: 3, cancel: cancel}
+			if cache < 0 {
+				c.left = 80 // past the first reading of every term
+			}
+			p.CacheBytes = cache
+			if _, err := Score(ctx, c, targets, p); !errors.Is(err, context.Canceled) {
+				t.Errorf("%v/%v cache %d: error %v, want context.Canceled", p.Method, p.Aggregate, cache, err)
+			}
+			cancel()
+		}
+	}
 }
