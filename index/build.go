@@ -424,20 +424,17 @@ func (b *builder) read(ctx context.Context, out chan<- *batch, specReady chan<- 
 		sample = nil
 		return nil
 	}
+	sampled := 0
 	for si, path := range b.paths {
 		src, err := b.openSource(path)
 		if err != nil {
 			return err
 		}
 		sc := jsonl.NewScanner(src.r, b.opt.MaxRowBytes)
-		cur, err := b.newBatch(ctx, seq, si, !ready)
-		if err != nil {
-			src.close()
-			return err
-		}
-		sampled := 0
+		// cur is taken only when a line arrives, so a file ends with no batch held back.
+		var cur *batch
 		send := func() error {
-			if len(cur.lines) == 0 {
+			if cur == nil {
 				return nil
 			}
 			if !ready {
@@ -450,11 +447,16 @@ func (b *builder) read(ctx context.Context, out chan<- *batch, specReady chan<- 
 				}
 			}
 			seq++
-			var err error
-			cur, err = b.newBatch(ctx, seq, si, !ready)
-			return err
+			cur = nil
+			return nil
 		}
 		for sc.Scan() {
+			if cur == nil {
+				if cur, err = b.newBatch(ctx, seq, si, !ready); err != nil {
+					src.close()
+					return err
+				}
+			}
 			line := sc.Bytes()
 			ref := lineRef{off: sc.Offset(), n: sc.Len(), line: sc.Line(), tooLong: sc.TooLong()}
 			ref.start = len(cur.buf)
@@ -471,8 +473,7 @@ func (b *builder) read(ctx context.Context, out chan<- *batch, specReady chan<- 
 					src.close()
 					return err
 				}
-			}
-			if len(cur.buf) >= batchBytes || len(cur.lines) >= b.opt.batchRows {
+			} else if len(cur.buf) >= batchBytes || len(cur.lines) >= b.opt.batchRows {
 				if err := send(); err != nil {
 					src.close()
 					return err

@@ -11,6 +11,7 @@ import (
 	"slices"
 	"sort"
 	"testing"
+	"time"
 
 	"sluice/index/analysis"
 )
@@ -274,5 +275,34 @@ func TestCompressedAndStdin(t *testing.T) {
 				t.Errorf("copied rows differ from the plain pool's")
 			}
 		})
+	}
+}
+
+// TestManySmallFiles builds from more files than there are batches to go round, which once left the
+// reader waiting forever for a batch it had kept itself; the result must equal a one-file build.
+func TestManySmallFiles(t *testing.T) {
+	pool := testPool(t, 400)
+	data, _ := os.ReadFile(pool)
+	lines := bytes.SplitAfter(data, []byte("\n"))
+	dir := t.TempDir()
+	var files []string
+	for i := 0; i < len(lines); i += 7 {
+		p := filepath.Join(dir, fmt.Sprintf("part-%03d.jsonl", i))
+		os.WriteFile(p, bytes.Join(lines[i:min(i+7, len(lines))], nil), 0o644)
+		files = append(files, p)
+	}
+	ctx, cancel := context.WithTimeout(context.Background(), 30*time.Second)
+	defer cancel()
+	d := filepath.Join(t.TempDir(), "idx")
+	if _, err := Build(ctx, d, files, Options{Workers: 2}); err != nil {
+		t.Fatal(err)
+	}
+	ref, _ := build(t, pool, Options{Workers: 2})
+	for _, f := range []string{lexiconFile, postingsFile, normsFile} {
+		a, _ := os.ReadFile(filepath.Join(ref, f))
+		b, _ := os.ReadFile(filepath.Join(d, f))
+		if !bytes.Equal(a, b) {
+			t.Errorf("%s differs from the one-file build", f)
+		}
 	}
 }
