@@ -272,7 +272,7 @@ func (b *builder) run(ctx context.Context) (*Stats, error) {
 	var werrOnce sync.Once
 	for i := 0; i < b.opt.Workers; i++ {
 		a, _ := analysis.New(b.opt.Analyzer)
-		w := &worker{free: func(bt *batch) {
+		w := &worker{gen: 1, free: func(bt *batch) {
 			select {
 			case b.freeBatches <- bt:
 			default:
@@ -686,6 +686,7 @@ func (b *builder) collect(ctx context.Context, outs <-chan *batchOut) error {
 // share of Options.Mem is used.
 type worker struct {
 	free     func(*batch) // hands a finished batch back to the reader
+	gen      uint64       // generation of dict, from 1; bumped at each spill
 	id       int
 	an       *analysis.Analyzer
 	ex       *jsonl.Extractor
@@ -760,9 +761,19 @@ func (w *worker) do(bt *batch, paths []string) (*batchOut, error) {
 		alen := 0
 		w.touched = w.touched[:0]
 		row, err := w.ex.Extract(line, func(part []byte) {
-			w.an.Each(part, func(term []byte) {
+			w.an.EachTagged(part, func(term []byte, tag *uint64) {
 				alen++
 				if w.dry {
+					return
+				}
+				// Frequent terms carry their id in the analyzer's tag, stamped with the dictionary's
+				// generation so that ids from before a spill are not taken for current ones.
+				if g := *tag; g>>32 == w.gen {
+					id := int32(uint32(g))
+					if w.counts[id] == 0 {
+						w.touched = append(w.touched, id)
+					}
+					w.counts[id]++
 					return
 				}
 				id := w.dict.lookup(term, w.terms, func() int32 {
@@ -776,6 +787,7 @@ func (w *worker) do(bt *batch, paths []string) (*batchOut, error) {
 					w.mem += int64(len(t)) + 96
 					return id
 				})
+				*tag = w.gen<<32 | uint64(uint32(id))
 				if w.counts[id] == 0 {
 					w.touched = append(w.touched, id)
 				}

@@ -54,6 +54,7 @@ func (w *worker) spill() error {
 	}
 	w.runs = append(w.runs, path)
 	w.dict = newTermTable()
+	w.gen++
 	w.terms, w.post, w.last, w.df, w.counts = nil, nil, nil, nil, nil
 	w.mem = 0
 	return nil

@@ -41,8 +41,10 @@ type Analyzer struct {
 	stop bleveanalysis.TokenMap
 	// hot and cache remember what the english chain makes of a word, in
 	// bounded memory (see cache.go): under 5 MB.
-	hot   []hotEntry
-	cache *stemCache
+	hot    []hotEntry
+	hotTag []uint64 // the caller's tag for each hot entry (see EachTagged)
+	cache  *stemCache
+	noTag  uint64 // handed out for terms outside the hot level, zeroed before each use
 
 	term     []byte // the current term, lowercased
 	runes    []rune // stemmer input
@@ -67,6 +69,7 @@ func New(name string) (*Analyzer, error) {
 		}
 		a.cache = newStemCache()
 		a.hot = make([]hotEntry, 1<<hotBits)
+		a.hotTag = make([]uint64, 1<<hotBits)
 	case plain:
 		a.describe = "unicode words; lowercase"
 		a.bleve, err = cache.DefineAnalyzer(plain, map[string]interface{}{
@@ -105,6 +108,16 @@ func (a *Analyzer) Terms(text []byte) []string {
 // segment, go to bleve's analyzer, and so does all of a text that is not
 // valid UTF-8, where bleve's tokenizer can stop before the end.
 func (a *Analyzer) Each(text []byte, fn func(term []byte)) {
+	a.EachTagged(text, func(term []byte, _ *uint64) { fn(term) })
+}
+
+// EachTagged is Each, and also hands fn a tag: a word of memory that stays with the term while the
+// analyzer's small cache of frequent words holds it. A caller can keep there what it made of the
+// term, an id say, and skip its own lookup the next time the term comes. A tag is zero when new, and
+// is zeroed when its entry moves to another word; terms outside that cache get a tag that is zero on
+// every call. A caller that starts over must be able to tell its old tags from its new ones, for
+// example by keeping a generation number in them.
+func (a *Analyzer) EachTagged(text []byte, fn func(term []byte, tag *uint64)) {
 	pos := 0
 	for pos < len(text) {
 		j := pos + asciiPrefix(text[pos:])
@@ -132,19 +145,20 @@ func (a *Analyzer) Each(text []byte, fn func(term []byte)) {
 
 // bleveEach runs bleve's analyzer on a copy of text: its lowercase filter
 // writes into the input.
-func (a *Analyzer) bleveEach(text []byte, fn func(term []byte)) {
+func (a *Analyzer) bleveEach(text []byte, fn func(term []byte, tag *uint64)) {
 	if len(text) == 0 {
 		return
 	}
 	a.bleveBuf = append(a.bleveBuf[:0], text...)
 	for _, tok := range a.bleve.Analyze(a.bleveBuf) {
-		fn(tok.Term)
+		a.noTag = 0
+		fn(tok.Term, &a.noTag)
 	}
 }
 
 // eachASCII analyzes text that is all ASCII and starts and ends where
 // bleve's tokenizer starts a segment.
-func (a *Analyzer) eachASCII(text []byte, fn func(term []byte)) {
+func (a *Analyzer) eachASCII(text []byte, fn func(term []byte, tag *uint64)) {
 	if len(a.term) < len(text)+pad {
 		a.term = make([]byte, len(text)+pad)
 	}
@@ -157,7 +171,8 @@ func (a *Analyzer) eachASCII(text []byte, fn func(term []byte)) {
 		var n int
 		i, n = scanWord(text, i, t)
 		if !a.stem {
-			fn(t[:n:n])
+			a.noTag = 0
+			fn(t[:n:n], &a.noTag)
 			continue
 		}
 		// bleve possessive_en strips a trailing 's or 'S before lowercasing.
@@ -171,14 +186,15 @@ func (a *Analyzer) eachASCII(text []byte, fn func(term []byte)) {
 // emitStemmed runs the lowercased ASCII word t[:n] through bleve's stop_en
 // and porter filters, and passes on what is left. t has room for pad bytes
 // after the word.
-func (a *Analyzer) emitStemmed(t []byte, n int, fn func(term []byte)) {
+func (a *Analyzer) emitStemmed(t []byte, n int, fn func(term []byte, tag *uint64)) {
 	binary.LittleEndian.PutUint64(t[n:], 0)
 	binary.LittleEndian.PutUint64(t[n+8:], 0)
 	h := hashPadded(t, n)
 	var e *hotEntry
+	hi := h >> (64 - hotBits)
 	if n <= hotMax {
 		w0, w1 := binary.LittleEndian.Uint64(t), binary.LittleEndian.Uint64(t[8:])
-		e = &a.hot[h>>(64-hotBits)]
+		e = &a.hot[hi]
 		if e.k0 == w0 && e.k1 == w1 {
 			if e.s0 == 0 {
 				return
@@ -186,7 +202,7 @@ func (a *Analyzer) emitStemmed(t []byte, n int, fn func(term []byte)) {
 			binary.LittleEndian.PutUint64(t, e.s0)
 			binary.LittleEndian.PutUint64(t[8:], e.s1)
 			m := paddedLen(e.s0, e.s1)
-			fn(t[:m:m])
+			fn(t[:m:m], &a.hotTag[hi])
 			return
 		}
 	}
@@ -207,16 +223,20 @@ func (a *Analyzer) emitStemmed(t []byte, n int, fn func(term []byte)) {
 			e = nil
 		}
 	}
+	tag := &a.noTag
+	a.noTag = 0
 	if e != nil && (stop || len(stem) > 0 && len(stem) <= hotMax) {
 		var b [16]byte
 		copy(b[:], stem)
 		e.k0, e.k1 = binary.LittleEndian.Uint64(t), binary.LittleEndian.Uint64(t[8:])
 		e.s0, e.s1 = binary.LittleEndian.Uint64(b[:]), binary.LittleEndian.Uint64(b[8:])
+		a.hotTag[hi] = 0
+		tag = &a.hotTag[hi]
 	}
 	if !stop {
 		// A copy, so that fn cannot reach the caches.
 		t = append(t[:0], stem...)
-		fn(t[:len(t):len(t)])
+		fn(t[:len(t):len(t)], tag)
 	}
 }
 

@@ -12,7 +12,7 @@ import (
 // every test here compares the fast path with.
 func bleveTerms(a *Analyzer, text []byte) []string {
 	var terms []string
-	a.bleveEach(text, func(term []byte) { terms = append(terms, string(term)) })
+	a.bleveEach(text, func(term []byte, _ *uint64) { terms = append(terms, string(term)) })
 	return terms
 }
 
