@@ -337,11 +337,11 @@ func (b *builder) run(ctx context.Context) (*Stats, error) {
 		st := &Stats{Meta: b.meta}
 		return st, nil
 	}
+	var fw sync.WaitGroup
 	for _, w := range b.workers {
-		if err := w.finish(); err != nil {
-			return nil, err
-		}
+		fw.Go(w.finish)
 	}
+	fw.Wait()
 	st, err := b.merge(ctx)
 	if err != nil {
 		return nil, err
@@ -701,6 +701,7 @@ type worker struct {
 	memLimit int64
 	runDir   string
 	runs     []string
+	memRun   *memRun // the last dictionary, sorted, once the worker is done
 	strict   bool
 	dry      bool
 	needIDs  bool

@@ -22,13 +22,7 @@ func (w *worker) spill() error {
 	if len(w.terms) == 0 {
 		return nil
 	}
-	order := make([]int32, 0, len(w.terms))
-	for i := range w.terms {
-		if w.df[i] > 0 {
-			order = append(order, int32(i))
-		}
-	}
-	slices.SortFunc(order, func(a, b int32) int { return strings.Compare(w.terms[a], w.terms[b]) })
+	order := w.sortedTerms()
 	path := filepath.Join(w.runDir, fmt.Sprintf("run-%d-%04d", w.id, len(w.runs)))
 	fw, err := newFileWriter(path)
 	if err != nil {
@@ -60,12 +54,43 @@ func (w *worker) spill() error {
 	return nil
 }
 
-func (w *worker) finish() error { return w.spill() }
+// sortedTerms returns the ids of the terms with postings, in term byte order.
+func (w *worker) sortedTerms() []int32 {
+	order := make([]int32, 0, len(w.terms))
+	for i := range w.terms {
+		if w.df[i] > 0 {
+			order = append(order, int32(i))
+		}
+	}
+	slices.SortFunc(order, func(a, b int32) int { return strings.Compare(w.terms[a], w.terms[b]) })
+	return order
+}
 
-// runCursor reads one run file term by term.
+// finish keeps the worker's last dictionary in memory as a sorted run, so the merge reads it
+// without a trip through the disk.
+func (w *worker) finish() {
+	if len(w.terms) > 0 {
+		w.last = nil
+		w.counts = nil
+		w.memRun = &memRun{order: w.sortedTerms(), terms: w.terms, df: w.df, post: w.post}
+	}
+}
+
+// memRun is a run still in memory: the worker's dictionary in term order.
+type memRun struct {
+	order []int32
+	terms []string
+	df    []uint32
+	post  [][]byte
+}
+
+// runCursor reads one run term by term, from a file or from memory.
 type runCursor struct {
 	f    *os.File
 	r    *bufio.Reader
+	mem  *memRun
+	i    int    // next term of mem
+	buf  []byte // the rest of the current term's postings, for a run in memory
 	path string
 	term []byte
 	df   uint64
@@ -85,6 +110,18 @@ func openRun(path string) (*runCursor, error) {
 }
 
 func (c *runCursor) next() error {
+	if c.mem != nil {
+		if c.i == len(c.mem.order) {
+			c.done = true
+			return nil
+		}
+		id := c.mem.order[c.i]
+		c.i++
+		c.term = append(c.term[:0], c.mem.terms[id]...)
+		c.df, c.left, c.key = uint64(c.mem.df[id]), uint64(c.mem.df[id]), 0
+		c.buf = c.mem.post[id]
+		return nil
+	}
 	for c.left > 0 { // skip what the merge did not read
 		if err := c.posting(); err != nil {
 			return err
@@ -114,6 +151,21 @@ func (c *runCursor) next() error {
 
 // posting reads the next posting of the current term into key and tf.
 func (c *runCursor) posting() error {
+	if c.mem != nil {
+		d, k := binary.Uvarint(c.buf)
+		if k <= 0 {
+			return c.bad(io.ErrUnexpectedEOF)
+		}
+		tf, k2 := binary.Uvarint(c.buf[k:])
+		if k2 <= 0 {
+			return c.bad(io.ErrUnexpectedEOF)
+		}
+		c.buf = c.buf[k+k2:]
+		c.key += d
+		c.tf = tf
+		c.left--
+		return nil
+	}
 	d, err := binary.ReadUvarint(c.r)
 	if err != nil {
 		return c.bad(err)
@@ -141,7 +193,7 @@ func (b *builder) merge(ctx context.Context) (*Stats, error) {
 	var cursors []*runCursor
 	defer func() {
 		for _, c := range cursors {
-			if !c.done {
+			if !c.done && c.f != nil {
 				c.f.Close()
 			}
 		}
@@ -155,6 +207,13 @@ func (b *builder) merge(ctx context.Context) (*Stats, error) {
 			}
 			cursors = append(cursors, c)
 			st.Runs++
+		}
+		if w.memRun != nil {
+			c := &runCursor{mem: w.memRun, path: fmt.Sprintf("worker %d in memory", w.id)}
+			if err := c.next(); err != nil {
+				return nil, err
+			}
+			cursors = append(cursors, c)
 		}
 	}
 	lex, err := newFileWriter(filepath.Join(b.tmp, lexiconFile))

@@ -112,9 +112,9 @@ func (a *Analyzer) Each(text []byte, fn func(term []byte)) {
 }
 
 // EachTagged is Each, and also hands fn a tag: a word of memory that stays with the term while the
-// analyzer's small cache of frequent words holds it. A caller can keep there what it made of the
+// analyzer's caches hold it. A caller can keep there what it made of the
 // term, an id say, and skip its own lookup the next time the term comes. A tag is zero when new, and
-// is zeroed when its entry moves to another word; terms outside that cache get a tag that is zero on
+// is zeroed when its entry moves to another word; terms outside the caches get a tag that is zero on
 // every call. A caller that starts over must be able to tell its old tags from its new ones, for
 // example by keeping a generation number in them.
 func (a *Analyzer) EachTagged(text []byte, fn func(term []byte, tag *uint64)) {
@@ -209,6 +209,8 @@ func (a *Analyzer) emitStemmed(t []byte, n int, fn func(term []byte, tag *uint64
 	w := t[:n]
 	var stem []byte
 	var stop bool
+	tag := &a.noTag
+	a.noTag = 0
 	if n > cacheMaxKey {
 		stem, stop = a.analyzeWord(w)
 	} else {
@@ -217,20 +219,19 @@ func (a *Analyzer) emitStemmed(t []byte, n int, fn func(term []byte, tag *uint64
 		stem, stop, ok, slot = a.cache.lookup(w, uint32(h))
 		if !ok {
 			stem, stop = a.analyzeWord(w)
-			a.cache.insert(slot, w, uint32(h), stem, stop)
+			slot = a.cache.insert(slot, w, uint32(h), stem, stop)
 			// A word seen once is likely never seen again: keep it out
 			// of the hot level.
 			e = nil
 		}
+		tag = &a.cache.tags[slot]
 	}
-	tag := &a.noTag
-	a.noTag = 0
 	if e != nil && (stop || len(stem) > 0 && len(stem) <= hotMax) {
 		var b [16]byte
 		copy(b[:], stem)
 		e.k0, e.k1 = binary.LittleEndian.Uint64(t), binary.LittleEndian.Uint64(t[8:])
 		e.s0, e.s1 = binary.LittleEndian.Uint64(b[:]), binary.LittleEndian.Uint64(b[8:])
-		a.hotTag[hi] = 0
+		a.hotTag[hi] = *tag
 		tag = &a.hotTag[hi]
 	}
 	if !stop {

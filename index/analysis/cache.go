@@ -66,10 +66,12 @@ type stemCache struct {
 	// word), key bytes, stem bytes.
 	arena []byte
 	n     int
+	// tags are the callers' tags (see Analyzer.EachTagged), one per slot.
+	tags []uint64
 }
 
 func newStemCache() *stemCache {
-	return &stemCache{slots: make([]uint64, cacheSlots), arena: make([]byte, 0, 64<<10)}
+	return &stemCache{slots: make([]uint64, cacheSlots), tags: make([]uint64, cacheSlots), arena: make([]byte, 0, 64<<10)}
 }
 
 // lookup returns the record for key with hash h, or the slot where it
@@ -98,10 +100,12 @@ func (c *stemCache) lookup(key []byte, h uint32) (stem []byte, stop, ok bool, sl
 }
 
 // insert stores key at slot, as returned by a lookup since which nothing
-// was inserted.
-func (c *stemCache) insert(slot int, key []byte, h uint32, stem []byte, stop bool) {
+// was inserted, and returns the slot it is in: another one if the cache had
+// to start again.
+func (c *stemCache) insert(slot int, key []byte, h uint32, stem []byte, stop bool) int {
 	if c.n >= cacheMaxEntries || len(c.arena)+2+len(key)+len(stem) > cacheMaxArena {
 		clear(c.slots)
+		clear(c.tags)
 		c.arena = c.arena[:0]
 		c.n = 0
 		_, _, _, slot = c.lookup(key, h)
@@ -115,5 +119,7 @@ func (c *stemCache) insert(slot int, key []byte, h uint32, stem []byte, stop boo
 	c.arena = append(c.arena, key...)
 	c.arena = append(c.arena, stem...)
 	c.slots[slot] = uint64(h)<<32 | uint64(off+1)
+	c.tags[slot] = 0
 	c.n++
+	return slot
 }
