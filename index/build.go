@@ -682,6 +682,14 @@ func (b *builder) collect(ctx context.Context, outs <-chan *batchOut) error {
 	return nil
 }
 
+// termState is what a worker keeps of one term, together so that a posting touches one place.
+type termState struct {
+	post  []byte // postings: uvarint key delta, uvarint tf
+	last  uint64 // key of the last posting
+	df    uint32
+	count int32 // occurrences in the row being analysed
+}
+
 // worker analyses batches into an in-memory inverted index of its own, spilling sorted runs when its
 // share of Options.Mem is used.
 type worker struct {
@@ -691,16 +699,13 @@ type worker struct {
 	an       *analysis.Analyzer
 	ex       *jsonl.Extractor
 	dict     *termTable
-	terms    []string
-	post     [][]byte
-	last     []uint64
-	df       []uint32
-	counts   []int32
+	terms    []string    // by id
+	st       []termState // by id
 	touched  []int32
 	mem      int64
 	memLimit int64
 	runDir   string
-	runs     []string
+	runs     []runFile
 	memRun   *memRun // the last dictionary, sorted, once the worker is done
 	strict   bool
 	dry      bool
@@ -771,33 +776,30 @@ func (w *worker) do(bt *batch, paths []string) (*batchOut, error) {
 				// generation so that ids from before a spill are not taken for current ones.
 				if g := *tag; g>>32 == w.gen {
 					id := int32(uint32(g))
-					if w.counts[id] == 0 {
+					if w.st[id].count == 0 {
 						w.touched = append(w.touched, id)
 					}
-					w.counts[id]++
+					w.st[id].count++
 					return
 				}
 				id := w.dict.lookup(term, w.terms, func() int32 {
 					id := int32(len(w.terms))
 					t := string(term)
 					w.terms = append(w.terms, t)
-					w.post = append(w.post, nil)
-					w.last = append(w.last, 0)
-					w.df = append(w.df, 0)
-					w.counts = append(w.counts, 0)
+					w.st = append(w.st, termState{})
 					w.mem += int64(len(t)) + 96
 					return id
 				})
 				*tag = w.gen<<32 | uint64(uint32(id))
-				if w.counts[id] == 0 {
+				if w.st[id].count == 0 {
 					w.touched = append(w.touched, id)
 				}
-				w.counts[id]++
+				w.st[id].count++
 			})
 		})
 		if err != nil {
 			for _, id := range w.touched {
-				w.counts[id] = 0
+				w.st[id].count = 0
 			}
 			if err := reject(reasonOf(err), err); err != nil {
 				return nil, err
@@ -806,7 +808,7 @@ func (w *worker) do(bt *batch, paths []string) (*batchOut, error) {
 		}
 		if w.needIDs && !row.HasID {
 			for _, id := range w.touched {
-				w.counts[id] = 0
+				w.st[id].count = 0
 			}
 			if err := reject(fmt.Sprintf("no id in field %q", w.idField), jsonl.ErrBadID); err != nil {
 				return nil, err
@@ -815,7 +817,7 @@ func (w *worker) do(bt *batch, paths []string) (*batchOut, error) {
 		}
 		if row.HasTokens && row.Tokens >= int64(noTokens) {
 			for _, id := range w.touched {
-				w.counts[id] = 0
+				w.st[id].count = 0
 			}
 			if err := reject("token count too large", jsonl.ErrBadTokens); err != nil {
 				return nil, err
@@ -824,14 +826,15 @@ func (w *worker) do(bt *batch, paths []string) (*batchOut, error) {
 		}
 		var buf [2 * binary.MaxVarintLen64]byte
 		for _, id := range w.touched {
-			n := binary.PutUvarint(buf[:], key-w.last[id])
-			n += binary.PutUvarint(buf[n:], uint64(w.counts[id]))
-			before := cap(w.post[id])
-			w.post[id] = append(w.post[id], buf[:n]...)
-			w.mem += int64(cap(w.post[id]) - before)
-			w.last[id] = key
-			w.df[id]++
-			w.counts[id] = 0
+			ts := &w.st[id]
+			n := binary.PutUvarint(buf[:], key-ts.last)
+			n += binary.PutUvarint(buf[n:], uint64(ts.count))
+			before := cap(ts.post)
+			ts.post = append(ts.post, buf[:n]...)
+			w.mem += int64(cap(ts.post) - before)
+			ts.last = key
+			ts.df++
+			ts.count = 0
 		}
 		rec := rowRec{off: uint64(l.off), n: uint32(l.n), line: uint32(l.line), src: uint32(bt.src), alen: uint32(alen), textBytes: uint32(min(row.TextBytes, int(^uint32(0)))), tokens: noTokens}
 		if row.HasTokens {

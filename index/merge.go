@@ -13,6 +13,7 @@ import (
 	"path/filepath"
 	"slices"
 	"strings"
+	"sync"
 )
 
 // spill writes the worker's dictionary as a run sorted by term bytes and starts a new one.
@@ -30,26 +31,37 @@ func (w *worker) spill() error {
 	}
 	defer fw.abort()
 	var vb [3 * binary.MaxVarintLen64]byte
+	var off int64
+	split := int64(-1)
 	for _, id := range order {
 		t := w.terms[id]
+		if split < 0 && t >= mergeSplit {
+			split = off
+		}
 		n := binary.PutUvarint(vb[:], uint64(len(t)))
 		fw.w.Write(vb[:n])
 		fw.w.WriteString(t)
-		n = binary.PutUvarint(vb[:], uint64(w.df[id]))
-		n += binary.PutUvarint(vb[n:], uint64(len(w.post[id])))
+		off += int64(n + len(t))
+		ts := &w.st[id]
+		n = binary.PutUvarint(vb[:], uint64(ts.df))
+		n += binary.PutUvarint(vb[n:], uint64(len(ts.post)))
 		fw.w.Write(vb[:n])
-		if _, err := fw.w.Write(w.post[id]); err != nil {
+		if _, err := fw.w.Write(ts.post); err != nil {
 			return fw.fail(err)
 		}
+		off += int64(n + len(ts.post))
+	}
+	if split < 0 {
+		split = off
 	}
 	// Runs are scratch: no fsync needed, a crash discards the whole temporary folder.
 	if err := fw.closeNoSync(); err != nil {
 		return err
 	}
-	w.runs = append(w.runs, path)
+	w.runs = append(w.runs, runFile{path: path, split: split, size: off})
 	w.dict = newTermTable()
 	w.gen++
-	w.terms, w.post, w.last, w.df, w.counts = nil, nil, nil, nil, nil
+	w.terms, w.st = nil, nil
 	w.mem = 0
 	return nil
 }
@@ -58,7 +70,7 @@ func (w *worker) spill() error {
 func (w *worker) sortedTerms() []int32 {
 	order := make([]int32, 0, len(w.terms))
 	for i := range w.terms {
-		if w.df[i] > 0 {
+		if w.st[i].df > 0 {
 			order = append(order, int32(i))
 		}
 	}
@@ -70,9 +82,7 @@ func (w *worker) sortedTerms() []int32 {
 // without a trip through the disk.
 func (w *worker) finish() {
 	if len(w.terms) > 0 {
-		w.last = nil
-		w.counts = nil
-		w.memRun = &memRun{order: w.sortedTerms(), terms: w.terms, df: w.df, post: w.post}
+		w.memRun = &memRun{order: w.sortedTerms(), terms: w.terms, st: w.st}
 	}
 }
 
@@ -80,12 +90,22 @@ func (w *worker) finish() {
 type memRun struct {
 	order []int32
 	terms []string
-	df    []uint32
-	post  [][]byte
+	st    []termState
 }
+
+// runFile is a run spilled to disk; split is the offset of its first term at or past mergeSplit.
+type runFile struct {
+	path        string
+	split, size int64
+}
+
+// mergeSplit divides the term space between the two goroutines of the merge. It is fixed, not drawn
+// from the data or the number of cores, so the bytes written depend on neither.
+const mergeSplit = "m"
 
 // runCursor reads one run term by term, from a file or from memory.
 type runCursor struct {
+	end  int // for a run in memory: where its part of the terms ends
 	f    *os.File
 	r    *bufio.Reader
 	mem  *memRun
@@ -100,26 +120,40 @@ type runCursor struct {
 	done bool
 }
 
-func openRun(path string) (*runCursor, error) {
-	f, err := os.Open(path)
+// openRun opens the bytes [from, to) of a run file, which hold whole terms.
+func openRun(rf runFile, from, to int64) (*runCursor, error) {
+	f, err := os.Open(rf.path)
 	if err != nil {
 		return nil, err
 	}
-	c := &runCursor{f: f, r: bufio.NewReaderSize(f, 1<<20), path: path}
+	c := &runCursor{f: f, r: bufio.NewReaderSize(io.NewSectionReader(f, from, to-from), 1<<20), path: rf.path}
+	return c, c.next()
+}
+
+// openMemRun opens the terms of a run in memory that fall in [lo, hi); hi "" is no bound.
+func openMemRun(m *memRun, lo, hi, name string) (*runCursor, error) {
+	at := func(bound string) int {
+		i, _ := slices.BinarySearchFunc(m.order, bound, func(id int32, t string) int { return strings.Compare(m.terms[id], t) })
+		return i
+	}
+	c := &runCursor{mem: m, i: at(lo), end: len(m.order), path: name}
+	if hi != "" {
+		c.end = at(hi)
+	}
 	return c, c.next()
 }
 
 func (c *runCursor) next() error {
 	if c.mem != nil {
-		if c.i == len(c.mem.order) {
+		if c.i == c.end {
 			c.done = true
 			return nil
 		}
 		id := c.mem.order[c.i]
 		c.i++
 		c.term = append(c.term[:0], c.mem.terms[id]...)
-		c.df, c.left, c.key = uint64(c.mem.df[id]), uint64(c.mem.df[id]), 0
-		c.buf = c.mem.post[id]
+		c.df, c.left, c.key = uint64(c.mem.st[id].df), uint64(c.mem.st[id].df), 0
+		c.buf = c.mem.st[id].post
 		return nil
 	}
 	for c.left > 0 { // skip what the merge did not read
@@ -189,7 +223,71 @@ func (c *runCursor) bad(err error) error {
 
 // merge k-way merges every worker's runs into the lexicon and postings, translating batch-local
 // keys into row numbers, and computes each row's TF-IDF norm once document frequencies are final.
+// The terms below mergeSplit and those from it on are merged by two goroutines into files of their
+// own, which are then joined: lexicon entries hold lengths, not offsets, so the parts just follow.
 func (b *builder) merge(ctx context.Context) (*Stats, error) {
+	st := &Stats{}
+	for _, w := range b.workers {
+		st.Runs += len(w.runs)
+	}
+	bounds := [2][2]string{{"", mergeSplit}, {mergeSplit, ""}}
+	var parts [2]mergePart
+	var wg sync.WaitGroup
+	for i := range parts {
+		p := &parts[i]
+		p.lo, p.hi = bounds[i][0], bounds[i][1]
+		p.lex = filepath.Join(b.tmp, fmt.Sprintf("%s.part%d", lexiconFile, i))
+		p.post = filepath.Join(b.tmp, fmt.Sprintf("%s.part%d", postingsFile, i))
+		wg.Go(func() { p.err = b.mergePart(ctx, p) })
+	}
+	wg.Wait()
+	for i := range parts {
+		if parts[i].err != nil {
+			return nil, parts[i].err
+		}
+		b.meta.Terms += parts[i].terms
+		b.meta.Postings += parts[i].postings
+	}
+	for _, f := range []struct{ name, a, b string }{
+		{lexiconFile, parts[0].lex, parts[1].lex},
+		{postingsFile, parts[0].post, parts[1].post},
+	} {
+		if err := joinFiles(filepath.Join(b.tmp, f.name), f.a, f.b); err != nil {
+			return nil, err
+		}
+	}
+	nw, err := newFileWriter(filepath.Join(b.tmp, normsFile))
+	if err != nil {
+		return nil, err
+	}
+	defer nw.abort()
+	var fb [8]byte
+	for r, v := range parts[0].norm2 {
+		v += parts[1].norm2[r]
+		binary.LittleEndian.PutUint64(fb[:], math.Float64bits(math.Sqrt(v)))
+		if err := nw.write(fb[:]); err != nil {
+			return nil, err
+		}
+	}
+	if err := nw.close(); err != nil {
+		return nil, err
+	}
+	for i := range b.meta.Sources {
+		b.meta.Sources[i].Rows = b.srcRows[i]
+	}
+	return st, nil
+}
+
+// mergePart is the merge of the terms in [lo, hi) into files of their own.
+type mergePart struct {
+	lo, hi          string
+	lex, post       string
+	norm2           []float64 // sum over the part's terms of (tf·idf)² per row
+	terms, postings int64
+	err             error
+}
+
+func (b *builder) mergePart(ctx context.Context, p *mergePart) error {
 	var cursors []*runCursor
 	defer func() {
 		for _, c := range cursors {
@@ -198,37 +296,40 @@ func (b *builder) merge(ctx context.Context) (*Stats, error) {
 			}
 		}
 	}()
-	st := &Stats{}
 	for _, w := range b.workers {
-		for _, p := range w.runs {
-			c, err := openRun(p)
+		for _, rf := range w.runs {
+			from, to := int64(0), rf.split
+			if p.lo != "" {
+				from, to = rf.split, rf.size
+			}
+			c, err := openRun(rf, from, to)
 			if err != nil {
-				return nil, fmt.Errorf("build index: %w", err)
+				return fmt.Errorf("build index: %w", err)
 			}
 			cursors = append(cursors, c)
-			st.Runs++
 		}
 		if w.memRun != nil {
-			c := &runCursor{mem: w.memRun, path: fmt.Sprintf("worker %d in memory", w.id)}
-			if err := c.next(); err != nil {
-				return nil, err
+			c, err := openMemRun(w.memRun, p.lo, p.hi, fmt.Sprintf("worker %d in memory", w.id))
+			if err != nil {
+				return err
 			}
 			cursors = append(cursors, c)
 		}
 	}
-	lex, err := newFileWriter(filepath.Join(b.tmp, lexiconFile))
+	lex, err := newFileWriter(p.lex)
 	if err != nil {
-		return nil, err
+		return err
 	}
 	defer lex.abort()
-	post, err := newFileWriter(filepath.Join(b.tmp, postingsFile))
+	post, err := newFileWriter(p.post)
 	if err != nil {
-		return nil, err
+		return err
 	}
 	defer post.abort()
 
 	n := b.meta.Rows
 	norm2 := make([]float64, n)
+	p.norm2 = norm2
 	var vb [3 * binary.MaxVarintLen64]byte
 	var same []*runCursor
 	var cur []byte
@@ -236,7 +337,7 @@ func (b *builder) merge(ctx context.Context) (*Stats, error) {
 	for terms := 0; ; terms++ {
 		if terms%4096 == 0 {
 			if err := ctx.Err(); err != nil {
-				return nil, err
+				return err
 			}
 		}
 		same = same[:0]
@@ -266,7 +367,7 @@ func (b *builder) merge(ctx context.Context) (*Stats, error) {
 		for _, c := range same {
 			df += c.df
 			if err := c.posting(); err != nil {
-				return nil, err
+				return err
 			}
 		}
 		// Smooth idf as in score's TF-IDF: ln((1+N)/(1+df)) + 1.
@@ -288,11 +389,11 @@ func (b *builder) merge(ctx context.Context) (*Stats, error) {
 			}
 			seq := best.key >> localBits
 			if seq >= uint64(len(b.base)) {
-				return nil, fmt.Errorf("build index: run %s: batch %d out of range", best.path, seq)
+				return fmt.Errorf("build index: run %s: batch %d out of range", best.path, seq)
 			}
 			row := b.base[seq] + int64(best.key&mask)
 			if row <= prev || row >= n {
-				return nil, fmt.Errorf("build index: run %s: posting order broken at row %d", best.path, row)
+				return fmt.Errorf("build index: run %s: posting order broken at row %d", best.path, row)
 			}
 			tf := best.tf
 			var k int
@@ -303,14 +404,14 @@ func (b *builder) merge(ctx context.Context) (*Stats, error) {
 				k += binary.PutUvarint(vb[k:], tf)
 			}
 			if err := post.write(vb[:k]); err != nil {
-				return nil, err
+				return err
 			}
 			w := float64(tf) * idf
 			norm2[row] += w * w
 			prev = row
 			if best.left > 0 {
 				if err := best.posting(); err != nil {
-					return nil, err
+					return err
 				}
 			} else {
 				best.tf = 0
@@ -322,41 +423,43 @@ func (b *builder) merge(ctx context.Context) (*Stats, error) {
 		k = binary.PutUvarint(vb[:], df)
 		k += binary.PutUvarint(vb[k:], uint64(post.n-start))
 		if err := lex.write(vb[:k]); err != nil {
-			return nil, err
+			return err
 		}
-		b.meta.Terms++
-		b.meta.Postings += int64(df)
+		p.terms++
+		p.postings += int64(df)
 		for _, c := range same {
 			if err := c.next(); err != nil {
-				return nil, err
+				return err
 			}
 		}
 	}
-	if err := lex.close(); err != nil {
-		return nil, err
+	// The parts are joined and synced as one file; they need no sync of their own.
+	if err := lex.closeNoSync(); err != nil {
+		return err
 	}
-	if err := post.close(); err != nil {
-		return nil, err
-	}
-	nw, err := newFileWriter(filepath.Join(b.tmp, normsFile))
+	return post.closeNoSync()
+}
+
+// joinFiles writes the concatenation of a and b to dst, synced, and removes a and b.
+func joinFiles(dst, a, b string) error {
+	w, err := newFileWriter(dst)
 	if err != nil {
-		return nil, err
+		return err
 	}
-	defer nw.abort()
-	var fb [8]byte
-	for _, v := range norm2 {
-		binary.LittleEndian.PutUint64(fb[:], math.Float64bits(math.Sqrt(v)))
-		if err := nw.write(fb[:]); err != nil {
-			return nil, err
+	defer w.abort()
+	for _, p := range []string{a, b} {
+		f, err := os.Open(p)
+		if err != nil {
+			return fmt.Errorf("build index: %w", err)
 		}
+		_, err = io.Copy(w.w, f)
+		f.Close()
+		if err != nil {
+			return w.fail(err)
+		}
+		os.Remove(p)
 	}
-	if err := nw.close(); err != nil {
-		return nil, err
-	}
-	for i := range b.meta.Sources {
-		b.meta.Sources[i].Rows = b.srcRows[i]
-	}
-	return st, nil
+	return w.close()
 }
 
 func (b *builder) writeMeta() error {
