@@ -121,6 +121,10 @@ type Params struct {
 	// lists used by the most target rows are kept first. 0 means
 	// DefaultCacheBytes; a negative value keeps nothing.
 	CacheBytes int64
+	// SkipBest, with Sum, leaves Result.Best nil instead of finding each
+	// row's best target row: the one pass over the combined query is then
+	// all the work, where Best needs one pass per target row.
+	SkipBest bool
 }
 
 // DefaultCacheBytes is the posting cache bound used when Params.CacheBytes is 0.
@@ -146,6 +150,8 @@ func (p Params) Validate() error {
 		return fmt.Errorf("score: b = %v, want 0 <= b <= 1: %w", p.B, ErrInvalidParams)
 	case p.Workers < 0:
 		return fmt.Errorf("score: %d workers, want >= 0: %w", p.Workers, ErrInvalidParams)
+	case p.SkipBest && p.Aggregate != Sum:
+		return fmt.Errorf("score: SkipBest needs Sum aggregation, where Best costs extra: %w", ErrInvalidParams)
 	}
 	return nil
 }
@@ -173,7 +179,7 @@ type Result struct {
 	Scores []float64 // one per pool row
 	// Best is, per pool row, the index into the queries of the target row that
 	// scored highest against it (ties go to the lowest index), or -1 if no target
-	// row shares a term with it.
+	// row shares a term with it; nil with Params.SkipBest.
 	Best []int32
 	Work Work
 }
@@ -222,6 +228,10 @@ func Score(ctx context.Context, c Corpus, q []Query, p Params) (*Result, error) 
 	if p.Aggregate == Sum {
 		if err := s.combinedPass(ctx, res.Scores, &res.Work); err != nil {
 			return nil, err
+		}
+		if p.SkipBest {
+			res.Best = nil
+			return res, nil
 		}
 		bestScore = make([]float64, n)
 	}

@@ -677,3 +677,36 @@ func TestCancelDuringPasses(t *testing.T) {
 		}
 	}
 }
+
+// TestSkipBest checks that skipping Best in Sum mode leaves every score bit-identical and does less
+// work, and that it is refused where it would change nothing (Max finds Best for free).
+func TestSkipBest(t *testing.T) {
+	pool, targets := fixtureTexts(t)
+	c := newMemCorpus(pool)
+	for _, m := range []Method{BM25, TFIDF} {
+		p := DefaultParams()
+		p.Method = m
+		full, err := Score(context.Background(), c, targets, p)
+		if err != nil {
+			t.Fatal(err)
+		}
+		p.SkipBest = true
+		quick, err := Score(context.Background(), c, targets, p)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if quick.Best != nil {
+			t.Errorf("%v: Best not nil with SkipBest", m)
+		}
+		if !slices.EqualFunc(quick.Scores, full.Scores, func(a, b float64) bool { return math.Float64bits(a) == math.Float64bits(b) }) {
+			t.Errorf("%v: scores differ with SkipBest", m)
+		}
+		if quick.Work.Postings >= full.Work.Postings {
+			t.Errorf("%v: SkipBest visited %d postings, full %d", m, quick.Work.Postings, full.Work.Postings)
+		}
+		p.Aggregate = Max
+		if _, err := Score(context.Background(), c, targets, p); !errors.Is(err, ErrInvalidParams) {
+			t.Errorf("%v: SkipBest with Max: %v, want ErrInvalidParams", m, err)
+		}
+	}
+}

@@ -57,6 +57,7 @@ evaluation sets from the pool before picking, or the pick will find them.`,
 	fs.String("target-id", "", "field holding each target row's id (default: the index's id field, else file:line)")
 	fs.String("method", "bm25", "scoring: bm25 or tfidf")
 	fs.String("aggregate", "sum", "over target rows: sum (the set as one query) or max (nearest target row)")
+	fs.Bool("attribute", true, "name, for every row, the target row that contributed most; with --aggregate sum\nthis costs one pass per target row, and --attribute=false skips it")
 	fs.Float64("k1", 1.2, "BM25 term-frequency saturation")
 	fs.Float64("b", 0.75, "BM25 length normalisation")
 	fs.String("budget", "", "total FLOPs for selection plus training, e.g. 2.5e18 or 400P")
@@ -120,6 +121,9 @@ func pickConfigFrom(fs *pflag.FlagSet) (*pickConfig, error) {
 		return nil, usagef("--aggregate: %v", err)
 	}
 	p.K1, p.B = num("k1"), num("b")
+	if attr, _ := fs.GetBool("attribute"); !attr && p.Aggregate == score.Sum {
+		p.SkipBest = true
+	}
 	if !(p.K1 >= 0 && !math.IsInf(p.K1, 0)) {
 		return nil, usagef("--k1 %v: must be a finite number, 0 or more", p.K1)
 	}
@@ -427,7 +431,9 @@ func writeScores(w *bufio.Writer, pr *pickResult) error {
 		b = append(b, `,"tokens":`...)
 		b = strconv.AppendInt(b, pr.tokens[r], 10)
 		b = append(b, `,"target":`...)
-		if t := pr.res.Best[r]; t >= 0 {
+		if pr.res.Best == nil {
+			b = append(b, "null"...) // not asked for (--attribute=false)
+		} else if t := pr.res.Best[r]; t >= 0 {
 			b = appendJSONString(b, pr.targets[t].ID)
 		} else {
 			b = append(b, "null"...)
@@ -442,9 +448,18 @@ func writeScores(w *bufio.Writer, pr *pickResult) error {
 	return nil
 }
 
+// appendJSONString appends s as a JSON string. Ids are nearly always plain ASCII, which is copied
+// as it is; anything else goes through encoding/json.
 func appendJSONString(b []byte, s string) []byte {
-	q, _ := json.Marshal(s)
-	return append(b, q...)
+	for i := 0; i < len(s); i++ {
+		if c := s[i]; c < 0x20 || c >= 0x7f || c == '"' || c == '\\' || c == '<' || c == '>' || c == '&' {
+			q, _ := json.Marshal(s)
+			return append(b, q...)
+		}
+	}
+	b = append(b, '"')
+	b = append(b, s...)
+	return append(b, '"')
 }
 
 func fmtCount(v float64) string {
