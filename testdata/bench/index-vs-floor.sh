@@ -43,10 +43,12 @@ done
 # A new 1,000-row target on a built index: pick time against build time.
 python3 "$shared/scripts/t0-split.py" sentiment "$work/split" --target-rows 1000 >/dev/null
 read -r bs _ < <(secs "$S" index --quiet --id id --out "$work/split.idx" "$work/split/pool.jsonl")
-for agg in sum max; do
-	read -r ps _ < <(secs "$S" pick --quiet --index "$work/split.idx" --target "$work/split/target.jsonl" \
-		--aggregate "$agg" --budget 1e30 --train-params 1B --out "$work/run-$agg")
-	echo "pick bm25/$agg with 1000 target rows: ${ps}s against build ${bs}s = $(echo "scale=1; 100 * $ps / $bs" | bc)%"
+for method in bm25 tfidf; do
+	for agg in "sum" "sum --attribute=false" "max"; do
+		read -r ps _ < <(secs "$S" pick --quiet --index "$work/split.idx" --target "$work/split/target.jsonl" \
+			--method $method --aggregate $agg --budget 1e16 --train-params 1B --out "$work/run")
+		echo "pick $method --aggregate $agg, 1000 target rows: ${ps}s against build ${bs}s = $(echo "scale=1; 100 * $ps / $bs" | bc)%"
+	done
 done
 
 # Peak memory for a pool of about 1 GB at the default --mem.
