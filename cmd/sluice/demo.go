@@ -103,13 +103,22 @@ func (c *demoCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 		return err
 	}
 	want := demodata.TargetTopic
-	say("\nkept rows by topic (pool share in brackets):\n")
+	say("\nkept rows by topic:\n")
+	var restRows, restTopics int
 	for _, t := range topics {
+		if t.kept == 0 && t.name != want {
+			restRows += t.pool
+			restTopics++
+			continue
+		}
 		mark := ""
 		if t.name == want {
 			mark = "   <- the target task"
 		}
-		say("  %-24s %4d of %4d kept  (%4.1f%% of pool)%s\n", t.name, t.kept, t.pool, 100*float64(t.pool)/float64(st.Rows), mark)
+		say("  %-22s %4d of %4d rows kept (%4.1f%% of the pool)%s\n", t.name, t.kept, t.pool, 100*float64(t.pool)/float64(st.Rows), mark)
+	}
+	if restTopics > 0 {
+		say("  %d other topics           0 of %4d rows kept\n", restTopics, restRows)
 	}
 	if len(pr.kept) > 0 {
 		var hit int
