@@ -123,14 +123,19 @@ func ParseFLOPs(s string) (float64, error) {
 	} else if strings.HasSuffix(low, "flop") {
 		t = t[:len(t)-4]
 	}
-	t = strings.TrimRight(t, " ")
+	return parsePositive(what, s, strings.TrimRight(t, " "), flopSuffixes, false)
+}
+
+// parsePositive parses t, the number in s with its unit word removed, as a decimal with an optional
+// suffix from suffixes, and requires it to be greater than zero.
+func parsePositive(what, s, t string, suffixes map[string]int, foldCase bool) (float64, error) {
 	if t == "" {
 		return 0, badNumber(what, s, "empty")
 	}
 	if t[0] == '-' {
 		return 0, badNumber(what, s, "negative")
 	}
-	num, shift := cutSuffix(t, flopSuffixes, false)
+	num, shift := cutSuffix(t, suffixes, foldCase)
 	d, why := scanDecimal(num, true)
 	if why != "" {
 		return 0, badNumber(what, s, why)
@@ -154,27 +159,7 @@ var countSuffixes = map[string]int{"k": 3, "m": 6, "b": 9, "t": 12}
 // or tokens: "7B", "1.3B", "350M", "125k", "2T" or "7e9". Suffixes are k
 // (1e3), M (1e6), B (billion, 1e9) and T (1e12), in either case.
 func ParseCount(s string) (float64, error) {
-	const what = "count"
-	t := strings.TrimSpace(s)
-	if t == "" {
-		return 0, badNumber(what, s, "empty")
-	}
-	if t[0] == '-' {
-		return 0, badNumber(what, s, "negative")
-	}
-	num, shift := cutSuffix(t, countSuffixes, true)
-	d, why := scanDecimal(num, true)
-	if why != "" {
-		return 0, badNumber(what, s, why)
-	}
-	v, err := d.float(shift)
-	if err != nil {
-		return 0, badNumber(what, s, err.Error())
-	}
-	if v <= 0 {
-		return 0, badNumber(what, s, "must be greater than zero")
-	}
-	return v, nil
+	return parsePositive("count", s, strings.TrimSpace(s), countSuffixes, true)
 }
 
 // sizeUnits maps lower-cased byte units to their multipliers. Decimal

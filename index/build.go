@@ -202,8 +202,8 @@ func Build(ctx context.Context, dir string, sources []string, opt Options) (*Sta
 	}
 	if opt.DryRun && dir == "" {
 		dir = filepath.Join(os.TempDir(), "sluice-dry-run")
-	} else if err := checkTarget(dir); err != nil {
-		return nil, err
+	} else if err := atomicdir.CheckReplaceable(dir, isIndex); err != nil {
+		return nil, fmt.Errorf("build index: %w", err)
 	}
 	tmp, err := atomicdir.Temp(dir)
 	if err != nil {

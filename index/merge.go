@@ -5,7 +5,6 @@ import (
 	"context"
 	"encoding/binary"
 	"encoding/json"
-	"errors"
 	"fmt"
 	"io"
 	"math"
@@ -551,31 +550,12 @@ func (w *fileWriter) abort() {
 	}
 }
 
-// checkTarget refuses to build over anything but nothing, an empty folder or an earlier index.
-func checkTarget(dir string) error {
-	fi, err := os.Stat(dir)
-	if errors.Is(err, os.ErrNotExist) {
-		return nil
-	}
-	if err != nil {
-		return fmt.Errorf("build index: %w", err)
-	}
-	if !fi.IsDir() {
-		return fmt.Errorf("build index: %s exists and is not a folder", dir)
-	}
-	entries, err := os.ReadDir(dir)
-	if err != nil {
-		return fmt.Errorf("build index: %w", err)
-	}
-	if len(entries) == 0 {
-		return nil
-	}
+// isIndex says whether dir holds an index of some version, which a build may replace.
+func isIndex(dir string) bool {
 	b, err := os.ReadFile(filepath.Join(dir, metaFile))
-	if err == nil {
-		var m struct{ Format string }
-		if json.Unmarshal(b, &m) == nil && m.Format == Format {
-			return nil
-		}
+	if err != nil {
+		return false
 	}
-	return fmt.Errorf("build index: refusing to replace %s: it is not empty and not a sluice index", dir)
+	var m struct{ Format string }
+	return json.Unmarshal(b, &m) == nil && m.Format == Format
 }

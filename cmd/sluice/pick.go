@@ -4,7 +4,6 @@ import (
 	"bufio"
 	"context"
 	"encoding/json"
-	"errors"
 	"fmt"
 	"math"
 	"os"
@@ -309,34 +308,13 @@ func stopText(s selection.Summary, cfg *pickConfig) string {
 	return s.Stop.String()
 }
 
-// checkRunTarget refuses to replace anything but an earlier run folder or an empty one, before any
-// work is done.
+// checkRunTarget refuses, before any work is done, to replace anything but an earlier run folder
+// or an empty one.
 func checkRunTarget(dir string) error {
-	fi, err := os.Stat(dir)
-	if errors.Is(err, os.ErrNotExist) {
-		parent := filepath.Dir(filepath.Clean(dir))
-		if pfi, perr := os.Stat(parent); perr != nil || !pfi.IsDir() {
-			return fmt.Errorf("write run %s: parent folder %s does not exist", dir, parent)
-		}
-		return nil
-	}
-	if err != nil {
-		return fmt.Errorf("write run: %w", err)
-	}
-	if !fi.IsDir() {
-		return fmt.Errorf("write run %s: exists and is not a folder", dir)
-	}
-	entries, err := os.ReadDir(dir)
-	if err != nil {
-		return fmt.Errorf("write run: %w", err)
-	}
-	if len(entries) == 0 {
-		return nil
-	}
-	if _, err := os.Stat(filepath.Join(dir, "ledger.json")); err == nil {
-		return nil
-	}
-	return fmt.Errorf("write run %s: refusing to replace a folder that is not a sluice run", dir)
+	return atomicdir.CheckReplaceable(dir, func(dir string) bool {
+		_, err := os.Stat(filepath.Join(dir, "ledger.json"))
+		return err == nil
+	})
 }
 
 func writeRun(cfg *pickConfig, pr *pickResult, trej []index.Reject) error {

@@ -67,3 +67,34 @@ func syncDir(dir string) error {
 	}
 	return nil
 }
+
+// ErrNotOurs is returned by CheckReplaceable for a folder that Publish must not replace.
+var ErrNotOurs = errors.New("refusing to replace a folder that is neither empty nor made by sluice")
+
+// CheckReplaceable reports whether dir may be published over: it does not exist and its parent
+// does, or it is an empty folder, or ours says it is a folder of the same kind. It is checked before
+// any work is done, so a mistyped path costs nothing and destroys nothing.
+func CheckReplaceable(dir string, ours func(dir string) bool) error {
+	fi, err := os.Stat(dir)
+	if errors.Is(err, os.ErrNotExist) {
+		parent := filepath.Dir(filepath.Clean(dir))
+		if pfi, perr := os.Stat(parent); perr != nil || !pfi.IsDir() {
+			return fmt.Errorf("write %s: parent folder %s does not exist", dir, parent)
+		}
+		return nil
+	}
+	if err != nil {
+		return fmt.Errorf("write %s: %w", dir, err)
+	}
+	if !fi.IsDir() {
+		return fmt.Errorf("write %s: exists and is not a folder", dir)
+	}
+	entries, err := os.ReadDir(dir)
+	if err != nil {
+		return fmt.Errorf("write %s: %w", dir, err)
+	}
+	if len(entries) == 0 || ours(dir) {
+		return nil
+	}
+	return fmt.Errorf("write %s: %w", dir, ErrNotOurs)
+}

@@ -1,6 +1,7 @@
 package atomicdir
 
 import (
+	"errors"
 	"os"
 	"path/filepath"
 	"testing"
@@ -34,5 +35,36 @@ func TestPublish(t *testing.T) {
 	entries, _ := os.ReadDir(filepath.Dir(dir))
 	if len(entries) != 1 {
 		t.Errorf("left beside the folder: %v", entries)
+	}
+}
+
+func TestCheckReplaceable(t *testing.T) {
+	root := t.TempDir()
+	full := filepath.Join(root, "full")
+	os.Mkdir(full, 0o755)
+	os.WriteFile(filepath.Join(full, "precious.txt"), []byte("x"), 0o644)
+	empty := filepath.Join(root, "empty")
+	os.Mkdir(empty, 0o755)
+	file := filepath.Join(root, "file")
+	os.WriteFile(file, nil, 0o644)
+	no := func(string) bool { return false }
+	yes := func(string) bool { return true }
+	for _, tc := range []struct {
+		dir   string
+		ours  func(string) bool
+		ok    bool
+		notUs bool
+	}{
+		{filepath.Join(root, "new"), no, true, false},
+		{empty, no, true, false},
+		{full, yes, true, false},
+		{full, no, false, true},
+		{file, yes, false, false},
+		{filepath.Join(root, "missing", "new"), no, false, false},
+	} {
+		err := CheckReplaceable(tc.dir, tc.ours)
+		if (err == nil) != tc.ok || errors.Is(err, ErrNotOurs) != tc.notUs {
+			t.Errorf("%s: %v", tc.dir, err)
+		}
 	}
 }
