@@ -216,6 +216,7 @@ func Build(ctx context.Context, dir string, sources []string, opt Options) (*Sta
 		}
 	}()
 	b := &builder{
+		dir:   dir,
 		opt:   opt,
 		tmp:   tmp,
 		spec:  spec,
@@ -237,6 +238,7 @@ func Build(ctx context.Context, dir string, sources []string, opt Options) (*Sta
 }
 
 type builder struct {
+	dir   string // where the index is published
 	opt   Options
 	tmp   string
 	spec  jsonl.Spec
@@ -491,12 +493,39 @@ func (b *builder) read(ctx context.Context, out chan<- *batch, specReady chan<- 
 		if err := src.close(); err != nil {
 			return err
 		}
-		b.meta.Sources = append(b.meta.Sources, src.meta())
+		m := src.meta()
+		if m.Stored == "" {
+			if m.Locate, err = locate(b.dir, path); err != nil {
+				return err
+			}
+		}
+		b.meta.Sources = append(b.meta.Sources, m)
 	}
 	if !ready && len(sample) == 0 && b.opt.Text == "" {
 		return fmt.Errorf("build index: %s: the pool is empty: %w", b.paths[0], jsonl.ErrNoShape)
 	}
 	return flushSample()
+}
+
+// locate returns how an index at dir finds the pool file path later: path itself when absolute,
+// else path relative to dir.
+func locate(dir, path string) (string, error) {
+	if filepath.IsAbs(path) {
+		return path, nil
+	}
+	ad, err := filepath.Abs(dir)
+	if err != nil {
+		return "", fmt.Errorf("build index: %w", err)
+	}
+	ap, err := filepath.Abs(path)
+	if err != nil {
+		return "", fmt.Errorf("build index: %w", err)
+	}
+	rel, err := filepath.Rel(ad, ap)
+	if err != nil {
+		return ap, nil
+	}
+	return rel, nil
 }
 
 // source is one pool file being read: its raw bytes are hashed on the way in, and stdin is also

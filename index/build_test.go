@@ -306,3 +306,32 @@ func TestManySmallFiles(t *testing.T) {
 		}
 	}
 }
+
+// TestCopyFromAnotherFolder builds with a relative pool path and copies rows with the working
+// folder elsewhere, as a pick run from another folder does.
+func TestCopyFromAnotherFolder(t *testing.T) {
+	root := t.TempDir()
+	data, _ := os.ReadFile(testPool(t, 20))
+	os.Mkdir(filepath.Join(root, "pools"), 0o755)
+	os.WriteFile(filepath.Join(root, "pools", "p.jsonl"), data, 0o644)
+	t.Chdir(root)
+	if _, err := Build(context.Background(), "idx", []string{"pools/p.jsonl"}, Options{}); err != nil {
+		t.Fatal(err)
+	}
+	t.Chdir(filepath.Join(root, "pools"))
+	ix, err := Open("../idx")
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer ix.Close()
+	if got := ix.Meta().Sources[0]; got.Path != "pools/p.jsonl" || got.Locate != "../pools/p.jsonl" {
+		t.Errorf("source %+v", got)
+	}
+	var buf bytes.Buffer
+	if err := ix.CopyRows(&buf, []int{0}); err != nil {
+		t.Fatal(err)
+	}
+	if !bytes.HasPrefix(data, buf.Bytes()) || buf.Len() == 0 {
+		t.Errorf("copied %q", buf.Bytes())
+	}
+}

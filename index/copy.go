@@ -34,10 +34,15 @@ func (ix *Index) CopyRows(w io.Writer, rows []int) error {
 }
 
 func (ix *Index) sourcePath(s Source) string {
-	if s.Stored != "" {
+	switch {
+	case s.Stored != "":
 		return filepath.Join(ix.dir, s.Stored)
+	case s.Locate == "":
+		return s.Path
+	case filepath.IsAbs(s.Locate):
+		return s.Locate
 	}
-	return s.Path
+	return filepath.Join(ix.dir, s.Locate)
 }
 
 func (ix *Index) copyFrom(w io.Writer, si int, rows []int) error {

@@ -66,8 +66,12 @@ type Meta struct {
 
 // Source is one pool file as it was when indexed.
 type Source struct {
-	Path        string `json:"path"`
-	Stored      string `json:"stored,omitempty"` // file inside the index folder holding the bytes, for stdin
+	Path   string `json:"path"`
+	Stored string `json:"stored,omitempty"` // file inside the index folder holding the bytes, for stdin
+	// Locate is where to open the file to copy rows from it: the path as given when it was absolute,
+	// else relative to the index folder, so a pick run from any folder finds it and the index bytes do
+	// not depend on where the build ran.
+	Locate      string `json:"locate,omitempty"`
 	Size        int64  `json:"size"`
 	SHA256      string `json:"sha256"`
 	Compression string `json:"compression"`
