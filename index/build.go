@@ -573,7 +573,7 @@ func (b *builder) openSource(path string) (*source, error) {
 	} else {
 		f, err := os.Open(path)
 		if err != nil {
-			return nil, fmt.Errorf("read %w", err)
+			return nil, pathErr("read", err)
 		}
 		if fi, err := f.Stat(); err == nil && fi.IsDir() {
 			f.Close()

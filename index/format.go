@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"hash/crc32"
 	"io"
+	"io/fs"
 	"os"
 	"path/filepath"
 )
@@ -84,6 +85,15 @@ type File struct {
 	CRC32C string `json:"crc32c"`
 }
 
+// pathErr words a file system error as "verb path: cause", where os would say "verb open path: cause".
+func pathErr(verb string, err error) error {
+	var pe *fs.PathError
+	if errors.As(err, &pe) {
+		return fmt.Errorf("%s %s: %w", verb, pe.Path, pe.Err)
+	}
+	return fmt.Errorf("%s: %w", verb, err)
+}
+
 func checksumFile(path string) (File, error) {
 	f, err := os.Open(path)
 	if err != nil {
@@ -104,7 +114,7 @@ func readMeta(dir string) (*Meta, error) {
 	if err != nil {
 		if errors.Is(err, os.ErrNotExist) {
 			if _, serr := os.Stat(dir); serr != nil {
-				return nil, fmt.Errorf("open index %s: %w", dir, serr)
+				return nil, pathErr("open index", serr)
 			}
 			return nil, fmt.Errorf("open index %s: no %s: %w", dir, metaFile, ErrNotIndex)
 		}

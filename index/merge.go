@@ -504,7 +504,7 @@ type fileWriter struct {
 func newFileWriter(path string) (*fileWriter, error) {
 	f, err := os.Create(path)
 	if err != nil {
-		return nil, fmt.Errorf("write %w", err)
+		return nil, pathErr("write", err)
 	}
 	return &fileWriter{path: path, f: f, w: bufio.NewWriterSize(f, 1<<20)}, nil
 }

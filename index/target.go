@@ -28,7 +28,7 @@ func ReadTargets(path, spec, idField string, an *analysis.Analyzer, maxRowBytes 
 	}
 	rc, _, err := jsonl.Open(path)
 	if err != nil {
-		return nil, nil, fmt.Errorf("read target %w", err)
+		return nil, nil, pathErr("read target", err)
 	}
 	defer rc.Close()
 	sc := jsonl.NewScanner(rc, maxRowBytes)

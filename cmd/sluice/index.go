@@ -2,6 +2,7 @@ package main
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"os"
 	"strings"
@@ -95,7 +96,11 @@ func (c *indexCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 		}
 		fi, err := os.Stat(p)
 		if err != nil {
-			return fmt.Errorf("read %w", err)
+			var pe *os.PathError
+			if errors.As(err, &pe) {
+				err = pe.Err
+			}
+			return fmt.Errorf("read %s: %w", p, err)
 		}
 		if fi.IsDir() {
 			return fmt.Errorf("read %s: is a folder, not a JSONL file", p)
