@@ -5,6 +5,7 @@ import (
 	"bytes"
 	"context"
 	"encoding/json"
+	"io"
 	"os"
 	"path/filepath"
 	"strings"
@@ -12,6 +13,7 @@ import (
 
 	"sluice/budget"
 	"sluice/cmd/sluice/demodata"
+	"sluice/index/jsonl"
 )
 
 // sluice runs the command in-process and returns its exit status, stdout and stderr.
@@ -191,5 +193,34 @@ func TestAppendJSONString(t *testing.T) {
 		if string(got) != string(want) {
 			t.Errorf("%q: got %s, want %s (encoding/json)", s, got, want)
 		}
+	}
+}
+
+// TestCompressedKept checks that kept.jsonl.gz and kept.jsonl.zst decompress to kept.jsonl.
+func TestCompressedKept(t *testing.T) {
+	dir := t.TempDir()
+	pool, target := filepath.Join(dir, "pool.jsonl"), filepath.Join(dir, "target.jsonl")
+	os.WriteFile(pool, demodata.Pool(), 0o644)
+	os.WriteFile(target, demodata.Target(), 0o644)
+	idx := filepath.Join(dir, "idx")
+	if code, _, stderr := sluice(t, "index", "--quiet", "--out", idx, pool); code != 0 {
+		t.Fatal(stderr)
+	}
+	runs := map[string][]byte{}
+	for _, c := range []string{"none", "gzip", "zstd"} {
+		out := filepath.Join(dir, "run-"+c)
+		if code, _, stderr := sluice(t, "pick", "--quiet", "--index", idx, "--target", target, "--budget", "5e12",
+			"--train-params", "125M", "--compress", c, "--out", out); code != 0 {
+			t.Fatal(stderr)
+		}
+		rc, _, err := jsonl.Open(filepath.Join(out, keptName(c)))
+		if err != nil {
+			t.Fatal(err)
+		}
+		runs[c], _ = io.ReadAll(rc)
+		rc.Close()
+	}
+	if len(runs["none"]) == 0 || !bytes.Equal(runs["gzip"], runs["none"]) || !bytes.Equal(runs["zstd"], runs["none"]) {
+		t.Errorf("compressed kept rows differ: %d / %d / %d bytes", len(runs["none"]), len(runs["gzip"]), len(runs["zstd"]))
 	}
 }

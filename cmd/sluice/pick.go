@@ -12,6 +12,8 @@ import (
 	"strings"
 	"time"
 
+	"github.com/klauspost/compress/gzip"
+	"github.com/klauspost/compress/zstd"
 	"github.com/spf13/pflag"
 
 	"sluice/budget"
@@ -69,6 +71,7 @@ evaluation sets from the pool before picking, or the pick will find them.`,
 	fs.Int("max-rows", 0, "keep at most this many rows (0: no limit)")
 	fs.Float64("min-score", 0, "keep only rows scoring at least this; rows sharing no term are never kept")
 	fs.String("out", "", "run folder to write (required)")
+	fs.String("compress", "none", "write the kept rows as kept.jsonl (none), kept.jsonl.gz (gzip) or kept.jsonl.zst (zstd)")
 	fs.BoolP("quiet", "q", false, "print nothing but errors")
 	return fs
 }
@@ -86,6 +89,7 @@ type pickConfig struct {
 	epochs     float64
 	sel        selection.Options
 	out        string
+	compress   string
 	quiet      bool
 }
 
@@ -106,6 +110,11 @@ func pickConfigFrom(fs *pflag.FlagSet) (*pickConfig, error) {
 	num := func(n string) float64 { v, _ := fs.GetFloat64(n); return v }
 	cfg := &pickConfig{indexDir: str("index"), target: str("target"), targetText: str("target-text"), targetID: str("target-id"), out: str("out")}
 	cfg.quiet, _ = fs.GetBool("quiet")
+	switch cfg.compress = str("compress"); cfg.compress {
+	case "none", "gzip", "zstd":
+	default:
+		return nil, usagef("--compress %q: give none, gzip or zstd", cfg.compress)
+	}
 	for _, req := range []struct{ v, name string }{{cfg.indexDir, "--index"}, {cfg.target, "--target"}, {cfg.out, "--out"}} {
 		if req.v == "" {
 			return nil, usagef("%s is required", req.name)
@@ -328,8 +337,8 @@ func writeRun(cfg *pickConfig, pr *pickResult, trej []index.Reject) error {
 			os.RemoveAll(tmp)
 		}
 	}()
-	if err := writeFile(filepath.Join(tmp, "kept.jsonl"), func(w *bufio.Writer) error {
-		return pr.ix.CopyRows(w, pr.kept)
+	if err := writeFile(filepath.Join(tmp, keptName(cfg.compress)), func(w *bufio.Writer) error {
+		return copyKept(w, pr, cfg.compress)
 	}); err != nil {
 		return err
 	}
@@ -364,6 +373,40 @@ func writeRun(cfg *pickConfig, pr *pickResult, trej []index.Reject) error {
 	}
 	ok = true
 	return nil
+}
+
+// keptName is the kept file's name for a --compress choice.
+func keptName(compress string) string {
+	switch compress {
+	case "gzip":
+		return "kept.jsonl.gz"
+	case "zstd":
+		return "kept.jsonl.zst"
+	}
+	return "kept.jsonl"
+}
+
+// copyKept copies the kept rows to w, compressed as asked; decompressed, the bytes are the same.
+func copyKept(w *bufio.Writer, pr *pickResult, compress string) error {
+	switch compress {
+	case "gzip":
+		zw := gzip.NewWriter(w)
+		if err := pr.ix.CopyRows(zw, pr.kept); err != nil {
+			return err
+		}
+		return zw.Close()
+	case "zstd":
+		zw, err := zstd.NewWriter(w)
+		if err != nil {
+			return err
+		}
+		if err := pr.ix.CopyRows(zw, pr.kept); err != nil {
+			zw.Close()
+			return err
+		}
+		return zw.Close()
+	}
+	return pr.ix.CopyRows(w, pr.kept)
 }
 
 // writeFile creates path, lets fill write it through a buffer, then flushes and fsyncs it.
@@ -472,6 +515,6 @@ func printPickSummary(e *env, cfg *pickConfig, pr *pickResult, took time.Duratio
 	fmt.Fprintf(&sb, "  training   %s FLOPs (%s)\n", fmtFLOPs(l.Training()), pct(l.Training()))
 	fmt.Fprintf(&sb, "  left       %s FLOPs (%s)\n", fmtFLOPs(l.Left()), pct(l.Left()))
 	fmt.Fprintf(&sb, "  stopped    %s\n", l.Stop)
-	fmt.Fprintf(&sb, "  wrote      %s/{kept.jsonl,scores.jsonl,ledger.json}\n", cfg.out)
+	fmt.Fprintf(&sb, "  wrote      %s/{%s,scores.jsonl,ledger.json}\n", cfg.out, keptName(cfg.compress))
 	fmt.Fprint(e.stderr, sb.String())
 }
