@@ -17,18 +17,16 @@ var ErrNoShape = errors.New("no known row shape fits")
 // maxKeysShown bounds the keys listed in a Detect error.
 const maxKeysShown = 30
 
-// Detect returns the first of Shapes that fits every sample line holding a
-// JSON object: the first key of each of its paths is present and its first
-// path yields a string. Blank lines and lines that are not JSON objects are
-// left out, as Extract would reject them anyway. When nothing fits, the
-// error wraps ErrNoShape and names the shapes tried and the top-level keys
-// seen.
+// Detect returns the first of Shapes that fits more than half of the sample
+// lines holding a JSON object: the first key of each of its paths is present
+// and its first path yields a string. Real pools carry a few damaged rows,
+// which must not hide the shape of the rest; Extract quarantines them later.
+// Blank lines and lines that are not JSON objects are left out, as Extract
+// would reject them anyway. When nothing fits, the error wraps ErrNoShape and
+// names the shapes tried and the top-level keys seen.
 func Detect(lines [][]byte) (Spec, error) {
 	shapes := Shapes()
-	fits := make([]bool, len(shapes))
-	for i := range fits {
-		fits[i] = true
-	}
+	fits := make([]int, len(shapes))
 	var (
 		p    fastjson.Parser
 		w    Extractor
@@ -55,16 +53,24 @@ func Detect(lines [][]byte) (Spec, error) {
 			}
 		})
 		for i, sh := range shapes {
-			if fits[i] {
-				fits[i] = w.fits(v, o, sh)
+			if w.fits(v, o, sh) {
+				fits[i]++
 			}
 		}
 	}
 	if rows == 0 {
+		for _, line := range lines {
+			if line = bytes.TrimSpace(bytes.TrimPrefix(line, bom)); len(line) > 0 {
+				if line[0] == '[' {
+					return Spec{}, fmt.Errorf("%w: the file looks like one JSON array, not JSONL (one object per line); convert it first, e.g. with jq -c '.[]'", ErrNoShape)
+				}
+				break
+			}
+		}
 		return Spec{}, fmt.Errorf("%w: none of the %d sample lines is a JSON object", ErrNoShape, len(lines))
 	}
-	for i, ok := range fits {
-		if ok {
+	for i, n := range fits {
+		if 2*n > rows {
 			return shapes[i], nil
 		}
 	}

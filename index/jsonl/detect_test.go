@@ -138,3 +138,28 @@ func TestExtractMatchesPythonJSON(t *testing.T) {
 		t.Errorf("read %d rows, escapes.want has %d", n, len(wantLines))
 	}
 }
+
+// TestDetectToleratesBadRows: a few damaged rows in the sample must not hide the shape of the rest.
+func TestDetectToleratesBadRows(t *testing.T) {
+	lines := [][]byte{
+		[]byte(`{"prompt":"a","completion":"b"}`),
+		[]byte(`{"prompt":null,"completion":""}`),
+		[]byte(`{bad json`),
+		[]byte(`{"prompt":"c","completion":"d"}`),
+	}
+	sp, err := Detect(lines)
+	if err != nil || sp.String() != "prompt,completion" {
+		t.Errorf("Detect = %v, %v; want prompt,completion", sp, err)
+	}
+	// Half or fewer is not a shape.
+	if sp, err := Detect(lines[:2]); err == nil {
+		t.Errorf("Detect of one good row in two = %v, want an error", sp)
+	}
+}
+
+func TestDetectJSONArray(t *testing.T) {
+	_, err := Detect([][]byte{[]byte("["), []byte(`  {"instruction": "x",`), []byte("  }"), []byte("]")})
+	if !errors.Is(err, ErrNoShape) || !strings.Contains(err.Error(), "JSON array") {
+		t.Errorf("Detect of a JSON array: %v", err)
+	}
+}
