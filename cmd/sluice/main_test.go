@@ -224,3 +224,24 @@ func TestCompressedKept(t *testing.T) {
 		t.Errorf("compressed kept rows differ: %d / %d / %d bytes", len(runs["none"]), len(runs["gzip"]), len(runs["zstd"]))
 	}
 }
+
+// TestBudgetBelowSelection: a budget the selection cost alone exceeds is an error, and no run
+// folder is written, so no ledger ever shows more than its budget.
+func TestBudgetBelowSelection(t *testing.T) {
+	dir := t.TempDir()
+	pool, target := filepath.Join(dir, "pool.jsonl"), filepath.Join(dir, "target.jsonl")
+	os.WriteFile(pool, demodata.Pool(), 0o644)
+	os.WriteFile(target, demodata.Target(), 0o644)
+	idx := filepath.Join(dir, "idx")
+	if code, _, stderr := sluice(t, "index", "--quiet", "--out", idx, pool); code != 0 {
+		t.Fatal(stderr)
+	}
+	out := filepath.Join(dir, "run")
+	code, _, stderr := sluice(t, "pick", "--index", idx, "--target", target, "--budget", "1000", "--train-params", "125M", "--out", out)
+	if code != 1 || !strings.Contains(stderr, "selection cost alone") {
+		t.Errorf("exit %d, %q", code, stderr)
+	}
+	if _, err := os.Stat(out); !os.IsNotExist(err) {
+		t.Errorf("run folder written: %v", err)
+	}
+}

@@ -246,6 +246,11 @@ func doPick(ctx context.Context, e *env, cfg *pickConfig) (*pickResult, error) {
 	led.AddSelection(fmt.Sprintf("score pool (%s, %s): postings visited", cfg.params.Method, cfg.params.Aggregate), "posting", float64(res.Work.Postings), budget.FLOPsPerPosting,
 		fmt.Sprintf("%d FLOPs x %d postings in %d passes", budget.FLOPsPerPosting, res.Work.Postings, res.Work.Passes))
 
+	if led.Selection() > cfg.budget {
+		// Nothing can be kept, and a run folder would show a ledger over its budget: say so instead.
+		return nil, fmt.Errorf("the selection cost alone, %s FLOPs (%s), exceeds the budget of %s FLOPs: raise the budget; nothing was written",
+			fmtFLOPs(led.Selection()), strings.Join(selectionWords(led), " + "), fmtFLOPs(cfg.budget))
+	}
 	n := ix.NumRows()
 	costs := make([]float64, n)
 	tokens := make([]int64, n)
@@ -285,10 +290,6 @@ func doPick(ctx context.Context, e *env, cfg *pickConfig) (*pickResult, error) {
 		"selection cost is charged over the whole pool before any row is kept",
 		fmt.Sprintf("rows: read %d = indexed %d + quarantined %d; target rows %d (+%d quarantined)", m.RowsRead, m.Rows, m.RowsRejected, len(targets), len(trej)),
 	)
-	if led.Total() > cfg.budget {
-		// selection.Pick keeps nothing when the fixed cost is over budget; the ledger then says so.
-		led.Notes = append(led.Notes, "the selection cost alone exceeds the budget: nothing kept")
-	}
 	pr := &pickResult{ix: ix, targets: targets, res: res, dec: dec, sum: sum, ledger: led, tokens: tokens, kept: kept}
 	if err := writeRun(cfg, pr, trej); err != nil {
 		return nil, err
@@ -297,6 +298,16 @@ func doPick(ctx context.Context, e *env, cfg *pickConfig) (*pickResult, error) {
 		printPickSummary(e, cfg, pr, time.Since(started))
 	}
 	return pr, nil
+}
+
+func selectionWords(l *budget.Ledger) []string {
+	var w []string
+	for _, line := range l.Lines {
+		if line.Kind == budget.KindSelection {
+			w = append(w, fmt.Sprintf("%s: %s", line.What, fmtFLOPs(line.FLOPs)))
+		}
+	}
+	return w
 }
 
 func stopText(s selection.Summary, cfg *pickConfig) string {
