@@ -8,6 +8,7 @@ import (
 	"io"
 	"os"
 	"path/filepath"
+	"runtime"
 	"strings"
 	"testing"
 
@@ -243,5 +244,47 @@ func TestBudgetBelowSelection(t *testing.T) {
 	}
 	if _, err := os.Stat(out); !os.IsNotExist(err) {
 		t.Errorf("run folder written: %v", err)
+	}
+}
+
+// TestSameBytesWhateverTheCores builds and picks with GOMAXPROCS 1 and 2 and compares every file of
+// the index and run folders byte for byte.
+func TestSameBytesWhateverTheCores(t *testing.T) {
+	dir := t.TempDir()
+	pool, target := filepath.Join(dir, "pool.jsonl"), filepath.Join(dir, "target.jsonl")
+	os.WriteFile(pool, demodata.Pool(), 0o644)
+	os.WriteFile(target, demodata.Target(), 0o644)
+	t.Chdir(dir)
+	defer runtime.GOMAXPROCS(runtime.GOMAXPROCS(0))
+	var first map[string][]byte
+	for _, procs := range []int{1, 2} {
+		runtime.GOMAXPROCS(procs)
+		for _, args := range [][]string{
+			{"index", "--quiet", "--id", "id", "--out", "idx", "pool.jsonl"},
+			{"pick", "--quiet", "--index", "idx", "--target", "target.jsonl", "--aggregate", "max", "--budget", "5e12", "--train-params", "125M", "--out", "run"},
+		} {
+			if code, _, stderr := sluice(t, args...); code != 0 {
+				t.Fatalf("GOMAXPROCS=%d %v: %s", procs, args, stderr)
+			}
+		}
+		files := map[string][]byte{}
+		for _, d := range []string{"idx", "run"} {
+			entries, _ := os.ReadDir(d)
+			for _, e := range entries {
+				files[d+"/"+e.Name()], _ = os.ReadFile(filepath.Join(d, e.Name()))
+			}
+		}
+		if first == nil {
+			first = files
+			continue
+		}
+		if len(files) != len(first) {
+			t.Fatalf("GOMAXPROCS=%d wrote %d files, GOMAXPROCS=1 wrote %d", procs, len(files), len(first))
+		}
+		for name, b := range files {
+			if !bytes.Equal(b, first[name]) {
+				t.Errorf("%s differs between GOMAXPROCS=1 and %d", name, procs)
+			}
+		}
 	}
 }
