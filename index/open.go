@@ -78,7 +78,7 @@ func Open(dir string) (*Index, error) {
 	ix.postings = data[postingsFile]
 	ix.rows = data[rowsFile]
 	n := m.Rows
-	if int64(len(ix.rows)) != n*rowRecSize {
+	if n < 0 || int64(len(ix.rows)) != n*rowRecSize {
 		return nil, fmt.Errorf("open index %s: rows holds %d bytes for %d rows: %w", dir, len(ix.rows), n, ErrDamaged)
 	}
 	nb := data[normsFile]
@@ -131,6 +131,11 @@ func (ix *Index) loadLexicon(b []byte) error {
 		return fmt.Errorf("open index %s: lexicon: %s: %w", ix.dir, what, ErrDamaged)
 	}
 	nt := ix.meta.Terms
+	// meta.json says how many terms to expect, but only the lexicon's own size may size the arrays:
+	// every entry takes at least three bytes.
+	if nt < 0 || nt > int64(len(b)/3) {
+		return bad(fmt.Sprintf("meta.json says %d terms", nt))
+	}
 	ix.termEnd = make([]uint32, 0, nt)
 	ix.df = make([]uint32, 0, nt)
 	ix.postOff = make([]uint64, 1, nt+1)
