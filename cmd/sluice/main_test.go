@@ -55,6 +55,20 @@ func readScores(t *testing.T, path string) []scoreLine {
 	return out
 }
 
+// demoIndex writes the demo pool and target to a new folder and indexes the pool there.
+func demoIndex(t *testing.T) (dir, idx, target string) {
+	t.Helper()
+	dir = t.TempDir()
+	pool, target := filepath.Join(dir, "pool.jsonl"), filepath.Join(dir, "target.jsonl")
+	os.WriteFile(pool, demodata.Pool(), 0o644)
+	os.WriteFile(target, demodata.Target(), 0o644)
+	idx = filepath.Join(dir, "idx")
+	if code, _, stderr := sluice(t, "index", "--quiet", "--id", "id", "--out", idx, pool); code != 0 {
+		t.Fatal(stderr)
+	}
+	return dir, idx, target
+}
+
 // TestIndexAndPick runs the two commands on the demo data and checks the promises of a run folder:
 // kept rows byte-identical to the pool, every row scored once, the ledger within the budget.
 func TestIndexAndPick(t *testing.T) {
@@ -199,14 +213,7 @@ func TestAppendJSONString(t *testing.T) {
 
 // TestCompressedKept checks that kept.jsonl.gz and kept.jsonl.zst decompress to kept.jsonl.
 func TestCompressedKept(t *testing.T) {
-	dir := t.TempDir()
-	pool, target := filepath.Join(dir, "pool.jsonl"), filepath.Join(dir, "target.jsonl")
-	os.WriteFile(pool, demodata.Pool(), 0o644)
-	os.WriteFile(target, demodata.Target(), 0o644)
-	idx := filepath.Join(dir, "idx")
-	if code, _, stderr := sluice(t, "index", "--quiet", "--out", idx, pool); code != 0 {
-		t.Fatal(stderr)
-	}
+	dir, idx, target := demoIndex(t)
 	runs := map[string][]byte{}
 	for _, c := range []string{"none", "gzip", "zstd"} {
 		out := filepath.Join(dir, "run-"+c)
@@ -229,14 +236,7 @@ func TestCompressedKept(t *testing.T) {
 // TestBudgetBelowSelection: a budget the selection cost alone exceeds is an error, and no run
 // folder is written, so no ledger ever shows more than its budget.
 func TestBudgetBelowSelection(t *testing.T) {
-	dir := t.TempDir()
-	pool, target := filepath.Join(dir, "pool.jsonl"), filepath.Join(dir, "target.jsonl")
-	os.WriteFile(pool, demodata.Pool(), 0o644)
-	os.WriteFile(target, demodata.Target(), 0o644)
-	idx := filepath.Join(dir, "idx")
-	if code, _, stderr := sluice(t, "index", "--quiet", "--out", idx, pool); code != 0 {
-		t.Fatal(stderr)
-	}
+	dir, idx, target := demoIndex(t)
 	out := filepath.Join(dir, "run")
 	code, _, stderr := sluice(t, "pick", "--index", idx, "--target", target, "--budget", "1000", "--train-params", "125M", "--out", out)
 	if code != 1 || !strings.Contains(stderr, "selection cost alone") {
