@@ -5,19 +5,46 @@ import (
 	"fmt"
 	"os"
 	"path/filepath"
+	"strconv"
+	"strings"
 
 	"golang.org/x/sys/unix"
 )
 
 // Temp makes an empty working folder beside dir, on the same file system so it can be renamed into
-// place. Its name starts with a dot and says it is temporary.
+// place. Its name starts with a dot, says it is temporary and holds the process id, so that working
+// folders left by a killed process are removed by the next one, while those of a live one stay.
 func Temp(dir string) (string, error) {
 	clean := filepath.Clean(dir)
-	tmp, err := os.MkdirTemp(filepath.Dir(clean), "."+filepath.Base(clean)+".tmp-")
+	parent, prefix := filepath.Dir(clean), "."+filepath.Base(clean)+".tmp-"
+	removeStale(parent, prefix)
+	tmp, err := os.MkdirTemp(parent, prefix+strconv.Itoa(os.Getpid())+"-")
 	if err != nil {
 		return "", fmt.Errorf("make working folder for %s: %w", dir, err)
 	}
 	return tmp, nil
+}
+
+// removeStale removes the working folders beside dir whose process is gone.
+func removeStale(parent, prefix string) {
+	entries, err := os.ReadDir(parent)
+	if err != nil {
+		return
+	}
+	for _, e := range entries {
+		rest, ok := strings.CutPrefix(e.Name(), prefix)
+		if !ok || !e.IsDir() {
+			continue
+		}
+		pidText, _, _ := strings.Cut(rest, "-")
+		pid, err := strconv.Atoi(pidText)
+		if err != nil || pid <= 0 || pid == os.Getpid() {
+			continue
+		}
+		if err := unix.Kill(pid, 0); errors.Is(err, unix.ESRCH) {
+			os.RemoveAll(filepath.Join(parent, e.Name()))
+		}
+	}
 }
 
 // Publish makes tmp appear at dir. Every file in tmp must already be synced. If dir exists it is
