@@ -5,6 +5,7 @@ import (
 	"context"
 	"encoding/binary"
 	"encoding/json"
+	"errors"
 	"fmt"
 	"io"
 	"math"
@@ -518,7 +519,13 @@ func (w *fileWriter) write(p []byte) error {
 	return nil
 }
 
-func (w *fileWriter) fail(err error) error { return fmt.Errorf("write %s: %w", w.path, err) }
+func (w *fileWriter) fail(err error) error {
+	var pe *os.PathError
+	if errors.As(err, &pe) {
+		return pathErr("write", err) // it names the file already
+	}
+	return fmt.Errorf("write %s: %w", w.path, err)
+}
 
 func (w *fileWriter) close() error { return w.finish(true) }
 
