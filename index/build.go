@@ -16,6 +16,7 @@ import (
 	"path/filepath"
 	"runtime"
 	"strconv"
+	"strings"
 	"sync"
 	"unicode/utf8"
 
@@ -56,6 +57,8 @@ const (
 type Stats struct {
 	Meta
 	Runs int // sorted runs spilled to disk before the merge
+	// FirstDuplicate is the first row whose id an earlier row already had, or nil.
+	FirstDuplicate *Duplicate
 }
 
 // RowError is a bad row met with Options.Strict.
@@ -138,13 +141,37 @@ func getRowRec(b []byte) rowRec {
 
 var errTooLong = errors.New("row too long")
 
+// Errors of a pool as a whole; test with errors.Is.
+var (
+	// ErrEmptyPool means the pool files hold no row at all, only blank lines or nothing.
+	ErrEmptyPool = errors.New("the pool is empty")
+	// ErrNoRows means every row of the pool was quarantined, so there is nothing to index.
+	ErrNoRows = errors.New("no row could be indexed")
+)
+
 // Reject is a quarantined row, as written to rejected.jsonl.
 type Reject struct {
 	File   string `json:"file"`
 	Line   int64  `json:"line"`
-	Offset int64  `json:"offset"`
+	Offset int64  `json:"offset"` // of the row's first byte in the decompressed stream
+	Length int64  `json:"length"` // bytes of the row in the stream, its newline included
 	Reason string `json:"reason"`
-	Raw    string `json:"raw"` // the row's bytes, quoted as a Go string literal so any byte survives
+	// Raw is the row's bytes, at most the first MaxRawBytes of them (none for a row longer than the
+	// row limit, which is never loaded). Valid UTF-8 is kept as it is; otherwise RawEscaped is set
+	// and Raw is the body of a Go string literal (strconv.Unquote of it in double quotes gives the
+	// bytes back), so that every byte survives JSON.
+	Raw        string `json:"raw"`
+	RawEscaped bool   `json:"raw_escaped,omitempty"`
+}
+
+// MaxRawBytes bounds the bytes of a bad row kept in its Reject, so a quarantine of long rows stays
+// readable and small.
+const MaxRawBytes = 64 << 10
+
+func newReject(file string, line, off int64, n int, reason string, raw []byte) Reject {
+	r := Reject{File: file, Line: line, Offset: off, Length: int64(n), Reason: reason}
+	r.Raw, r.RawEscaped = quoteRaw(raw)
+	return r
 }
 
 type batchOut struct {
@@ -251,6 +278,10 @@ type builder struct {
 	maxBatches  int
 	base        []int64 // first row number of each batch
 	srcRows     map[int]int64
+	anyRow      bool     // the reader met a line that is not blank
+	firstReject *Reject  // the collector's first quarantined row
+	idHashes    []uint64 // by row, to find repeated ids
+	firstDup    *Duplicate
 }
 
 func (b *builder) run(ctx context.Context) (*Stats, error) {
@@ -327,16 +358,21 @@ func (b *builder) run(ctx context.Context) (*Stats, error) {
 		}
 	}
 	<-readDone
-	for _, err := range []error{readErr, werr, cerr} {
-		if err != nil {
-			return nil, err
-		}
+	if err := firstCause(readErr, werr, cerr); err != nil {
+		return nil, err
 	}
 	if err := ctx.Err(); err != nil {
 		return nil, err
 	}
+	if b.meta.Rows == 0 && b.firstReject != nil {
+		r := b.firstReject
+		return nil, fmt.Errorf("build index: %w: read %d = indexed 0 + quarantined %d; the first, %s:%d: %s", ErrNoRows, b.meta.RowsRead, b.meta.RowsRejected, r.File, r.Line, r.Reason)
+	}
+	if err := b.findDuplicates(); err != nil {
+		return nil, err
+	}
 	if b.opt.DryRun {
-		st := &Stats{Meta: b.meta}
+		st := &Stats{Meta: b.meta, FirstDuplicate: b.firstDup}
 		return st, nil
 	}
 	var fw sync.WaitGroup
@@ -355,7 +391,27 @@ func (b *builder) run(ctx context.Context) (*Stats, error) {
 		return nil, err
 	}
 	st.Meta = b.meta
+	st.FirstDuplicate = b.firstDup
 	return st, nil
+}
+
+// firstCause returns the first of errs that is not nil, preferring a real failure to the
+// cancellation it caused elsewhere: a bad row met with Strict cancels the reader, whose "context
+// canceled" must not hide the row's error.
+func firstCause(errs ...error) error {
+	var first error
+	for _, err := range errs {
+		if err == nil {
+			continue
+		}
+		if !errors.Is(err, context.Canceled) {
+			return err
+		}
+		if first == nil {
+			first = err
+		}
+	}
+	return first
 }
 
 // newBatch hands the reader an empty batch. Past the first few it waits for one a worker has
@@ -433,6 +489,8 @@ func (b *builder) read(ctx context.Context, out chan<- *batch, specReady chan<- 
 			return err
 		}
 		sc := jsonl.NewScanner(src.r, b.opt.MaxRowBytes)
+		var sniff jsonl.Sniffer
+		sniffing := true
 		// cur is taken only when a line arrives, so a file ends with no batch held back.
 		var cur *batch
 		send := func() error {
@@ -460,6 +518,16 @@ func (b *builder) read(ctx context.Context, out chan<- *batch, specReady chan<- 
 				}
 			}
 			line := sc.Bytes()
+			if !b.anyRow && (sc.TooLong() || !isBlank(line)) {
+				b.anyRow = true
+			}
+			if sniffing && sniff.Line(line) {
+				sniffing = false
+				if err := sniff.Err(); err != nil {
+					src.close()
+					return fmt.Errorf("read %s: %w", path, err)
+				}
+			}
 			ref := lineRef{off: sc.Offset(), n: sc.Len(), line: sc.Line(), tooLong: sc.TooLong()}
 			ref.start = len(cur.buf)
 			cur.buf = append(cur.buf, line...)
@@ -486,6 +554,12 @@ func (b *builder) read(ctx context.Context, out chan<- *batch, specReady chan<- 
 			src.close()
 			return fmt.Errorf("read %s: %w", path, err)
 		}
+		if sniffing {
+			if sniff.End(); sniff.Err() != nil {
+				src.close()
+				return fmt.Errorf("read %s: %w", path, sniff.Err())
+			}
+		}
 		if err := send(); err != nil {
 			src.close()
 			return err
@@ -500,6 +574,9 @@ func (b *builder) read(ctx context.Context, out chan<- *batch, specReady chan<- 
 			}
 		}
 		b.meta.Sources = append(b.meta.Sources, m)
+	}
+	if !b.anyRow {
+		return fmt.Errorf("build index: no rows in %s, only blank lines or nothing: %w", strings.Join(b.paths, ", "), ErrEmptyPool)
 	}
 	if !ready && len(sample) == 0 && b.opt.Text == "" {
 		return fmt.Errorf("build index: %s: the pool is empty: %w", b.paths[0], jsonl.ErrNoShape)
@@ -669,6 +746,7 @@ func (b *builder) collect(ctx context.Context, outs <-chan *batchOut) error {
 			}
 			if idsW != nil {
 				for _, id := range o.ids {
+					b.idHashes = append(b.idHashes, hashID(id))
 					n := binary.PutUvarint(vbuf[:], uint64(len(id)))
 					idsW.w.Write(vbuf[:n])
 					if _, err := idsW.w.Write(id); err != nil {
@@ -680,6 +758,9 @@ func (b *builder) collect(ctx context.Context, outs <-chan *batchOut) error {
 				if err := enc.Encode(&o.rejects[i]); err != nil {
 					return rejW.fail(err)
 				}
+			}
+			if b.firstReject == nil && len(o.rejects) > 0 {
+				b.firstReject = &o.rejects[0]
 			}
 			n := int64(len(o.rows))
 			b.meta.Rows += n
@@ -775,8 +856,7 @@ func (w *worker) do(bt *batch, paths []string) (*batchOut, error) {
 			if w.strict {
 				return &RowError{File: file, Line: l.line, Offset: l.off, Reason: reason, Err: cause}
 			}
-			raw := line
-			o.rejects = append(o.rejects, Reject{File: file, Line: l.line, Offset: l.off, Reason: reason, Raw: quoteRaw(raw)})
+			o.rejects = append(o.rejects, newReject(file, l.line, l.off, l.n, reason, line))
 			return nil
 		}
 		if l.tooLong {
@@ -830,7 +910,12 @@ func (w *worker) do(bt *batch, paths []string) (*batchOut, error) {
 			for _, id := range w.touched {
 				w.st[id].count = 0
 			}
-			if err := reject(reasonOf(err), err); err != nil {
+			reason := reasonOf(err)
+			if l.n == len(line) && errors.Is(err, jsonl.ErrNotJSON) {
+				// Only the last line of a file can lack its newline.
+				reason += "; it is the last line and has no newline: the file may have been cut short"
+			}
+			if err := reject(reason, err); err != nil {
 				return nil, err
 			}
 			continue
@@ -906,18 +991,23 @@ func reasonOf(err error) string {
 	return err.Error()
 }
 
-// quoteRaw keeps every byte of a bad row in a form JSON can carry: valid UTF-8 stays readable,
-// anything else is escaped as in a Go string literal.
-func quoteRaw(b []byte) string {
-	const maxRaw = 64 << 10
-	cut := ""
-	if len(b) > maxRaw {
-		cut = fmt.Sprintf(" … (%d more bytes)", len(b)-maxRaw)
-		b = b[:maxRaw]
+// quoteRaw keeps the bytes of a bad row, at most MaxRawBytes of them, in a form JSON can carry:
+// valid UTF-8 stays readable, anything else is escaped as in a Go string literal and escaped is
+// true. A cut never splits a UTF-8 sequence, so a cut alone does not force escaping.
+func quoteRaw(b []byte) (raw string, escaped bool) {
+	if len(b) > MaxRawBytes {
+		b = b[:MaxRawBytes]
+		i := len(b) - 1
+		for i > 0 && len(b)-i < utf8.UTFMax && !utf8.RuneStart(b[i]) {
+			i--
+		}
+		if !utf8.FullRune(b[i:]) {
+			b = b[:i]
+		}
 	}
 	if utf8.Valid(b) {
-		return string(b) + cut
+		return string(b), false
 	}
 	q := strconv.Quote(string(b))
-	return q[1:len(q)-1] + cut
+	return q[1 : len(q)-1], true
 }

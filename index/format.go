@@ -56,6 +56,7 @@ type Meta struct {
 	RowsRead      int64           `json:"rows_read"`
 	RowsRejected  int64           `json:"rows_rejected"`
 	BlankLines    int64           `json:"blank_lines"`
+	DuplicateIDs  int64           `json:"duplicate_ids,omitempty"` // rows whose id an earlier row already had
 	TotalLen      int64           `json:"total_len"`
 	AvgLen        float64         `json:"avg_len"`
 	Terms         int64           `json:"terms"`

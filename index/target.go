@@ -1,6 +1,7 @@
 package index
 
 import (
+	"errors"
 	"fmt"
 	"strconv"
 
@@ -38,10 +39,18 @@ func ReadTargets(path, spec, idField string, an *analysis.Analyzer, maxRowBytes 
 	}
 	var out []Target
 	var rej []Reject
+	var sniff jsonl.Sniffer
+	sniffing := true
 	for sc.Scan() {
 		line := sc.Bytes()
+		if sniffing && sniff.Line(line) {
+			sniffing = false
+			if err := sniff.Err(); err != nil {
+				return nil, nil, fmt.Errorf("read target %s: %w", path, err)
+			}
+		}
 		bad := func(reason string) {
-			rej = append(rej, Reject{File: path, Line: sc.Line(), Offset: sc.Offset(), Reason: reason, Raw: quoteRaw(line)})
+			rej = append(rej, newReject(path, sc.Line(), sc.Offset(), sc.Len(), reason, line))
 		}
 		if sc.TooLong() {
 			bad(fmt.Sprintf("row longer than %d bytes", maxRowBytes))
@@ -55,7 +64,11 @@ func ReadTargets(path, spec, idField string, an *analysis.Analyzer, maxRowBytes 
 			an.Each(part, func(t []byte) { terms = append(terms, string(t)) })
 		})
 		if err != nil {
-			bad(reasonOf(err))
+			reason := reasonOf(err)
+			if sc.Len() == len(line) && errors.Is(err, jsonl.ErrNotJSON) {
+				reason += "; it is the last line and has no newline: the file may have been cut short"
+			}
+			bad(reason)
 			continue
 		}
 		id := path + ":" + strconv.FormatInt(sc.Line(), 10)
@@ -66,6 +79,9 @@ func ReadTargets(path, spec, idField string, an *analysis.Analyzer, maxRowBytes 
 	}
 	if err := sc.Err(); err != nil {
 		return nil, nil, fmt.Errorf("read target %s: %w", path, err)
+	}
+	if sniff.End(); sniff.Err() != nil {
+		return nil, nil, fmt.Errorf("read target %s: %w", path, sniff.Err())
 	}
 	return out, rej, nil
 }

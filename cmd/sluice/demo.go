@@ -79,7 +79,7 @@ func (c *demoCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 	if err != nil {
 		return err
 	}
-	say("indexed %d rows (%s; %d terms)\n\n", st.Rows, st.Text, st.Terms)
+	say("indexed %d rows (%s; %d terms; rows read %d = indexed %d + quarantined %d)\n\n", st.Rows, st.Text, st.Terms, st.RowsRead, st.Rows, st.RowsRejected)
 
 	run := filepath.Join(out, "run")
 	say("$ sluice pick --index %s --target %s --method %s --aggregate %s --budget %s --train-params 125M --out %s\n",

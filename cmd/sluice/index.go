@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"os"
+	"strconv"
 	"strings"
 
 	"github.com/spf13/pflag"
@@ -12,6 +13,7 @@ import (
 	"sluice/budget"
 	"sluice/index"
 	"sluice/index/analysis"
+	"sluice/index/jsonl"
 )
 
 type indexCmd struct{}
@@ -68,6 +70,17 @@ func (c *indexCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 	opt.Strict, _ = fs.GetBool("strict")
 	opt.DryRun = dry
 	quiet, _ := fs.GetBool("quiet")
+	if opt.Text != "" {
+		if _, err := jsonl.ParseSpec(opt.Text); err != nil {
+			return usagef("--text: %v", err)
+		}
+	}
+	if _, err := jsonl.NewExtractor(jsonl.Shapes()[0], opt.ID, ""); err != nil {
+		return usagef("--id: %v", err)
+	}
+	if _, err := jsonl.NewExtractor(jsonl.Shapes()[0], "", opt.Tokens); err != nil {
+		return usagef("--tokens: %v", err)
+	}
 	if _, err := analysis.New(opt.Analyzer); err != nil {
 		return usagef("--analyzer: %v", err)
 	}
@@ -118,12 +131,13 @@ func (c *indexCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 		if dry {
 			out = "nothing (--dry-run)"
 		}
-		printIndexSummary(e, out, &st.Meta)
+		printIndexSummary(e, out, st)
 	}
 	return nil
 }
 
-func printIndexSummary(e *env, out string, m *index.Meta) {
+func printIndexSummary(e *env, out string, st *index.Stats) {
+	m := &st.Meta
 	how := "given"
 	if m.TextDetected {
 		how = "detected; pass --text to choose"
@@ -133,6 +147,11 @@ func printIndexSummary(e *env, out string, m *index.Meta) {
 	fmt.Fprintf(e.stderr, "  analyzer      %s\n", m.Analyzer)
 	fmt.Fprintf(e.stderr, "  rows          read %d = indexed %d + quarantined %d (blank lines skipped: %d)\n", m.RowsRead, m.Rows, m.RowsRejected, m.BlankLines)
 	fmt.Fprintf(e.stderr, "  terms         %d distinct, %d postings, mean row length %.1f terms\n", m.Terms, m.Postings, m.AvgLen)
+	if d := st.FirstDuplicate; d != nil {
+		// Allowed, not quarantined: the rows are good, only their names clash.
+		fmt.Fprintf(e.stderr, "  ids           %d rows repeat an earlier row's id (kept; scores.jsonl is in input order), the first %s at %s:%d and %s:%d\n",
+			m.DuplicateIDs, strconv.Quote(d.ID), d.First.File, d.First.Line, d.Second.File, d.Second.Line)
+	}
 	if m.RowsRejected > 0 {
 		fmt.Fprintf(e.stderr, "  quarantine    %s/rejected.jsonl\n", out)
 	}

@@ -8,6 +8,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"slices"
 	"strconv"
 	"strings"
 	"time"
@@ -18,7 +19,9 @@ import (
 
 	"sluice/budget"
 	"sluice/index"
+	"sluice/index/analysis"
 	"sluice/index/atomicdir"
+	"sluice/index/jsonl"
 	"sluice/score"
 	selection "sluice/select"
 )
@@ -41,6 +44,7 @@ Writes, into RUN (published only when complete):
   kept.jsonl    the kept rows, byte for byte as in the pool, in input order
   scores.jsonl  one object per indexed row: id, score, rank, kept, reason, tokens, target, ledger
   ledger.json   every cost line with its count, unit cost and formula; totals, budget, stop reason
+  rejected.jsonl  target rows that could not be read: file, line, offset, length, reason, raw bytes
 
 The budget is --budget FLOPS (2.5e18, 400P, 3E) or --gpu-hours with --gpu-flops (the GPU's peak
 FLOP/s for your precision) and --mfu (the fraction of peak your training reaches; 0.3-0.5 is common
@@ -56,6 +60,7 @@ evaluation sets from the pool before picking, or the pick will find them.`,
 	fs.String("target", "", "JSONL file of target-task rows (required)")
 	fs.String("target-text", "", "JSON paths of the target's text fields (default: the index's)")
 	fs.String("target-id", "", "field holding each target row's id (default: the index's id field, else file:line)")
+	fs.String("analyzer", "", "refuse an index built with another analyzer ("+strings.Join(analysis.Names(), " or ")+"; default: take the index's)")
 	fs.String("method", "bm25", "scoring: bm25 or tfidf")
 	fs.String("aggregate", "sum", "over target rows: sum (the set as one query) or max (nearest target row)")
 	fs.Bool("attribute", true, "name, for every row, the target row that contributed most; with --aggregate sum\nthis costs one pass per target row, and --attribute=false skips it")
@@ -82,6 +87,7 @@ type pickConfig struct {
 	target     string
 	targetText string
 	targetID   string
+	analyzer   string // "" takes the index's; else the index must have been built with it
 	params     score.Params
 	budget     float64
 	budgetHow  string
@@ -108,7 +114,7 @@ func (c *pickCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 func pickConfigFrom(fs *pflag.FlagSet) (*pickConfig, error) {
 	str := func(n string) string { v, _ := fs.GetString(n); return v }
 	num := func(n string) float64 { v, _ := fs.GetFloat64(n); return v }
-	cfg := &pickConfig{indexDir: str("index"), target: str("target"), targetText: str("target-text"), targetID: str("target-id"), out: str("out")}
+	cfg := &pickConfig{indexDir: str("index"), target: str("target"), targetText: str("target-text"), targetID: str("target-id"), analyzer: str("analyzer"), out: str("out")}
 	cfg.quiet, _ = fs.GetBool("quiet")
 	switch cfg.compress = str("compress"); cfg.compress {
 	case "none", "gzip", "zstd":
@@ -119,6 +125,17 @@ func pickConfigFrom(fs *pflag.FlagSet) (*pickConfig, error) {
 		if req.v == "" {
 			return nil, usagef("%s is required", req.name)
 		}
+	}
+	if cfg.analyzer != "" && !slices.Contains(analysis.Names(), cfg.analyzer) {
+		return nil, usagef("--analyzer %q: give %s", cfg.analyzer, strings.Join(analysis.Names(), " or "))
+	}
+	if cfg.targetText != "" {
+		if _, err := jsonl.ParseSpec(cfg.targetText); err != nil {
+			return nil, usagef("--target-text: %v", err)
+		}
+	}
+	if _, err := jsonl.NewExtractor(jsonl.Shapes()[0], cfg.targetID, ""); err != nil {
+		return nil, usagef("--target-id: %v", err)
 	}
 	var err error
 	p := score.DefaultParams()
@@ -141,17 +158,25 @@ func pickConfigFrom(fs *pflag.FlagSet) (*pickConfig, error) {
 	cfg.params = p
 
 	b, gh, gf, mfu := str("budget"), num("gpu-hours"), str("gpu-flops"), num("mfu")
+	// Changed, not the values, says what was given: --mfu 0 is a bad MFU, not a missing one.
+	ghSet, gfSet, mfuSet := fs.Changed("gpu-hours"), fs.Changed("gpu-flops"), fs.Changed("mfu")
 	switch {
-	case b != "" && (gh != 0 || gf != "" || mfu != 0):
+	case fs.Changed("budget") && (ghSet || gfSet || mfuSet):
 		return nil, usagef("give either --budget or --gpu-hours with --gpu-flops and --mfu, not both")
-	case b != "":
+	case fs.Changed("budget"):
 		if cfg.budget, err = budget.ParseFLOPs(b); err != nil {
 			return nil, usagef("--budget: %v", err)
 		}
 		cfg.budgetHow = "--budget " + b
-	case gh != 0 || gf != "" || mfu != 0:
-		if gh == 0 || gf == "" || mfu == 0 {
+	case ghSet || gfSet || mfuSet:
+		if !ghSet || !gfSet || !mfuSet {
 			return nil, usagef("--gpu-hours needs --gpu-flops and --mfu too (there are no defaults for them)")
+		}
+		if !(gh > 0 && !math.IsInf(gh, 0)) {
+			return nil, usagef("--gpu-hours %v: must be a finite number above 0", gh)
+		}
+		if !(mfu > 0 && mfu <= 1) {
+			return nil, usagef("--mfu %v: must be a fraction above 0 and at most 1", mfu)
 		}
 		peak, err := budget.ParseFLOPs(gf)
 		if err != nil {
@@ -191,12 +216,14 @@ func pickConfigFrom(fs *pflag.FlagSet) (*pickConfig, error) {
 type pickResult struct {
 	ix      *index.Index
 	targets []index.Target
-	res     *score.Result
-	dec     []selection.Decision
-	sum     selection.Summary
-	ledger  *budget.Ledger
-	tokens  []int64
-	kept    []int
+	// targetsRejected counts the target rows quarantined in the run's rejected.jsonl.
+	targetsRejected int
+	res             *score.Result
+	dec             []selection.Decision
+	sum             selection.Summary
+	ledger          *budget.Ledger
+	tokens          []int64
+	kept            []int
 }
 
 func doPick(ctx context.Context, e *env, cfg *pickConfig) (*pickResult, error) {
@@ -210,6 +237,10 @@ func doPick(ctx context.Context, e *env, cfg *pickConfig) (*pickResult, error) {
 	}
 	defer ix.Close()
 	m := ix.Meta()
+	if cfg.analyzer != "" && cfg.analyzer != m.Analyzer {
+		return nil, fmt.Errorf("index %s was built with the %s analyzer, not %s as --analyzer asks: rebuild it with --analyzer %s, or drop --analyzer to score with %s",
+			cfg.indexDir, m.Analyzer, cfg.analyzer, cfg.analyzer, m.Analyzer)
+	}
 	an, err := ix.NewAnalyzer()
 	if err != nil {
 		return nil, err
@@ -226,8 +257,12 @@ func doPick(ctx context.Context, e *env, cfg *pickConfig) (*pickResult, error) {
 	if err != nil {
 		return nil, err
 	}
-	if len(targets) == 0 {
-		return nil, fmt.Errorf("read target %s: no usable target rows (%d quarantined)", cfg.target, len(trej))
+	switch {
+	case len(targets) == 0 && len(trej) == 0:
+		return nil, fmt.Errorf("read target %s: the target set is empty: no rows to pick for; nothing was written", cfg.target)
+	case len(targets) == 0:
+		return nil, fmt.Errorf("read target %s: no usable target rows: all %d quarantined, the first at line %d: %s; nothing was written",
+			cfg.target, len(trej), trej[0].Line, trej[0].Reason)
 	}
 	qs := make([]score.Query, len(targets))
 	for i, t := range targets {
@@ -288,9 +323,12 @@ func doPick(ctx context.Context, e *env, cfg *pickConfig) (*pickResult, error) {
 		"budget: "+cfg.budgetHow,
 		"tokens per row: "+tokSrc,
 		"selection cost is charged over the whole pool before any row is kept",
-		fmt.Sprintf("rows: read %d = indexed %d + quarantined %d; target rows %d (+%d quarantined)", m.RowsRead, m.Rows, m.RowsRejected, len(targets), len(trej)),
+		reconciliation(m, len(targets), len(trej)),
 	)
-	pr := &pickResult{ix: ix, targets: targets, res: res, dec: dec, sum: sum, ledger: led, tokens: tokens, kept: kept}
+	if m.DuplicateIDs > 0 {
+		led.Notes = append(led.Notes, fmt.Sprintf("ids: %d rows repeat an earlier row's id; scores.jsonl is in input order, so its n-th line is the n-th indexed row", m.DuplicateIDs))
+	}
+	pr := &pickResult{ix: ix, targets: targets, targetsRejected: len(trej), res: res, dec: dec, sum: sum, ledger: led, tokens: tokens, kept: kept}
 	if err := writeRun(cfg, pr, trej); err != nil {
 		return nil, err
 	}
@@ -298,6 +336,12 @@ func doPick(ctx context.Context, e *env, cfg *pickConfig) (*pickResult, error) {
 		printPickSummary(e, cfg, pr, time.Since(started))
 	}
 	return pr, nil
+}
+
+// reconciliation is the line every pick summary and ledger carries, so no row vanishes unseen.
+func reconciliation(m index.Meta, targets, targetsRejected int) string {
+	return fmt.Sprintf("rows: read %d = indexed %d + quarantined %d; target rows: read %d = used %d + quarantined %d",
+		m.RowsRead, m.Rows, m.RowsRejected, targets+targetsRejected, targets, targetsRejected)
 }
 
 func selectionWords(l *budget.Ledger) []string {
@@ -526,6 +570,16 @@ func printPickSummary(e *env, cfg *pickConfig, pr *pickResult, took time.Duratio
 	fmt.Fprintf(&sb, "  training   %s FLOPs (%s)\n", fmtFLOPs(l.Training()), pct(l.Training()))
 	fmt.Fprintf(&sb, "  left       %s FLOPs (%s)\n", fmtFLOPs(l.Left()), pct(l.Left()))
 	fmt.Fprintf(&sb, "  stopped    %s\n", l.Stop)
-	fmt.Fprintf(&sb, "  wrote      %s/{%s,scores.jsonl,ledger.json}\n", cfg.out, keptName(cfg.compress))
+	if pr.sum.Stop == selection.StopNoMatch && pr.sum.StopRank == 1 {
+		fmt.Fprintf(&sb, "  warning    no pool row shares a term with the target rows: check --target-text and that the target is the task you meant\n")
+	}
+	fmt.Fprintf(&sb, "  %s\n", strings.Replace(reconciliation(pr.ix.Meta(), len(pr.targets), pr.targetsRejected), "rows: ", "rows       ", 1))
+	if m := pr.ix.Meta(); m.RowsRejected > 0 {
+		fmt.Fprintf(&sb, "  quarantine %s/rejected.jsonl (pool rows)\n", cfg.indexDir)
+	}
+	if pr.targetsRejected > 0 {
+		fmt.Fprintf(&sb, "  quarantine %s/rejected.jsonl (target rows)\n", cfg.out)
+	}
+	fmt.Fprintf(&sb, "  wrote      %s/{%s,scores.jsonl,ledger.json,rejected.jsonl}\n", cfg.out, keptName(cfg.compress))
 	fmt.Fprint(e.stderr, sb.String())
 }

@@ -3,6 +3,7 @@ package jsonl
 import (
 	"bufio"
 	"bytes"
+	"errors"
 	"fmt"
 	"io"
 	"os"
@@ -123,7 +124,7 @@ func NewReader(r io.Reader) (io.ReadCloser, Compression, error) {
 		if err != nil {
 			return nil, c, fmt.Errorf("gzip header: %w", err)
 		}
-		return zr, c, nil
+		return &streamReader{zr, c}, c, nil
 	case Zstd:
 		// One decoder goroutine: the caller already runs one reader per
 		// input, and the machine this targets has few cores.
@@ -134,7 +135,26 @@ func NewReader(r io.Reader) (io.ReadCloser, Compression, error) {
 		if err != nil {
 			return nil, c, fmt.Errorf("zstd: %w", err)
 		}
-		return zr.IOReadCloser(), c, nil
+		return &streamReader{zr.IOReadCloser(), c}, c, nil
 	}
 	return io.NopCloser(br), c, nil
+}
+
+// streamReader words a decoder's errors: which format, and whether the stream was cut short or
+// damaged, since the decoders' own words ("unexpected EOF", "CRC check failed") say neither.
+type streamReader struct {
+	io.ReadCloser
+	c Compression
+}
+
+func (s *streamReader) Read(p []byte) (int, error) {
+	n, err := s.ReadCloser.Read(p)
+	switch {
+	case err == nil || err == io.EOF:
+	case errors.Is(err, io.ErrUnexpectedEOF):
+		err = fmt.Errorf("%s stream ends early, the file is cut short: %w", s.c, err)
+	default:
+		err = fmt.Errorf("damaged %s stream: %w", s.c, err)
+	}
+	return n, err
 }
