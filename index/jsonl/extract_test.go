@@ -226,6 +226,9 @@ func FuzzExtract(f *testing.F) {
 	} {
 		f.Add([]byte(s))
 	}
+	for _, line := range badInputLines(f) {
+		f.Add(line)
+	}
 	specs := []string{"prompt,completion", "messages[].content", "turns[]", "text,a.b.c", "grid[][]"}
 	var es []*Extractor
 	for _, s := range specs {

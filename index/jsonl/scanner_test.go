@@ -220,6 +220,9 @@ func FuzzScanner(f *testing.F) {
 	f.Add([]byte("a\nb\n"), uint8(0), []byte{3})
 	f.Add([]byte("abcdef\n\nxy"), uint8(3), []byte{1, 2})
 	f.Add([]byte("\r\n\xef\xbb\xbf\n"), uint8(1), []byte{})
+	for _, b := range badInputFiles(f) {
+		f.Add(b, uint8(16), []byte{7})
+	}
 	f.Fuzz(func(t *testing.T, in []byte, maxLine uint8, sizes []byte) {
 		ml := int(maxLine)
 		if ml == 0 {

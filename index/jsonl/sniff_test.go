@@ -64,6 +64,9 @@ func FuzzSniffer(f *testing.F) {
 	for _, seed := range []string{`{"a":1}`, "[\n{},\n]", "a,b\nc,d", "\x00\xff", "\ufeff{}", ""} {
 		f.Add([]byte(seed))
 	}
+	for _, b := range badInputFiles(f) {
+		f.Add(b)
+	}
 	f.Fuzz(func(t *testing.T, data []byte) {
 		var s Sniffer
 		for _, l := range bytes.Split(data, []byte("\n")) {
