@@ -3,6 +3,7 @@ package index
 import (
 	"bytes"
 	"context"
+	"encoding/json"
 	"errors"
 	"fmt"
 	"math"
@@ -333,5 +334,25 @@ func TestCopyFromAnotherFolder(t *testing.T) {
 	}
 	if !bytes.HasPrefix(data, buf.Bytes()) || buf.Len() == 0 {
 		t.Errorf("copied %q", buf.Bytes())
+	}
+}
+
+// TestOpenHugeCounts: meta.json counts that the files cannot hold are refused, not used to size
+// memory (found by FuzzOpen, which hung allocating for a lexicon of 10^15 terms).
+func TestOpenHugeCounts(t *testing.T) {
+	dir, _ := build(t, testPool(t, 10), Options{})
+	p := filepath.Join(dir, metaFile)
+	b, _ := os.ReadFile(p)
+	var m map[string]any
+	json.Unmarshal(b, &m)
+	for _, field := range []string{"terms", "rows"} {
+		old := m[field]
+		m[field] = 1e15
+		nb, _ := json.Marshal(m)
+		os.WriteFile(p, nb, 0o644)
+		if _, err := Open(dir); !errors.Is(err, ErrDamaged) {
+			t.Errorf("%s = 1e15: %v, want ErrDamaged", field, err)
+		}
+		m[field] = old
 	}
 }
