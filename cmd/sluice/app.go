@@ -17,7 +17,8 @@ type env struct {
 	stdin  io.Reader
 	stdout io.Writer
 	stderr io.Writer
-	tty    bool // stderr is a terminal: progress bars are drawn
+	tty    bool     // stderr is a terminal: progress bars are drawn
+	args   []string // the command line after "sluice", for run manifests
 }
 
 func newEnv() *env {
@@ -73,6 +74,7 @@ func run(ctx context.Context, args []string, e *env) int {
 		fmt.Fprintf(e.stderr, intro, list())
 		return 2
 	}
+	e.args = args
 	name := args[0]
 	if name == "help" || name == "-h" || name == "--help" {
 		if len(args) > 1 && name == "help" {

@@ -358,7 +358,7 @@ func checkPicked(t *testing.T, tc poolCase) {
 	for _, f := range []string{"meta.json", "lexicon", "postings", "rows", "norms", "ids", "rejected.jsonl"} {
 		allowed[filepath.Join("idx", f)] = true
 	}
-	for _, f := range []string{"kept.jsonl", "scores.jsonl", "ledger.json", "rejected.jsonl"} {
+	for _, f := range []string{"kept.jsonl", "scores.jsonl", "ledger.json", "rejected.jsonl", "manifest.json"} {
 		allowed[filepath.Join("run", f)] = true
 	}
 	filepath.WalkDir(".", func(p string, d fs.DirEntry, err error) error {

@@ -86,6 +86,8 @@ func (c *demoCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 		idx, target, p.Method, p.Aggregate, demoBudget, run)
 	cfg := &pickConfig{indexDir: idx, target: target, params: p, trainN: demoTrainParams, epochs: 1,
 		out: run, quiet: quiet, budgetHow: "--budget " + demoBudget, sel: selection.Options{}}
+	cfg.command = []string{"sluice", "pick", "--index", idx, "--target", target, "--method", p.Method.String(),
+		"--aggregate", p.Aggregate.String(), "--budget", demoBudget, "--train-params", "125M", "--out", run}
 	if _, err := fmt.Sscanf(demoBudget, "%g", &cfg.budget); err != nil {
 		return err
 	}

@@ -97,6 +97,7 @@ type pickConfig struct {
 	out        string
 	compress   string
 	quiet      bool
+	command    []string // the command line, for the manifest
 }
 
 func (c *pickCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
@@ -107,6 +108,7 @@ func (c *pickCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 	if err != nil {
 		return err
 	}
+	cfg.command = append([]string{"sluice"}, e.args...)
 	_, err = doPick(ctx, e, cfg)
 	return err
 }
@@ -214,8 +216,10 @@ func pickConfigFrom(fs *pflag.FlagSet) (*pickConfig, error) {
 
 // pickResult is what a pick did, for the summary and the demo.
 type pickResult struct {
-	ix      *index.Index
-	targets []index.Target
+	spec     string // the target's text spec, resolved
+	targetID string // the target's id field, resolved
+	ix       *index.Index
+	targets  []index.Target
 	// targetsRejected counts the target rows quarantined in the run's rejected.jsonl.
 	targetsRejected int
 	res             *score.Result
@@ -328,7 +332,7 @@ func doPick(ctx context.Context, e *env, cfg *pickConfig) (*pickResult, error) {
 	if m.DuplicateIDs > 0 {
 		led.Notes = append(led.Notes, fmt.Sprintf("ids: %d rows repeat an earlier row's id; scores.jsonl is in input order, so its n-th line is the n-th indexed row", m.DuplicateIDs))
 	}
-	pr := &pickResult{ix: ix, targets: targets, targetsRejected: len(trej), res: res, dec: dec, sum: sum, ledger: led, tokens: tokens, kept: kept}
+	pr := &pickResult{spec: spec, targetID: tid, ix: ix, targets: targets, targetsRejected: len(trej), res: res, dec: dec, sum: sum, ledger: led, tokens: tokens, kept: kept}
 	if err := writeRun(cfg, pr, trej); err != nil {
 		return nil, err
 	}
@@ -423,6 +427,9 @@ func writeRun(cfg *pickConfig, pr *pickResult, trej []index.Reject) error {
 	}); err != nil {
 		return err
 	}
+	if err := writeManifest(tmp, pr.manifest(cfg)); err != nil {
+		return err
+	}
 	if err := atomicdir.Publish(tmp, cfg.out); err != nil {
 		return err
 	}
@@ -462,6 +469,29 @@ func copyKept(w *bufio.Writer, pr *pickResult, compress string) error {
 		return zw.Close()
 	}
 	return pr.ix.CopyRows(w, pr.kept)
+}
+
+// writeFileBytes writes b to path and fsyncs it.
+func writeFileBytes(path string, b []byte) error {
+	return writeFile(path, func(w *bufio.Writer) error { _, err := w.Write(b); return err })
+}
+
+// manifest records the pick for the run folder. The hashes of the index's meta.json and of the
+// target file tie the run to its inputs.
+func (pr *pickResult) manifest(cfg *pickConfig) *manifest {
+	m := &manifest{Sluice: version(), Command: cfg.command,
+		Index:  fileRef{Path: cfg.indexDir},
+		Target: fileRef{Path: cfg.target},
+		Settings: runSettings{
+			Analyzer: pr.ix.Meta().Analyzer, TargetText: pr.spec, TargetID: pr.targetID,
+			Method: cfg.params.Method.String(), Aggregate: cfg.params.Aggregate.String(),
+			K1: cfg.params.K1, B: cfg.params.B, Attribute: !cfg.params.SkipBest,
+			Budget: cfg.budget, BudgetHow: cfg.budgetHow, TrainParams: cfg.trainN, Epochs: cfg.epochs,
+			Fill: cfg.sel.Fill, MaxRows: cfg.sel.MaxRows, MinScore: cfg.sel.MinScore, Kept: keptName(cfg.compress),
+		}}
+	m.Index.SHA256, _ = sha256File(filepath.Join(cfg.indexDir, "meta.json"))
+	m.Target.SHA256, _ = sha256File(cfg.target)
+	return m
 }
 
 // writeFile creates path, lets fill write it through a buffer, then flushes and fsyncs it.

@@ -1,0 +1,128 @@
+package main
+
+import (
+	"crypto/sha256"
+	"encoding/hex"
+	"encoding/json"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"sort"
+)
+
+// manifestFile names the run's record of how it was made.
+const manifestFile = "manifest.json"
+
+// manifest is what a run folder records of itself: enough to explain any of its rows again and to
+// check that nothing in it, nor the index it used, has changed since.
+type manifest struct {
+	Sluice   string            `json:"sluice"`
+	Command  []string          `json:"command"`
+	Settings runSettings       `json:"settings"`
+	Index    fileRef           `json:"index"`  // the index folder and the SHA-256 of its meta.json
+	Target   fileRef           `json:"target"` // the target file and its SHA-256
+	Files    map[string]string `json:"files"`  // SHA-256 of every other file of the run
+}
+
+type fileRef struct {
+	Path   string `json:"path"`
+	SHA256 string `json:"sha256"`
+}
+
+// runSettings are a pick's settings with every default resolved.
+type runSettings struct {
+	Analyzer    string  `json:"analyzer"`
+	TargetText  string  `json:"target_text"`
+	TargetID    string  `json:"target_id,omitempty"`
+	Method      string  `json:"method"`
+	Aggregate   string  `json:"aggregate"`
+	K1          float64 `json:"k1"`
+	B           float64 `json:"b"`
+	Attribute   bool    `json:"attribute"`
+	Budget      float64 `json:"budget"`
+	BudgetHow   string  `json:"budget_how"`
+	TrainParams float64 `json:"train_params"`
+	Epochs      float64 `json:"epochs"`
+	Fill        bool    `json:"fill"`
+	MaxRows     int     `json:"max_rows"`
+	MinScore    float64 `json:"min_score"`
+	Kept        string  `json:"kept"` // the kept file's name
+}
+
+func sha256File(path string) (string, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return "", err
+	}
+	defer f.Close()
+	h := sha256.New()
+	if _, err := io.Copy(h, f); err != nil {
+		return "", fmt.Errorf("read %s: %w", path, err)
+	}
+	return hex.EncodeToString(h.Sum(nil)), nil
+}
+
+// writeManifest hashes every file already in the working folder tmp and writes the manifest there.
+func writeManifest(tmp string, m *manifest) error {
+	entries, err := os.ReadDir(tmp)
+	if err != nil {
+		return fmt.Errorf("write manifest: %w", err)
+	}
+	m.Files = map[string]string{}
+	for _, e := range entries {
+		if e.Name() == manifestFile {
+			continue
+		}
+		if m.Files[e.Name()], err = sha256File(filepath.Join(tmp, e.Name())); err != nil {
+			return fmt.Errorf("write manifest: %w", err)
+		}
+	}
+	b, err := json.MarshalIndent(m, "", "  ")
+	if err != nil {
+		return err
+	}
+	return writeFileBytes(filepath.Join(tmp, manifestFile), append(b, '\n'))
+}
+
+func readManifest(run string) (*manifest, error) {
+	b, err := os.ReadFile(filepath.Join(run, manifestFile))
+	if err != nil {
+		return nil, fmt.Errorf("read run %s: %w", run, err)
+	}
+	var m manifest
+	if err := json.Unmarshal(b, &m); err != nil {
+		return nil, fmt.Errorf("read run %s: %s: %w", run, manifestFile, err)
+	}
+	return &m, nil
+}
+
+// verifyRun rechecks every hash the manifest holds, and the index, and returns what differs.
+func verifyRun(run string, m *manifest) []string {
+	var bad []string
+	names := make([]string, 0, len(m.Files))
+	for name := range m.Files {
+		names = append(names, name)
+	}
+	sort.Strings(names)
+	for _, name := range names {
+		got, err := sha256File(filepath.Join(run, name))
+		switch {
+		case err != nil:
+			bad = append(bad, fmt.Sprintf("%s: %v", name, err))
+		case got != m.Files[name]:
+			bad = append(bad, fmt.Sprintf("%s: changed since the run (SHA-256 %s, manifest says %s)", name, got[:12], m.Files[name][:12]))
+		}
+	}
+	if got, err := sha256File(filepath.Join(m.Index.Path, "meta.json")); err != nil {
+		bad = append(bad, fmt.Sprintf("index %s: %v", m.Index.Path, err))
+	} else if got != m.Index.SHA256 {
+		bad = append(bad, fmt.Sprintf("index %s: not the index the run used (meta.json SHA-256 %s, manifest says %s)", m.Index.Path, got[:12], m.Index.SHA256[:12]))
+	}
+	if got, err := sha256File(m.Target.Path); err != nil {
+		bad = append(bad, fmt.Sprintf("target %s: %v", m.Target.Path, err))
+	} else if got != m.Target.SHA256 {
+		bad = append(bad, fmt.Sprintf("target %s: changed since the run", m.Target.Path))
+	}
+	return bad
+}
