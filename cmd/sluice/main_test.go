@@ -288,3 +288,54 @@ func TestSameBytesWhateverTheCores(t *testing.T) {
 		}
 	}
 }
+
+// TestWhyAgreesWithScores explains every row of a demo run, for both methods and both aggregates:
+// each recomputed score must equal scores.jsonl's to the last bit (explainRun fails otherwise), and
+// the parts must add up to it.
+func TestWhyAgreesWithScores(t *testing.T) {
+	dir, idx, target := demoIndex(t)
+	for _, method := range []string{"bm25", "tfidf"} {
+		for _, agg := range []string{"sum", "max"} {
+			out := filepath.Join(dir, "run-"+method+agg)
+			if code, _, stderr := sluice(t, "pick", "--quiet", "--index", idx, "--target", target, "--method", method,
+				"--aggregate", agg, "--budget", "5e12", "--train-params", "125M", "--out", out); code != 0 {
+				t.Fatal(stderr)
+			}
+			var ids []string
+			for _, s := range readScores(t, filepath.Join(out, "scores.jsonl")) {
+				ids = append(ids, s.ID)
+			}
+			rows, err := explainRun(context.Background(), out, ids, 1)
+			if err != nil {
+				t.Fatalf("%s/%s: %v", method, agg, err)
+			}
+			if len(rows) != len(ids) {
+				t.Fatalf("%s/%s: %d explanations for %d rows", method, agg, len(rows), len(ids))
+			}
+			for _, r := range rows {
+				var sum float64
+				for _, p := range r.Parts {
+					sum += p.Contribution
+				}
+				if sum != r.Score {
+					t.Fatalf("%s/%s: row %s: parts add to %v, score %v", method, agg, r.ID, sum, r.Score)
+				}
+				if r.Why == "" {
+					t.Fatalf("row %s: no fate", r.ID)
+				}
+			}
+		}
+	}
+	// why and verify through the command line.
+	code, stdout, stderr := sluice(t, "why", "--run", filepath.Join(dir, "run-bm25sum"), "pool-0028")
+	if code != 0 || !strings.Contains(stdout, "contribution") || !strings.Contains(stdout, "fate") {
+		t.Errorf("why: exit %d, %s%s", code, stdout, stderr)
+	}
+	if code, _, stderr := sluice(t, "verify", filepath.Join(dir, "run-bm25sum")); code != 0 {
+		t.Errorf("verify of an untouched run: exit %d: %s", code, stderr)
+	}
+	os.WriteFile(filepath.Join(dir, "run-bm25sum", "kept.jsonl"), []byte("{}\n"), 0o644)
+	if code, _, stderr := sluice(t, "verify", filepath.Join(dir, "run-bm25sum")); code != 1 || !strings.Contains(stderr, "kept.jsonl: changed") {
+		t.Errorf("verify of a changed run: exit %d: %s", code, stderr)
+	}
+}
