@@ -291,7 +291,7 @@ func checkPicked(t *testing.T, tc poolCase) {
 	t.Helper()
 	args := []string{"pick", "--index", "idx", "--target", "target.jsonl", "--budget", "1e15", "--train-params", "1M", "--out", "run"}
 	if tc.targetText != "" {
-		args = append(args, "--target-text", tc.targetText)
+		args = append(args, "--target-text", tc.targetText, "--other-target-text")
 	}
 	code, _, stderr := sluice(t, args...)
 	if code != 0 {

@@ -339,3 +339,26 @@ func TestWhyAgreesWithScores(t *testing.T) {
 		t.Errorf("verify of a changed run: exit %d: %s", code, stderr)
 	}
 }
+
+// TestTargetTextMustMatch: a target read from other fields than the pool's is refused unless the
+// user says so, or asks for the index's settings.
+func TestTargetTextMustMatch(t *testing.T) {
+	dir, idx, target := demoIndex(t)
+	base := []string{"pick", "--quiet", "--index", idx, "--target", target, "--budget", "5e12", "--train-params", "125M"}
+	run := func(name string, extra ...string) (int, string) {
+		code, _, stderr := sluice(t, append(append(base, "--out", filepath.Join(dir, name)), extra...)...)
+		return code, stderr
+	}
+	if code, stderr := run("r1", "--target-text", "instruction,output"); code != 1 || !strings.Contains(stderr, "differs from the index's text fields instruction,input,output") {
+		t.Errorf("other spec: exit %d: %s", code, stderr)
+	}
+	if code, stderr := run("r2", "--target-text", "instruction,output", "--other-target-text"); code != 0 {
+		t.Errorf("other spec, said so: exit %d: %s", code, stderr)
+	}
+	if code, stderr := run("r3", "--target-text", "instruction,output", "--analyzer", "plain", "--index-settings"); code != 0 {
+		t.Errorf("--index-settings: exit %d: %s", code, stderr)
+	}
+	if code, stderr := run("r4", "--target-text", "instruction, input ,output"); code != 0 {
+		t.Errorf("the same spec written otherwise: exit %d: %s", code, stderr)
+	}
+}

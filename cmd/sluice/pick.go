@@ -58,7 +58,9 @@ evaluation sets from the pool before picking, or the pick will find them.`,
       --gpu-hours 64 --gpu-flops 312T --mfu 0.4 --train-params 7B --epochs 2 --fill --out run2`)
 	fs.String("index", "", "index folder made by 'sluice index' (required)")
 	fs.String("target", "", "JSONL file of target-task rows (required)")
-	fs.String("target-text", "", "JSON paths of the target's text fields (default: the index's)")
+	fs.String("target-text", "", "JSON paths of the target's text fields (default: the index's; another spec needs --other-target-text)")
+	fs.Bool("other-target-text", false, "accept a --target-text that differs from the index's text spec")
+	fs.Bool("index-settings", false, "take the index's text spec and analyzer whatever --target-text and --analyzer say")
 	fs.String("target-id", "", "field holding each target row's id (default: the index's id field, else file:line)")
 	fs.String("analyzer", "", "refuse an index built with another analyzer ("+strings.Join(analysis.Names(), " or ")+"; default: take the index's)")
 	fs.String("method", "bm25", "scoring: bm25 or tfidf")
@@ -88,6 +90,7 @@ type pickConfig struct {
 	targetText string
 	targetID   string
 	analyzer   string // "" takes the index's; else the index must have been built with it
+	otherText  bool   // a targetText unlike the index's spec is meant
 	params     score.Params
 	budget     float64
 	budgetHow  string
@@ -117,6 +120,10 @@ func pickConfigFrom(fs *pflag.FlagSet) (*pickConfig, error) {
 	str := func(n string) string { v, _ := fs.GetString(n); return v }
 	num := func(n string) float64 { v, _ := fs.GetFloat64(n); return v }
 	cfg := &pickConfig{indexDir: str("index"), target: str("target"), targetText: str("target-text"), targetID: str("target-id"), analyzer: str("analyzer"), out: str("out")}
+	cfg.otherText, _ = fs.GetBool("other-target-text")
+	if is, _ := fs.GetBool("index-settings"); is {
+		cfg.targetText, cfg.analyzer = "", ""
+	}
 	cfg.quiet, _ = fs.GetBool("quiet")
 	switch cfg.compress = str("compress"); cfg.compress {
 	case "none", "gzip", "zstd":
@@ -252,6 +259,11 @@ func doPick(ctx context.Context, e *env, cfg *pickConfig) (*pickResult, error) {
 	spec := cfg.targetText
 	if spec == "" {
 		spec = m.Text
+	} else if sp, err := jsonl.ParseSpec(spec); err == nil && sp.String() != m.Text && !cfg.otherText {
+		// Target rows read from other fields than the pool's are scored against text of another kind;
+		// that is sometimes meant (the target file has other field names), so it must be said.
+		return nil, fmt.Errorf("--target-text %s differs from the index's text fields %s: pass --other-target-text if the target's fields really are named otherwise, or --index-settings (or no --target-text) to read it like the pool",
+			sp, m.Text)
 	}
 	tid := cfg.targetID
 	if tid == "" {
