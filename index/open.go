@@ -81,6 +81,12 @@ func Open(dir string) (*Index, error) {
 	if n < 0 || int64(len(ix.rows)) != n*rowRecSize {
 		return nil, fmt.Errorf("open index %s: rows holds %d bytes for %d rows: %w", dir, len(ix.rows), n, ErrDamaged)
 	}
+	// Every row must name a source the index has: rows are trusted from here on.
+	for i := int64(0); i < n; i++ {
+		if src := getRowRec(ix.rows[i*rowRecSize:]).src; int(src) >= len(m.Sources) {
+			return nil, fmt.Errorf("open index %s: row %d names source %d of %d: %w", dir, i, src, len(m.Sources), ErrDamaged)
+		}
+	}
 	nb := data[normsFile]
 	if int64(len(nb)) != n*8 {
 		return nil, fmt.Errorf("open index %s: norms holds %d bytes for %d rows: %w", dir, len(nb), n, ErrDamaged)
