@@ -42,7 +42,7 @@ func (u *usageError) Error() string { return u.msg }
 func usagef(format string, a ...any) error { return &usageError{fmt.Sprintf(format, a...)} }
 
 func commands() []command {
-	return []command{&indexCmd{}, &pickCmd{}, &whyCmd{}, &diffCmd{}, &verifyCmd{}, &reportCmd{}, &demoCmd{}}
+	return []command{&indexCmd{}, &pickCmd{}, &whyCmd{}, &diffCmd{}, &verifyCmd{}, &reportCmd{}, &demoCmd{}, &planCmd{}}
 }
 
 const intro = `sluice chooses the rows of a large JSONL instruction pool that are most like a small set of

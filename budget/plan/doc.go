@@ -1,0 +1,2 @@
+// Package plan fits saturation curves to pilot fine-tunes and works out which selection method, and how many tokens, a FLOP budget affords best.
+package plan

@@ -1,0 +1,148 @@
+package main
+
+import (
+	"encoding/json"
+	"flag"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+
+	"sluice/budget/plan"
+)
+
+var updatePlan = flag.Bool("update-plan", false, "rewrite testdata/plan/plan.txt from the plan test")
+
+const demoPilots = "../../testdata/plan/pilots.csv"
+
+func TestPlanDemo(t *testing.T) {
+	out := t.TempDir()
+	code, stdout, stderr := sluice(t, "plan", "--pilots", demoPilots, "--pool-tokens", "4B", "--train-params", "1B", "--budget", "1.5e18", "--out", out)
+	if code != 0 {
+		t.Fatalf("exit %d: %s", code, stderr)
+	}
+	b, err := os.ReadFile(filepath.Join(out, "plan.json"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	var p plan.Plan
+	if err := json.Unmarshal(b, &p); err != nil {
+		t.Fatal(err)
+	}
+	if len(p.Curves) != 3 || len(p.Steps) != 25 || len(p.Changes) != 2 {
+		t.Fatalf("%d curves, %d steps, %d changes", len(p.Curves), len(p.Steps), len(p.Changes))
+	}
+	if p.Asked == nil || p.Asked.Best != "bm25" || !strings.Contains(stdout, "sluice pick --index POOL.idx --target TARGET.jsonl --method bm25 --budget 1.5e+18") {
+		t.Errorf("asked budget: %+v; stdout lacks the pick line", p.Asked)
+	}
+	if c := p.Changes; c[0].From != "bm25" || c[0].To != "ppl-125m" || c[1].To != "grad-1b" {
+		t.Errorf("changes %+v", c)
+	}
+	for _, name := range []string{"plan.svg", "residuals.svg"} {
+		s, err := os.ReadFile(filepath.Join(out, name))
+		if err != nil {
+			t.Fatal(err)
+		}
+		if !strings.HasPrefix(string(s), "<svg") || !strings.HasSuffix(strings.TrimSpace(string(s)), "</svg>") {
+			t.Errorf("%s is not an SVG document", name)
+		}
+	}
+	// The golden table is the README's example; the last line names the temporary folder.
+	table := stdout[:strings.LastIndex(strings.TrimRight(stdout, "\n"), "\n")+1]
+	golden := "../../testdata/plan/plan.txt"
+	if *updatePlan {
+		if err := os.WriteFile(golden, []byte(table), 0o644); err != nil {
+			t.Fatal(err)
+		}
+		for _, name := range []string{"plan.svg", "residuals.svg"} {
+			s, _ := os.ReadFile(filepath.Join(out, name))
+			if err := os.WriteFile(filepath.Join("../../testdata/plan", name), s, 0o644); err != nil {
+				t.Fatal(err)
+			}
+		}
+	}
+	want, err := os.ReadFile(golden)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if table != string(want) {
+		t.Errorf("table differs from %s (run go test -update-plan):\n%s", golden, table)
+	}
+}
+
+func TestPlanUsageErrors(t *testing.T) {
+	out := t.TempDir()
+	base := []string{"plan", "--pilots", demoPilots, "--pool-tokens", "4B", "--train-params", "1B", "--out", out}
+	tests := []struct {
+		name string
+		args []string
+		code int
+		say  string
+	}{
+		{"no pilots", []string{"plan", "--pool-tokens", "4B", "--train-params", "1B", "--out", out}, 2, "--pilots is required"},
+		{"bad pool", append(append([]string{}, base...), "--pool-tokens", "lots"), 2, "--pool-tokens"},
+		{"bad budgets", append(append([]string{}, base...), "--budgets", "1e20"), 2, "LO:HI"},
+		{"reversed budgets", append(append([]string{}, base...), "--budgets", "1e20:1e19"), 2, "HI must be"},
+		{"zero epochs", append(append([]string{}, base...), "--epochs", "0"), 2, "--epochs"},
+		{"other model size", append(append([]string{}, base...), "--train-params", "7B"), 1, "no pilots on a 7e+09"},
+		{"pilots and simulate", append(append([]string{}, base...), "--simulate", "a=lexical,0,0.5,1", "--p0", "0.4"), 2, "not both"},
+		{"simulate without p0", []string{"plan", "--simulate", "a=lexical,0,0.5,1", "--pool-tokens", "4B", "--train-params", "1B", "--out", out}, 2, "--p0"},
+		{"simulate bad spec", []string{"plan", "--simulate", "a=lexical,0,0.5", "--p0", "0.4", "--pool-tokens", "4B", "--train-params", "1B", "--out", out}, 2, "METHOD=COST"},
+		{"simulate zero rate", []string{"plan", "--simulate", "a=lexical,0,0.5,0", "--p0", "0.4", "--pool-tokens", "4B", "--train-params", "1B", "--out", out}, 2, "LAMBDA"},
+		{"simulate no selector", []string{"plan", "--simulate", "a=forward,0,0.5,1", "--p0", "0.4", "--pool-tokens", "4B", "--train-params", "1B", "--out", out}, 2, "selector size 0"},
+		{"missing file", append(append([]string{}, base...), "--pilots", "nope.csv"), 1, "nope.csv"},
+	}
+	for _, tt := range tests {
+		code, _, stderr := sluice(t, tt.args...)
+		if code != tt.code || !strings.Contains(stderr, tt.say) {
+			t.Errorf("%s: exit %d, stderr %q; want %d saying %q", tt.name, code, stderr, tt.code, tt.say)
+		}
+	}
+}
+
+// A what-if run has exact curves: the band collapses onto the prediction, and shrinking the
+// gradient selector tenfold moves its change budget down.
+func TestPlanSimulate(t *testing.T) {
+	changeAt := func(selector string) float64 {
+		out := t.TempDir()
+		code, _, stderr := sluice(t, "plan", "--simulate", "bm25=lexical,0,0.547,10.2",
+			"--simulate", "grad=forward+backward,"+selector+",0.657,4.0", "--p0", "0.421",
+			"--pool-tokens", "4B", "--train-params", "1B", "--budgets", "1e17:1e20", "--out", out)
+		if code != 0 {
+			t.Fatalf("exit %d: %s", code, stderr)
+		}
+		b, err := os.ReadFile(filepath.Join(out, "plan.json"))
+		if err != nil {
+			t.Fatal(err)
+		}
+		var p plan.Plan
+		if err := json.Unmarshal(b, &p); err != nil {
+			t.Fatal(err)
+		}
+		for _, s := range p.Steps {
+			for _, o := range s.Options {
+				if o.SE != 0 || o.Low != o.P || o.High != o.P {
+					t.Fatalf("simulated option has a band: %+v", o)
+				}
+			}
+		}
+		if len(p.Changes) != 1 || p.Changes[0].To != "grad" {
+			t.Fatalf("changes %+v", p.Changes)
+		}
+		if _, err := os.Stat(filepath.Join(out, "residuals.svg")); err == nil {
+			t.Error("residuals.svg written without pilots")
+		}
+		return p.Changes[0].Budget
+	}
+	big, small := changeAt("1B"), changeAt("100M")
+	if !(small < big) {
+		t.Errorf("change with a 100M selector at %g, with 1B at %g: want earlier", small, big)
+	}
+}
+
+func TestPlanHelp(t *testing.T) {
+	code, stdout, _ := sluice(t, "plan", "--help")
+	if code != 0 || !strings.Contains(stdout, "Examples:") || !strings.Contains(stdout, "--free-p0") {
+		t.Errorf("exit %d, help %q", code, stdout)
+	}
+}
