@@ -6,6 +6,7 @@ import (
 	"context"
 	"encoding/json"
 	"io"
+	"math"
 	"os"
 	"path/filepath"
 	"runtime"
@@ -14,7 +15,9 @@ import (
 
 	"sluice/budget"
 	"sluice/cmd/sluice/demodata"
+	"sluice/index"
 	"sluice/index/jsonl"
+	"sluice/score"
 )
 
 // sluice runs the command in-process and returns its exit status, stdout and stderr.
@@ -360,5 +363,43 @@ func TestTargetTextMustMatch(t *testing.T) {
 	}
 	if code, stderr := run("r4", "--target-text", "instruction, input ,output"); code != 0 {
 		t.Errorf("the same spec written otherwise: exit %d: %s", code, stderr)
+	}
+}
+
+// TestStoredNormsMatchScoring ties the TF-IDF norms the index stores at build time to the weights
+// score gives a query: the same smooth idf is written in both packages. Each of 20 pool rows, used as
+// a target row, must have cosine 1 with itself, and no row can score above 1.
+func TestStoredNormsMatchScoring(t *testing.T) {
+	dir, idx, _ := demoIndex(t)
+	lines := strings.SplitAfter(string(demodata.Pool()), "\n")[:20]
+	target := filepath.Join(dir, "self.jsonl")
+	os.WriteFile(target, []byte(strings.Join(lines, "")), 0o644)
+	ix, err := index.Open(idx)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer ix.Close()
+	an, _ := ix.NewAnalyzer()
+	targets, _, err := index.ReadTargets(target, ix.Meta().Text, "", an, 0)
+	if err != nil {
+		t.Fatal(err)
+	}
+	qs := make([]score.Query, len(targets))
+	for i, tg := range targets {
+		qs[i] = score.Query{ID: tg.ID, Terms: tg.Terms}
+	}
+	p := score.DefaultParams()
+	p.Method, p.Aggregate = score.TFIDF, score.Max
+	res, err := score.Score(context.Background(), ix, qs, p)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for r, s := range res.Scores {
+		if s > 1+1e-12 {
+			t.Fatalf("row %d: cosine %v above 1", r, s)
+		}
+		if r < len(lines) && math.Abs(s-1) > 1e-12 {
+			t.Errorf("row %d against itself: cosine %v, want 1", r, s)
+		}
 	}
 }
