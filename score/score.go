@@ -192,6 +192,11 @@ type Result struct {
 // combined query and one pass per target row finds Best; in Max mode the
 // per-target passes give both.
 //
+// When every list fits the cache and there are at most a few thousand target
+// rows, the per-target passes (and the combined pass) are turned around into
+// one walk over the pool rows that keeps an accumulator per target row
+// (rowPasses); the sums are the same, term by term, so the results are too.
+//
 // Each distinct query term's posting list is read from c once and kept, with
 // its per-posting tf part, within Params.CacheBytes. The per-target passes run
 // on Params.Workers goroutines, each over a contiguous block of target rows;
@@ -224,6 +229,16 @@ func Score(ctx context.Context, c Corpus, q []Query, p Params) (*Result, error) 
 	}
 	res.Work.PostingsFetched = s.fetched
 
+	if s.allCached && !p.SkipBest && len(q) <= maxRowTargets {
+		bestScore := res.Scores
+		if p.Aggregate == Sum {
+			bestScore = make([]float64, n)
+		}
+		if err := s.rowPasses(ctx, res, bestScore); err != nil {
+			return nil, err
+		}
+		return res, nil
+	}
 	bestScore := res.Scores
 	if p.Aggregate == Sum {
 		if err := s.combinedPass(ctx, res.Scores, &res.Work); err != nil {
