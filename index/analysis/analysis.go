@@ -40,13 +40,13 @@ type Analyzer struct {
 
 	stop bleveanalysis.TokenMap
 	// hot and cache remember what the english chain makes of a word, in
-	// bounded memory (see cache.go): under 5 MB.
-	hot    []hotEntry
-	hotTag []uint64 // the caller's tag for each hot entry (see EachTagged)
-	cache  *stemCache
-	noTag  uint64 // handed out for terms outside the hot level, zeroed before each use
+	// bounded memory (see cache.go): under 6 MB.
+	hot   []hotSet
+	cache *stemCache
+	noTag uint64 // handed out for terms outside the hot level, zeroed before each use
 
-	term     []byte // the current term, lowercased
+	buf      []byte // the text being analyzed, lowercased where ASCII
+	term     []byte // the current stem, at least 16 bytes long
 	runes    []rune // stemmer input
 	stemBuf  []byte // stemmer output
 	bleveBuf []byte // text handed to bleve, which lowercases in place
@@ -55,7 +55,7 @@ type Analyzer struct {
 // New returns the analyzer called name (see Names).
 func New(name string) (*Analyzer, error) {
 	cache := registry.NewCache()
-	a := &Analyzer{name: name}
+	a := &Analyzer{name: name, term: make([]byte, 0, 64)}
 	var err error
 	switch name {
 	case english:
@@ -68,8 +68,7 @@ func New(name string) (*Analyzer, error) {
 			return nil, fmt.Errorf("analyzer %s: %w", name, err)
 		}
 		a.cache = newStemCache()
-		a.hot = make([]hotEntry, 1<<hotBits)
-		a.hotTag = make([]uint64, 1<<hotBits)
+		a.hot = make([]hotSet, 1<<hotBits)
 	case plain:
 		a.describe = "unicode words; lowercase"
 		a.bleve, err = cache.DefineAnalyzer(plain, map[string]interface{}{
@@ -118,11 +117,15 @@ func (a *Analyzer) Each(text []byte, fn func(term []byte)) {
 // every call. A caller that starts over must be able to tell its old tags from its new ones, for
 // example by keeping a generation number in them.
 func (a *Analyzer) EachTagged(text []byte, fn func(term []byte, tag *uint64)) {
+	if len(a.buf) < len(text)+pad {
+		a.buf = make([]byte, len(text)+pad)
+	}
 	pos := 0
 	for pos < len(text) {
-		j := pos + asciiPrefix(text[pos:])
+		n := copyLower(a.buf, text[pos:])
+		j := pos + n
 		if j == len(text) {
-			a.eachASCII(text[pos:], fn)
+			a.eachASCII(n, fn)
 			return
 		}
 		if pos == 0 && !utf8.Valid(text[j:]) {
@@ -133,7 +136,7 @@ func (a *Analyzer) EachTagged(text []byte, fn func(term []byte, tag *uint64)) {
 		for k > pos && !cutBefore(text, k) {
 			k--
 		}
-		a.eachASCII(text[pos:k], fn)
+		a.eachASCII(k-pos, fn)
 		end := j + 1
 		for end < len(text) && !cutBefore(text, end) {
 			end++
@@ -156,62 +159,74 @@ func (a *Analyzer) bleveEach(text []byte, fn func(term []byte, tag *uint64)) {
 	}
 }
 
-// eachASCII analyzes text that is all ASCII and starts and ends where
-// bleve's tokenizer starts a segment.
-func (a *Analyzer) eachASCII(text []byte, fn func(term []byte, tag *uint64)) {
-	if len(a.term) < len(text)+pad {
-		a.term = make([]byte, len(text)+pad)
-	}
-	t := a.term
-	for i := 0; i < len(text); {
-		if classes[text[i]] > cWord {
-			i++
-			continue
+// eachASCII analyzes the first size bytes of a.buf: lowercased ASCII that
+// ends where bleve's tokenizer starts a segment.
+func (a *Analyzer) eachASCII(size int, fn func(term []byte, tag *uint64)) {
+	b := a.buf[:size+pad]
+	clear(b[size:])
+	s := newWordScanner(b, size)
+	for {
+		start, end, ok := s.next()
+		if !ok {
+			return
 		}
-		var n int
-		i, n = scanWord(text, i, t)
 		if !a.stem {
 			a.noTag = 0
-			fn(t[:n:n], &a.noTag)
+			fn(b[start:end:end], &a.noTag)
 			continue
 		}
 		// bleve possessive_en strips a trailing 's or 'S before lowercasing.
-		if n >= 2 && t[n-1] == 's' && t[n-2] == '\'' {
+		n := end - start
+		if n >= 2 && binary.LittleEndian.Uint16(b[end-2:]) == 's'<<8|'\'' {
 			n -= 2
 		}
-		a.emitStemmed(t, n, fn)
+		if n > hotMax {
+			a.emitStemmed(b[start:start+n], hashLong(b[start:], n), nil, 0, 0, fn)
+			continue
+		}
+		// The hot level, on the way of most terms: the word is held
+		// zero-padded in two registers, hashed and compared without
+		// going through memory. b has pad bytes after the word.
+		p := (*[16]byte)(b[start:])
+		w0 := binary.LittleEndian.Uint64(p[:8]) & lowBytes(min(n, 8))
+		w1 := binary.LittleEndian.Uint64(p[8:]) & lowBytes(max(n-8, 0))
+		h := hash16(w0, w1)
+		set := &a.hot[h>>(64-hotBits)]
+		e := &set[0]
+		if e.k0 != w0 || e.k1 != w1 {
+			e = &set[1]
+		}
+		if e.k0 != w0 || e.k1 != w1 {
+			a.emitStemmed(b[start:start+n], h, set, w0, w1, fn)
+			continue
+		}
+		if e.stem == 0 { // a stop word
+			continue
+		}
+		t := a.term[:16]
+		var m int
+		if e.stem&longStem == 0 {
+			binary.LittleEndian.PutUint64(t, e.stem)
+			m = paddedLen(e.stem)
+		} else {
+			binary.LittleEndian.PutUint64(t, w0)
+			binary.LittleEndian.PutUint64(t[8:], e.stem&^longStem)
+			m = 8 + paddedLen(e.stem&^longStem)
+		}
+		fn(t[:m:m], &e.tag)
 	}
 }
 
-// emitStemmed runs the lowercased ASCII word t[:n] through bleve's stop_en
-// and porter filters, and passes on what is left. t has room for pad bytes
-// after the word.
-func (a *Analyzer) emitStemmed(t []byte, n int, fn func(term []byte, tag *uint64)) {
-	binary.LittleEndian.PutUint64(t[n:], 0)
-	binary.LittleEndian.PutUint64(t[n+8:], 0)
-	h := hashPadded(t, n)
-	var e *hotEntry
-	hi := h >> (64 - hotBits)
-	if n <= hotMax {
-		w0, w1 := binary.LittleEndian.Uint64(t), binary.LittleEndian.Uint64(t[8:])
-		e = &a.hot[hi]
-		if e.k0 == w0 && e.k1 == w1 {
-			if e.s0 == 0 {
-				return
-			}
-			binary.LittleEndian.PutUint64(t, e.s0)
-			binary.LittleEndian.PutUint64(t[8:], e.s1)
-			m := paddedLen(e.s0, e.s1)
-			fn(t[:m:m], &a.hotTag[hi])
-			return
-		}
-	}
-	w := t[:n]
+// emitStemmed runs the lowercased ASCII word w, with hash h, through
+// bleve's stop_en and porter filters, and passes on what is left. set is
+// the hot set for w, which is not in it, held in w0, w1; nil if w is too
+// long for the hot level.
+func (a *Analyzer) emitStemmed(w []byte, h uint64, set *hotSet, w0, w1 uint64, fn func(term []byte, tag *uint64)) {
 	var stem []byte
 	var stop bool
 	tag := &a.noTag
 	a.noTag = 0
-	if n > cacheMaxKey {
+	if len(w) > cacheMaxKey {
 		stem, stop = a.analyzeWord(w)
 	} else {
 		var ok bool
@@ -222,21 +237,24 @@ func (a *Analyzer) emitStemmed(t []byte, n int, fn func(term []byte, tag *uint64
 			slot = a.cache.insert(slot, w, uint32(h), stem, stop)
 			// A word seen once is likely never seen again: keep it out
 			// of the hot level.
-			e = nil
+			set = nil
 		}
-		tag = &a.cache.tags[slot]
+		tag = &a.cache.slots[slot].tag
 	}
-	if e != nil && (stop || len(stem) > 0 && len(stem) <= hotMax) {
-		var b [16]byte
-		copy(b[:], stem)
-		e.k0, e.k1 = binary.LittleEndian.Uint64(t), binary.LittleEndian.Uint64(t[8:])
-		e.s0, e.s1 = binary.LittleEndian.Uint64(b[:]), binary.LittleEndian.Uint64(b[8:])
-		a.hotTag[hi] = *tag
-		tag = &a.hotTag[hi]
+	if set != nil && (stop || len(stem) > 0) {
+		if s, ok := hotStem(w, stem); ok {
+			// The newest word takes the first way, and the one it
+			// held the second: a word used again soon after it came
+			// stays.
+			set[1] = set[0]
+			set[0] = hotEntry{k0: w0, k1: w1, stem: s, tag: *tag}
+			tag = &set[0].tag
+		}
 	}
 	if !stop {
 		// A copy, so that fn cannot reach the caches.
-		t = append(t[:0], stem...)
+		t := append(a.term[:0], stem...)
+		a.term = t
 		fn(t[:len(t):len(t)], tag)
 	}
 }

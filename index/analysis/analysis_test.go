@@ -207,3 +207,23 @@ func TestEachAllocations(t *testing.T) {
 		}
 	}
 }
+
+// TestBlockEdges shifts the tricky inputs across the 64-byte blocks of the
+// word scanner, after fills that make words and joining bytes fall on
+// block edges and words span blocks.
+func TestBlockEdges(t *testing.T) {
+	for _, name := range Names() {
+		a := mustNew(t, name)
+		for _, s := range tricky {
+			for _, fill := range []string{" ", "a", "1", "a.", "1,"} {
+				for n := 0; n <= 132; n += len(fill) {
+					text := []byte(strings.Repeat(fill, n/len(fill)) + s)
+					want := bleveTerms(a, text)
+					if got := a.Terms(text); !slices.Equal(got, want) {
+						t.Fatalf("%s %q: fast %q, bleve %q", name, text, got, want)
+					}
+				}
+			}
+		}
+	}
+}

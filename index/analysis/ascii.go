@@ -1,6 +1,9 @@
 package analysis
 
-import "encoding/binary"
+import (
+	"encoding/binary"
+	"math/bits"
+)
 
 // Word-break classes of bytes, from Unicode 8.0 WordBreakProperty.txt as
 // compiled into github.com/blevesearch/segment (ragel/uwb.rl), which bleve's
@@ -18,6 +21,10 @@ const (
 	cHigh    = 9 // non-ASCII
 
 	cWord = cExtend
+
+	// joiners is the set of classes that can join two runs of word
+	// bytes.
+	joiners = 1<<cMidLet | 1<<cMidNum | 1<<cMidBoth
 )
 
 // classes maps a byte to its class; a string so that it is constant.
@@ -39,39 +46,160 @@ const classes = "\x07\x07\x07\x07\x07\x07\x07\x07\x07\x07\x08\x07\x07\x07\x07\x0
 	"\x09\x09\x09\x09\x09\x09\x09\x09\x09\x09\x09\x09\x09\x09\x09\x09" +
 	"\x09\x09\x09\x09\x09\x09\x09\x09\x09\x09\x09\x09\x09\x09\x09\x09"
 
-// scanWord reads the word that starts with the word byte text[i], under
-// UAX #29 rules WB5-WB13b restricted to ASCII: letters, digits and '_' join
-// freely; ':' joins two letters, ',' and ';' two digits, '.' and '\” either.
-// text must end where a segment starts, as bleve's tokenizer sees it at the
-// end of its input. It writes the word lowercased to dst, which must be at
-// least as long as the word, and returns the word's end in text and its
-// length.
-func scanWord(text []byte, i int, dst []byte) (end, n int) {
-	c := text[i]
-	for {
-		dst[n] = lower[c]
-		n++
-		i++
-		if i >= len(text) {
-			return i, n
+// Bytes are classified and lowercased 8 at a time, as the bytes of a
+// uint64 (SWAR). The tricks below hold for ASCII bytes only, which is all
+// they are given.
+const (
+	ones  = 0x0101010101010101
+	highs = 0x8080808080808080
+)
+
+// inRange sets the high bit of each byte of x, all ASCII, that lies in
+// [lo, hi], and clears every other bit. Adding 0x80-lo sets a byte's high
+// bit exactly when it is >= lo, adding 0x7F-hi when it is > hi; no sum
+// carries into the next byte.
+func inRange(x uint64, lo, hi byte) uint64 {
+	return (x + ones*uint64(0x80-lo)) &^ (x + ones*uint64(0x7F-hi)) & highs
+}
+
+// copyLower copies the ASCII prefix of src to dst lowercased, and returns
+// its length. dst must be at least as long as src.
+func copyLower(dst, src []byte) int {
+	i := 0
+	for ; i+8 <= len(src); i += 8 {
+		x := binary.LittleEndian.Uint64(src[i:])
+		if x&highs != 0 {
+			break
 		}
-		c = text[i]
-		k := classes[c]
-		if k <= cWord {
-			continue
-		}
-		if k > cMidBoth || i+1 >= len(text) {
-			return i, n
-		}
-		prev, next := classes[text[i-1]], classes[text[i+1]]
-		if prev != next || prev > cDigit || prev == cLetter && k == cMidNum || prev == cDigit && k == cMidLet {
-			return i, n
-		}
-		dst[n] = c
-		n++
-		i++
-		c = text[i]
+		// The high bit of an upper-case letter, moved to 0x20, lowercases it.
+		binary.LittleEndian.PutUint64(dst[i:], x|inRange(x, 'A', 'Z')>>2)
 	}
+	for ; i < len(src); i++ {
+		c := src[i]
+		if c >= 0x80 {
+			break
+		}
+		dst[i] = lower[c]
+	}
+	return i
+}
+
+// wordBytes sets the high bit of each byte of x, lowercased ASCII, that is
+// a letter, a digit or '_': the bytes that join freely into words.
+func wordBytes(x uint64) uint64 {
+	return inRange(x, 'a', 'z') | inRange(x, '0', '9') | inRange(x, '_', '_')
+}
+
+// wordBits returns the bitmap of the word bytes among b[:64]: bit j is set
+// when b[j] is one.
+func wordBits(b []byte) uint64 {
+	b = b[:64]
+	var m uint64
+	for j := 0; j < 64; j += 8 {
+		// The multiply gathers the flag bits at 0, 8, ..., 56 into
+		// the top byte, as bits 56, 57, ..., 63; the partial
+		// products land on distinct bits, so nothing carries.
+		f := wordBytes(binary.LittleEndian.Uint64(b[j:])) >> 7
+		m |= f * 0x0102040810204080 >> 56 << j
+	}
+	return m
+}
+
+// A wordScanner yields the words of lowercased ASCII text, under UAX #29
+// rules WB5-WB13b restricted to ASCII: letters, digits and '_' join
+// freely; ':' joins two letters, ',' and ';' two digits, '.' and the
+// apostrophe either. It holds the bitmap of the word bytes of one 64-byte
+// block, so that finding where a word starts and ends is a count of
+// zero bits; the joining bytes are rare and checked one by one.
+type wordScanner struct {
+	// b is the text followed by at least pad zero bytes, which end a
+	// word the way the end of its input does for bleve's tokenizer and
+	// let the scanner read whole blocks.
+	b   []byte
+	n   int    // the length of the text
+	blk int    // the start of the block m describes, a multiple of 64
+	m   uint64 // bit j is set when b[blk+j] is a word byte
+	i   int    // where the next word is looked for, in the block
+}
+
+func newWordScanner(b []byte, n int) wordScanner {
+	return wordScanner{b: b, n: n, m: wordBits(b)}
+}
+
+// next returns the bounds of the next word, or ok false at the end of the
+// text. It handles the common word, which lies within the block and does
+// not end at a joining byte; more handles the rest.
+func (s *wordScanner) next() (start, end int, ok bool) {
+	// s.i-s.blk < 64, so masks can shift by s.i&63, which compiles to
+	// one instruction.
+	w := s.m & (^uint64(0) << (s.i & 63))
+	if w == 0 {
+		return s.more()
+	}
+	start = s.blk + bits.TrailingZeros64(w)
+	e := ^s.m & (^uint64(0) << (start & 63))
+	if e == 0 {
+		return s.more()
+	}
+	end = s.blk + bits.TrailingZeros64(e)
+	// Only a joining byte followed by a letter or a digit can join; a
+	// joining byte is often followed by a space, so both are tested with
+	// one branch. Classes are below 16, and &15 lets the compiler know.
+	k, next := classes[s.b[end]]&15, classes[s.b[end+1]]&15
+	if (joiners>>k)&((1<<cLetter|1<<cDigit)>>next)&1 != 0 {
+		return s.more()
+	}
+	s.i = end
+	return start, end, true
+}
+
+// more is next for a word that may reach into the next block or contain
+// a joining byte.
+func (s *wordScanner) more() (start, end int, ok bool) {
+	w := s.m & (^uint64(0) << (s.i & 63))
+	for w == 0 {
+		s.blk += 64
+		if s.blk >= s.n {
+			s.i = s.blk
+			return 0, 0, false
+		}
+		s.m = wordBits(s.b[s.blk:])
+		w = s.m
+	}
+	start = s.blk + bits.TrailingZeros64(w)
+	for i := start; ; i = end + 2 {
+		// The bytes from i up to end are word bytes; the joining ones
+		// between start and i are not.
+		if i-s.blk >= 64 {
+			// A join at the end of the block: the bytes before i in
+			// the next one are word bytes.
+			s.blk += 64
+			s.m = wordBits(s.b[s.blk:])
+		}
+		e := ^s.m & (^uint64(0) << (i & 63))
+		for e == 0 {
+			s.blk += 64
+			s.m = wordBits(s.b[s.blk:])
+			e = ^s.m
+		}
+		end = s.blk + bits.TrailingZeros64(e)
+		if !joins(s.b, end) {
+			s.i = end
+			return start, end, true
+		}
+	}
+}
+
+// joins reports whether b[i], which ends a run of word bytes, joins it to
+// the run after it (WB6, WB7, WB11, WB12). b[i+1] is there because b
+// ends in zero bytes, which are not word bytes.
+func joins(b []byte, i int) bool {
+	k := classes[b[i]]
+	if k < cMidLet || k > cMidBoth {
+		return false
+	}
+	prev, next := classes[b[i-1]], classes[b[i+1]]
+	return prev == next && (prev == cLetter && k != cMidNum || prev == cDigit && k != cMidLet)
 }
 
 // cutBefore reports whether bleve's tokenizer starts a segment at text[k]
@@ -87,24 +215,8 @@ func cutBefore(text []byte, k int) bool {
 	return false
 }
 
-// asciiPrefix returns the length of the longest prefix of b that is ASCII.
-func asciiPrefix(b []byte) int {
-	i := 0
-	for ; i+8 <= len(b); i += 8 {
-		if binary.LittleEndian.Uint64(b[i:])&0x8080808080808080 != 0 {
-			break
-		}
-	}
-	for ; i < len(b); i++ {
-		if b[i] >= 0x80 {
-			return i
-		}
-	}
-	return i
-}
-
-// lower maps a byte to its ASCII lowercase, a table so that the word loop
-// has no branch for it.
+// lower maps a byte to its ASCII lowercase, for the bytes copyLower does
+// not take 8 at a time.
 const lower = "\x00\x01\x02\x03\x04\x05\x06\x07\x08\x09\x0a\x0b\x0c\x0d\x0e\x0f" +
 	"\x10\x11\x12\x13\x14\x15\x16\x17\x18\x19\x1a\x1b\x1c\x1d\x1e\x1f" +
 	"\x20\x21\x22\x23\x24\x25\x26\x27\x28\x29\x2a\x2b\x2c\x2d\x2e\x2f" +

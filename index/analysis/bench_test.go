@@ -45,11 +45,22 @@ func BenchmarkAnalyze(b *testing.B) {
 		size += len(f)
 	}
 	for _, name := range Names() {
-		for _, path := range []string{"fast", "bleve"} {
+		for _, path := range []string{"fast", "tagged", "bleve"} {
 			b.Run(name+"/"+path, func(b *testing.B) {
 				a := mustNew(b, name)
 				each := a.Each
-				if path == "bleve" {
+				switch path {
+				case "tagged":
+					// As the index uses it: every tag is read, new ones are set.
+					each = func(text []byte, fn func([]byte)) {
+						a.EachTagged(text, func(t []byte, tag *uint64) {
+							if *tag == 0 {
+								*tag = 1
+							}
+							fn(t)
+						})
+					}
+				case "bleve":
 					each = func(text []byte, fn func([]byte)) {
 						a.bleveEach(text, func(t []byte, _ *uint64) { fn(t) })
 					}

@@ -7,14 +7,16 @@ import (
 )
 
 // The english chain caches what it makes of a lowercased ASCII word at two
-// levels, because the lookup is most of the cost of a term. Words are held
-// zero-padded to a multiple of 8 bytes (they never contain a zero byte),
-// so they hash and compare as whole uint64s.
+// levels, because the lookup is most of the cost of a term. Words of up to
+// 16 bytes are held zero-padded in two uint64s (they never contain a zero
+// byte), so they hash and compare without a loop.
 //
-// The hot level is direct-mapped and small enough to stay in the CPU
-// cache; an entry holds a word and its stem of up to 16 bytes each, so a
-// hit touches one cache line. The frequent words of a text are few, so it
-// catches most terms.
+// The hot level is a table of two-way sets, about the size of a core's
+// second-level cache; an entry holds a word, its stem and the caller's
+// tag, and a set fills one 64-byte line, so a hit touches one cache line.
+// The frequent words of a text are few, so it catches most terms; the
+// second way keeps two frequent words whose hashes collide from pushing
+// each other out.
 //
 // The second level is an open-addressing table over a byte arena for the
 // rest of the vocabulary. The vocabulary of a pool is unbounded (numbers,
@@ -23,8 +25,8 @@ import (
 // once.
 
 const (
-	hotBits = 13
-	hotMax  = 16 // longest word and stem the hot level holds
+	hotBits = 13 // 1<<hotBits sets of two entries
+	hotMax  = 16 // longest word the hot level holds
 
 	cacheBits       = 16
 	cacheSlots      = 1 << cacheBits
@@ -33,45 +35,86 @@ const (
 	cacheMaxKey     = 64 // longer words are rare and stemmed each time
 	stopLen         = 0xFF
 
-	// pad is the room needed after a word in the scratch buffer.
-	pad = 16
+	// pad is the room needed after the text in the scratch buffer: a
+	// block of the word scanner.
+	pad = 64
 )
 
-// hotEntry holds a zero-padded word and its zero-padded stem; an all-zero
-// stem marks a stop word, an all-zero word an empty entry.
-type hotEntry struct{ k0, k1, s0, s1 uint64 }
+// hotEntry holds a zero-padded word, its stem and the caller's tag (see
+// Analyzer.EachTagged); an all-zero stem marks a stop word, an all-zero
+// word an empty entry. stem holds a stem of up to 8 bytes zero-padded; a
+// stem of 9 to 16 bytes that starts with the first 8 bytes of the word,
+// as stems of long words do, is held as its last bytes, zero-padded, with
+// the top bit set: stems are ASCII, so the bit is free.
+type hotEntry struct{ k0, k1, stem, tag uint64 }
 
-// hashPadded hashes the zero-padded word w[:n].
-func hashPadded(w []byte, n int) uint64 {
-	h := uint64(n) * 0x9E3779B97F4A7C15
-	for i := 0; i < n; i += 8 {
-		h = (h ^ binary.LittleEndian.Uint64(w[i:])) * 0xC2B2AE3D27D4EB4F
+// longStem marks the stem of a hotEntry that continues k0.
+const longStem = 1 << 63
+
+// hotStem returns the stem to keep in a hotEntry for word w and its stem,
+// and whether it fits.
+func hotStem(w, stem []byte) (uint64, bool) {
+	var b [8]byte
+	switch {
+	case len(stem) <= 8:
+		copy(b[:], stem)
+		return binary.LittleEndian.Uint64(b[:]), true
+	case len(stem) <= 16 && len(w) >= 8 && string(stem[:8]) == string(w[:8]):
+		copy(b[:], stem[8:])
+		return binary.LittleEndian.Uint64(b[:]) | longStem, true
 	}
-	return h ^ h>>29
+	return 0, false
 }
 
-// paddedLen returns the length of a word of at most 16 bytes held
-// zero-padded in w0, w1.
-func paddedLen(w0, w1 uint64) int {
-	if w1 != 0 {
-		return 16 - bits.LeadingZeros64(w1)/8
+// hotSet is 64 bytes, and Go's allocator starts a large allocation on a
+// page, so a set does not straddle two cache lines.
+type hotSet [2]hotEntry
+
+// hash16 hashes a word of at most 16 bytes held zero-padded in w0, w1.
+// One full multiply mixes every bit of both words into its 128-bit
+// product (the mixing step of wyhash); it is short, and it is on the path
+// of every term.
+func hash16(w0, w1 uint64) uint64 {
+	hi, lo := bits.Mul64(w0^0x9E3779B97F4A7C15, w1^0xC2B2AE3D27D4EB4F)
+	return hi ^ lo
+}
+
+// hashLong hashes the word w[:n], n > 16; w has at least 8 bytes after
+// the word.
+func hashLong(w []byte, n int) uint64 {
+	h := uint64(n)
+	for i := 0; i < n; i += 8 {
+		x := binary.LittleEndian.Uint64(w[i:]) & lowBytes(min(n-i, 8))
+		h = hash16(h, x)
 	}
-	return 8 - bits.LeadingZeros64(w0)/8
+	return h
+}
+
+// lowBytes returns a mask of the k low bytes of a uint64, 0 <= k <= 8. A
+// shift by 64 gives 0 in Go.
+func lowBytes(k int) uint64 { return ^uint64(0) >> uint(64-8*k) }
+
+// paddedLen returns the length of a word of at most 8 bytes held
+// zero-padded in w.
+func paddedLen(w uint64) int { return 8 - bits.LeadingZeros64(w)/8 }
+
+// A cacheSlot keeps the caller's tag beside the reference, so that a hit
+// reads one line of the table.
+type cacheSlot struct {
+	ref uint64 // hash<<32 | arena offset+1, 0 when empty
+	tag uint64 // the caller's tag (see Analyzer.EachTagged)
 }
 
 type stemCache struct {
-	// slots hold hash<<32 | arena offset+1, 0 when empty.
-	slots []uint64
+	slots []cacheSlot
 	// arena holds records: key length, stem length (stopLen for a stop
 	// word), key bytes, stem bytes.
 	arena []byte
 	n     int
-	// tags are the callers' tags (see Analyzer.EachTagged), one per slot.
-	tags []uint64
 }
 
 func newStemCache() *stemCache {
-	return &stemCache{slots: make([]uint64, cacheSlots), tags: make([]uint64, cacheSlots), arena: make([]byte, 0, 64<<10)}
+	return &stemCache{slots: make([]cacheSlot, cacheSlots), arena: make([]byte, 0, 64<<10)}
 }
 
 // lookup returns the record for key with hash h, or the slot where it
@@ -80,7 +123,7 @@ func (c *stemCache) lookup(key []byte, h uint32) (stem []byte, stop, ok bool, sl
 	mask := uint32(len(c.slots) - 1)
 	i := h & mask
 	for {
-		s := c.slots[i]
+		s := c.slots[i].ref
 		if s == 0 {
 			return nil, false, false, int(i)
 		}
@@ -105,7 +148,6 @@ func (c *stemCache) lookup(key []byte, h uint32) (stem []byte, stop, ok bool, sl
 func (c *stemCache) insert(slot int, key []byte, h uint32, stem []byte, stop bool) int {
 	if c.n >= cacheMaxEntries || len(c.arena)+2+len(key)+len(stem) > cacheMaxArena {
 		clear(c.slots)
-		clear(c.tags)
 		c.arena = c.arena[:0]
 		c.n = 0
 		_, _, _, slot = c.lookup(key, h)
@@ -118,8 +160,7 @@ func (c *stemCache) insert(slot int, key []byte, h uint32, stem []byte, stop boo
 	c.arena = append(c.arena, byte(len(key)), sl)
 	c.arena = append(c.arena, key...)
 	c.arena = append(c.arena, stem...)
-	c.slots[slot] = uint64(h)<<32 | uint64(off+1)
-	c.tags[slot] = 0
+	c.slots[slot] = cacheSlot{ref: uint64(h)<<32 | uint64(off+1)}
 	c.n++
 	return slot
 }
