@@ -253,13 +253,21 @@ func (ix *Index) RowLocation(row int) Location {
 
 // RowID returns the row's id: its id field, or file:line.
 func (ix *Index) RowID(row int) string {
+	return string(ix.AppendRowID(nil, row))
+}
+
+// AppendRowID appends the row's id to b, as RowID gives it, without a string to collect for each
+// row when all of them are written out.
+func (ix *Index) AppendRowID(b []byte, row int) []byte {
 	if ix.idOff != nil {
-		b := ix.ids[ix.idOff[row]:]
-		l, k := binary.Uvarint(b)
-		return string(b[k : k+int(l)])
+		id := ix.ids[ix.idOff[row]:]
+		l, k := binary.Uvarint(id)
+		return append(b, id[k:k+int(l)]...)
 	}
 	r := ix.rec(row)
-	return ix.meta.Sources[r.src].Path + ":" + strconv.FormatUint(uint64(r.line), 10)
+	b = append(b, ix.meta.Sources[r.src].Path...)
+	b = append(b, ':')
+	return strconv.AppendUint(b, uint64(r.line), 10)
 }
 
 func (ix *Index) term(i int) []byte {

@@ -3,7 +3,10 @@ package index
 import (
 	"errors"
 	"fmt"
+	"runtime"
+	"slices"
 	"strconv"
+	"sync"
 
 	"sluice/index/analysis"
 	"sluice/index/jsonl"
@@ -18,10 +21,14 @@ type Target struct {
 }
 
 // ReadTargets reads a target set with the given text spec and analyzer. Rows that cannot be read are
-// returned as rejects, not errors; an unreadable file is an error.
+// returned as rejects, not errors; an unreadable file is an error. Rows are analysed on all cores
+// (each worker with its own analyzer of an's kind); the result is in file order all the same.
 func ReadTargets(path, spec, idField string, an *analysis.Analyzer, maxRowBytes int) ([]Target, []Reject, error) {
 	sp, err := jsonl.ParseSpec(spec)
 	if err != nil {
+		return nil, nil, fmt.Errorf("read target %s: %w", path, err)
+	}
+	if _, err := jsonl.NewExtractor(sp, idField, ""); err != nil {
 		return nil, nil, fmt.Errorf("read target %s: %w", path, err)
 	}
 	if maxRowBytes <= 0 {
@@ -33,12 +40,8 @@ func ReadTargets(path, spec, idField string, an *analysis.Analyzer, maxRowBytes 
 	}
 	defer rc.Close()
 	sc := jsonl.NewScanner(rc, maxRowBytes)
-	ex, err := jsonl.NewExtractor(sp, idField, "")
-	if err != nil {
-		return nil, nil, fmt.Errorf("read target %s: %w", path, err)
-	}
-	var out []Target
-	var rej []Reject
+	// A target set is small, so its lines are gathered first and analysed in parallel after.
+	var lines []targetLine
 	var sniff jsonl.Sniffer
 	sniffing := true
 	for sc.Scan() {
@@ -49,33 +52,15 @@ func ReadTargets(path, spec, idField string, an *analysis.Analyzer, maxRowBytes 
 				return nil, nil, fmt.Errorf("read target %s: %w", path, err)
 			}
 		}
-		bad := func(reason string) {
-			rej = append(rej, newReject(path, sc.Line(), sc.Offset(), sc.Len(), reason, line))
-		}
-		if sc.TooLong() {
-			bad(fmt.Sprintf("row longer than %d bytes", maxRowBytes))
+		tl := targetLine{line: sc.Line(), off: sc.Offset(), n: sc.Len()}
+		switch {
+		case sc.TooLong():
+			tl.reject = fmt.Sprintf("row longer than %d bytes", maxRowBytes)
+		case isBlank(line):
 			continue
 		}
-		if isBlank(line) {
-			continue
-		}
-		var terms []string
-		row, err := ex.Extract(line, func(part []byte) {
-			an.Each(part, func(t []byte) { terms = append(terms, string(t)) })
-		})
-		if err != nil {
-			reason := reasonOf(err)
-			if sc.Len() == len(line) && errors.Is(err, jsonl.ErrNotJSON) {
-				reason += "; it is the last line and has no newline: the file may have been cut short"
-			}
-			bad(reason)
-			continue
-		}
-		id := path + ":" + strconv.FormatInt(sc.Line(), 10)
-		if row.HasID {
-			id = string(row.ID)
-		}
-		out = append(out, Target{ID: id, Line: sc.Line(), Terms: terms, TextBytes: row.TextBytes})
+		tl.raw = slices.Clone(line)
+		lines = append(lines, tl)
 	}
 	if err := sc.Err(); err != nil {
 		return nil, nil, fmt.Errorf("read target %s: %w", path, err)
@@ -83,5 +68,71 @@ func ReadTargets(path, spec, idField string, an *analysis.Analyzer, maxRowBytes 
 	if sniff.End(); sniff.Err() != nil {
 		return nil, nil, fmt.Errorf("read target %s: %w", path, sniff.Err())
 	}
+
+	nw := max(1, min(runtime.GOMAXPROCS(0), len(lines)/64))
+	errs := make([]error, nw)
+	var wg sync.WaitGroup
+	for i := range nw {
+		wg.Go(func() {
+			wan := an
+			if i > 0 {
+				if wan, errs[i] = analysis.New(an.Name()); errs[i] != nil {
+					return
+				}
+			}
+			ex, _ := jsonl.NewExtractor(sp, idField, "") // checked above
+			for j := i * len(lines) / nw; j < (i+1)*len(lines)/nw; j++ {
+				lines[j].analyse(path, ex, wan)
+			}
+		})
+	}
+	wg.Wait()
+	for _, err := range errs {
+		if err != nil {
+			return nil, nil, fmt.Errorf("read target %s: %w", path, err)
+		}
+	}
+	var out []Target
+	var rej []Reject
+	for i := range lines {
+		tl := &lines[i]
+		if tl.reject != "" {
+			rej = append(rej, newReject(path, tl.line, tl.off, tl.n, tl.reject, tl.raw))
+			continue
+		}
+		out = append(out, tl.t)
+	}
 	return out, rej, nil
+}
+
+// targetLine is one non-blank line of a target file on its way to a Target or a Reject.
+type targetLine struct {
+	line   int64
+	off    int64
+	n      int // bytes in the file, newline included
+	raw    []byte
+	reject string
+	t      Target
+}
+
+func (tl *targetLine) analyse(path string, ex *jsonl.Extractor, an *analysis.Analyzer) {
+	if tl.reject != "" {
+		return
+	}
+	var terms []string
+	row, err := ex.Extract(tl.raw, func(part []byte) {
+		an.Each(part, func(t []byte) { terms = append(terms, string(t)) })
+	})
+	if err != nil {
+		tl.reject = reasonOf(err)
+		if tl.n == len(tl.raw) && errors.Is(err, jsonl.ErrNotJSON) {
+			tl.reject += "; it is the last line and has no newline: the file may have been cut short"
+		}
+		return
+	}
+	id := path + ":" + strconv.FormatInt(tl.line, 10)
+	if row.HasID {
+		id = string(row.ID)
+	}
+	tl.t = Target{ID: id, Line: tl.line, Terms: terms, TextBytes: row.TextBytes}
 }

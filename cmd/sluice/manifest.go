@@ -63,8 +63,9 @@ func sha256File(path string) (string, error) {
 	return hex.EncodeToString(h.Sum(nil)), nil
 }
 
-// writeManifest hashes every file already in the working folder tmp and writes the manifest there.
-func writeManifest(tmp string, m *manifest) error {
+// writeManifest records the hash of every file already in the working folder tmp, taking those
+// known from writing them and reading the rest, and writes the manifest there.
+func writeManifest(tmp string, m *manifest, known map[string]string) error {
 	entries, err := os.ReadDir(tmp)
 	if err != nil {
 		return fmt.Errorf("write manifest: %w", err)
@@ -72,6 +73,10 @@ func writeManifest(tmp string, m *manifest) error {
 	m.Files = map[string]string{}
 	for _, e := range entries {
 		if e.Name() == manifestFile {
+			continue
+		}
+		if sum, ok := known[e.Name()]; ok {
+			m.Files[e.Name()] = sum
 			continue
 		}
 		if m.Files[e.Name()], err = sha256File(filepath.Join(tmp, e.Name())); err != nil {

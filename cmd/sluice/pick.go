@@ -3,14 +3,18 @@ package main
 import (
 	"bufio"
 	"context"
+	"crypto/sha256"
+	"encoding/hex"
 	"encoding/json"
 	"fmt"
+	"io"
 	"math"
 	"os"
 	"path/filepath"
 	"slices"
 	"strconv"
 	"strings"
+	"sync"
 	"time"
 
 	"github.com/klauspost/compress/gzip"
@@ -408,38 +412,47 @@ func writeRun(cfg *pickConfig, pr *pickResult, trej []index.Reject) error {
 			os.RemoveAll(tmp)
 		}
 	}()
-	if err := writeFile(filepath.Join(tmp, keptName(cfg.compress)), func(w *bufio.Writer) error {
-		return copyKept(w, pr, cfg.compress)
-	}); err != nil {
-		return err
-	}
-	if err := writeFile(filepath.Join(tmp, "scores.jsonl"), func(w *bufio.Writer) error {
-		return writeScores(w, pr)
-	}); err != nil {
-		return err
-	}
-	if err := writeFile(filepath.Join(tmp, "ledger.json"), func(w *bufio.Writer) error {
-		b, err := json.MarshalIndent(pr.ledger, "", "  ")
-		if err != nil {
-			return err
-		}
-		_, err = w.Write(append(b, '\n'))
-		return err
-	}); err != nil {
-		return err
-	}
-	if err := writeFile(filepath.Join(tmp, "rejected.jsonl"), func(w *bufio.Writer) error {
-		enc := json.NewEncoder(w)
-		for i := range trej {
-			if err := enc.Encode(&trej[i]); err != nil {
+	// The kept rows and the scores are nearly all of a run's bytes. Each is written, hashed and
+	// synced on a goroutine of its own, so that one's wait for the disk overlaps the other's work.
+	outs := []struct {
+		name string
+		fill func(w *bufio.Writer) error
+	}{
+		{keptName(cfg.compress), func(w *bufio.Writer) error { return copyKept(w, pr, cfg.compress) }},
+		{"scores.jsonl", func(w *bufio.Writer) error { return writeScores(w, pr) }},
+		{"ledger.json", func(w *bufio.Writer) error {
+			b, err := json.MarshalIndent(pr.ledger, "", "  ")
+			if err != nil {
 				return err
 			}
-		}
-		return nil
-	}); err != nil {
-		return err
+			_, err = w.Write(append(b, '\n'))
+			return err
+		}},
+		{"rejected.jsonl", func(w *bufio.Writer) error {
+			enc := json.NewEncoder(w)
+			for i := range trej {
+				if err := enc.Encode(&trej[i]); err != nil {
+					return err
+				}
+			}
+			return nil
+		}},
 	}
-	if err := writeManifest(tmp, pr.manifest(cfg)); err != nil {
+	sums := make([]string, len(outs))
+	errs := make([]error, len(outs))
+	var wg sync.WaitGroup
+	for i, o := range outs {
+		wg.Go(func() { sums[i], errs[i] = writeHashed(filepath.Join(tmp, o.name), o.fill) })
+	}
+	wg.Wait()
+	hashes := map[string]string{}
+	for i, o := range outs {
+		if errs[i] != nil {
+			return errs[i]
+		}
+		hashes[o.name] = sums[i]
+	}
+	if err := writeManifest(tmp, pr.manifest(cfg), hashes); err != nil {
 		return err
 	}
 	if err := atomicdir.Publish(tmp, cfg.out); err != nil {
@@ -508,11 +521,19 @@ func (pr *pickResult) manifest(cfg *pickConfig) *manifest {
 
 // writeFile creates path, lets fill write it through a buffer, then flushes and fsyncs it.
 func writeFile(path string, fill func(w *bufio.Writer) error) error {
+	_, err := writeHashed(path, fill)
+	return err
+}
+
+// writeHashed is writeFile that also returns the SHA-256 of what was written, in hex, so that a
+// manifest need not read the file again.
+func writeHashed(path string, fill func(w *bufio.Writer) error) (string, error) {
 	f, err := os.Create(path)
 	if err != nil {
-		return fmt.Errorf("write %w", err)
+		return "", fmt.Errorf("write %w", err)
 	}
-	w := bufio.NewWriterSize(f, 1<<20)
+	h := sha256.New()
+	w := bufio.NewWriterSize(io.MultiWriter(f, h), 1<<20)
 	err = fill(w)
 	if err == nil {
 		err = w.Flush()
@@ -524,18 +545,28 @@ func writeFile(path string, fill func(w *bufio.Writer) error) error {
 		err = cerr
 	}
 	if err != nil {
-		return fmt.Errorf("write %s: %w", path, err)
+		return "", fmt.Errorf("write %s: %w", path, err)
 	}
-	return nil
+	return hex.EncodeToString(h.Sum(nil)), nil
 }
 
 // writeScores writes one line per indexed row in input order. Scores are printed with the fewest
 // digits that read back to the same float64, so the file agrees with explanations to the bit.
 func writeScores(w *bufio.Writer, pr *pickResult) error {
+	// Target ids and reasons repeat on many lines: quote each once.
+	targets := make([][]byte, len(pr.targets))
+	for i, t := range pr.targets {
+		targets[i] = appendJSONString(nil, t.ID)
+	}
+	reasons := map[selection.Reason][]byte{}
+	var plain [256]bool // the bytes that stand in a JSON string as they are
+	for c := range plain {
+		plain[c] = jsonPlain([]byte{byte(c)})
+	}
 	var b []byte
 	for r, d := range pr.dec {
 		b = append(b[:0], `{"id":`...)
-		b = appendJSONString(b, pr.ix.RowID(r))
+		b = appendJSONID(b, pr.ix, r, &plain)
 		b = append(b, `,"score":`...)
 		b = strconv.AppendFloat(b, pr.res.Scores[r], 'g', -1, 64)
 		b = append(b, `,"rank":`...)
@@ -543,8 +574,13 @@ func writeScores(w *bufio.Writer, pr *pickResult) error {
 		b = append(b, `,"kept":`...)
 		b = strconv.AppendBool(b, d.Kept)
 		if !d.Kept {
+			q, ok := reasons[d.Reason]
+			if !ok {
+				q = appendJSONString(nil, d.Reason.String())
+				reasons[d.Reason] = q
+			}
 			b = append(b, `,"reason":`...)
-			b = appendJSONString(b, d.Reason.String())
+			b = append(b, q...)
 		}
 		b = append(b, `,"tokens":`...)
 		b = strconv.AppendInt(b, pr.tokens[r], 10)
@@ -552,7 +588,7 @@ func writeScores(w *bufio.Writer, pr *pickResult) error {
 		if pr.res.Best == nil {
 			b = append(b, "null"...) // not asked for (--attribute=false)
 		} else if t := pr.res.Best[r]; t >= 0 {
-			b = appendJSONString(b, pr.targets[t].ID)
+			b = append(b, targets[t]...)
 		} else {
 			b = append(b, "null"...)
 		}
@@ -566,14 +602,37 @@ func writeScores(w *bufio.Writer, pr *pickResult) error {
 	return nil
 }
 
+// appendJSONID appends the id of row r of ix as a JSON string, quoting it in place when all its
+// bytes are plain, as ids nearly always are.
+func appendJSONID(b []byte, ix *index.Index, r int, plain *[256]bool) []byte {
+	start := len(b)
+	b = append(b, '"')
+	b = ix.AppendRowID(b, r)
+	for _, c := range b[start+1:] {
+		if !plain[c] {
+			id := string(b[start+1:])
+			return appendJSONString(b[:start], id)
+		}
+	}
+	return append(b, '"')
+}
+
+// jsonPlain reports whether s can stand in a JSON string as it is, as encoding/json would write it.
+func jsonPlain[T string | []byte](s T) bool {
+	for i := 0; i < len(s); i++ {
+		if c := s[i]; c < 0x20 || c >= 0x7f || c == '"' || c == '\\' || c == '<' || c == '>' || c == '&' {
+			return false
+		}
+	}
+	return true
+}
+
 // appendJSONString appends s as a JSON string. Ids are nearly always plain ASCII, which is copied
 // as it is; anything else goes through encoding/json.
 func appendJSONString(b []byte, s string) []byte {
-	for i := 0; i < len(s); i++ {
-		if c := s[i]; c < 0x20 || c >= 0x7f || c == '"' || c == '\\' || c == '<' || c == '>' || c == '&' {
-			q, _ := json.Marshal(s)
-			return append(b, q...)
-		}
+	if !jsonPlain(s) {
+		q, _ := json.Marshal(s)
+		return append(b, q...)
 	}
 	b = append(b, '"')
 	b = append(b, s...)
