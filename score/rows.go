@@ -105,13 +105,9 @@ func (s *scorer) rowPasses(ctx context.Context, res *Result, bestScore []float64
 		nw = runtime.GOMAXPROCS(0)
 	}
 	n := pl.n
-	// Workers claim spans of whole blocks; within a span each term's cursor
-	// only moves forward, so finding a block's postings costs one binary
-	// search per term and span. Eight spans a worker even out the load.
-	blocks := (n + rowBlock - 1) / rowBlock
-	span := max(1, blocks/(8*max(1, nw))) * rowBlock
-	spans := (n + span - 1) / span
-	nw = max(1, min(nw, spans))
+	segs, segOff := s.blockSegments(n)
+	blocks := len(segOff) - 1
+	nw = max(1, min(nw, blocks))
 	var next atomic.Int64
 	var failed atomic.Bool
 	errs := make([]error, nw)
@@ -120,20 +116,17 @@ func (s *scorer) rowPasses(ctx context.Context, res *Result, bestScore []float64
 		wg.Go(func() {
 			w := newRowWorker(s, h, combined)
 			for !failed.Load() {
-				sp := int(next.Add(1) - 1)
-				if sp >= spans {
+				b := int(next.Add(1) - 1)
+				if b >= blocks {
 					return
 				}
-				lo := sp * span
-				w.seek(lo)
-				for b := lo; b < min(n, lo+span); b += rowBlock {
-					if err := ctx.Err(); err != nil {
-						errs[i] = fmt.Errorf("score: %w", err)
-						failed.Store(true)
-						return
-					}
-					w.block(b, min(n, b+rowBlock), res, bestScore)
+				if err := ctx.Err(); err != nil {
+					errs[i] = fmt.Errorf("score: %w", err)
+					failed.Store(true)
+					return
 				}
+				lo := b * rowBlock
+				w.block(lo, min(n, lo+rowBlock), segs[segOff[b]:segOff[b+1]], res, bestScore)
 			}
 		})
 	}
@@ -146,13 +139,54 @@ func (s *scorer) rowPasses(ctx context.Context, res *Result, bestScore []float64
 	return nil
 }
 
+// rowSegment is the part of vocab term k's cached postings, [a, b), that falls
+// in one block of rows.
+type rowSegment struct{ k, a, b int32 }
+
+// blockSegments cuts every cached posting list at the row blocks: segs holds,
+// block after block and within a block in ascending term order, the
+// segments of the lists, block b's being segs[off[b]:off[b+1]]. One pass over
+// the postings finds them, where looking each term up in each block would
+// touch every list once a block.
+func (s *scorer) blockSegments(n int) (segs []rowSegment, off []int32) {
+	blocks := (n + rowBlock - 1) / rowBlock
+	off = make([]int32, blocks+1)
+	for k := range s.pl.vocab {
+		prev := -1
+		for _, r := range s.cache[k].rows {
+			if b := int(r) / rowBlock; b != prev {
+				off[b+1]++
+				prev = b
+			}
+		}
+	}
+	for b := range blocks {
+		off[b+1] += off[b]
+	}
+	segs = make([]rowSegment, off[blocks])
+	next := slices.Clone(off[:blocks])
+	for k := range s.pl.vocab {
+		rows := s.cache[k].rows
+		for a := 0; a < len(rows); {
+			b := int(rows[a]) / rowBlock
+			end := a + 1
+			for end < len(rows) && int(rows[end])/rowBlock == b {
+				end++
+			}
+			segs[next[b]] = rowSegment{int32(k), int32(a), int32(end)}
+			next[b]++
+			a = end
+		}
+	}
+	return segs, off
+}
+
 // rowWorker is one goroutine's scratch space for rowPasses.
 type rowWorker struct {
 	s        *scorer
 	h        *holders
 	combined []float64
 	acc      []float64 // per target row; negZero when not reached by the current pool row
-	cur      []int32   // per vocab term, its first posting at or after the current block
 	count    []int32   // per pool row of the block, then where its entries end
 	terms    []int32   // the block's (row, term) pairs, grouped by row, terms ascending
 	parts    []float64
@@ -160,31 +194,21 @@ type rowWorker struct {
 
 func newRowWorker(s *scorer, h *holders, combined []float64) *rowWorker {
 	w := &rowWorker{s: s, h: h, combined: combined, acc: make([]float64, len(s.pl.targets)),
-		cur: make([]int32, len(s.pl.vocab)), count: make([]int32, rowBlock+1)}
+		count: make([]int32, rowBlock+1)}
 	for i := range w.acc {
 		w.acc[i] = negZero
 	}
 	return w
 }
 
-// seek places every term's cursor at its first posting at or after row lo.
-func (w *rowWorker) seek(lo int) {
-	for k := range w.cur {
-		i, _ := slices.BinarySearch(w.s.cache[k].rows, uint32(lo))
-		w.cur[k] = int32(i)
-	}
-}
-
-// block scores pool rows [lo, hi), which must follow the rows of the
-// previous block or seek.
-func (w *rowWorker) block(lo, hi int, res *Result, bestScore []float64) {
+// block scores pool rows [lo, hi), whose postings segs holds.
+func (w *rowWorker) block(lo, hi int, segs []rowSegment, res *Result, bestScore []float64) {
 	s := w.s
 	count := w.count[:hi-lo+1]
 	clear(count)
-	for k := range w.cur {
-		rows := s.cache[k].rows
-		for i := w.cur[k]; int(i) < len(rows) && rows[i] < uint32(hi); i++ {
-			count[rows[i]-uint32(lo)+1]++
+	for _, sg := range segs {
+		for _, r := range s.cache[sg.k].rows[sg.a:sg.b] {
+			count[r-uint32(lo)+1]++
 		}
 	}
 	for i := 1; i < len(count); i++ {
@@ -193,16 +217,14 @@ func (w *rowWorker) block(lo, hi int, res *Result, bestScore []float64) {
 	total := int(count[len(count)-1])
 	w.terms = slices.Grow(w.terms[:0], total)[:total]
 	w.parts = slices.Grow(w.parts[:0], total)[:total]
-	for k := range w.cur {
-		rows, parts := s.cache[k].rows, s.cache[k].parts
-		i := w.cur[k]
-		for ; int(i) < len(rows) && rows[i] < uint32(hi); i++ {
-			r := rows[i] - uint32(lo)
-			at := count[r]
-			w.terms[at], w.parts[at] = int32(k), parts[i]
-			count[r] = at + 1
+	for _, sg := range segs {
+		rows, parts := s.cache[sg.k].rows[sg.a:sg.b], s.cache[sg.k].parts[sg.a:sg.b]
+		parts = parts[:len(rows)]
+		for i, r := range rows {
+			at := count[r-uint32(lo)]
+			w.terms[at], w.parts[at] = sg.k, parts[i]
+			count[r-uint32(lo)] = at + 1
 		}
-		w.cur[k] = i
 	}
 	// count[r] is now the end of row r's entries, and the start of row r+1's.
 	start := int32(0)
