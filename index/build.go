@@ -938,13 +938,11 @@ func (w *worker) do(bt *batch, paths []string) (*batchOut, error) {
 			}
 			continue
 		}
-		var buf [2 * binary.MaxVarintLen64]byte
 		for _, id := range w.touched {
 			ts := &w.st[id]
-			n := binary.PutUvarint(buf[:], key-ts.last)
-			n += binary.PutUvarint(buf[n:], uint64(ts.count))
+			// Appending the varints byte by byte beats copying a few bytes from a buffer.
 			before := cap(ts.post)
-			ts.post = append(ts.post, buf[:n]...)
+			ts.post = binary.AppendUvarint(binary.AppendUvarint(ts.post, key-ts.last), uint64(ts.count))
 			w.mem += int64(cap(ts.post) - before)
 			ts.last = key
 			ts.df++
