@@ -308,7 +308,7 @@ func TestWhyAgreesWithScores(t *testing.T) {
 			for _, s := range readScores(t, filepath.Join(out, "scores.jsonl")) {
 				ids = append(ids, s.ID)
 			}
-			rows, err := explainRun(context.Background(), out, ids, 1)
+			rows, err := explainRun(context.Background(), out, relocated{}, ids, 1)
 			if err != nil {
 				t.Fatalf("%s/%s: %v", method, agg, err)
 			}
@@ -401,5 +401,46 @@ func TestStoredNormsMatchScoring(t *testing.T) {
 		if r < len(lines) && math.Abs(s-1) > 1e-12 {
 			t.Errorf("row %d against itself: cosine %v, want 1", r, s)
 		}
+	}
+}
+
+// TestMovedInputs moves a run's index and target away from where its manifest says: why, report
+// and verify say so and point to the flags, and with --index and --target they work, still
+// checking the hashes.
+func TestMovedInputs(t *testing.T) {
+	dir, idx, target := demoIndex(t)
+	run := filepath.Join(dir, "run")
+	if code, _, stderr := sluice(t, "pick", "--quiet", "--index", idx, "--target", target, "--budget", "1e15", "--train-params", "1M", "--out", run); code != 0 {
+		t.Fatal(stderr)
+	}
+	id := readScores(t, filepath.Join(run, "scores.jsonl"))[0].ID
+	idx2, target2 := filepath.Join(dir, "moved.idx"), filepath.Join(dir, "moved-target.jsonl")
+	if err := os.Rename(idx, idx2); err != nil {
+		t.Fatal(err)
+	}
+	if err := os.Rename(target, target2); err != nil {
+		t.Fatal(err)
+	}
+	report := filepath.Join(dir, "r.html")
+	for _, args := range [][]string{{"why", "--run", run, id}, {"report", "--quiet", run, "--out", report}} {
+		if code, _, stderr := sluice(t, args...); code != 1 || !strings.Contains(stderr, "--index") {
+			t.Errorf("%s with the index moved: exit %d: %s", args[0], code, stderr)
+		}
+		if code, _, stderr := sluice(t, append(args, "--index", idx2)...); code != 1 || !strings.Contains(stderr, "--target") {
+			t.Errorf("%s with the target moved: exit %d: %s", args[0], code, stderr)
+		}
+		if code, _, stderr := sluice(t, append(args, "--index", idx2, "--target", target2)...); code != 0 {
+			t.Errorf("%s told where both are: exit %d: %s", args[0], code, stderr)
+		}
+		// Another file at the given path is refused, not explained against.
+		if code, _, stderr := sluice(t, append(args, "--index", idx2, "--target", filepath.Join(run, "kept.jsonl"))...); code != 1 || !strings.Contains(stderr, "changed since the run") {
+			t.Errorf("%s with another target: exit %d: %s", args[0], code, stderr)
+		}
+	}
+	if code, _, stderr := sluice(t, "verify", run); code != 1 || !strings.Contains(stderr, "index") {
+		t.Errorf("verify with both moved: exit %d: %s", code, stderr)
+	}
+	if code, stdout, stderr := sluice(t, "verify", run, "--index", idx2, "--target", target2); code != 0 || !strings.Contains(stdout, "ok") {
+		t.Errorf("verify told where both are: exit %d: %s%s", code, stdout, stderr)
 	}
 }

@@ -9,6 +9,8 @@ import (
 	"os"
 	"path/filepath"
 	"sort"
+
+	"github.com/spf13/pflag"
 )
 
 // manifestFile names the run's record of how it was made.
@@ -100,6 +102,52 @@ func readManifest(run string) (*manifest, error) {
 		return nil, fmt.Errorf("read run %s: %s: %w", run, manifestFile, err)
 	}
 	return &m, nil
+}
+
+// relocated says where a run's index and target are now, when they are no longer where its manifest
+// says (the run was copied to another machine, or made from another folder); an empty field keeps
+// the manifest's path. The hashes in the manifest are checked all the same.
+type relocated struct{ index, target string }
+
+func addMovedFlags(fs *pflag.FlagSet) {
+	fs.String("index", "", "the run's index folder, if not where the run's manifest says")
+	fs.String("target", "", "the run's target file, if not where the run's manifest says")
+}
+
+func movedFrom(fs *pflag.FlagSet) relocated {
+	var mv relocated
+	mv.index, _ = fs.GetString("index")
+	mv.target, _ = fs.GetString("target")
+	return mv
+}
+
+func (mv relocated) apply(m *manifest) {
+	if mv.index != "" {
+		m.Index.Path = mv.index
+	}
+	if mv.target != "" {
+		m.Target.Path = mv.target
+	}
+}
+
+// checkInputs reports whether the index and target at the manifest's paths are the ones the run
+// used: the index by its meta.json, which holds the checksum of every other index file.
+func checkInputs(what, run string, m *manifest) error {
+	got, err := sha256File(filepath.Join(m.Index.Path, "meta.json"))
+	if err != nil {
+		return fmt.Errorf("%s %s: index %s: %w (if it has moved, say where with --index)", what, run, m.Index.Path, err)
+	}
+	if got != m.Index.SHA256 {
+		return fmt.Errorf("%s %s: index %s is not the one the run used (run 'sluice verify %s')", what, run, m.Index.Path, run)
+	}
+	got, err = sha256File(m.Target.Path)
+	if err != nil {
+		return fmt.Errorf("%s %s: target %s: %w (if it has moved, say where with --target)", what, run, m.Target.Path, err)
+	}
+	if got != m.Target.SHA256 {
+		return fmt.Errorf("%s %s: target %s has changed since the run (run 'sluice verify %s')", what, run, m.Target.Path, run)
+	}
+	return nil
 }
 
 // verifyRun rechecks every hash the manifest holds, and the index, and returns what differs.

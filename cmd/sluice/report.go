@@ -46,6 +46,7 @@ runs of millions of rows are fine.`,
 	fs.Int("terms", 20, "target terms to show")
 	fs.Int("files", 12, "pool files to show by name; the rest are summed in one line")
 	fs.BoolP("quiet", "q", false, "print nothing but errors")
+	addMovedFlags(fs)
 	return fs
 }
 
@@ -56,6 +57,7 @@ func (c *reportCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 	o.sample, _ = fs.GetInt("sample")
 	o.terms, _ = fs.GetInt("terms")
 	o.files, _ = fs.GetInt("files")
+	o.moved = movedFrom(fs)
 	switch {
 	case fs.NArg() != 1:
 		return usagef("name one run folder")
@@ -84,6 +86,7 @@ func (c *reportCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 
 type reportOptions struct {
 	sample, terms, files int
+	moved                relocated
 }
 
 // histBins is the most bins the score histogram uses; after the last doubling it uses between half
@@ -228,10 +231,9 @@ func buildReport(ctx context.Context, run string, o reportOptions) (*report, err
 	if err := json.Unmarshal(b, &led); err != nil {
 		return nil, fmt.Errorf("report %s: ledger.json: %w", run, err)
 	}
-	if got, err := sha256File(filepath.Join(m.Index.Path, "meta.json")); err != nil {
-		return nil, fmt.Errorf("report %s: index %s: %w", run, m.Index.Path, err)
-	} else if got != m.Index.SHA256 {
-		return nil, fmt.Errorf("report %s: index %s is not the one the run used (run 'sluice verify %s')", run, m.Index.Path, run)
+	o.moved.apply(m)
+	if err := checkInputs("report", run, m); err != nil {
+		return nil, err
 	}
 	ix, err := index.Open(m.Index.Path)
 	if err != nil {
@@ -305,10 +307,10 @@ func buildReport(ctx context.Context, run string, o reportOptions) (*report, err
 	if rep.Terms, rep.TermsNote, rep.Targets, err = termChart(ix, m, o.terms); err != nil {
 		return nil, err
 	}
-	if rep.Above, err = explainSample(ctx, run, ix, above.sorted()); err != nil {
+	if rep.Above, err = explainSample(ctx, run, o.moved, ix, above.sorted()); err != nil {
 		return nil, err
 	}
-	if rep.Below, err = explainSample(ctx, run, ix, below.sorted()); err != nil {
+	if rep.Below, err = explainSample(ctx, run, o.moved, ix, below.sorted()); err != nil {
 		return nil, err
 	}
 	return rep, nil
@@ -615,7 +617,7 @@ const sampleParts = 8
 // sampleTextBytes caps the row text shown for a sample row.
 const sampleTextBytes = 700
 
-func explainSample(ctx context.Context, run string, ix *index.Index, rows []sampleRow) ([]sampleView, error) {
+func explainSample(ctx context.Context, run string, mv relocated, ix *index.Index, rows []sampleRow) ([]sampleView, error) {
 	if len(rows) == 0 {
 		return nil, nil
 	}
@@ -627,7 +629,7 @@ func explainSample(ctx context.Context, run string, ix *index.Index, rows []samp
 			ids = append(ids, r.id)
 		}
 	}
-	whys, err := explainRun(ctx, run, ids, 3)
+	whys, err := explainRun(ctx, run, mv, ids, 3)
 	if err != nil {
 		return nil, err
 	}

@@ -21,7 +21,9 @@ func (*verifyCmd) flags() *pflag.FlagSet {
 target file and the index (its meta.json, which holds the checksum of every other index file) are
 the ones the run used. Exit 0 when all agree, 1 with a line per difference otherwise.`,
 		`  sluice verify run1
-  sluice verify runs/*`)
+  sluice verify runs/*
+  sluice verify copied/run1 --index /data/pool.idx --target /data/support.jsonl`)
+	addMovedFlags(fs)
 	return fs
 }
 
@@ -35,6 +37,7 @@ func (c *verifyCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 		if err != nil {
 			return err
 		}
+		movedFrom(fs).apply(m)
 		diffs := verifyRun(run, m)
 		for _, d := range diffs {
 			bad = append(bad, run+": "+d)

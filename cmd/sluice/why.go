@@ -31,10 +31,12 @@ with the terms they share, the ledger at the row's place against the budget, and
 kept. It recomputes each score from the index and the target the run used, and checks that it agrees
 with scores.jsonl to the last bit. IDs are as in scores.jsonl.`,
 		`  sluice why --run run1 pool-0028
-  sluice why --run run1 --json train.jsonl:1234 train.jsonl:99 | jq .`)
+  sluice why --run run1 --json train.jsonl:1234 train.jsonl:99 | jq .
+  sluice why --run copied/run1 --index /data/pool.idx --target /data/support.jsonl pool-0028`)
 	fs.String("run", "", "run folder made by 'sluice pick' (required)")
 	fs.Bool("json", false, "print one JSON object per row instead of text")
 	fs.Int("targets", 3, "how many of the best-matching target rows to show")
+	addMovedFlags(fs)
 	return fs
 }
 
@@ -76,7 +78,7 @@ func (c *whyCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 	if top < 0 {
 		return usagef("--targets %d: must be 0 or more", top)
 	}
-	rows, err := explainRun(ctx, run, fs.Args(), top)
+	rows, err := explainRun(ctx, run, movedFrom(fs), fs.Args(), top)
 	if err != nil {
 		return err
 	}
@@ -97,17 +99,14 @@ func (c *whyCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 }
 
 // explainRun explains the rows with the given ids (every row with that id, if ids repeat).
-func explainRun(ctx context.Context, run string, ids []string, top int) ([]rowWhy, error) {
+func explainRun(ctx context.Context, run string, mv relocated, ids []string, top int) ([]rowWhy, error) {
 	m, err := readManifest(run)
 	if err != nil {
 		return nil, err
 	}
-	got, err := sha256File(filepath.Join(m.Index.Path, "meta.json"))
-	if err != nil {
-		return nil, fmt.Errorf("explain %s: index %s: %w", run, m.Index.Path, err)
-	}
-	if got != m.Index.SHA256 {
-		return nil, fmt.Errorf("explain %s: index %s is not the one the run used (run 'sluice verify %s')", run, m.Index.Path, run)
+	mv.apply(m)
+	if err := checkInputs("explain", run, m); err != nil {
+		return nil, err
 	}
 	ix, err := index.Open(m.Index.Path)
 	if err != nil {
