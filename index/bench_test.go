@@ -55,3 +55,34 @@ func BenchmarkFloor(b *testing.B) {
 	}
 	b.ReportMetric(float64(rows)*float64(b.N)/b.Elapsed().Seconds(), "rows/s")
 }
+
+// BenchmarkPostings decodes every posting list of an index of the demo-sized T0 sample (the first
+// 20 template files), as a pick does for its query terms.
+func BenchmarkPostings(b *testing.B) {
+	files, _ := sharedPool(b)
+	dir := filepath.Join(b.TempDir(), "idx")
+	if _, err := Build(context.Background(), dir, files[:min(20, len(files))], Options{Text: "prompt,completion"}); err != nil {
+		b.Fatal(err)
+	}
+	ix, err := Open(dir)
+	if err != nil {
+		b.Fatal(err)
+	}
+	defer ix.Close()
+	terms := make([]string, ix.NumTerms())
+	for i := range terms {
+		terms[i] = string(ix.term(i))
+	}
+	var rows, tfs []uint32
+	var n int64
+	for b.Loop() {
+		for _, t := range terms {
+			if rows, tfs, err = ix.Postings(t, rows[:0], tfs[:0]); err != nil {
+				b.Fatal(err)
+			}
+			n += int64(len(rows))
+		}
+	}
+	b.ReportMetric(float64(n)/b.Elapsed().Seconds(), "postings/s")
+	b.ReportMetric(b.Elapsed().Seconds()*1e9/float64(n), "ns/posting")
+}

@@ -8,6 +8,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"slices"
 	"sort"
 	"strconv"
 	"syscall"
@@ -306,15 +307,24 @@ func (ix *Index) Postings(term string, rows, tfs []uint32) ([]uint32, []uint32, 
 	b := ix.postings[ix.postOff[i]:ix.postOff[i+1]]
 	row := int64(-1)
 	n := ix.meta.Rows
+	// df is only a hint here (a damaged list is caught below), but a sane one saves regrowing.
+	if df := int(ix.df[i]); df <= len(b) {
+		rows, tfs = slices.Grow(rows, df), slices.Grow(tfs, df)
+	}
 	for len(b) > 0 {
-		v, k := binary.Uvarint(b)
-		if k <= 0 {
-			return rows, tfs, fmt.Errorf("index %s: postings of %q: %w", ix.dir, term, ErrDamaged)
+		// Most gaps and counts take one byte; binary.Uvarint handles the rest.
+		v, k := uint64(b[0]), 1
+		if v >= 0x80 {
+			if v, k = binary.Uvarint(b); k <= 0 {
+				return rows, tfs, fmt.Errorf("index %s: postings of %q: %w", ix.dir, term, ErrDamaged)
+			}
 		}
 		b = b[k:]
 		tf := uint64(1)
 		if v&1 == 0 {
-			if tf, k = binary.Uvarint(b); k <= 0 {
+			if len(b) > 0 && b[0] < 0x80 {
+				tf, k = uint64(b[0]), 1
+			} else if tf, k = binary.Uvarint(b); k <= 0 {
 				return rows, tfs, fmt.Errorf("index %s: postings of %q: %w", ix.dir, term, ErrDamaged)
 			}
 			b = b[k:]
