@@ -304,19 +304,55 @@ func (ix *Index) Postings(term string, rows, tfs []uint32) ([]uint32, []uint32, 
 	if !ok {
 		return rows, tfs, nil
 	}
-	b := ix.postings[ix.postOff[i]:ix.postOff[i+1]]
-	row := int64(-1)
-	n := ix.meta.Rows
-	// df is only a hint here (a damaged list is caught below), but a sane one saves regrowing.
-	if df := int(ix.df[i]); df <= len(b) {
+	c := ix.cursorAt(i, term)
+	// df is only a hint here (a damaged list is caught in decoding), but a sane one saves regrowing.
+	if df := int(ix.df[i]); df <= len(c.b) {
 		rows, tfs = slices.Grow(rows, df), slices.Grow(tfs, df)
 	}
+	return c.Next(math.MaxInt, rows, tfs)
+}
+
+// A Cursor reads one term's postings in row order, a stretch at a time, so that a reader of many
+// lists need not hold any of them whole.
+type Cursor struct {
+	ix   *Index
+	term string
+	b    []byte // what is left of the list
+	row  int64  // the last row decoded; -1 before the first
+	next int64  // a decoded row not yet handed out (at or past an earlier end), or -1
+	tf   uint32
+}
+
+// NewCursor returns a cursor at the start of term's postings; a term the index lacks has none.
+func (ix *Index) NewCursor(term string) *Cursor {
+	if i, ok := ix.find(term); ok {
+		c := ix.cursorAt(i, term)
+		return &c
+	}
+	return &Cursor{ix: ix, term: term, row: -1, next: -1}
+}
+
+func (ix *Index) cursorAt(i int, term string) Cursor {
+	return Cursor{ix: ix, term: term, b: ix.postings[ix.postOff[i]:ix.postOff[i+1]], row: -1, next: -1}
+}
+
+// Next appends the postings of rows below end that earlier calls have not handed out to rows and
+// tfs (rows ascending, with term frequencies) and returns them.
+func (c *Cursor) Next(end int, rows, tfs []uint32) ([]uint32, []uint32, error) {
+	if c.next >= 0 {
+		if c.next >= int64(end) {
+			return rows, tfs, nil
+		}
+		rows, tfs = append(rows, uint32(c.next)), append(tfs, c.tf)
+		c.next = -1
+	}
+	b, row, n := c.b, c.row, c.ix.meta.Rows
 	for len(b) > 0 {
 		// Most gaps and counts take one byte; binary.Uvarint handles the rest.
 		v, k := uint64(b[0]), 1
 		if v >= 0x80 {
 			if v, k = binary.Uvarint(b); k <= 0 {
-				return rows, tfs, fmt.Errorf("index %s: postings of %q: %w", ix.dir, term, ErrDamaged)
+				return rows, tfs, fmt.Errorf("index %s: postings of %q: %w", c.ix.dir, c.term, ErrDamaged)
 			}
 		}
 		b = b[k:]
@@ -325,16 +361,21 @@ func (ix *Index) Postings(term string, rows, tfs []uint32) ([]uint32, []uint32, 
 			if len(b) > 0 && b[0] < 0x80 {
 				tf, k = uint64(b[0]), 1
 			} else if tf, k = binary.Uvarint(b); k <= 0 {
-				return rows, tfs, fmt.Errorf("index %s: postings of %q: %w", ix.dir, term, ErrDamaged)
+				return rows, tfs, fmt.Errorf("index %s: postings of %q: %w", c.ix.dir, c.term, ErrDamaged)
 			}
 			b = b[k:]
 		}
 		row += int64(v >> 1)
 		if row >= n {
-			return rows, tfs, fmt.Errorf("index %s: postings of %q: row %d of %d: %w", ix.dir, term, row, n, ErrDamaged)
+			return rows, tfs, fmt.Errorf("index %s: postings of %q: row %d of %d: %w", c.ix.dir, c.term, row, n, ErrDamaged)
+		}
+		if row >= int64(end) {
+			c.next, c.tf = row, uint32(tf)
+			break
 		}
 		rows = append(rows, uint32(row))
 		tfs = append(tfs, uint32(tf))
 	}
+	c.b, c.row = b, row
 	return rows, tfs, nil
 }

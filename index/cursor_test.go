@@ -1,0 +1,49 @@
+package index
+
+import (
+	"math/rand/v2"
+	"slices"
+	"testing"
+)
+
+// A cursor read in stretches of random length gives each term's postings exactly as Postings does.
+// The property is internal, so no reference values are involved.
+func TestCursorMatchesPostings(t *testing.T) {
+	dir, _ := build(t, testPool(t, 3000), Options{Text: "prompt,completion"})
+	ix, err := Open(dir)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer ix.Close()
+	rng := rand.New(rand.NewPCG(5, 6))
+	n := ix.NumRows()
+	for i := range ix.NumTerms() {
+		term := string(ix.term(i))
+		wantRows, wantTFs, err := ix.Postings(term, nil, nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		c := ix.NewCursor(term)
+		var rows, tfs []uint32
+		for end := 0; end <= n; end += rng.IntN(400) {
+			before := len(rows)
+			if rows, tfs, err = c.Next(end, rows, tfs); err != nil {
+				t.Fatal(err)
+			}
+			for _, r := range rows[before:] {
+				if int(r) >= end {
+					t.Fatalf("%q: row %d handed out before end %d", term, r, end)
+				}
+			}
+		}
+		if rows, tfs, err = c.Next(n, rows, tfs); err != nil {
+			t.Fatal(err)
+		}
+		if !slices.Equal(rows, wantRows) || !slices.Equal(tfs, wantTFs) {
+			t.Fatalf("%q: cursor gave %d postings, Postings %d, or they differ", term, len(rows), len(wantRows))
+		}
+	}
+	if rows, _, err := ix.NewCursor("no-such-term").Next(n, nil, nil); err != nil || len(rows) != 0 {
+		t.Errorf("absent term: %v, %v", rows, err)
+	}
+}
