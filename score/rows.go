@@ -70,16 +70,25 @@ func newHolders(pl *plan, method Method) *holders {
 // Workers take blocks of rowBlock pool rows in turn and write only their
 // block's rows, so the Result does not depend on the number of workers.
 func (s *scorer) rowPasses(ctx context.Context, res *Result, bestScore []float64) error {
+	h, combined := s.rowSetup(&res.Work, func(k int) int64 { return int64(len(s.cache[k].rows)) })
+	lists := func(k int32) ([]uint32, []float64) { return s.cache[k].rows, s.cache[k].parts }
+	return s.runBlocks(ctx, 0, s.pl.n, lists, h, combined, res, bestScore)
+}
+
+// rowSetup builds the target side of the row-at-a-time scorer and counts its
+// work as the per-target passes would do it: per term, its list length
+// (df) times the target rows holding it.
+func (s *scorer) rowSetup(work *Work, df func(k int) int64) (*holders, []float64) {
 	pl := s.pl
 	h := newHolders(pl, s.p.Method)
 	for j := range pl.targets {
 		if len(pl.targets[j].terms) > 0 {
-			res.Work.Passes++
-			res.Work.QueryTerms += int64(len(pl.targets[j].terms))
+			work.Passes++
+			work.QueryTerms += int64(len(pl.targets[j].terms))
 		}
 	}
 	for k := range pl.vocab {
-		res.Work.Postings += int64(h.off[k+1]-h.off[k]) * int64(len(s.cache[k].rows))
+		work.Postings += int64(h.off[k+1]-h.off[k]) * df(k)
 	}
 	// combined[k] is the combined query's factor for vocab term k (Sum only);
 	// NaN marks a term the combined query lacks.
@@ -93,19 +102,24 @@ func (s *scorer) rowPasses(ctx context.Context, res *Result, bestScore []float64
 		for i, k := range cq.terms {
 			combined[k] = cq.qi[i]
 		}
-		res.Work.Passes++
-		res.Work.QueryTerms += int64(len(cq.terms))
+		work.Passes++
+		work.QueryTerms += int64(len(cq.terms))
 		for _, k := range cq.terms {
-			res.Work.Postings += int64(len(s.cache[k].rows))
+			work.Postings += df(int(k))
 		}
 	}
+	return h, combined
+}
 
+// runBlocks scores pool rows [lo, hi), lo a multiple of rowBlock, on the
+// workers; lists gives each vocab term's postings and tf parts over at least
+// those rows, rows ascending.
+func (s *scorer) runBlocks(ctx context.Context, lo, hi int, lists func(k int32) ([]uint32, []float64), h *holders, combined []float64, res *Result, bestScore []float64) error {
 	nw := s.p.Workers
 	if nw == 0 {
 		nw = runtime.GOMAXPROCS(0)
 	}
-	n := pl.n
-	segs, segOff := s.blockSegments(n)
+	segs, segOff := blockSegments(lo, hi, len(s.pl.vocab), lists)
 	blocks := len(segOff) - 1
 	nw = max(1, min(nw, blocks))
 	var next atomic.Int64
@@ -114,7 +128,7 @@ func (s *scorer) rowPasses(ctx context.Context, res *Result, bestScore []float64
 	var wg sync.WaitGroup
 	for i := range nw {
 		wg.Go(func() {
-			w := newRowWorker(s, h, combined)
+			w := newRowWorker(s, h, combined, lists)
 			for !failed.Load() {
 				b := int(next.Add(1) - 1)
 				if b >= blocks {
@@ -125,8 +139,8 @@ func (s *scorer) rowPasses(ctx context.Context, res *Result, bestScore []float64
 					failed.Store(true)
 					return
 				}
-				lo := b * rowBlock
-				w.block(lo, min(n, lo+rowBlock), segs[segOff[b]:segOff[b+1]], res, bestScore)
+				b0 := lo + b*rowBlock
+				w.block(b0, min(hi, b0+rowBlock), segs[segOff[b]:segOff[b+1]], res, bestScore)
 			}
 		})
 	}
@@ -139,22 +153,23 @@ func (s *scorer) rowPasses(ctx context.Context, res *Result, bestScore []float64
 	return nil
 }
 
-// rowSegment is the part of vocab term k's cached postings, [a, b), that falls
-// in one block of rows.
+// rowSegment is the part of vocab term k's postings, [a, b), that falls in
+// one block of rows.
 type rowSegment struct{ k, a, b int32 }
 
-// blockSegments cuts every cached posting list at the row blocks: segs holds,
-// block after block and within a block in ascending term order, the
-// segments of the lists, block b's being segs[off[b]:off[b+1]]. One pass over
-// the postings finds them, where looking each term up in each block would
-// touch every list once a block.
-func (s *scorer) blockSegments(n int) (segs []rowSegment, off []int32) {
-	blocks := (n + rowBlock - 1) / rowBlock
+// blockSegments cuts the posting lists of rows [lo, hi) at the row blocks:
+// segs holds, block after block and within a block in ascending term order,
+// the segments of the lists, block b's being segs[off[b]:off[b+1]]. One pass
+// over the postings finds them, where looking each term up in each block
+// would touch every list once a block.
+func blockSegments(lo, hi, nterms int, lists func(k int32) ([]uint32, []float64)) (segs []rowSegment, off []int32) {
+	blocks := (hi - lo + rowBlock - 1) / rowBlock
 	off = make([]int32, blocks+1)
-	for k := range s.pl.vocab {
+	for k := range nterms {
+		rows, _ := lists(int32(k))
 		prev := -1
-		for _, r := range s.cache[k].rows {
-			if b := int(r) / rowBlock; b != prev {
+		for _, r := range rows {
+			if b := (int(r) - lo) / rowBlock; b != prev {
 				off[b+1]++
 				prev = b
 			}
@@ -165,12 +180,12 @@ func (s *scorer) blockSegments(n int) (segs []rowSegment, off []int32) {
 	}
 	segs = make([]rowSegment, off[blocks])
 	next := slices.Clone(off[:blocks])
-	for k := range s.pl.vocab {
-		rows := s.cache[k].rows
+	for k := range nterms {
+		rows, _ := lists(int32(k))
 		for a := 0; a < len(rows); {
-			b := int(rows[a]) / rowBlock
+			b := (int(rows[a]) - lo) / rowBlock
 			end := a + 1
-			for end < len(rows) && int(rows[end])/rowBlock == b {
+			for end < len(rows) && (int(rows[end])-lo)/rowBlock == b {
 				end++
 			}
 			segs[next[b]] = rowSegment{int32(k), int32(a), int32(end)}
@@ -186,14 +201,15 @@ type rowWorker struct {
 	s        *scorer
 	h        *holders
 	combined []float64
+	lists    func(k int32) ([]uint32, []float64)
 	acc      []float64 // per target row; negZero when not reached by the current pool row
 	count    []int32   // per pool row of the block, then where its entries end
 	terms    []int32   // the block's (row, term) pairs, grouped by row, terms ascending
 	parts    []float64
 }
 
-func newRowWorker(s *scorer, h *holders, combined []float64) *rowWorker {
-	w := &rowWorker{s: s, h: h, combined: combined, acc: make([]float64, len(s.pl.targets)),
+func newRowWorker(s *scorer, h *holders, combined []float64, lists func(k int32) ([]uint32, []float64)) *rowWorker {
+	w := &rowWorker{s: s, h: h, combined: combined, lists: lists, acc: make([]float64, len(s.pl.targets)),
 		count: make([]int32, rowBlock+1)}
 	for i := range w.acc {
 		w.acc[i] = negZero
@@ -203,11 +219,11 @@ func newRowWorker(s *scorer, h *holders, combined []float64) *rowWorker {
 
 // block scores pool rows [lo, hi), whose postings segs holds.
 func (w *rowWorker) block(lo, hi int, segs []rowSegment, res *Result, bestScore []float64) {
-	s := w.s
 	count := w.count[:hi-lo+1]
 	clear(count)
 	for _, sg := range segs {
-		for _, r := range s.cache[sg.k].rows[sg.a:sg.b] {
+		rows, _ := w.lists(sg.k)
+		for _, r := range rows[sg.a:sg.b] {
 			count[r-uint32(lo)+1]++
 		}
 	}
@@ -218,7 +234,8 @@ func (w *rowWorker) block(lo, hi int, segs []rowSegment, res *Result, bestScore 
 	w.terms = slices.Grow(w.terms[:0], total)[:total]
 	w.parts = slices.Grow(w.parts[:0], total)[:total]
 	for _, sg := range segs {
-		rows, parts := s.cache[sg.k].rows[sg.a:sg.b], s.cache[sg.k].parts[sg.a:sg.b]
+		rows, parts := w.lists(sg.k)
+		rows, parts = rows[sg.a:sg.b], parts[sg.a:sg.b]
 		parts = parts[:len(rows)]
 		for i, r := range rows {
 			at := count[r-uint32(lo)]

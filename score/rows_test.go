@@ -2,6 +2,7 @@ package score
 
 import (
 	"context"
+	"errors"
 	"fmt"
 	"math"
 	"math/rand/v2"
@@ -51,6 +52,78 @@ func TestRowPassesMatchTargetPasses(t *testing.T) {
 			if got.Work != want.Work {
 				t.Errorf("%s: work %+v, want %+v", name, got.Work, want.Work)
 			}
+		}
+	}
+}
+
+// cursorCorpus streams a zipfCorpus's lists through cursors.
+type cursorCorpus struct {
+	*zipfCorpus
+	bad bool // hand out a row twice
+}
+
+type sliceCursor struct {
+	rows, tfs []uint32
+	bad       bool
+}
+
+func (c cursorCorpus) Cursor(term string) (PostingCursor, error) {
+	rows, tfs, err := c.Postings(term, nil, nil)
+	return &sliceCursor{rows: rows, tfs: tfs, bad: c.bad}, err
+}
+
+func (c *sliceCursor) Next(end int, rows, tfs []uint32) ([]uint32, []uint32, error) {
+	i := 0
+	for i < len(c.rows) && int(c.rows[i]) < end {
+		i++
+	}
+	rows, tfs = append(rows, c.rows[:i]...), append(tfs, c.tfs[:i]...)
+	if c.bad && i > 0 {
+		rows, tfs = append(rows, c.rows[i-1]), append(tfs, 1)
+	}
+	c.rows, c.tfs = c.rows[i:], c.tfs[i:]
+	return rows, tfs, nil
+}
+
+// Reading the lists span by span through cursors, when they do not fit the
+// cache, gives the same results as keeping them all. Internal property: no
+// reference values.
+func TestStreamPassesMatchRowPasses(t *testing.T) {
+	rng := rand.New(rand.NewPCG(7, 8))
+	z := rand.NewZipf(rng, 1.1, 2, 2999)
+	c := newZipfCorpus(rng, z, 9*rowBlock+5, 30, 3000)
+	q := make([]Query, 60)
+	for j := range q {
+		for range 1 + j%20 {
+			q[j].Terms = append(q[j].Terms, zipfTerm(int(z.Uint64())))
+		}
+	}
+	for _, p := range allParams() {
+		want, err := Score(context.Background(), c, q, p)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for _, workers := range []int{1, 3} {
+			// A bound this small makes spans of one block.
+			p.Workers, p.CacheBytes = workers, 1<<10
+			got, err := Score(context.Background(), cursorCorpus{zipfCorpus: c}, q, p)
+			if err != nil {
+				t.Fatal(err)
+			}
+			name := fmt.Sprintf("%v/%v workers %d", p.Method, p.Aggregate, workers)
+			for r := range got.Scores {
+				if math.Float64bits(got.Scores[r]) != math.Float64bits(want.Scores[r]) || got.Best[r] != want.Best[r] {
+					t.Fatalf("%s: row %d: score %v best %d, cached %v best %d", name, r, got.Scores[r], got.Best[r], want.Scores[r], want.Best[r])
+				}
+			}
+			if got.Work != want.Work {
+				t.Errorf("%s: work %+v, cached %+v", name, got.Work, want.Work)
+			}
+			p.Workers, p.CacheBytes = 0, 0
+		}
+		p.CacheBytes = 1 << 10
+		if _, err := Score(context.Background(), cursorCorpus{zipfCorpus: c, bad: true}, q, p); !errors.Is(err, ErrBadCorpus) {
+			t.Errorf("%v/%v: a cursor repeating a row: %v, want ErrBadCorpus", p.Method, p.Aggregate, err)
 		}
 	}
 }

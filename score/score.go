@@ -116,10 +116,12 @@ type Params struct {
 	// 0 means runtime.GOMAXPROCS(0).
 	Workers int
 	// CacheBytes bounds the memory Score spends keeping decoded posting lists
-	// (12 bytes a posting) so that each is read from the corpus once; lists
-	// past the bound are read again on every pass that needs them, and the
-	// lists used by the most target rows are kept first. 0 means
-	// DefaultCacheBytes; a negative value keeps nothing.
+	// (12 bytes a posting) so that each is read from the corpus once. Past the
+	// bound, a CursorCorpus is read span of pool rows by span, each span's
+	// postings within the bound; from another Corpus the lists past the bound
+	// are read again on every pass that needs them, the lists used by the
+	// most target rows kept first. 0 means DefaultCacheBytes; a negative value
+	// keeps nothing and reads every list again for every pass.
 	CacheBytes int64
 	// SkipBest, with Sum, leaves Result.Best nil instead of finding each
 	// row's best target row: the one pass over the combined query is then
@@ -224,12 +226,26 @@ func Score(ctx context.Context, c Corpus, q []Query, p Params) (*Result, error) 
 		return res, nil
 	}
 	s := &scorer{c: c, p: p, pl: pl, k1p1: p.K1 + 1, factor: make([]float64, n)}
+	rowWise := !p.SkipBest && len(q) <= maxRowTargets
+	if cc, ok := c.(CursorCorpus); ok && rowWise && p.CacheBytes >= 0 && pl.listBytes() > cmp.Or(p.CacheBytes, DefaultCacheBytes) {
+		for i := range s.factor {
+			s.factor[i] = math.NaN()
+		}
+		bestScore := res.Scores
+		if p.Aggregate == Sum {
+			bestScore = make([]float64, n)
+		}
+		if err := s.streamPasses(ctx, cc, res, bestScore); err != nil {
+			return nil, err
+		}
+		return res, nil
+	}
 	if err := s.prepare(ctx); err != nil {
 		return nil, err
 	}
 	res.Work.PostingsFetched = s.fetched
 
-	if s.allCached && !p.SkipBest && len(q) <= maxRowTargets {
+	if s.allCached && rowWise {
 		bestScore := res.Scores
 		if p.Aggregate == Sum {
 			bestScore = make([]float64, n)

@@ -83,6 +83,7 @@ evaluation sets from the pool before picking, or the pick will find them.`,
 	fs.Float64("min-score", 0, "keep only rows scoring at least this; rows sharing no term are never kept")
 	fs.String("out", "", "run folder to write (required)")
 	fs.String("compress", "none", "write the kept rows as kept.jsonl (none), kept.jsonl.gz (gzip) or kept.jsonl.zst (zstd)")
+	fs.String("mem", "512MiB", "memory for the query terms' posting lists; past it they are read a span of rows at a time")
 	fs.BoolP("quiet", "q", false, "print nothing but errors")
 	return fs
 }
@@ -168,6 +169,15 @@ func pickConfigFrom(fs *pflag.FlagSet) (*pickConfig, error) {
 	if !(p.B >= 0 && p.B <= 1) {
 		return nil, usagef("--b %v: must be between 0 and 1", p.B)
 	}
+	memS := str("mem")
+	mem, err := budget.ParseSize(memS)
+	if err != nil {
+		return nil, usagef("--mem: %v", err)
+	}
+	if mem < 1<<20 {
+		return nil, usagef("--mem %s: give at least 1MiB", memS)
+	}
+	p.CacheBytes = mem
 	cfg.params = p
 
 	b, gh, gf, mfu := str("budget"), num("gpu-hours"), str("gpu-flops"), num("mfu")
@@ -288,7 +298,7 @@ func doPick(ctx context.Context, e *env, cfg *pickConfig) (*pickResult, error) {
 	for i, t := range targets {
 		qs[i] = score.Query{ID: t.ID, Terms: t.Terms}
 	}
-	res, err := score.Score(ctx, ix, qs, cfg.params)
+	res, err := score.Score(ctx, corpus{ix}, qs, cfg.params)
 	if err != nil {
 		return nil, err
 	}
@@ -357,6 +367,12 @@ func doPick(ctx context.Context, e *env, cfg *pickConfig) (*pickResult, error) {
 	}
 	return pr, nil
 }
+
+// corpus lets the scorer read an index's posting lists through index cursors, a span of rows at a
+// time, when they do not all fit its memory.
+type corpus struct{ *index.Index }
+
+func (c corpus) Cursor(term string) (score.PostingCursor, error) { return c.NewCursor(term), nil }
 
 // reconciliation is the line every pick summary and ledger carries, so no row vanishes unseen.
 func reconciliation(m index.Meta, targets, targetsRejected int) string {
