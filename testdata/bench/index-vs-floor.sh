@@ -63,3 +63,8 @@ echo "write + fsync of the run's kept.jsonl and scores.jsonl ($(( ($(stat -c %s 
 for i in $(seq 1 17); do cat "$work/t0.jsonl"; done > "$work/big.jsonl"
 read -r gs grss < <(secs "$S" index --quiet --text prompt,completion --out "$work/big.idx" "$work/big.jsonl")
 echo "1 GB pool ($(mb "$work/big.jsonl") MB): build ${gs}s, $(echo "scale=1; $(mb "$work/big.jsonl") / $gs" | bc) MB/s, peak RSS $((grss / 1024)) MB"
+for mem in 512MiB 64MiB; do
+	read -r ps prss < <(secs "$S" pick --quiet --mem $mem --index "$work/big.idx" --target "$work/split/target.jsonl" \
+		--budget 1e17 --train-params 1B --out "$work/bigrun")
+	echo "pick on the 1 GB pool, bm25 sum, 1000 target rows, --mem $mem: ${ps}s = $(echo "scale=1; 100 * $ps / $gs" | bc)% of its build, peak RSS $((prss / 1024)) MB"
+done
