@@ -14,21 +14,12 @@ type PostingCursor interface {
 }
 
 // A CursorCorpus can also hand out posting lists a stretch of rows at a
-// time. When the query terms' lists do not fit Params.CacheBytes, Score then
-// reads each list once, span of pool rows by span, instead of reading the
-// lists that did not fit again for every target row that uses them.
+// time. Score then reads each list once, span of pool rows by span, holding
+// only a span's postings, instead of keeping whole lists (or reading those
+// that do not fit again for every target row that uses them).
 type CursorCorpus interface {
 	Corpus
 	Cursor(term string) (PostingCursor, error)
-}
-
-// listBytes is what keeping every query term's list costs in the cache.
-func (pl *plan) listBytes() int64 {
-	var n int64
-	for _, df := range pl.df {
-		n += int64(df) * (4 + 8)
-	}
-	return n
 }
 
 // streamPasses is rowPasses over spans of pool rows: for each span it reads
@@ -51,7 +42,7 @@ func (s *scorer) streamPasses(ctx context.Context, cc CursorCorpus, res *Result,
 	}
 	budget := s.p.CacheBytes
 	if budget <= 0 {
-		budget = DefaultCacheBytes
+		budget = DefaultSpanBytes
 	}
 	// A posting in a span takes 16 bytes: row, tf, and the tf part.
 	perRow := max(1, total/int64(max(1, n)))

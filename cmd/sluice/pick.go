@@ -83,7 +83,7 @@ evaluation sets from the pool before picking, or the pick will find them.`,
 	fs.Float64("min-score", 0, "keep only rows scoring at least this; rows sharing no term are never kept")
 	fs.String("out", "", "run folder to write (required)")
 	fs.String("compress", "none", "write the kept rows as kept.jsonl (none), kept.jsonl.gz (gzip) or kept.jsonl.zst (zstd)")
-	fs.String("mem", "512MiB", "memory for the query terms' posting lists; past it they are read a span of rows at a time")
+	fs.String("mem", "64MiB", "memory for the postings of one span of pool rows; lists are read a span at a time")
 	fs.BoolP("quiet", "q", false, "print nothing but errors")
 	return fs
 }
