@@ -49,8 +49,10 @@ func (s *scorer) streamPasses(ctx context.Context, cc CursorCorpus, res *Result,
 	span := int(max(1, budget/(16*perRow)/rowBlock)) * rowBlock
 
 	start := make([]int, len(pl.vocab)+1)
-	var rows, tfs []uint32
-	var parts []float64
+	// Sized for a span of average rows up front: growing by appending would
+	// touch about twice the memory.
+	size := min(total, perRow*int64(span)*5/4)
+	rows, tfs, parts := make([]uint32, 0, size), make([]uint32, 0, size), make([]float64, 0, size)
 	lists := func(k int32) ([]uint32, []float64) {
 		return rows[start[k]:start[k+1]], parts[start[k]:start[k+1]]
 	}
