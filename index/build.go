@@ -42,6 +42,9 @@ type Options struct {
 	// Progress, when set, is called from one goroutine with the number of pool bytes read since
 	// the previous call.
 	Progress func(n int64)
+	// Command, when set, is recorded in meta.json as the command line that made the index, so a
+	// run's manifest (which hashes meta.json) says how its index was built.
+	Command []string
 
 	batchRows int // rows per batch handed to a worker; tests make it small to force many spills
 }
@@ -247,7 +250,7 @@ func Build(ctx context.Context, dir string, sources []string, opt Options) (*Sta
 		opt:   opt,
 		tmp:   tmp,
 		spec:  spec,
-		meta:  Meta{Format: Format, Version: Version, Analyzer: probe.Name(), AnalyzerChain: probe.Describe(), IDField: opt.ID, TokensField: opt.Tokens, MaxRowBytes: opt.MaxRowBytes},
+		meta:  Meta{Format: Format, Version: Version, Analyzer: probe.Name(), AnalyzerChain: probe.Describe(), IDField: opt.ID, TokensField: opt.Tokens, MaxRowBytes: opt.MaxRowBytes, Command: opt.Command},
 		paths: sources,
 	}
 	st, err := b.run(ctx)

@@ -64,6 +64,7 @@ type Meta struct {
 	TextBytes     int64           `json:"text_bytes"`
 	Sources       []Source        `json:"sources"`
 	Files         map[string]File `json:"files"`
+	Command       []string        `json:"command,omitempty"` // the command line that built it, when given
 }
 
 // Source is one pool file as it was when indexed.

@@ -61,7 +61,7 @@ func (c *indexCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 	if len(pools) == 0 {
 		return usagef("no pool files given")
 	}
-	opt := index.Options{}
+	opt := index.Options{Command: append([]string{"sluice"}, e.args...)}
 	opt.Text, _ = fs.GetString("text")
 	opt.ID, _ = fs.GetString("id")
 	opt.Tokens, _ = fs.GetString("tokens")
