@@ -332,7 +332,7 @@ func (b *builder) mergePart(ctx context.Context, p *mergePart) error {
 	p.norm2 = norm2
 	var vb [3 * binary.MaxVarintLen64]byte
 	var same []*runCursor
-	var cur []byte
+	var cur, pb []byte
 	const mask = 1<<localBits - 1
 	for terms := 0; ; terms++ {
 		if terms%4096 == 0 {
@@ -396,15 +396,18 @@ func (b *builder) mergePart(ctx context.Context, p *mergePart) error {
 				return fmt.Errorf("build index: run %s: posting order broken at row %d", best.path, row)
 			}
 			tf := best.tf
-			var k int
+			// A term's postings are encoded into one buffer and written at once: a write of one to
+			// three bytes per posting costs more than encoding it.
 			if tf == 1 {
-				k = binary.PutUvarint(vb[:], uint64(row-prev)<<1|1)
+				pb = binary.AppendUvarint(pb, uint64(row-prev)<<1|1)
 			} else {
-				k = binary.PutUvarint(vb[:], uint64(row-prev)<<1)
-				k += binary.PutUvarint(vb[k:], tf)
+				pb = binary.AppendUvarint(binary.AppendUvarint(pb, uint64(row-prev)<<1), tf)
 			}
-			if err := post.write(vb[:k]); err != nil {
-				return err
+			if len(pb) >= 1<<20 {
+				if err := post.write(pb); err != nil {
+					return err
+				}
+				pb = pb[:0]
 			}
 			w := float64(tf) * idf
 			norm2[row] += w * w
@@ -417,6 +420,10 @@ func (b *builder) mergePart(ctx context.Context, p *mergePart) error {
 				best.tf = 0
 			}
 		}
+		if err := post.write(pb); err != nil {
+			return err
+		}
+		pb = pb[:0]
 		k := binary.PutUvarint(vb[:], uint64(len(cur)))
 		lex.write(vb[:k])
 		lex.write(cur)
