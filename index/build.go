@@ -330,12 +330,13 @@ func (b *builder) run(ctx context.Context) (*Stats, error) {
 			cancel()
 		}
 	}()
+	// readErr may be read only once the reader is done: past specReady it is still reading.
 	select {
 	case <-specReady:
 	case <-readDone:
-	}
-	if readErr != nil {
-		return nil, readErr
+		if readErr != nil {
+			return nil, readErr
+		}
 	}
 	for _, w := range b.workers {
 		if w.ex, err = jsonl.NewExtractor(b.spec, b.opt.ID, b.opt.Tokens); err != nil {
