@@ -443,7 +443,7 @@ func (b *builder) newBatch(ctx context.Context, seq, src int, detecting bool) (*
 }
 
 // read streams every source into batches. It owns b.meta.Sources until it returns.
-func (b *builder) read(ctx context.Context, out chan<- *batch, specReady chan<- struct{}) error {
+func (b *builder) read(ctx context.Context, out chan<- *batch, specReady chan<- struct{}) (err error) {
 	seq := 0
 	ready := false
 	signal := func() {
@@ -452,7 +452,13 @@ func (b *builder) read(ctx context.Context, out chan<- *batch, specReady chan<- 
 			close(specReady)
 		}
 	}
-	defer signal()
+	// specReady stays open when reading fails before the spec is known, so that Build waits for
+	// the reader's error rather than starting workers without a spec.
+	defer func() {
+		if err == nil {
+			signal()
+		}
+	}()
 	var sample []*batch
 	flushSample := func() error {
 		if ready {
