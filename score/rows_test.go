@@ -15,18 +15,9 @@ import (
 // repeated target rows so that ties occur. The property is internal, so no
 // reference values are involved.
 func TestRowPassesMatchTargetPasses(t *testing.T) {
-	rng := rand.New(rand.NewPCG(3, 4))
-	z := rand.NewZipf(rng, 1.1, 2, 4999)
-	c := newZipfCorpus(rng, z, 17*rowBlock+17, 40, 5000)
-	q := make([]Query, 150)
-	for j := range q {
-		if j%10 == 9 {
-			q[j].Terms = q[j-1].Terms // a tie at every pool row the earlier one reaches
-			continue
-		}
-		for range 1 + j%25 {
-			q[j].Terms = append(q[j].Terms, zipfTerm(int(z.Uint64())))
-		}
+	c, q := zipfSetup(3, 17*rowBlock+17, 40, 5000, 150, 25)
+	for j := 9; j < len(q); j += 10 {
+		q[j].Terms = q[j-1].Terms // a tie at every pool row the earlier one reaches
 	}
 	q = append(q, Query{ID: "no terms"}, Query{ID: "absent", Terms: []string{"not-in-pool"}})
 	for _, p := range allParams() {
@@ -85,19 +76,10 @@ func (c *sliceCursor) Next(end int, rows, tfs []uint32) ([]uint32, []uint32, err
 	return rows, tfs, nil
 }
 
-// Reading the lists span by span through cursors, when they do not fit the
-// cache, gives the same results as keeping them all. Internal property: no
-// reference values.
+// Reading the lists span by span through cursors gives the same results as
+// keeping them all. Internal property: no reference values.
 func TestStreamPassesMatchRowPasses(t *testing.T) {
-	rng := rand.New(rand.NewPCG(7, 8))
-	z := rand.NewZipf(rng, 1.1, 2, 2999)
-	c := newZipfCorpus(rng, z, 9*rowBlock+5, 30, 3000)
-	q := make([]Query, 60)
-	for j := range q {
-		for range 1 + j%20 {
-			q[j].Terms = append(q[j].Terms, zipfTerm(int(z.Uint64())))
-		}
-	}
+	c, q := zipfSetup(7, 9*rowBlock+5, 30, 3000, 60, 20)
 	for _, p := range allParams() {
 		want, err := Score(context.Background(), c, q, p)
 		if err != nil {
@@ -126,4 +108,19 @@ func TestStreamPassesMatchRowPasses(t *testing.T) {
 			t.Errorf("%v/%v: a cursor repeating a row: %v, want ErrBadCorpus", p.Method, p.Aggregate, err)
 		}
 	}
+}
+
+// zipfSetup makes a Zipf corpus of the given shape and nq target rows of 1
+// to maxLen Zipf terms, from seed.
+func zipfSetup(seed uint64, rows, rowLen, vocab, nq, maxLen int) (*zipfCorpus, []Query) {
+	rng := rand.New(rand.NewPCG(seed, seed+1))
+	z := rand.NewZipf(rng, 1.1, 2, uint64(vocab-1))
+	c := newZipfCorpus(rng, z, rows, rowLen, vocab)
+	q := make([]Query, nq)
+	for j := range q {
+		for range 1 + j%maxLen {
+			q[j].Terms = append(q[j].Terms, zipfTerm(int(z.Uint64())))
+		}
+	}
+	return c, q
 }
