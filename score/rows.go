@@ -26,9 +26,6 @@ type holders struct {
 	off []int32 // term k's holders are t[off[k]:off[k+1]]
 	t   []int32
 	qi  []float64
-	// umax is per term the largest qi of its holders: qi·part bounds any
-	// target row's contribution from the term.
-	umax []float64
 	// same reports that every holder of a term has the same qi (BM25's binary
 	// queries), so one contribution per posting serves them all.
 	same bool
@@ -45,13 +42,12 @@ func newHolders(pl *plan, method Method) *holders {
 		h.off[k+1] += h.off[k]
 	}
 	n := h.off[len(pl.vocab)]
-	h.t, h.qi, h.umax = make([]int32, n), make([]float64, n), make([]float64, len(pl.vocab))
+	h.t, h.qi = make([]int32, n), make([]float64, n)
 	next := slices.Clone(h.off[:len(pl.vocab)])
 	for j := range pl.targets {
 		qu := &pl.targets[j]
 		for i, k := range qu.terms {
 			h.t[next[k]], h.qi[next[k]] = int32(j), qu.qi[i]
-			h.umax[k] = max(h.umax[k], qu.qi[i])
 			next[k]++
 		}
 	}
@@ -128,7 +124,7 @@ func (s *scorer) runBlocks(ctx context.Context, lo, hi int, lists func(k int32) 
 	var wg sync.WaitGroup
 	for i := range nw {
 		wg.Go(func() {
-			w := newRowWorker(s, h, combined, lists)
+			w := newRowWorker(len(s.pl.targets), h, combined, lists)
 			for !failed.Load() {
 				b := int(next.Add(1) - 1)
 				if b >= blocks {
@@ -198,7 +194,6 @@ func blockSegments(lo, hi, nterms int, lists func(k int32) ([]uint32, []float64)
 
 // rowWorker is one goroutine's scratch space for rowPasses.
 type rowWorker struct {
-	s        *scorer
 	h        *holders
 	combined []float64
 	lists    func(k int32) ([]uint32, []float64)
@@ -208,8 +203,8 @@ type rowWorker struct {
 	parts    []float64
 }
 
-func newRowWorker(s *scorer, h *holders, combined []float64, lists func(k int32) ([]uint32, []float64)) *rowWorker {
-	w := &rowWorker{s: s, h: h, combined: combined, lists: lists, acc: make([]float64, len(s.pl.targets)),
+func newRowWorker(targets int, h *holders, combined []float64, lists func(k int32) ([]uint32, []float64)) *rowWorker {
+	w := &rowWorker{h: h, combined: combined, lists: lists, acc: make([]float64, targets),
 		count: make([]int32, rowBlock+1)}
 	for i := range w.acc {
 		w.acc[i] = negZero

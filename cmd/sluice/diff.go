@@ -131,23 +131,16 @@ func yesNo(b bool) string {
 
 func readRunSide(run string) (runSide, error) {
 	s := runSide{Run: run, rows: map[string]runRow{}}
-	f, err := os.Open(filepath.Join(run, "scores.jsonl"))
-	if err != nil {
-		return s, fmt.Errorf("read run %s: %w", run, err)
-	}
-	defer f.Close()
 	seen := map[string]int{}
-	sc := bufio.NewScanner(f)
-	sc.Buffer(nil, 1<<20)
-	for line := 1; sc.Scan(); line++ {
+	err := eachScoreLine(run, func(_ int, line []byte) error {
 		var r struct {
 			ID     string `json:"id"`
 			Rank   int    `json:"rank"`
 			Kept   bool   `json:"kept"`
 			Tokens int64  `json:"tokens"`
 		}
-		if err := json.Unmarshal(sc.Bytes(), &r); err != nil {
-			return s, fmt.Errorf("read %s:%d: %w", filepath.Join(run, "scores.jsonl"), line, err)
+		if err := json.Unmarshal(line, &r); err != nil {
+			return err
 		}
 		key := r.ID
 		if n := seen[r.ID]; n > 0 {
@@ -159,9 +152,10 @@ func readRunSide(run string) (runSide, error) {
 			s.Kept++
 			s.KeptTokens += r.Tokens
 		}
-	}
-	if err := sc.Err(); err != nil {
-		return s, fmt.Errorf("read run %s: %w", run, err)
+		return nil
+	})
+	if err != nil {
+		return s, err
 	}
 	b, err := os.ReadFile(filepath.Join(run, "ledger.json"))
 	if err != nil {

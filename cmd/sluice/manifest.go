@@ -1,6 +1,7 @@
 package main
 
 import (
+	"bufio"
 	"crypto/sha256"
 	"encoding/hex"
 	"encoding/json"
@@ -102,6 +103,29 @@ func readManifest(run string) (*manifest, error) {
 		return nil, fmt.Errorf("read run %s: %s: %w", run, manifestFile, err)
 	}
 	return &m, nil
+}
+
+// eachScoreLine calls fn with every line of run's scores.jsonl and its row number, the line's place
+// in the file from 0 (the n-th line is the n-th indexed row). An error of fn comes back with the
+// file and line it was on.
+func eachScoreLine(run string, fn func(row int, line []byte) error) error {
+	path := filepath.Join(run, "scores.jsonl")
+	f, err := os.Open(path)
+	if err != nil {
+		return fmt.Errorf("read run %s: %w", run, err)
+	}
+	defer f.Close()
+	sc := bufio.NewScanner(f)
+	sc.Buffer(nil, 16<<20) // a line holds two ids, each up to what the index took
+	for row := 0; sc.Scan(); row++ {
+		if err := fn(row, sc.Bytes()); err != nil {
+			return fmt.Errorf("read %s:%d: %w", path, row+1, err)
+		}
+	}
+	if err := sc.Err(); err != nil {
+		return fmt.Errorf("read %s: %w", path, err)
+	}
+	return nil
 }
 
 // relocated says where a run's index and target are now, when they are no longer where its manifest

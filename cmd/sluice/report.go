@@ -1,7 +1,6 @@
 package main
 
 import (
-	"bufio"
 	"bytes"
 	"context"
 	"encoding/json"
@@ -251,34 +250,28 @@ func buildReport(ctx context.Context, run string, o reportOptions) (*report, err
 	below := rankSample{k: o.sample}
 
 	path := filepath.Join(run, "scores.jsonl")
-	f, err := os.Open(path)
-	if err != nil {
-		return nil, fmt.Errorf("report %s: %w", run, err)
-	}
-	defer f.Close()
-	sc := bufio.NewScanner(f)
-	sc.Buffer(nil, 16<<20)
 	var p fastjson.Parser
 	row := 0
-	for ; sc.Scan(); row++ {
-		if row%65536 == 0 {
+	err = eachScoreLine(run, func(r int, line []byte) error {
+		row = r + 1
+		if r%65536 == 0 {
 			if err := ctx.Err(); err != nil {
-				return nil, err
+				return err
 			}
 		}
-		if row >= ix.NumRows() {
-			return nil, fmt.Errorf("read %s:%d: more lines than the index has rows (%d)", path, row+1, ix.NumRows())
+		if r >= ix.NumRows() {
+			return fmt.Errorf("more lines than the index has rows (%d)", ix.NumRows())
 		}
-		v, err := p.ParseBytes(sc.Bytes())
+		v, err := p.ParseBytes(line)
 		if err != nil {
-			return nil, fmt.Errorf("read %s:%d: %w", path, row+1, err)
+			return err
 		}
 		s, tok, rank, kept := v.GetFloat64("score"), v.GetInt64("tokens"), v.GetInt("rank"), v.GetBool("kept")
 		if math.IsNaN(s) || math.IsInf(s, 0) {
-			return nil, fmt.Errorf("read %s:%d: score %v", path, row+1, s)
+			return fmt.Errorf("score %v", s)
 		}
 		h.add(s, kept)
-		src := ix.RowLocation(row).Source
+		src := ix.RowLocation(r).Source
 		poolTok[src] += tok
 		rep.PoolTokens += tok
 		if kept {
@@ -289,13 +282,14 @@ func buildReport(ctx context.Context, run string, o reportOptions) (*report, err
 			if rank > rep.CutRank {
 				rep.CutRank, rep.CutScore = rank, s
 			}
-			above.offer(row, rank, v.GetStringBytes("id"))
+			above.offer(r, rank, v.GetStringBytes("id"))
 		} else if s > 0 {
-			below.offer(row, rank, v.GetStringBytes("id"))
+			below.offer(r, rank, v.GetStringBytes("id"))
 		}
-	}
-	if err := sc.Err(); err != nil {
-		return nil, fmt.Errorf("read %s: %w", path, err)
+		return nil
+	})
+	if err != nil {
+		return nil, err
 	}
 	if row != ix.NumRows() {
 		return nil, fmt.Errorf("read %s: %d lines for the index's %d rows", path, row, ix.NumRows())

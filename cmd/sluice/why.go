@@ -134,7 +134,7 @@ func explainRun(ctx context.Context, run string, mv relocated, ids []string, top
 	}
 	p.K1, p.B = m.Settings.K1, m.Settings.B
 
-	lines, err := findScoreLines(filepath.Join(run, "scores.jsonl"), ids)
+	lines, err := findScoreLines(run, ids)
 	if err != nil {
 		return nil, err
 	}
@@ -189,36 +189,29 @@ type runScore struct {
 	Ledger float64 `json:"ledger"`
 }
 
-func findScoreLines(path string, ids []string) (map[string][]runScore, error) {
+func findScoreLines(run string, ids []string) (map[string][]runScore, error) {
 	want := map[string][]runScore{}
 	for _, id := range ids {
 		want[id] = nil
 	}
-	f, err := os.Open(path)
-	if err != nil {
-		return nil, fmt.Errorf("explain: %w", err)
-	}
-	defer f.Close()
-	sc := bufio.NewScanner(f)
-	sc.Buffer(nil, 1<<20)
-	for row := 0; sc.Scan(); row++ {
+	err := eachScoreLine(run, func(row int, line []byte) error {
 		var probe struct {
 			ID string `json:"id"`
 		}
-		line := sc.Bytes()
 		if err := json.Unmarshal(line, &probe); err != nil {
-			return nil, fmt.Errorf("read %s:%d: %w", path, row+1, err)
+			return err
 		}
 		if _, ok := want[probe.ID]; !ok {
-			continue
+			return nil
 		}
 		sl := runScore{row: row}
 		if err := json.Unmarshal(line, &sl); err != nil {
-			return nil, fmt.Errorf("read %s:%d: %w", path, row+1, err)
+			return err
 		}
 		want[probe.ID] = append(want[probe.ID], sl)
-	}
-	return want, sc.Err()
+		return nil
+	})
+	return want, err
 }
 
 // fateText says in words why a row was or was not kept.
