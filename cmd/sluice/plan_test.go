@@ -21,14 +21,7 @@ func TestPlanDemo(t *testing.T) {
 	if code != 0 {
 		t.Fatalf("exit %d: %s", code, stderr)
 	}
-	b, err := os.ReadFile(filepath.Join(out, "plan.json"))
-	if err != nil {
-		t.Fatal(err)
-	}
-	var p plan.Plan
-	if err := json.Unmarshal(b, &p); err != nil {
-		t.Fatal(err)
-	}
+	p := readPlanJSON(t, out)
 	if len(p.Curves) != 3 || len(p.Steps) != 25 || len(p.Changes) != 2 {
 		t.Fatalf("%d curves, %d steps, %d changes", len(p.Curves), len(p.Steps), len(p.Changes))
 	}
@@ -111,14 +104,7 @@ func TestPlanSimulate(t *testing.T) {
 		if code != 0 {
 			t.Fatalf("exit %d: %s", code, stderr)
 		}
-		b, err := os.ReadFile(filepath.Join(out, "plan.json"))
-		if err != nil {
-			t.Fatal(err)
-		}
-		var p plan.Plan
-		if err := json.Unmarshal(b, &p); err != nil {
-			t.Fatal(err)
-		}
+		p := readPlanJSON(t, out)
 		for _, s := range p.Steps {
 			for _, o := range s.Options {
 				if o.SE != 0 || o.Low != o.P || o.High != o.P {
@@ -145,4 +131,18 @@ func TestPlanHelp(t *testing.T) {
 	if code != 0 || !strings.Contains(stdout, "Examples:") || !strings.Contains(stdout, "--free-p0") {
 		t.Errorf("exit %d, help %q", code, stdout)
 	}
+}
+
+// readPlanJSON reads the plan.json that 'sluice plan' wrote into out.
+func readPlanJSON(t *testing.T, out string) plan.Plan {
+	t.Helper()
+	b, err := os.ReadFile(filepath.Join(out, "plan.json"))
+	if err != nil {
+		t.Fatal(err)
+	}
+	var p plan.Plan
+	if err := json.Unmarshal(b, &p); err != nil {
+		t.Fatal(err)
+	}
+	return p
 }
