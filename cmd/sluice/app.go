@@ -61,7 +61,7 @@ selected subset narrows what the model sees, lexical scores measure overlap with
 not quality, and evaluation sets must be removed from the pool (decontaminated) before selection.
 `
 
-func run(ctx context.Context, args []string, e *env) int {
+func dispatch(ctx context.Context, args []string, e *env) int {
 	cmds := commands()
 	list := func() string {
 		var b strings.Builder

@@ -11,6 +11,7 @@ import (
 
 	"sluice/index"
 	"sluice/score"
+	"sluice/select/run"
 )
 
 // t0Split makes, from the shared T0 corpus, a pool of every template file but some of one cluster's,
@@ -72,11 +73,10 @@ func BenchmarkPick(b *testing.B) {
 			b.Run(method.String()+"-"+agg.String(), func(b *testing.B) {
 				p := score.DefaultParams()
 				p.Method, p.Aggregate = method, agg
-				cfg := &pickConfig{indexDir: idx, target: target, params: p, budget: 1e16, trainN: 1e9, epochs: 1,
-					out: filepath.Join(dir, "run"), quiet: true}
-				e := &env{stdout: os.Stdout, stderr: os.Stderr}
+				opt := run.Options{Index: idx, Target: target, Params: p, Budget: 1e16, TrainParams: 1e9, Epochs: 1,
+					Out: filepath.Join(dir, "run")}
 				for b.Loop() {
-					if _, err := doPick(context.Background(), e, cfg); err != nil {
+					if _, err := run.Pick(context.Background(), opt); err != nil {
 						b.Fatal(err)
 					}
 				}

@@ -15,7 +15,7 @@ import (
 	"sluice/cmd/sluice/demodata"
 	"sluice/index"
 	"sluice/score"
-	selection "sluice/select"
+	"sluice/select/run"
 )
 
 type demoCmd struct{}
@@ -81,26 +81,26 @@ func (c *demoCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 	}
 	say("indexed %d rows (%s; %d terms; rows read %d = indexed %d + quarantined %d)\n\n", st.Rows, st.Text, st.Terms, st.RowsRead, st.Rows, st.RowsRejected)
 
-	run := filepath.Join(out, "run")
+	runDir := filepath.Join(out, "run")
 	say("$ sluice pick --index %s --target %s --method %s --aggregate %s --budget %s --train-params 125M --out %s\n",
-		idx, target, p.Method, p.Aggregate, demoBudget, run)
-	cfg := &pickConfig{indexDir: idx, target: target, params: p, trainN: demoTrainParams, epochs: 1,
-		out: run, quiet: quiet, budgetHow: "--budget " + demoBudget, sel: selection.Options{}}
-	cfg.command = []string{"sluice", "pick", "--index", idx, "--target", target, "--method", p.Method.String(),
-		"--aggregate", p.Aggregate.String(), "--budget", demoBudget, "--train-params", "125M", "--out", run}
-	if _, err := fmt.Sscanf(demoBudget, "%g", &cfg.budget); err != nil {
+		idx, target, p.Method, p.Aggregate, demoBudget, runDir)
+	opt := run.Options{Index: idx, Target: target, Params: p, TrainParams: demoTrainParams, Epochs: 1,
+		Out: runDir, BudgetHow: "--budget " + demoBudget}
+	opt.Command = []string{"sluice", "pick", "--index", idx, "--target", target, "--method", p.Method.String(),
+		"--aggregate", p.Aggregate.String(), "--budget", demoBudget, "--train-params", "125M", "--out", runDir}
+	if _, err := fmt.Sscanf(demoBudget, "%g", &opt.Budget); err != nil {
 		return err
 	}
 	de := *e
 	de.stderr = e.stdout // the demo's whole story goes to stdout
-	pr, err := doPick(ctx, &de, cfg)
+	pr, err := pick(ctx, &de, opt, quiet)
 	if err != nil {
 		return err
 	}
 	if quiet {
 		return nil
 	}
-	topics, err := topicCounts(pool, filepath.Join(run, "kept.jsonl"))
+	topics, err := topicCounts(pool, filepath.Join(runDir, "kept.jsonl"))
 	if err != nil {
 		return err
 	}
@@ -122,17 +122,17 @@ func (c *demoCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 	if restTopics > 0 {
 		say("  %d other topics           0 of %4d rows kept\n", restTopics, restRows)
 	}
-	if len(pr.kept) > 0 {
+	if len(pr.Kept) > 0 {
 		var hit int
 		for _, t := range topics {
 			if t.name == want {
 				hit = t.kept
 			}
 		}
-		say("precision: %.1f%% of kept rows are %s\n", 100*float64(hit)/float64(len(pr.kept)), want)
+		say("precision: %.1f%% of kept rows are %s\n", 100*float64(hit)/float64(len(pr.Kept)), want)
 	}
 	say("\nfiles:\n  %s  the kept rows, byte for byte\n  %s  every row's score, rank and fate\n  %s  the FLOP ledger\n",
-		filepath.Join(run, "kept.jsonl"), filepath.Join(run, "scores.jsonl"), filepath.Join(run, "ledger.json"))
+		filepath.Join(runDir, "kept.jsonl"), filepath.Join(runDir, "scores.jsonl"), filepath.Join(runDir, "ledger.json"))
 	return nil
 }
 

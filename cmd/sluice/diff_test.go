@@ -2,32 +2,12 @@ package main
 
 import (
 	"encoding/json"
-	"math"
 	"path/filepath"
 	"strings"
 	"testing"
-)
 
-// Spearman's rho for untied ranks is 1 − 6Σd²/(n(n²−1)) (Spearman, 1904; any statistics
-// handbook). Worked by hand: ranks 1..5 against 2,1,4,3,5 give d² = 1+1+1+1+0 = 4 and
-// rho = 1 − 24/120 = 0.8; against 5..1, rho = −1.
-func TestPearsonOfRanksIsSpearman(t *testing.T) {
-	for _, tc := range []struct {
-		a, b []float64
-		want float64
-	}{
-		{[]float64{1, 2, 3, 4, 5}, []float64{2, 1, 4, 3, 5}, 0.8},
-		{[]float64{1, 2, 3, 4, 5}, []float64{5, 4, 3, 2, 1}, -1},
-		{[]float64{1, 2, 3}, []float64{1, 2, 3}, 1},
-	} {
-		if got := pearson(tc.a, tc.b); math.Abs(got-tc.want) > 1e-12 {
-			t.Errorf("rho(%v, %v) = %v, want %v", tc.a, tc.b, got, tc.want)
-		}
-	}
-	if !math.IsNaN(pearson([]float64{1, 1}, []float64{1, 2})) {
-		t.Errorf("rho with no spread should be NaN")
-	}
-}
+	"sluice/select/audit"
+)
 
 func TestDiff(t *testing.T) {
 	dir, idx, target := demoIndex(t)
@@ -40,14 +20,14 @@ func TestDiff(t *testing.T) {
 		return out
 	}
 	a, b := pick("a"), pick("b", "--method", "tfidf", "--aggregate", "max")
-	same, err := diffRuns(a, a, 5)
+	same, err := audit.Compare(a, a, 5)
 	if err != nil {
 		t.Fatal(err)
 	}
 	if same.Jaccard != 1 || same.Spearman != 1 || same.OnlyA+same.OnlyB != 0 || len(same.Moved) != 0 {
 		t.Errorf("a run against itself: %+v", same)
 	}
-	d, err := diffRuns(a, b, 5)
+	d, err := audit.Compare(a, b, 5)
 	if err != nil {
 		t.Fatal(err)
 	}
@@ -68,4 +48,11 @@ func TestDiff(t *testing.T) {
 	if code, stdout, _ := sluice(t, "diff", a, b); code != 0 || !strings.Contains(stdout, "Jaccard") {
 		t.Errorf("diff: exit %d: %s", code, stdout)
 	}
+}
+
+func absInt(x int) int {
+	if x < 0 {
+		return -x
+	}
+	return x
 }

@@ -19,7 +19,7 @@ import (
 // real command without building it first.
 func TestMain(m *testing.M) {
 	if os.Getenv("SLUICE_TEST_AS_MAIN") == "1" {
-		os.Exit(run(context.Background(), os.Args[1:], newEnv()))
+		os.Exit(dispatch(context.Background(), os.Args[1:], newEnv()))
 	}
 	os.Exit(m.Run())
 }

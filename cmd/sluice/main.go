@@ -11,7 +11,7 @@ import (
 
 func main() {
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
-	code := run(ctx, os.Args[1:], newEnv())
+	code := dispatch(ctx, os.Args[1:], newEnv())
 	stop()
 	os.Exit(code)
 }

@@ -19,13 +19,15 @@ import (
 	"sluice/index"
 	"sluice/index/jsonl"
 	"sluice/score"
+	"sluice/select/audit"
+	"sluice/select/run"
 )
 
 // sluice runs the command in-process and returns its exit status, stdout and stderr.
 func sluice(t *testing.T, args ...string) (int, string, string) {
 	t.Helper()
 	var out, errb bytes.Buffer
-	code := run(context.Background(), args, &env{stdin: strings.NewReader(""), stdout: &out, stderr: &errb})
+	code := dispatch(context.Background(), args, &env{stdin: strings.NewReader(""), stdout: &out, stderr: &errb})
 	return code, out.String(), errb.String()
 }
 
@@ -205,16 +207,6 @@ func TestUsageErrors(t *testing.T) {
 	}
 }
 
-func TestAppendJSONString(t *testing.T) {
-	for _, s := range []string{"", "pool-0001", "a/b:12", `q"uote`, `back\slash`, "tab\there", "naïve", "<&>", "\x7f", "\xff"} {
-		got := appendJSONString(nil, s)
-		want, _ := json.Marshal(s)
-		if string(got) != string(want) {
-			t.Errorf("%q: got %s, want %s (encoding/json)", s, got, want)
-		}
-	}
-}
-
 // TestCompressedKept checks that kept.jsonl.gz and kept.jsonl.zst decompress to kept.jsonl.
 func TestCompressedKept(t *testing.T) {
 	dir, idx, target := demoIndex(t)
@@ -225,7 +217,7 @@ func TestCompressedKept(t *testing.T) {
 			"--train-params", "125M", "--compress", c, "--out", out); code != 0 {
 			t.Fatal(stderr)
 		}
-		rc, _, err := jsonl.Open(filepath.Join(out, keptName(c)))
+		rc, _, err := jsonl.Open(filepath.Join(out, run.KeptName(c)))
 		if err != nil {
 			t.Fatal(err)
 		}
@@ -294,7 +286,7 @@ func TestSameBytesWhateverTheCores(t *testing.T) {
 }
 
 // TestWhyAgreesWithScores explains every row of a demo run, for both methods and both aggregates:
-// each recomputed score must equal scores.jsonl's to the last bit (explainRun fails otherwise), and
+// each recomputed score must equal scores.jsonl's to the last bit (audit.Explain fails otherwise), and
 // the parts must add up to it.
 func TestWhyAgreesWithScores(t *testing.T) {
 	dir, idx, target := demoIndex(t)
@@ -309,7 +301,7 @@ func TestWhyAgreesWithScores(t *testing.T) {
 			for _, s := range readScores(t, filepath.Join(out, "scores.jsonl")) {
 				ids = append(ids, s.ID)
 			}
-			rows, err := explainRun(context.Background(), out, relocated{}, ids, 1)
+			rows, err := audit.Explain(context.Background(), out, run.Inputs{}, ids, 1)
 			if err != nil {
 				t.Fatalf("%s/%s: %v", method, agg, err)
 			}

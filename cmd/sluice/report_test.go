@@ -9,7 +9,6 @@ import (
 	"flag"
 	"io"
 	"math"
-	"math/rand/v2"
 	"os"
 	"os/exec"
 	"path/filepath"
@@ -18,7 +17,9 @@ import (
 	"testing"
 	"time"
 
+	"sluice/budget"
 	"sluice/cmd/sluice/demodata"
+	"sluice/select/report"
 )
 
 var updateReport = flag.Bool("update-report", false, "rewrite testdata/report/report.png from the browser test")
@@ -148,8 +149,8 @@ func TestReportPage(t *testing.T) {
 	}
 	// The numbers are also written as text, for people.
 	for _, v := range []float64{led.Budget, led.Selection, led.Training, led.Left} {
-		if !strings.Contains(text, fmtFLOPs(v)+" FLOPs") {
-			t.Errorf("the page does not show %s FLOPs", fmtFLOPs(v))
+		if !strings.Contains(text, budget.FormatFLOPs(v)+" FLOPs") {
+			t.Errorf("the page does not show %s FLOPs", budget.FormatFLOPs(v))
 		}
 	}
 
@@ -208,53 +209,6 @@ func TestReportEscapes(t *testing.T) {
 		if !strings.Contains(text, want) && !strings.Contains(text, strings.ReplaceAll(want, `"`, `\"`)) {
 			t.Errorf("the page's text lacks %q", want)
 		}
-	}
-}
-
-// TestScoreHist checks the one-pass histogram against counting each score into the final bins.
-func TestScoreHist(t *testing.T) {
-	rng := rand.New(rand.NewPCG(1, 2))
-	for _, tc := range []struct {
-		name string
-		gen  func() float64
-	}{
-		{"small first, then larger", func() float64 { return math.Exp(rng.Float64()*20 - 10) }},
-		{"uniform", func() float64 { return rng.Float64() * 1000 }},
-		{"with zeros", func() float64 { return max(0, rng.NormFloat64()) }},
-		{"one value", func() float64 { return 0.75 }},
-	} {
-		t.Run(tc.name, func(t *testing.T) {
-			var h scoreHist
-			var vals []float64
-			for i := 0; i < 5000; i++ {
-				v := tc.gen()
-				vals = append(vals, v)
-				h.add(v, i%3 == 0)
-			}
-			var kept, dropped [histBins]int64
-			var zero int64
-			for i, v := range vals {
-				if v <= 0 {
-					zero++
-					continue
-				}
-				b := int(v / h.width)
-				if b >= histBins {
-					t.Fatalf("%v lies past the last bin (width %v)", v, h.width)
-				}
-				if i%3 == 0 {
-					kept[b]++
-				} else {
-					dropped[b]++
-				}
-			}
-			if kept != h.kept || dropped != h.dropped || zero != h.zero {
-				t.Errorf("bins differ from a direct count:\n got %v %v %d\nwant %v %v %d", h.kept, h.dropped, h.zero, kept, dropped, zero)
-			}
-			if n := h.used(); n <= 0 || float64(n)*h.width <= h.max || float64(n-1)*h.width > h.max {
-				t.Errorf("used %d bins of width %v for a maximum of %v", n, h.width, h.max)
-			}
-		})
 	}
 }
 
@@ -465,11 +419,11 @@ func BenchmarkReport(b *testing.B) {
 	}
 	var rows int
 	for b.Loop() {
-		rep, err := buildReport(context.Background(), run, reportOptions{sample: 5, terms: 20, files: 12})
+		rep, err := report.Build(context.Background(), run, report.Options{Sample: 5, Terms: 20, Files: 12})
 		if err != nil {
 			b.Fatal(err)
 		}
-		if err := writeReport(page, rep); err != nil {
+		if err := rep.WriteFile(page); err != nil {
 			b.Fatal(err)
 		}
 		rows = rep.Rows
@@ -477,4 +431,4 @@ func BenchmarkReport(b *testing.B) {
 	b.ReportMetric(float64(rows)*float64(b.N)/b.Elapsed().Seconds(), "rows/s")
 }
 
-func runSluice(args []string, e *env) int { return run(context.Background(), args, e) }
+func runSluice(args []string, e *env) int { return dispatch(context.Background(), args, e) }

@@ -6,6 +6,8 @@ import (
 	"strings"
 
 	"github.com/spf13/pflag"
+
+	"sluice/select/run"
 )
 
 type verifyCmd struct{}
@@ -32,18 +34,18 @@ func (c *verifyCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 		return usagef("name at least one run folder")
 	}
 	var bad []string
-	for _, run := range fs.Args() {
-		m, err := readManifest(run)
+	for _, dir := range fs.Args() {
+		m, err := run.ReadManifest(dir)
 		if err != nil {
 			return err
 		}
-		movedFrom(fs).apply(m)
-		diffs := verifyRun(run, m)
+		movedFrom(fs).Apply(m)
+		diffs := run.Verify(dir, m)
 		for _, d := range diffs {
-			bad = append(bad, run+": "+d)
+			bad = append(bad, dir+": "+d)
 		}
 		if len(diffs) == 0 {
-			fmt.Fprintf(e.stdout, "%s: ok (%d files, target and index as used)\n", run, len(m.Files))
+			fmt.Fprintf(e.stdout, "%s: ok (%d files, target and index as used)\n", dir, len(m.Files))
 		}
 	}
 	if len(bad) > 0 {

@@ -1,0 +1,181 @@
+package audit
+
+import (
+	"encoding/json"
+	"fmt"
+	"math"
+	"sort"
+	"strconv"
+
+	"sluice/select/run"
+)
+
+// Side is one run of a comparison: what it kept and what it spent.
+type Side struct {
+	Run        string  `json:"run"`
+	Kept       int     `json:"kept"`
+	KeptTokens int64   `json:"kept_tokens"`
+	Budget     float64 `json:"budget_flops"`
+	Used       float64 `json:"used_flops"`
+	rows       map[string]sideRow
+}
+
+type sideRow struct {
+	rank   int
+	kept   bool
+	tokens int64
+}
+
+// Moved is a row whose rank differs between the two runs.
+type Moved struct {
+	ID    string `json:"id"`
+	RankA int    `json:"rank_a"`
+	RankB int    `json:"rank_b"`
+	KeptA bool   `json:"kept_a"`
+	KeptB bool   `json:"kept_b"`
+}
+
+// Diff compares two runs: rows kept in both or one, their tokens and Jaccard index, and the rank
+// correlation over the rows both scored.
+type Diff struct {
+	A            Side    `json:"a"`
+	B            Side    `json:"b"`
+	Both         int     `json:"kept_both"`
+	OnlyA        int     `json:"kept_only_a"`
+	OnlyB        int     `json:"kept_only_b"`
+	BothTokens   int64   `json:"kept_both_tokens"`
+	OnlyATokens  int64   `json:"kept_only_a_tokens"`
+	OnlyBTokens  int64   `json:"kept_only_b_tokens"`
+	Jaccard      float64 `json:"jaccard"`
+	Common       int     `json:"rows_in_both"`
+	Spearman     float64 `json:"spearman"`
+	Moved        []Moved `json:"moved"`
+	SpearmanNote string  `json:"spearman_note,omitempty"`
+}
+
+// readSide reads the scores and ledger of the run folder dir. Rows are keyed by id; a repeated id is
+// keyed by its occurrence (id#2, id#3, ...).
+func readSide(dir string) (Side, error) {
+	s := Side{Run: dir, rows: map[string]sideRow{}}
+	seen := map[string]int{}
+	err := run.EachScoreLine(dir, func(_ int, line []byte) error {
+		var r struct {
+			ID     string `json:"id"`
+			Rank   int    `json:"rank"`
+			Kept   bool   `json:"kept"`
+			Tokens int64  `json:"tokens"`
+		}
+		if err := json.Unmarshal(line, &r); err != nil {
+			return err
+		}
+		key := r.ID
+		if n := seen[r.ID]; n > 0 {
+			key = r.ID + "#" + strconv.Itoa(n+1)
+		}
+		seen[r.ID]++
+		s.rows[key] = sideRow{rank: r.Rank, kept: r.Kept, tokens: r.Tokens}
+		if r.Kept {
+			s.Kept++
+			s.KeptTokens += r.Tokens
+		}
+		return nil
+	})
+	if err != nil {
+		return s, err
+	}
+	l, err := run.ReadLedger(dir)
+	if err != nil {
+		return s, err
+	}
+	s.Budget, s.Used = l.Budget, l.Total
+	return s, nil
+}
+
+// Compare compares the run folders a and b, listing at most top of the rows whose rank moved most.
+func Compare(a, b string, top int) (*Diff, error) {
+	var d Diff
+	var err error
+	if d.A, err = readSide(a); err != nil {
+		return nil, err
+	}
+	if d.B, err = readSide(b); err != nil {
+		return nil, err
+	}
+	var ra, rb []float64
+	for id, x := range d.A.rows {
+		y, ok := d.B.rows[id]
+		switch {
+		case ok && x.kept && y.kept:
+			d.Both++
+			d.BothTokens += x.tokens
+		case x.kept:
+			d.OnlyA++
+			d.OnlyATokens += x.tokens
+		}
+		if ok {
+			ra = append(ra, float64(x.rank))
+			rb = append(rb, float64(y.rank))
+			if x.rank != y.rank {
+				d.Moved = append(d.Moved, Moved{ID: id, RankA: x.rank, RankB: y.rank, KeptA: x.kept, KeptB: y.kept})
+			}
+		}
+	}
+	for id, y := range d.B.rows {
+		if x, ok := d.A.rows[id]; y.kept && !(ok && x.kept) {
+			d.OnlyB++
+			d.OnlyBTokens += y.tokens
+		}
+	}
+	if u := d.Both + d.OnlyA + d.OnlyB; u > 0 {
+		d.Jaccard = float64(d.Both) / float64(u)
+	}
+	d.Common = len(ra)
+	if d.Spearman = pearson(ra, rb); math.IsNaN(d.Spearman) {
+		d.Spearman = 0
+		d.SpearmanNote = fmt.Sprintf("undefined over %d common rows", d.Common)
+	}
+	sort.Slice(d.Moved, func(i, j int) bool {
+		di, dj := absInt(d.Moved[i].RankA-d.Moved[i].RankB), absInt(d.Moved[j].RankA-d.Moved[j].RankB)
+		if di != dj {
+			return di > dj
+		}
+		return d.Moved[i].RankA < d.Moved[j].RankA
+	})
+	if len(d.Moved) > top {
+		d.Moved = d.Moved[:top]
+	}
+	return &d, nil
+}
+
+func absInt(x int) int {
+	if x < 0 {
+		return -x
+	}
+	return x
+}
+
+// pearson is the Pearson correlation of x and y; over ranks it is Spearman's rho. NaN when either
+// has no spread.
+func pearson(x, y []float64) float64 {
+	n := float64(len(x))
+	if len(x) < 2 {
+		return math.NaN()
+	}
+	var mx, my float64
+	for i := range x {
+		mx += x[i]
+		my += y[i]
+	}
+	mx, my = mx/n, my/n
+	var sxy, sxx, syy float64
+	for i := range x {
+		dx, dy := x[i]-mx, y[i]-my
+		sxy += dx * dy
+		sxx += dx * dx
+		syy += dy * dy
+	}
+	if sxx == 0 || syy == 0 {
+		return math.NaN()
+	}
+	return sxy / math.Sqrt(sxx*syy)
+}

@@ -1,0 +1,190 @@
+package audit
+
+import (
+	"context"
+	"fmt"
+	"math"
+
+	"sluice/budget"
+	"sluice/index"
+	"sluice/score"
+	"sluice/select/run"
+)
+
+// Row is what is known of one row of a run: its score, rank and fate, the terms that made its
+// score, and the target rows that matched it best.
+type Row struct {
+	ID      string       `json:"id"`
+	Row     int          `json:"row"`
+	Source  string       `json:"source"`
+	Score   float64      `json:"score"`
+	Rank    int          `json:"rank"`
+	Rows    int          `json:"rows"`
+	Kept    bool         `json:"kept"`
+	Reason  string       `json:"reason,omitempty"`
+	Why     string       `json:"why"`
+	Tokens  int64        `json:"tokens"`
+	Ledger  float64      `json:"ledger"`
+	Budget  float64      `json:"budget"`
+	Method  string       `json:"method"`
+	Parts   []score.Part `json:"parts"`
+	Targets []Target     `json:"targets"`
+}
+
+// Target is a target row that matched a pool row, with its score and the terms they share.
+type Target struct {
+	ID     string   `json:"id"`
+	Score  float64  `json:"score"`
+	Shared []string `json:"shared"`
+}
+
+// Explainer explains rows of one run from its index and target. Open one with NewExplainer and
+// Close it when done.
+type Explainer struct {
+	dir     string
+	m       *run.Manifest
+	stop    string
+	ix      *index.Index
+	targets []index.Target
+	qs      []score.Query
+	p       score.Params
+}
+
+// NewExplainer opens the run folder dir and its inputs (at the manifest's paths, or where in says),
+// checking that they are the ones the run used.
+func NewExplainer(dir string, in run.Inputs) (*Explainer, error) {
+	m, err := run.ReadManifest(dir)
+	if err != nil {
+		return nil, err
+	}
+	in.Apply(m)
+	if err := run.CheckInputs("explain", dir, m); err != nil {
+		return nil, err
+	}
+	p := score.DefaultParams()
+	if p.Method, err = score.ParseMethod(m.Settings.Method); err != nil {
+		return nil, err
+	}
+	if p.Aggregate, err = score.ParseAggregate(m.Settings.Aggregate); err != nil {
+		return nil, err
+	}
+	p.K1, p.B = m.Settings.K1, m.Settings.B
+	ix, err := index.Open(m.Index.Path)
+	if err != nil {
+		return nil, err
+	}
+	x := &Explainer{dir: dir, m: m, ix: ix, p: p}
+	if err := x.readTargets(); err != nil {
+		ix.Close()
+		return nil, err
+	}
+	if l, err := run.ReadLedger(dir); err == nil {
+		x.stop = l.Stop
+	}
+	return x, nil
+}
+
+func (x *Explainer) readTargets() error {
+	an, err := x.ix.NewAnalyzer()
+	if err != nil {
+		return err
+	}
+	st := x.m.Settings
+	if x.targets, _, err = index.ReadTargets(x.m.Target.Path, st.TargetText, st.TargetID, an, x.ix.Meta().MaxRowBytes); err != nil {
+		return err
+	}
+	x.qs = make([]score.Query, len(x.targets))
+	for i, t := range x.targets {
+		x.qs[i] = score.Query{ID: t.ID, Terms: t.Terms}
+	}
+	return nil
+}
+
+// Close releases the index.
+func (x *Explainer) Close() error { return x.ix.Close() }
+
+// Manifest is the run's manifest, with the inputs' paths as opened.
+func (x *Explainer) Manifest() *run.Manifest { return x.m }
+
+// Index is the run's index, open.
+func (x *Explainer) Index() *index.Index { return x.ix }
+
+// Targets are the run's target rows, analysed.
+func (x *Explainer) Targets() []index.Target { return x.targets }
+
+// Explain explains the row of scores.jsonl s, showing the top best-matching target rows. The score
+// is recomputed from the index and must agree with s.Score to the last bit.
+func (x *Explainer) Explain(s run.Score, top int) (Row, error) {
+	ex, err := score.Explain(x.ix, x.qs, x.p, s.Row, top)
+	if err != nil {
+		return Row{}, err
+	}
+	if math.Float64bits(ex.Score) != math.Float64bits(s.Score) {
+		return Row{}, fmt.Errorf("explain %s: row %q: recomputed score %v disagrees with scores.jsonl's %v", x.dir, s.ID, ex.Score, s.Score)
+	}
+	st := x.m.Settings
+	loc := x.ix.RowLocation(s.Row)
+	r := Row{ID: s.ID, Row: s.Row, Source: fmt.Sprintf("%s:%d", loc.File, loc.Line), Score: s.Score, Rank: s.Rank,
+		Rows: x.ix.NumRows(), Kept: s.Kept, Reason: s.Reason, Tokens: s.Tokens, Ledger: s.Ledger,
+		Budget: st.Budget, Method: st.Method + "/" + st.Aggregate, Parts: ex.Parts}
+	for _, tm := range ex.Targets {
+		r.Targets = append(r.Targets, Target{ID: x.targets[tm.Index].ID, Score: tm.Score, Shared: tm.Shared})
+	}
+	r.Why = fate(r, st, x.stop)
+	return r, nil
+}
+
+// Explain explains the rows of the run folder dir with the given ids (every row with that id, if
+// ids repeat), showing the top best-matching target rows of each.
+func Explain(ctx context.Context, dir string, in run.Inputs, ids []string, top int) ([]Row, error) {
+	x, err := NewExplainer(dir, in)
+	if err != nil {
+		return nil, err
+	}
+	defer x.Close()
+	lines, err := run.FindScores(dir, ids)
+	if err != nil {
+		return nil, err
+	}
+	var out []Row
+	for _, id := range ids {
+		found := lines[id]
+		if len(found) == 0 {
+			return nil, fmt.Errorf("explain %s: no row %q in scores.jsonl", dir, id)
+		}
+		for _, s := range found {
+			if err := ctx.Err(); err != nil {
+				return nil, err
+			}
+			r, err := x.Explain(s, top)
+			if err != nil {
+				return nil, err
+			}
+			out = append(out, r)
+		}
+	}
+	return out, nil
+}
+
+// fate says in words why a row was or was not kept.
+func fate(r Row, st run.Settings, stop string) string {
+	share := func(v float64) string {
+		return fmt.Sprintf("%s FLOPs, %.1f%% of the budget", budget.FormatFLOPs(v), 100*v/st.Budget)
+	}
+	cost := budget.TrainFLOPs(st.TrainParams, float64(r.Tokens), st.Epochs)
+	switch r.Reason {
+	case "":
+		return fmt.Sprintf("kept: ranked %d of %d, and its training cost of %s FLOPs fitted; the ledger stood at %s after it", r.Rank, r.Rows, budget.FormatFLOPs(cost), share(r.Ledger))
+	case "below-cut":
+		return fmt.Sprintf("below the cut: ranked %d of %d, after the pick had stopped (%s)", r.Rank, r.Rows, stop)
+	case "budget":
+		return fmt.Sprintf("budget reached: its training cost of %s FLOPs did not fit in the %s FLOPs left at rank %d", budget.FormatFLOPs(cost), budget.FormatFLOPs(st.Budget-r.Ledger), r.Rank)
+	case "max-rows":
+		return fmt.Sprintf("max-rows: %d rows had been kept before rank %d", st.MaxRows, r.Rank)
+	case "min-score":
+		return fmt.Sprintf("min-score: its score %g is below --min-score %g", r.Score, st.MinScore)
+	case "no-match":
+		return "no match: it shares no term with any target row"
+	}
+	return r.Reason
+}

@@ -1,0 +1,900 @@
+package report
+
+import (
+	"bytes"
+	"context"
+	"encoding/json"
+	"fmt"
+	"html/template"
+	"math"
+	"os"
+	"path/filepath"
+	"slices"
+	"sort"
+	"strconv"
+	"strings"
+	"unicode"
+	"unicode/utf8"
+
+	"github.com/valyala/fastjson"
+
+	"sluice/budget"
+	"sluice/index"
+	"sluice/select/audit"
+	"sluice/select/run"
+)
+
+// Options say how much the page shows and where the run's inputs are.
+type Options struct {
+	Sample int        // rows shown on each side of the cut
+	Terms  int        // target terms shown
+	Files  int        // pool files shown by name; the rest are summed in one line
+	Inputs run.Inputs // where the run's index and target are, if they have moved
+}
+
+// histBins is the most bins the score histogram uses; after the last doubling it uses between half
+// of them and all. It must be even.
+const histBins = 48
+
+// scoreHist is a histogram of positive scores built in one pass without knowing the range first:
+// bins start at zero and have a power-of-two width, which doubles (merging pairs of bins) whenever
+// a score falls past the last bin. Rows scoring 0 share no term with the target and are counted
+// apart, since they would swamp the first bin.
+type scoreHist struct {
+	width         float64
+	kept, dropped [histBins]int64
+	zero          int64
+	max           float64
+}
+
+func (h *scoreHist) add(s float64, kept bool) {
+	if s <= 0 {
+		h.zero++
+		return
+	}
+	if h.width == 0 {
+		// The first score lands in the lower half; width*histBins >= 2s > s.
+		h.width = math.Exp2(math.Ceil(math.Log2(2 * s / histBins)))
+	}
+	for s >= h.width*histBins {
+		for i := 0; i < histBins/2; i++ {
+			h.kept[i] = h.kept[2*i] + h.kept[2*i+1]
+			h.dropped[i] = h.dropped[2*i] + h.dropped[2*i+1]
+		}
+		for i := histBins / 2; i < histBins; i++ {
+			h.kept[i], h.dropped[i] = 0, 0
+		}
+		h.width *= 2
+	}
+	i := int(s / h.width)
+	if kept {
+		h.kept[i]++
+	} else {
+		h.dropped[i]++
+	}
+	h.max = max(h.max, s)
+}
+
+// used is the number of bins up to the last non-empty one.
+func (h *scoreHist) used() int {
+	for i := histBins - 1; i >= 0; i-- {
+		if h.kept[i]+h.dropped[i] > 0 {
+			return i + 1
+		}
+	}
+	return 0
+}
+
+// sampleRow is a row of scores.jsonl held for the sample.
+type sampleRow struct {
+	rank  int
+	score run.Score
+}
+
+// rankSample keeps the k rows with the smallest (or largest) rank numbers seen so far.
+type rankSample struct {
+	k       int
+	largest bool
+	rows    []sampleRow
+}
+
+// offer considers the row of scores.jsonl line, ranked rank, for the sample. The line is decoded
+// only when the row is taken, which after the first few is rare.
+func (s *rankSample) offer(row, rank int, line []byte) error {
+	if s.k == 0 {
+		return nil
+	}
+	at := len(s.rows)
+	if at == s.k {
+		// k is small (at most 100): a scan for the worst is cheaper to read than a heap.
+		worst := 0
+		for i, r := range s.rows {
+			if (s.largest && r.rank < s.rows[worst].rank) || (!s.largest && r.rank > s.rows[worst].rank) {
+				worst = i
+			}
+		}
+		if (s.largest && rank <= s.rows[worst].rank) || (!s.largest && rank >= s.rows[worst].rank) {
+			return nil
+		}
+		at = worst
+	}
+	sr := sampleRow{rank: rank, score: run.Score{Row: row}}
+	if err := json.Unmarshal(line, &sr.score); err != nil {
+		return err
+	}
+	if at == len(s.rows) {
+		s.rows = append(s.rows, sr)
+	} else {
+		s.rows[at] = sr
+	}
+	return nil
+}
+
+func (s *rankSample) sorted() []sampleRow {
+	sort.Slice(s.rows, func(i, j int) bool { return s.rows[i].rank < s.rows[j].rank })
+	return s.rows
+}
+
+// Page is everything the page shows, worked out before the template runs.
+type Page struct {
+	Run        string
+	Sluice     string
+	Command    string
+	Method     string
+	Settings   run.Settings
+	Rows       int
+	KeptRows   int
+	KeptTokens int64
+	PoolTokens int64
+	Targets    int
+	Ledger     run.Ledger
+	LedgerBar  ledgerBar
+	Hist       histChart
+	Files      barChart
+	FilesOther string
+	Terms      barChart
+	TermsNote  string
+	CutRank    int
+	CutScore   float64
+	Above      []sampleView
+	Below      []sampleView
+}
+
+// Build reads the run folder dir once (and its sample rows' explanations) and works out everything
+// the page shows.
+func Build(ctx context.Context, dir string, o Options) (*Page, error) {
+	m, err := run.ReadManifest(dir)
+	if err != nil {
+		return nil, err
+	}
+	led, err := run.ReadLedger(dir)
+	if err != nil {
+		return nil, fmt.Errorf("report %s: %w", dir, err)
+	}
+	o.Inputs.Apply(m)
+	if err := run.CheckInputs("report", dir, m); err != nil {
+		return nil, err
+	}
+	x, err := audit.NewExplainer(dir, o.Inputs)
+	if err != nil {
+		return nil, err
+	}
+	defer x.Close()
+	ix := x.Index()
+	rep := &Page{Run: dir, Sluice: m.Sluice, Command: strings.Join(m.Command, " "), Settings: m.Settings,
+		Method: m.Settings.Method + "/" + m.Settings.Aggregate, Ledger: *led, CutRank: -1}
+	t, err := tallyScores(ctx, dir, ix, rep, o.Sample)
+	if err != nil {
+		return nil, err
+	}
+	rep.Hist = newHistChart(&t.hist, rep)
+	rep.LedgerBar = newLedgerBar(*led)
+	rep.Files, rep.FilesOther = fileChart(ix, t.keptTok, t.poolTok, t.keptRows, o.Files)
+	rep.Terms, rep.TermsNote, rep.Targets = termChart(ix, m, x.Targets(), o.Terms)
+	if rep.Above, err = explainSample(x, t.above.sorted()); err != nil {
+		return nil, err
+	}
+	if rep.Below, err = explainSample(x, t.below.sorted()); err != nil {
+		return nil, err
+	}
+	return rep, nil
+}
+
+// tally is what one pass over scores.jsonl gathers: the histogram, per-file sums and the samples.
+type tally struct {
+	hist             scoreHist
+	keptTok, poolTok []int64
+	keptRows         []int
+	above, below     rankSample
+}
+
+// tallyScores streams the run's scores.jsonl, keeping only the tally and the totals of rep.
+func tallyScores(ctx context.Context, dir string, ix *index.Index, rep *Page, sample int) (*tally, error) {
+	nsrc := len(ix.Meta().Sources)
+	t := &tally{keptTok: make([]int64, nsrc), poolTok: make([]int64, nsrc), keptRows: make([]int, nsrc),
+		above: rankSample{k: sample, largest: true}, below: rankSample{k: sample}}
+	var p fastjson.Parser
+	row := 0
+	err := run.EachScoreLine(dir, func(r int, line []byte) error {
+		row = r + 1
+		if r%65536 == 0 {
+			if err := ctx.Err(); err != nil {
+				return err
+			}
+		}
+		if r >= ix.NumRows() {
+			return fmt.Errorf("more lines than the index has rows (%d)", ix.NumRows())
+		}
+		v, err := p.ParseBytes(line)
+		if err != nil {
+			return err
+		}
+		s, tok, rank, kept := v.GetFloat64("score"), v.GetInt64("tokens"), v.GetInt("rank"), v.GetBool("kept")
+		if math.IsNaN(s) || math.IsInf(s, 0) {
+			return fmt.Errorf("score %v", s)
+		}
+		t.hist.add(s, kept)
+		src := ix.RowLocation(r).Source
+		t.poolTok[src] += tok
+		rep.PoolTokens += tok
+		if kept {
+			t.keptTok[src] += tok
+			t.keptRows[src]++
+			rep.KeptRows++
+			rep.KeptTokens += tok
+			if rank > rep.CutRank {
+				rep.CutRank, rep.CutScore = rank, s
+			}
+			return t.above.offer(r, rank, line)
+		} else if s > 0 {
+			return t.below.offer(r, rank, line)
+		}
+		return nil
+	})
+	if err != nil {
+		return nil, err
+	}
+	if row != ix.NumRows() {
+		return nil, fmt.Errorf("read %s: %d lines for the index's %d rows", filepath.Join(dir, run.ScoresFile), row, ix.NumRows())
+	}
+	rep.Rows = row
+	return t, nil
+}
+
+// Chart geometry, in SVG user units; the charts scale to the page's width.
+const (
+	chartW   = 960
+	histH    = 300
+	histL    = 64 // left margin, for the count labels
+	histR    = 16
+	histT    = 28
+	histB    = 48
+	barRowH  = 26
+	barLabel = 250 // width of the label column of bar lists
+	barText  = 300 // width of the value column
+)
+
+type histBar struct {
+	Lo, Hi          string // bin edges, exact, for data attributes
+	Kept, Dropped   int64
+	X, W            float64
+	KeptY, KeptH    float64
+	DropY, DropH    float64
+	Label           string // for the tooltip
+	HasKept, HasDro bool
+}
+
+type tick struct {
+	Pos   float64
+	Label string
+}
+
+type histChart struct {
+	W, H           int
+	PlotL, PlotR   float64
+	PlotT, PlotB   float64
+	TickB          float64
+	Bars           []histBar
+	XTicks, YTicks []tick
+	BinWidth       string
+	Zero           int64
+	Max            string
+	HasCut         bool
+	CutX           float64
+	CutLabel       string
+	CutAnchor      string
+	CutScore       string
+	Empty          bool
+}
+
+func newHistChart(h *scoreHist, rep *Page) histChart {
+	c := histChart{W: chartW, H: histH, PlotL: histL, PlotR: chartW - histR, PlotT: histT, PlotB: histH - histB,
+		TickB: histH - histB + 5, BinWidth: exact(h.width), Zero: h.zero, Max: exact(h.max)}
+	n := h.used()
+	if n == 0 {
+		c.Empty = true
+		return c
+	}
+	var top int64
+	for i := 0; i < n; i++ {
+		top = max(top, h.kept[i]+h.dropped[i])
+	}
+	step := niceStep(float64(top) / 4)
+	ymax := math.Ceil(float64(top)/step) * step
+	plotW, plotH := c.PlotR-c.PlotL, c.PlotB-c.PlotT
+	bw := plotW / float64(n)
+	y := func(v float64) float64 { return c.PlotB - v/ymax*plotH }
+	for i := 0; i < n; i++ {
+		k, d := h.kept[i], h.dropped[i]
+		lo, hi := float64(i)*h.width, float64(i+1)*h.width
+		b := histBar{Lo: exact(lo), Hi: exact(hi), Kept: k, Dropped: d, X: c.PlotL + float64(i)*bw + 0.5, W: max(bw-1, 0.5),
+			HasKept: k > 0, HasDro: d > 0,
+			Label: fmt.Sprintf("scores %s to %s: %d kept, %d not kept", short(lo), short(hi), k, d)}
+		b.KeptY, b.KeptH = y(float64(k)), c.PlotB-y(float64(k))
+		b.DropY, b.DropH = y(float64(k+d)), y(float64(k))-y(float64(k+d))
+		c.Bars = append(c.Bars, b)
+	}
+	for v := 0.0; v <= ymax+step/2; v += step {
+		c.YTicks = append(c.YTicks, tick{y(v), strconv.FormatFloat(v, 'f', -1, 64)})
+	}
+	every := max(1, (n+7)/8)
+	for i := 0; i <= n; i += every {
+		c.XTicks = append(c.XTicks, tick{c.PlotL + float64(i)*bw, short(float64(i) * h.width)})
+	}
+	if rep.CutRank > 0 && rep.CutScore > 0 {
+		c.HasCut = true
+		c.CutScore = exact(rep.CutScore)
+		c.CutX = c.PlotL + rep.CutScore/(float64(n)*h.width)*plotW
+		c.CutLabel = fmt.Sprintf("cut: score %s, rank %d", short(rep.CutScore), rep.CutRank)
+		c.CutAnchor = "start"
+		if c.CutX > c.PlotL+plotW*0.6 {
+			c.CutAnchor = "end"
+		}
+	}
+	return c
+}
+
+// niceStep rounds v up to 1, 2 or 5 times a power of ten.
+func niceStep(v float64) float64 {
+	if v <= 1 {
+		return 1
+	}
+	p := math.Pow(10, math.Floor(math.Log10(v)))
+	for _, m := range []float64{1, 2, 5, 10} {
+		if m*p >= v {
+			return m * p
+		}
+	}
+	return 10 * p
+}
+
+type ledgerSeg struct {
+	Kind, Name string
+	FLOPs      string // exact, for data attributes
+	Text       string // for people
+	X, W       float64
+	LegendX    float64
+}
+
+type ledgerBar struct {
+	W                               int
+	Budget, Selection, Training     string
+	Left, Total                     string
+	BudgetText, TotalText, TotalPct string
+	Segs                            []ledgerSeg
+}
+
+func newLedgerBar(l run.Ledger) ledgerBar {
+	lb := ledgerBar{W: chartW, Budget: exact(l.Budget), Selection: exact(l.Selection), Training: exact(l.Training),
+		Left: exact(l.Left), Total: exact(l.Total), BudgetText: budget.FormatFLOPs(l.Budget), TotalText: budget.FormatFLOPs(l.Total), TotalPct: pct(l.Total, l.Budget)}
+	parts := []struct {
+		kind, name string
+		v          float64
+	}{{"sel", "selection", l.Selection}, {"train", "training", l.Training}, {"left", "left", max(l.Left, 0)}}
+	// Widths are to scale, except that a part too small to see gets minW units, taken from the
+	// widest part, so it can be found; its number says how small it is.
+	const minW = 4
+	ws := make([]float64, len(parts))
+	widest := 0
+	var sum, raised float64
+	for i, p := range parts {
+		sum += p.v
+		if p.v > parts[widest].v {
+			widest = i
+		}
+	}
+	for i, p := range parts {
+		if sum > 0 {
+			ws[i] = p.v / sum * chartW
+		}
+		if p.v > 0 && ws[i] < minW {
+			raised += minW - ws[i]
+			ws[i] = minW
+		}
+	}
+	ws[widest] = max(ws[widest]-raised, 0)
+	x := 0.0
+	for i, p := range parts {
+		lb.Segs = append(lb.Segs, ledgerSeg{Kind: p.kind, Name: p.name, FLOPs: exact(p.v), X: x, W: ws[i], LegendX: float64(i) * chartW / 3,
+			Text: fmt.Sprintf("%s FLOPs (%s)", budget.FormatFLOPs(p.v), pct(p.v, l.Budget))})
+		x += ws[i]
+	}
+	return lb
+}
+
+type barItem struct {
+	Label, Full string
+	Y, W        float64
+	Text        string
+	// Data attributes: for files Key is the path, A kept tokens, B pool tokens, C kept rows; for
+	// terms Key is the term, A its weight, B target rows holding it, C its document frequency.
+	Key     string
+	A, B, C string
+}
+
+type barChart struct {
+	W, H       int
+	LabelW     float64
+	BarX, MaxW float64
+	TextX      float64
+	Items      []barItem
+}
+
+func newBarChart(n int) barChart {
+	return barChart{W: chartW, H: max(n, 1)*barRowH + 4, LabelW: barLabel, BarX: barLabel + 8, MaxW: chartW - barLabel - 16 - barText, TextX: chartW - barText}
+}
+
+func fileChart(ix *index.Index, keptTok, poolTok []int64, keptRows []int, show int) (barChart, string) {
+	srcs := ix.Meta().Sources
+	order := make([]int, len(srcs))
+	for i := range order {
+		order[i] = i
+	}
+	sort.SliceStable(order, func(i, j int) bool { return keptTok[order[i]] > keptTok[order[j]] })
+	var other string
+	if len(order) > show {
+		var k, p int64
+		for _, i := range order[show:] {
+			k += keptTok[i]
+			p += poolTok[i]
+		}
+		other = fmt.Sprintf("%d more pool files: %s of their %s tokens kept", len(order)-show, groupDigits(k), groupDigits(p))
+		order = order[:show]
+	}
+	c := newBarChart(len(order))
+	var top int64
+	for _, i := range order {
+		top = max(top, keptTok[i])
+	}
+	for n, i := range order {
+		w := 0.0
+		if top > 0 {
+			w = float64(keptTok[i]) / float64(top) * c.MaxW
+		}
+		name := clean(srcs[i].Path)
+		c.Items = append(c.Items, barItem{Label: shortenLeft(name, 34), Full: name, Y: float64(n * barRowH), W: w,
+			Text: fmt.Sprintf("%s of %s tokens (%s), %d rows", groupDigits(keptTok[i]), groupDigits(poolTok[i]), pct(float64(keptTok[i]), float64(poolTok[i])), keptRows[i]),
+			Key:  name, A: strconv.FormatInt(keptTok[i], 10), B: strconv.FormatInt(poolTok[i], 10), C: strconv.Itoa(keptRows[i])})
+	}
+	return c, other
+}
+
+// termChart weighs each target term as the summed query does: the number of target rows holding
+// it times its idf over the pool, with the idf of the run's method.
+func termChart(ix *index.Index, m *run.Manifest, targets []index.Target, show int) (barChart, string, int) {
+	rows := map[string]int{}
+	for _, t := range targets {
+		seen := map[string]bool{}
+		for _, term := range t.Terms {
+			if !seen[term] {
+				seen[term] = true
+				rows[term]++
+			}
+		}
+	}
+	type tw struct {
+		term     string
+		rows, df int
+		w        float64
+	}
+	n := ix.NumRows()
+	var all []tw
+	absent := 0
+	for term, r := range rows {
+		df := ix.DF(term)
+		if df == 0 {
+			absent++
+			continue
+		}
+		idf := math.Log1p((float64(n-df) + 0.5) / (float64(df) + 0.5)) // BM25, Robertson and Zaragoza (2009)
+		if m.Settings.Method == "tfidf" {
+			idf = math.Log(float64(1+n)/float64(1+df)) + 1 // smooth idf, as scikit-learn's TfidfVectorizer
+		}
+		all = append(all, tw{term, r, df, float64(r) * idf})
+	}
+	sort.Slice(all, func(i, j int) bool {
+		if all[i].w != all[j].w {
+			return all[i].w > all[j].w
+		}
+		return all[i].term < all[j].term
+	})
+	note := fmt.Sprintf("%d distinct terms in %d target rows", len(rows), len(targets))
+	if absent > 0 {
+		note += fmt.Sprintf("; %d of them occur nowhere in the pool and add nothing to any score", absent)
+	}
+	all = all[:min(show, len(all))]
+	c := newBarChart(len(all))
+	for i, t := range all {
+		name := clean(t.term)
+		c.Items = append(c.Items, barItem{Label: shortenLeft(name, 34), Full: name, Y: float64(i * barRowH), W: t.w / all[0].w * c.MaxW,
+			Text: fmt.Sprintf("weight %.4g · in %d of %d target rows · df %s", t.w, t.rows, len(targets), groupDigits(int64(t.df))),
+			Key:  name, A: exact(t.w), B: strconv.Itoa(t.rows), C: strconv.Itoa(t.df)})
+	}
+	return c, note, len(targets)
+}
+
+type partView struct {
+	Term, TF, DF, IDF, TFPart, Weight, Contribution string
+	BarW                                            float64
+}
+
+type sampleView struct {
+	ID, Source, Score, Rank, Fate, Tokens, Ledger string
+	Kept                                          bool
+	Text                                          string
+	TextCut                                       bool
+	Parts                                         []partView
+	MoreParts                                     string
+	Targets                                       []audit.Target
+}
+
+// sampleParts is how many of a sample row's terms are listed, largest contribution first.
+const sampleParts = 8
+
+// sampleTextBytes caps the row text shown for a sample row.
+const sampleTextBytes = 700
+
+// explainSample explains each sample row for the page, with its text.
+func explainSample(x *audit.Explainer, rows []sampleRow) ([]sampleView, error) {
+	var out []sampleView
+	for _, sr := range rows {
+		r := sr.score
+		w, err := x.Explain(r, 3)
+		if err != nil {
+			return nil, err
+		}
+		v := sampleView{ID: clean(w.ID), Source: clean(w.Source), Score: strconv.FormatFloat(w.Score, 'g', 6, 64), Rank: strconv.Itoa(w.Rank),
+			Fate: clean(w.Why), Kept: w.Kept, Tokens: strconv.FormatInt(w.Tokens, 10), Ledger: budget.FormatFLOPs(w.Ledger)}
+		parts := slices.Clone(w.Parts)
+		sort.SliceStable(parts, func(i, j int) bool { return parts[i].Contribution > parts[j].Contribution })
+		var rest, top float64
+		if len(parts) > 0 {
+			top = parts[0].Contribution
+		}
+		for i, p := range parts {
+			if i >= sampleParts {
+				rest += p.Contribution
+				continue
+			}
+			bw := 0.0
+			if top > 0 {
+				bw = p.Contribution / top * 80
+			}
+			v.Parts = append(v.Parts, partView{Term: clean(p.Term), TF: strconv.Itoa(p.TF), DF: strconv.Itoa(p.DF), IDF: fmt.Sprintf("%.3f", p.IDF),
+				TFPart: fmt.Sprintf("%.3f", p.TFPart), Weight: fmt.Sprintf("%.4g", p.QueryWeight), Contribution: fmt.Sprintf("%.4g", p.Contribution), BarW: bw})
+		}
+		if len(parts) > sampleParts {
+			v.MoreParts = fmt.Sprintf("%d more terms add %.4g", len(parts)-sampleParts, rest)
+		}
+		for _, t := range w.Targets {
+			t.ID = clean(t.ID)
+			for i := range t.Shared {
+				t.Shared[i] = clean(t.Shared[i])
+			}
+			v.Targets = append(v.Targets, t)
+		}
+		var buf bytes.Buffer
+		if err := x.Index().CopyRows(&buf, []int{r.Row}); err != nil {
+			v.Text = "(the row's text could not be read: " + clean(err.Error()) + ")"
+		} else {
+			t := bytes.TrimRight(buf.Bytes(), "\r\n")
+			if len(t) > sampleTextBytes {
+				cut := sampleTextBytes
+				for cut > 0 && !utf8.RuneStart(t[cut]) {
+					cut--
+				}
+				t, v.TextCut = t[:cut], true
+			}
+			v.Text = clean(string(t))
+		}
+		out = append(out, v)
+	}
+	return out, nil
+}
+
+// exact formats v so that it reads back to the same float64: data attributes are for checking.
+func exact(v float64) string { return strconv.FormatFloat(v, 'g', -1, 64) }
+
+// short formats v for a label.
+func short(v float64) string { return strconv.FormatFloat(v, 'g', 4, 64) }
+
+func pct(v, of float64) string {
+	if of == 0 {
+		return "-"
+	}
+	return fmt.Sprintf("%.1f%%", 100*v/of)
+}
+
+func groupDigits(v int64) string {
+	s := strconv.FormatInt(v, 10)
+	neg := strings.HasPrefix(s, "-")
+	s = strings.TrimPrefix(s, "-")
+	var b strings.Builder
+	for i, c := range s {
+		if i > 0 && (len(s)-i)%3 == 0 {
+			b.WriteByte(',')
+		}
+		b.WriteRune(c)
+	}
+	if neg {
+		return "-" + b.String()
+	}
+	return b.String()
+}
+
+// clean makes text from rows fit to show: invalid UTF-8 and control characters other than tab
+// and newline become U+FFFD, so the page stays well-formed whatever a pool holds. html/template
+// does the escaping.
+func clean(s string) string {
+	ok := utf8.ValidString(s)
+	if ok {
+		for _, r := range s {
+			if (unicode.IsControl(r) && r != '\t' && r != '\n') || r == 0xFFFE || r == 0xFFFF {
+				ok = false
+				break
+			}
+		}
+	}
+	if ok {
+		return s
+	}
+	return strings.Map(func(r rune) rune {
+		if (unicode.IsControl(r) && r != '\t' && r != '\n') || r == 0xFFFE || r == 0xFFFF {
+			return utf8.RuneError
+		}
+		return r
+	}, strings.ToValidUTF8(s, "\uFFFD"))
+}
+
+// shortenLeft keeps the end of s, where file names differ most, within n runes.
+func shortenLeft(s string, n int) string {
+	r := []rune(s)
+	if len(r) <= n {
+		return s
+	}
+	return "…" + string(r[len(r)-n+1:])
+}
+
+// WriteFile writes the page beside out and renames it into place, so a reader never sees half.
+func (rep *Page) WriteFile(out string) error {
+	var buf bytes.Buffer
+	if err := reportPage.Execute(&buf, rep); err != nil {
+		return fmt.Errorf("report: %w", err)
+	}
+	f, err := os.CreateTemp(filepath.Dir(out), "."+filepath.Base(out)+".tmp-*")
+	if err != nil {
+		return fmt.Errorf("write %s: %w", out, err)
+	}
+	_, err = f.Write(buf.Bytes())
+	if err == nil {
+		err = f.Sync()
+	}
+	if cerr := f.Close(); err == nil {
+		err = cerr
+	}
+	if err == nil {
+		err = os.Chmod(f.Name(), 0o644)
+	}
+	if err == nil {
+		err = os.Rename(f.Name(), out)
+	}
+	if err != nil {
+		os.Remove(f.Name())
+		return fmt.Errorf("write %s: %w", out, err)
+	}
+	return nil
+}
+
+var reportPage = template.Must(template.New("report").Funcs(template.FuncMap{
+	"flops":  budget.FormatFLOPs,
+	"digits": groupDigits,
+	"int":    func(v int) string { return groupDigits(int64(v)) },
+	"pct":    pct,
+	"exact":  exact,
+	"short":  short,
+	"count":  budget.FormatCount,
+	"float":  func(v int64) float64 { return float64(v) },
+	"amount": func(v float64) string {
+		if v == math.Trunc(v) && math.Abs(v) < 1e15 {
+			return groupDigits(int64(v))
+		}
+		return short(v)
+	},
+}).Parse(reportHTML))
+
+// reportHTML is written as well-formed markup (every element closed, attributes quoted) so that
+// an XML parser reads it too; inline SVG needs no namespace in HTML, so the page names no URL.
+const reportHTML = `<!DOCTYPE html>
+<html lang="en">
+<head>
+<meta charset="utf-8"/>
+<meta name="viewport" content="width=device-width, initial-scale=1"/>
+<meta http-equiv="Content-Security-Policy" content="default-src 'none'; style-src 'unsafe-inline'"/>
+<title>sluice report: {{.Run}}</title>
+<style>
+:root { --ink: #16191d; --muted: #4f5862; --rule: #d4d8dd; --panel: #f5f6f8;
+  --kept: #0b6fae; --drop: #e69f00; --sel: #c2410c; --left: #e3e6ea; }
+* { box-sizing: border-box; }
+body { margin: 0; background: #ffffff; color: var(--ink);
+  font: 15px/1.5 system-ui, -apple-system, "Segoe UI", Roboto, "Noto Sans", "DejaVu Sans", Arial, sans-serif; }
+main { max-width: 1040px; margin: 0 auto; padding: 28px 32px 48px; }
+h1 { font-size: 26px; margin: 0 0 2px; letter-spacing: -0.01em; }
+h2 { font-size: 19px; margin: 40px 0 4px; padding-top: 16px; border-top: 2px solid var(--ink); }
+h3 { font-size: 16px; margin: 26px 0 8px; }
+p.lead, p.note, figcaption { color: var(--muted); margin: 4px 0 12px; max-width: 70ch; }
+code, pre, .mono { font-family: ui-monospace, "SFMono-Regular", "DejaVu Sans Mono", Menlo, Consolas, monospace; font-size: 13px; }
+.facts { display: grid; grid-template-columns: repeat(auto-fill, minmax(180px, 1fr)); gap: 10px; margin: 20px 0 0; padding: 0; }
+.facts div { background: var(--panel); border-left: 4px solid var(--kept); padding: 8px 12px; }
+.facts dt { font-size: 12px; text-transform: uppercase; letter-spacing: 0.05em; color: var(--muted); }
+.facts dd { margin: 0; font-size: 20px; font-weight: 650; overflow-wrap: anywhere; }
+.facts dd small { display: block; font-size: 13px; font-weight: 400; color: var(--muted); }
+figure { margin: 12px 0 0; }
+svg { display: block; width: 100%; height: auto; overflow: visible; }
+svg text { font: 13px system-ui, -apple-system, "Segoe UI", Roboto, "Noto Sans", "DejaVu Sans", Arial, sans-serif; fill: var(--ink); }
+svg .small { font-size: 12px; fill: var(--muted); }
+svg .strong { font-weight: 700; }
+.kept { fill: var(--kept); } .drop { fill: var(--drop); } .sel { fill: var(--sel); } .train { fill: var(--kept); }
+.left { fill: var(--left); } .axis { stroke: var(--ink); stroke-width: 1; } .grid { stroke: var(--rule); stroke-width: 1; }
+.cut { stroke: var(--ink); stroke-width: 2; stroke-dasharray: 6 4; }
+.legend { display: flex; gap: 20px; flex-wrap: wrap; margin: 6px 0; font-size: 14px; }
+.sw { display: inline-block; width: 14px; height: 14px; vertical-align: -2px; margin-right: 6px; border: 1px solid rgba(0,0,0,0.25); }
+.sw.kept { background: var(--kept); } .sw.drop { background: var(--drop); }
+table { border-collapse: collapse; width: 100%; font-size: 13.5px; }
+th, td { text-align: left; padding: 4px 8px; border-bottom: 1px solid var(--rule); vertical-align: top; }
+th { font-weight: 600; color: var(--muted); font-size: 12.5px; }
+td.num, th.num { text-align: right; font-variant-numeric: tabular-nums; white-space: nowrap; }
+.cards { display: grid; gap: 14px; }
+.card { border: 1px solid var(--rule); border-left: 6px solid var(--kept); border-radius: 3px; padding: 12px 16px; }
+.card.dropped { border-left-color: var(--drop); }
+.card header { display: flex; flex-wrap: wrap; gap: 4px 18px; align-items: baseline; }
+.card .id { font-weight: 700; font-size: 16px; overflow-wrap: anywhere; }
+.card .meta { color: var(--muted); font-size: 13.5px; }
+.badge { font-size: 12px; font-weight: 700; padding: 1px 8px; border-radius: 10px; background: var(--kept); color: #ffffff; }
+.dropped .badge { background: var(--drop); color: var(--ink); }
+.fate { margin: 6px 0 8px; }
+pre.row { white-space: pre-wrap; overflow-wrap: anywhere; background: var(--panel); padding: 8px 10px; margin: 8px 0; max-height: 9.5em; overflow: auto; }
+.why { display: grid; grid-template-columns: minmax(0, 3fr) minmax(0, 2fr); gap: 18px; }
+@media (max-width: 760px) { .why { grid-template-columns: 1fr; } main { padding: 16px; } }
+.targets ul { margin: 0; padding-left: 18px; } .targets li { margin-bottom: 4px; }
+svg.part { display: inline-block; width: 80px; height: 10px; vertical-align: middle; }
+footer { margin-top: 44px; padding-top: 12px; border-top: 1px solid var(--rule); color: var(--muted); font-size: 13px; }
+footer ul { padding-left: 18px; }
+</style>
+</head>
+<body>
+<main>
+<h1>Run report</h1>
+<p class="lead">Run folder <code>{{.Run}}</code>, picked with {{.Method}} by sluice {{.Sluice}}.</p>
+<dl class="facts">
+<div><dt>rows kept</dt><dd data-kept-rows="{{.KeptRows}}">{{int .KeptRows}}<small>of {{int .Rows}} pool rows</small></dd></div>
+<div><dt>tokens kept</dt><dd data-kept-tokens="{{.KeptTokens}}">{{digits .KeptTokens}}<small>of {{digits .PoolTokens}} ({{pct (float .KeptTokens) (float .PoolTokens)}})</small></dd></div>
+<div><dt>budget used</dt><dd>{{.LedgerBar.TotalPct}}<small>of {{.LedgerBar.BudgetText}} FLOPs</small></dd></div>
+<div><dt>model trained</dt><dd>{{count .Settings.TrainParams}}<small>parameters, {{.Settings.Epochs}} epoch{{if ne .Settings.Epochs 1.0}}s{{end}}</small></dd></div>
+<div><dt>target rows</dt><dd>{{int .Targets}}<small>{{.Method}}</small></dd></div>
+</dl>
+<p class="note">Stopped: {{.Ledger.Stop}}.</p>
+
+<section id="scores">
+<h2>Scores and the cut</h2>
+<p class="lead">How many pool rows scored how much against the target set. Bars stack the rows kept (blue, below) on the rows not kept (orange, above); the dashed line is the score of the last row kept.</p>
+<div class="legend"><span><span class="sw kept"></span>kept</span><span><span class="sw drop"></span>not kept</span></div>
+{{with .Hist}}<figure>
+<svg id="histogram" viewBox="0 0 {{.W}} {{.H}}" role="img" aria-labelledby="hist-title" data-rows="{{$.Rows}}" data-kept-rows="{{$.KeptRows}}" data-zero-rows="{{.Zero}}" data-bin-width="{{.BinWidth}}" data-max-score="{{.Max}}"{{if .HasCut}} data-cut-score="{{.CutScore}}" data-cut-rank="{{$.CutRank}}"{{end}}>
+<title id="hist-title">Histogram of scores: {{$.Rows}} rows, {{$.KeptRows}} kept{{if .HasCut}}, cut at score {{.CutScore}}{{end}}</title>
+{{range .YTicks}}<line class="grid" x1="{{$.Hist.PlotL}}" x2="{{$.Hist.PlotR}}" y1="{{.Pos}}" y2="{{.Pos}}"></line>
+<text class="small" x="{{$.Hist.PlotL}}" dx="-8" y="{{.Pos}}" dy="4" text-anchor="end">{{.Label}}</text>
+{{end}}{{range .Bars}}<g class="bin" data-lo="{{.Lo}}" data-hi="{{.Hi}}" data-kept="{{.Kept}}" data-dropped="{{.Dropped}}"><title>{{.Label}}</title>{{if .HasKept}}<rect class="kept" x="{{.X}}" y="{{.KeptY}}" width="{{.W}}" height="{{.KeptH}}"></rect>{{end}}{{if .HasDro}}<rect class="drop" x="{{.X}}" y="{{.DropY}}" width="{{.W}}" height="{{.DropH}}"></rect>{{end}}</g>
+{{end}}<line class="axis" x1="{{.PlotL}}" x2="{{.PlotR}}" y1="{{.PlotB}}" y2="{{.PlotB}}"></line>
+{{range .XTicks}}<line class="axis" x1="{{.Pos}}" x2="{{.Pos}}" y1="{{$.Hist.PlotB}}" y2="{{$.Hist.TickB}}"></line><text class="small" x="{{.Pos}}" y="{{$.Hist.PlotB}}" dy="17" text-anchor="middle">{{.Label}}</text>
+{{end}}<text class="small" x="{{.PlotR}}" y="{{.H}}" dy="-4" text-anchor="end">score ({{$.Method}})</text>
+<text class="small" x="0" y="14">rows</text>
+{{if .HasCut}}<line class="cut" x1="{{.CutX}}" x2="{{.CutX}}" y1="{{.PlotT}}" y2="{{.PlotB}}"></line>
+<text class="strong" x="{{.CutX}}" dx="{{if eq .CutAnchor "end"}}-6{{else}}6{{end}}" y="{{.PlotT}}" dy="4" text-anchor="{{.CutAnchor}}">{{.CutLabel}}</text>{{end}}
+{{if .Empty}}<text x="{{.PlotL}}" y="120">No row shares a term with the target set.</text>{{end}}
+</svg>
+<figcaption>{{int $.Rows}} rows in {{len .Bars}} bins of width {{.BinWidth}}; {{digits .Zero}} rows scoring 0 (no term shared with the target set) are not drawn.</figcaption>
+</figure>{{end}}
+</section>
+
+<section id="ledger">
+<h2>FLOP ledger</h2>
+<p class="lead">The budget as one bar: what choosing the rows cost, what training on them will cost, and what is left. Selection is charged over the whole pool before any row is kept.</p>
+{{with .LedgerBar}}<figure>
+<svg id="ledger-bar" viewBox="0 0 {{.W}} 118" role="img" aria-labelledby="ledger-title" data-budget-flops="{{.Budget}}" data-selection-flops="{{.Selection}}" data-training-flops="{{.Training}}" data-left-flops="{{.Left}}" data-total-flops="{{.Total}}">
+<title id="ledger-title">Ledger: budget {{.BudgetText}} FLOPs, used {{.TotalText}} ({{.TotalPct}})</title>
+{{range .Segs}}<rect class="{{.Kind}}" x="{{.X}}" y="0" width="{{.W}}" height="44" data-part="{{.Name}}" data-flops="{{.FLOPs}}"><title>{{.Name}}: {{.Text}}</title></rect>
+{{end}}<rect x="0" y="0" width="{{.W}}" height="44" fill="none" stroke="#16191d" stroke-width="1"></rect>
+{{range .Segs}}<rect class="{{.Kind}}" x="{{.LegendX}}" y="62" width="14" height="14" stroke="#16191d" stroke-width="0.5"></rect>
+<text class="strong" x="{{.LegendX}}" dx="22" y="74">{{.Name}}</text>
+<text x="{{.LegendX}}" dx="22" y="94">{{.Text}}</text>
+{{end}}<text class="small" x="0" y="114">budget {{.BudgetText}} FLOPs ({{$.Settings.BudgetHow}})</text>
+</svg>
+</figure>{{end}}
+<h3>Ledger lines</h3>
+<table>
+<thead><tr><th>what</th><th>kind</th><th class="num">count</th><th class="num">FLOPs each</th><th class="num">FLOPs</th><th>formula</th></tr></thead>
+<tbody>
+{{range .Ledger.Lines}}<tr><td>{{.What}}</td><td>{{.Kind}}</td><td class="num">{{amount .Count}} {{.Unit}}</td><td class="num">{{short .UnitFLOPs}}</td><td class="num" data-flops="{{exact .FLOPs}}">{{flops .FLOPs}}</td><td class="mono">{{.Formula}}</td></tr>
+{{end}}</tbody>
+</table>
+</section>
+
+<section id="files">
+<h2>Kept tokens by pool file</h2>
+<p class="lead">Where the kept rows come from, by the file they were indexed from, largest first; the figure after each bar is the kept tokens of the file's tokens.</p>
+{{with .Files}}<figure>
+<svg id="files-chart" viewBox="0 0 {{.W}} {{.H}}" role="img" aria-label="Kept tokens by pool file">
+{{range .Items}}<g class="file" data-file="{{.Key}}" data-kept-tokens="{{.A}}" data-pool-tokens="{{.B}}" data-kept-rows="{{.C}}"><title>{{.Full}}</title>
+<text x="{{$.Files.LabelW}}" y="{{.Y}}" dy="17" text-anchor="end">{{.Label}}</text>
+<rect class="kept" x="{{$.Files.BarX}}" y="{{.Y}}" width="{{.W}}" height="18" transform="translate(0 3)"></rect>
+<text x="{{$.Files.TextX}}" y="{{.Y}}" dy="17">{{.Text}}</text></g>
+{{end}}</svg>
+</figure>{{end}}
+{{if .FilesOther}}<p class="note">{{.FilesOther}}.</p>{{end}}
+</section>
+
+<section id="terms">
+<h2>Top terms of the target set</h2>
+<p class="lead">The analysed terms that weigh most when the target set is read as one query: the number of target rows holding a term times its idf over the pool ({{if eq .Settings.Method "tfidf"}}ln((1+N)/(1+df)) + 1{{else}}ln(1 + (N − df + 0.5)/(df + 0.5)){{end}}, N = {{int .Rows}} rows).</p>
+{{with .Terms}}<figure>
+<svg id="terms-chart" viewBox="0 0 {{.W}} {{.H}}" role="img" aria-label="Top terms of the target set">
+{{range .Items}}<g class="term" data-term="{{.Key}}" data-weight="{{.A}}" data-target-rows="{{.B}}" data-df="{{.C}}"><title>{{.Full}}</title>
+<text x="{{$.Terms.LabelW}}" y="{{.Y}}" dy="17" text-anchor="end">{{.Label}}</text>
+<rect class="kept" x="{{$.Terms.BarX}}" y="{{.Y}}" width="{{.W}}" height="18" transform="translate(0 3)"></rect>
+<text x="{{$.Terms.TextX}}" y="{{.Y}}" dy="17">{{.Text}}</text></g>
+{{end}}</svg>
+</figure>{{end}}
+<p class="note">{{.TermsNote}}.</p>
+</section>
+
+<section id="sample">
+<h2>Rows at the cut</h2>
+<p class="lead">The lowest-ranked rows that were kept, and the best-ranked rows that were not, each with the terms that made its score (largest part first; all parts add up to the score) and the target rows it matched best.</p>
+<h3>Kept, just above the cut</h3>
+<div class="cards" id="sample-kept">{{range .Above}}{{template "card" .}}{{else}}<p class="note">No row was kept.</p>{{end}}</div>
+<h3>Not kept, just below the cut</h3>
+<div class="cards" id="sample-dropped">{{range .Below}}{{template "card" .}}{{else}}<p class="note">Every row with a score was kept.</p>{{end}}</div>
+</section>
+
+<footer>
+<p>Made by <code>sluice report</code> from <code>{{.Run}}</code>. The page loads nothing and runs no script; every chart figure is also in a <code>data-</code> attribute.</p>
+<p>Command: <code>{{.Command}}</code></p>
+{{if .Ledger.Notes}}<ul>{{range .Ledger.Notes}}<li>{{.}}</li>{{end}}</ul>{{end}}
+</footer>
+</main>
+</body>
+</html>
+{{define "card"}}<article class="card{{if not .Kept}} dropped{{end}}" data-id="{{.ID}}" data-rank="{{.Rank}}" data-kept="{{.Kept}}">
+<header><span class="id">{{.ID}}</span><span class="badge">{{if .Kept}}kept{{else}}not kept{{end}}</span><span class="meta">rank {{.Rank}} · score {{.Score}} · {{.Tokens}} tokens · {{.Source}}</span></header>
+<p class="fate">{{.Fate}}.</p>
+<pre class="row">{{.Text}}{{if .TextCut}} …{{end}}</pre>
+<div class="why">
+<div><table>
+<thead><tr><th>term</th><th class="num">tf</th><th class="num">df</th><th class="num">idf</th><th class="num">tf part</th><th class="num">query weight</th><th class="num">part</th><th></th></tr></thead>
+<tbody>{{range .Parts}}<tr><td>{{.Term}}</td><td class="num">{{.TF}}</td><td class="num">{{.DF}}</td><td class="num">{{.IDF}}</td><td class="num">{{.TFPart}}</td><td class="num">{{.Weight}}</td><td class="num">{{.Contribution}}</td><td><svg class="part" viewBox="0 0 80 10" aria-hidden="true"><rect class="left" x="0" y="0" width="80" height="10"></rect><rect class="{{if $.Kept}}kept{{else}}drop{{end}}" x="0" y="0" width="{{.BarW}}" height="10"></rect></svg></td></tr>
+{{end}}</tbody></table>
+{{if .MoreParts}}<p class="note">{{.MoreParts}}.</p>{{end}}</div>
+<div class="targets"><strong>Best target rows</strong>{{if .Targets}}<ul>{{range .Targets}}<li><span class="mono">{{.ID}}</span> ({{short .Score}}): {{range $i, $t := .Shared}}{{if $i}}, {{end}}{{$t}}{{end}}</li>{{end}}</ul>{{else}}<p class="note">none shares a term</p>{{end}}</div>
+</div>
+</article>
+{{end}}`

@@ -1,0 +1,196 @@
+package run
+
+import (
+	"crypto/sha256"
+	"encoding/hex"
+	"encoding/json"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"sort"
+)
+
+// The files of a run folder. The kept rows' name depends on compression: see KeptName.
+const (
+	ManifestFile = "manifest.json"
+	ScoresFile   = "scores.jsonl"
+	LedgerFile   = "ledger.json"
+	RejectedFile = "rejected.jsonl"
+)
+
+// KeptName is the kept file's name for a compression choice (none, gzip or zstd).
+func KeptName(compress string) string {
+	switch compress {
+	case "gzip":
+		return "kept.jsonl.gz"
+	case "zstd":
+		return "kept.jsonl.zst"
+	}
+	return "kept.jsonl"
+}
+
+// Manifest is what a run folder records of itself: enough to explain any of its rows again and to
+// check that nothing in it, nor the index it used, has changed since.
+type Manifest struct {
+	Sluice   string            `json:"sluice"`
+	Command  []string          `json:"command"`
+	Settings Settings          `json:"settings"`
+	Index    FileRef           `json:"index"`  // the index folder and the SHA-256 of its meta.json
+	Target   FileRef           `json:"target"` // the target file and its SHA-256
+	Files    map[string]string `json:"files"`  // SHA-256 of every other file of the run
+}
+
+// FileRef names an input of a run and the SHA-256 it had.
+type FileRef struct {
+	Path   string `json:"path"`
+	SHA256 string `json:"sha256"`
+}
+
+// Settings are a pick's settings with every default resolved.
+type Settings struct {
+	Analyzer    string  `json:"analyzer"`
+	TargetText  string  `json:"target_text"`
+	TargetID    string  `json:"target_id,omitempty"`
+	Method      string  `json:"method"`
+	Aggregate   string  `json:"aggregate"`
+	K1          float64 `json:"k1"`
+	B           float64 `json:"b"`
+	Attribute   bool    `json:"attribute"`
+	Budget      float64 `json:"budget"`
+	BudgetHow   string  `json:"budget_how"`
+	TrainParams float64 `json:"train_params"`
+	Epochs      float64 `json:"epochs"`
+	Fill        bool    `json:"fill"`
+	MaxRows     int     `json:"max_rows"`
+	MinScore    float64 `json:"min_score"`
+	Kept        string  `json:"kept"` // the kept file's name
+}
+
+// ReadManifest reads the manifest of the run folder dir.
+func ReadManifest(dir string) (*Manifest, error) {
+	b, err := os.ReadFile(filepath.Join(dir, ManifestFile))
+	if err != nil {
+		return nil, fmt.Errorf("read run %s: %w", dir, err)
+	}
+	var m Manifest
+	if err := json.Unmarshal(b, &m); err != nil {
+		return nil, fmt.Errorf("read run %s: %s: %w", dir, ManifestFile, err)
+	}
+	return &m, nil
+}
+
+// writeManifest records the hash of every file already in the working folder tmp, taking those
+// known from writing them and reading the rest, and writes the manifest there.
+func writeManifest(tmp string, m *Manifest, known map[string]string) error {
+	entries, err := os.ReadDir(tmp)
+	if err != nil {
+		return fmt.Errorf("write manifest: %w", err)
+	}
+	m.Files = map[string]string{}
+	for _, e := range entries {
+		if e.Name() == ManifestFile {
+			continue
+		}
+		if sum, ok := known[e.Name()]; ok {
+			m.Files[e.Name()] = sum
+			continue
+		}
+		if m.Files[e.Name()], err = sha256File(filepath.Join(tmp, e.Name())); err != nil {
+			return fmt.Errorf("write manifest: %w", err)
+		}
+	}
+	b, err := json.MarshalIndent(m, "", "  ")
+	if err != nil {
+		return err
+	}
+	return writeFileBytes(filepath.Join(tmp, ManifestFile), append(b, '\n'))
+}
+
+func sha256File(path string) (string, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return "", err
+	}
+	defer f.Close()
+	h := sha256.New()
+	if _, err := io.Copy(h, f); err != nil {
+		return "", fmt.Errorf("read %s: %w", path, err)
+	}
+	return hex.EncodeToString(h.Sum(nil)), nil
+}
+
+// Inputs says where a run's index and target are now, when they are no longer where its manifest
+// says (the run was copied to another machine, or made from another folder); an empty field keeps
+// the manifest's path. The hashes in the manifest are checked all the same.
+type Inputs struct{ Index, Target string }
+
+// Apply points m at the inputs' new places.
+func (in Inputs) Apply(m *Manifest) {
+	if in.Index != "" {
+		m.Index.Path = in.Index
+	}
+	if in.Target != "" {
+		m.Target.Path = in.Target
+	}
+}
+
+// CheckInputs reports whether the index and target at the manifest's paths are the ones the run
+// used: the index by its meta.json, which holds the checksum of every other index file. what names
+// the caller's work in the error ("explain", "report").
+func CheckInputs(what, dir string, m *Manifest) error {
+	got, err := sha256File(filepath.Join(m.Index.Path, "meta.json"))
+	if err != nil {
+		return fmt.Errorf("%s %s: index %s: %w (if it has moved, say where with --index)", what, dir, m.Index.Path, err)
+	}
+	if got != m.Index.SHA256 {
+		return fmt.Errorf("%s %s: index %s is not the one the run used (run 'sluice verify %s')", what, dir, m.Index.Path, dir)
+	}
+	got, err = sha256File(m.Target.Path)
+	if err != nil {
+		return fmt.Errorf("%s %s: target %s: %w (if it has moved, say where with --target)", what, dir, m.Target.Path, err)
+	}
+	if got != m.Target.SHA256 {
+		return fmt.Errorf("%s %s: target %s has changed since the run (run 'sluice verify %s')", what, dir, m.Target.Path, dir)
+	}
+	return nil
+}
+
+// Verify rechecks every hash the manifest of the run folder dir holds, and the index and target,
+// and returns what differs, one line each.
+func Verify(dir string, m *Manifest) []string {
+	var bad []string
+	names := make([]string, 0, len(m.Files))
+	for name := range m.Files {
+		names = append(names, name)
+	}
+	sort.Strings(names)
+	for _, name := range names {
+		got, err := sha256File(filepath.Join(dir, name))
+		switch {
+		case err != nil:
+			bad = append(bad, fmt.Sprintf("%s: %v", name, err))
+		case got != m.Files[name]:
+			bad = append(bad, fmt.Sprintf("%s: changed since the run (SHA-256 %s, manifest says %s)", name, got[:12], short(m.Files[name])))
+		}
+	}
+	if got, err := sha256File(filepath.Join(m.Index.Path, "meta.json")); err != nil {
+		bad = append(bad, fmt.Sprintf("index %s: %v", m.Index.Path, err))
+	} else if got != m.Index.SHA256 {
+		bad = append(bad, fmt.Sprintf("index %s: not the index the run used (meta.json SHA-256 %s, manifest says %s)", m.Index.Path, got[:12], short(m.Index.SHA256)))
+	}
+	if got, err := sha256File(m.Target.Path); err != nil {
+		bad = append(bad, fmt.Sprintf("target %s: %v", m.Target.Path, err))
+	} else if got != m.Target.SHA256 {
+		bad = append(bad, fmt.Sprintf("target %s: changed since the run", m.Target.Path))
+	}
+	return bad
+}
+
+// short is the first 12 hex digits of a hash, or all of a damaged one.
+func short(h string) string {
+	if len(h) > 12 {
+		return h[:12]
+	}
+	return h
+}

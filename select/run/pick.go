@@ -1,0 +1,273 @@
+package run
+
+import (
+	"context"
+	"fmt"
+	"os"
+	"path/filepath"
+	"strings"
+
+	"sluice/budget"
+	"sluice/index"
+	"sluice/index/atomicdir"
+	"sluice/index/jsonl"
+	"sluice/score"
+	selection "sluice/select"
+)
+
+// Options is one pick with every choice made; the zero value of an optional field takes the
+// index's setting.
+type Options struct {
+	Index      string // index folder
+	Target     string // JSONL file of target-task rows
+	TargetText string // text spec of the target rows; "" reads them as the index read the pool
+	TargetID   string // id field of the target rows; "" takes the index's
+	Analyzer   string // "" takes the index's; else the index must have been built with it
+	OtherText  bool   // a TargetText unlike the index's spec is meant
+
+	Params      score.Params
+	Budget      float64 // FLOPs for selection and training together
+	BudgetHow   string  // how the budget was given, for the ledger and manifest
+	TrainParams float64 // parameters of the model to be trained
+	Epochs      float64
+	Select      selection.Options // Budget and Fixed are set by Pick
+
+	Out      string   // run folder to write
+	Compress string   // none, gzip or zstd
+	Command  []string // the command line, for the manifest
+	Version  string   // sluice's version, for the manifest
+}
+
+// Result is what a pick did, for a summary; the run folder holds all of it and more.
+type Result struct {
+	Settings        Settings
+	Meta            index.Meta // the index's, as the pick read it
+	Rows            int        // indexed rows scored
+	Targets         int        // target rows used
+	TargetsRejected int        // target rows quarantined in the run's rejected.jsonl
+	Kept            []int      // kept rows, ascending
+	KeptTokens      int64
+	Ledger          *budget.Ledger
+	Summary         selection.Summary
+}
+
+// Reconciliation is the line every pick summary and ledger carries, so no row vanishes unseen.
+func (r *Result) Reconciliation() string {
+	return reconciliation(r.Meta, r.Targets, r.TargetsRejected)
+}
+
+func reconciliation(m index.Meta, targets, targetsRejected int) string {
+	return fmt.Sprintf("rows: read %d = indexed %d + quarantined %d; target rows: read %d = used %d + quarantined %d",
+		m.RowsRead, m.Rows, m.RowsRejected, targets+targetsRejected, targets, targetsRejected)
+}
+
+// picked is a pick in progress: what writing the run folder needs.
+type picked struct {
+	opt     *Options
+	ix      *index.Index
+	spec    string
+	tid     string
+	targets []index.Target
+	trej    []index.Reject
+	res     *score.Result
+	dec     []selection.Decision
+	tokens  []int64
+	out    Result
+}
+
+// Pick opens the index, reads and analyses the target rows, scores every indexed row, charges the
+// selection, keeps rows from the top while the ledger stays within the budget, and writes the run
+// folder opt.Out, published only when complete. Nothing is written when it fails.
+func Pick(ctx context.Context, opt Options) (*Result, error) {
+	if err := CheckOut(opt.Out); err != nil {
+		return nil, err
+	}
+	ix, err := index.Open(opt.Index)
+	if err != nil {
+		return nil, err
+	}
+	defer ix.Close()
+	p := &picked{opt: &opt, ix: ix}
+	if err := p.readTargets(); err != nil {
+		return nil, err
+	}
+	qs := make([]score.Query, len(p.targets))
+	for i, t := range p.targets {
+		qs[i] = score.Query{ID: t.ID, Terms: t.Terms}
+	}
+	if p.res, err = score.Score(ctx, corpus{ix}, qs, opt.Params); err != nil {
+		return nil, err
+	}
+	led := p.selectionLedger()
+	if err := p.keep(led); err != nil {
+		return nil, err
+	}
+	if err := p.write(); err != nil {
+		return nil, err
+	}
+	return &p.out, nil
+}
+
+// readTargets resolves the target's text spec and id field against the index's and reads the
+// target rows with the index's analyzer.
+func (p *picked) readTargets() error {
+	opt, m := p.opt, p.ix.Meta()
+	if opt.Analyzer != "" && opt.Analyzer != m.Analyzer {
+		return fmt.Errorf("index %s was built with the %s analyzer, not %s as --analyzer asks: rebuild it with --analyzer %s, or drop --analyzer to score with %s",
+			opt.Index, m.Analyzer, opt.Analyzer, opt.Analyzer, m.Analyzer)
+	}
+	an, err := p.ix.NewAnalyzer()
+	if err != nil {
+		return err
+	}
+	p.spec = opt.TargetText
+	if p.spec == "" {
+		p.spec = m.Text
+	} else if sp, err := jsonl.ParseSpec(p.spec); err == nil && sp.String() != m.Text && !opt.OtherText {
+		// Target rows read from other fields than the pool's are scored against text of another kind;
+		// that is sometimes meant (the target file has other field names), so it must be said.
+		return fmt.Errorf("--target-text %s differs from the index's text fields %s: pass --other-target-text if the target's fields really are named otherwise, or --index-settings (or no --target-text) to read it like the pool",
+			sp, m.Text)
+	}
+	p.tid = opt.TargetID
+	if p.tid == "" {
+		p.tid = m.IDField
+	}
+	p.targets, p.trej, err = index.ReadTargets(opt.Target, p.spec, p.tid, an, m.MaxRowBytes)
+	if err != nil {
+		return err
+	}
+	switch {
+	case len(p.targets) == 0 && len(p.trej) == 0:
+		return fmt.Errorf("read target %s: the target set is empty: no rows to pick for; nothing was written", opt.Target)
+	case len(p.targets) == 0:
+		return fmt.Errorf("read target %s: no usable target rows: all %d quarantined, the first at line %d: %s; nothing was written",
+			opt.Target, len(p.trej), p.trej[0].Line, p.trej[0].Reason)
+	}
+	return nil
+}
+
+// selectionLedger charges the work of choosing: analysing pool and target, and scoring.
+func (p *picked) selectionLedger() *budget.Ledger {
+	m, w, prm := p.ix.Meta(), p.res.Work, p.opt.Params
+	led := &budget.Ledger{Budget: p.opt.Budget}
+	led.AddSelection("analyse pool rows (index build)", "term", float64(m.TotalLen), budget.FLOPsPerToken,
+		fmt.Sprintf("%d FLOPs x %d pool terms", budget.FLOPsPerToken, m.TotalLen))
+	led.AddSelection("analyse target rows", "term", float64(w.TargetTokens), budget.FLOPsPerToken,
+		fmt.Sprintf("%d FLOPs x %d target terms", budget.FLOPsPerToken, w.TargetTokens))
+	led.AddSelection(fmt.Sprintf("score pool (%s, %s): postings visited", prm.Method, prm.Aggregate), "posting", float64(w.Postings), budget.FLOPsPerPosting,
+		fmt.Sprintf("%d FLOPs x %d postings in %d passes", budget.FLOPsPerPosting, w.Postings, w.Passes))
+	return led
+}
+
+// keep prices every row's training, keeps rows from the top under the budget and completes the
+// ledger.
+func (p *picked) keep(led *budget.Ledger) error {
+	opt, m := p.opt, p.ix.Meta()
+	if led.Selection() > opt.Budget {
+		// Nothing can be kept, and a run folder would show a ledger over its budget: say so instead.
+		return fmt.Errorf("the selection cost alone, %s FLOPs (%s), exceeds the budget of %s FLOPs: raise the budget; nothing was written",
+			budget.FormatFLOPs(led.Selection()), strings.Join(selectionWords(led), " + "), budget.FormatFLOPs(opt.Budget))
+	}
+	n := p.ix.NumRows()
+	costs := make([]float64, n)
+	p.tokens = make([]int64, n)
+	for r := 0; r < n; r++ {
+		t, ok, tb := p.ix.RowTokens(r)
+		if !ok {
+			t = int64(budget.EstimateTokens(int(tb)))
+		}
+		p.tokens[r] = t
+		costs[r] = budget.TrainFLOPs(opt.TrainParams, float64(t), opt.Epochs)
+	}
+	so := opt.Select
+	so.Budget, so.Fixed = opt.Budget, led.Selection()
+	dec, sum, err := selection.Pick(p.res.Scores, costs, so)
+	if err != nil {
+		return err
+	}
+	p.dec = dec
+	r := &p.out
+	for row, d := range dec {
+		if d.Kept {
+			r.Kept = append(r.Kept, row)
+			r.KeptTokens += p.tokens[row]
+		}
+	}
+	led.AddTraining(fmt.Sprintf("train %s-parameter model on kept rows", budget.FormatCount(opt.TrainParams)), "token", float64(r.KeptTokens)*opt.Epochs, 6*opt.TrainParams,
+		fmt.Sprintf("6 x %g parameters x %d tokens x %g epochs", opt.TrainParams, r.KeptTokens, opt.Epochs))
+	led.Stop = stopText(sum, opt.Select)
+	tokSrc := "UTF-8 bytes of the text fields / 4, rounded up (rule of thumb for English, common practice)"
+	if m.TokensField != "" {
+		tokSrc = fmt.Sprintf("field %q of each row", m.TokensField)
+	}
+	led.Notes = append(led.Notes,
+		"budget: "+opt.BudgetHow,
+		"tokens per row: "+tokSrc,
+		"selection cost is charged over the whole pool before any row is kept",
+		reconciliation(m, len(p.targets), len(p.trej)),
+	)
+	if m.DuplicateIDs > 0 {
+		led.Notes = append(led.Notes, fmt.Sprintf("ids: %d rows repeat an earlier row's id; scores.jsonl is in input order, so its n-th line is the n-th indexed row", m.DuplicateIDs))
+	}
+	r.Settings = p.settings()
+	r.Meta, r.Rows, r.Targets, r.TargetsRejected = m, n, len(p.targets), len(p.trej)
+	r.Ledger, r.Summary = led, sum
+	return nil
+}
+
+// settings are the pick's settings as the manifest records them.
+func (p *picked) settings() Settings {
+	o := p.opt
+	return Settings{
+		Analyzer: p.ix.Meta().Analyzer, TargetText: p.spec, TargetID: p.tid,
+		Method: o.Params.Method.String(), Aggregate: o.Params.Aggregate.String(),
+		K1: o.Params.K1, B: o.Params.B, Attribute: !o.Params.SkipBest,
+		Budget: o.Budget, BudgetHow: o.BudgetHow, TrainParams: o.TrainParams, Epochs: o.Epochs,
+		Fill: o.Select.Fill, MaxRows: o.Select.MaxRows, MinScore: o.Select.MinScore, Kept: KeptName(o.Compress),
+	}
+}
+
+// corpus lets the scorer read an index's posting lists through index cursors, a span of rows at a
+// time, when they do not all fit its memory.
+type corpus struct{ *index.Index }
+
+func (c corpus) Cursor(term string) (score.PostingCursor, error) { return c.NewCursor(term), nil }
+
+func selectionWords(l *budget.Ledger) []string {
+	var w []string
+	for _, line := range l.Lines {
+		if line.Kind == budget.KindSelection {
+			w = append(w, fmt.Sprintf("%s: %s", line.What, budget.FormatFLOPs(line.FLOPs)))
+		}
+	}
+	return w
+}
+
+// stopText says in words why the pick stopped keeping rows.
+func stopText(s selection.Summary, o selection.Options) string {
+	switch s.Stop {
+	case selection.StopBudget:
+		return fmt.Sprintf("budget: the row ranked %d did not fit in what was left", s.StopRank)
+	case selection.StopExhausted:
+		return "every row with a score was considered"
+	case selection.StopMaxRows:
+		return fmt.Sprintf("max-rows: %d rows kept", o.MaxRows)
+	case selection.StopMinScore:
+		return fmt.Sprintf("min-score: the rows from rank %d on score below %g", s.StopRank, o.MinScore)
+	case selection.StopNoMatch:
+		return fmt.Sprintf("no-match: the rows from rank %d on share no term with the target rows", s.StopRank)
+	case selection.StopFixedOverBudget:
+		return "fixed-over-budget: the selection cost alone exceeds the budget"
+	}
+	return s.Stop.String()
+}
+
+// CheckOut refuses, before any work is done, to replace anything but an earlier run folder or an
+// empty one.
+func CheckOut(dir string) error {
+	return atomicdir.CheckReplaceable(dir, func(dir string) bool {
+		_, err := os.Stat(filepath.Join(dir, LedgerFile))
+		return err == nil
+	})
+}

@@ -1,0 +1,116 @@
+package run
+
+import (
+	"bufio"
+	"encoding/json"
+	"fmt"
+	"os"
+	"path/filepath"
+
+	"sluice/budget"
+)
+
+// Ledger is ledger.json as a pick writes it (budget.Ledger's JSON form).
+type Ledger struct {
+	Budget    float64       `json:"budget"`
+	Lines     []budget.Line `json:"lines"`
+	Selection float64       `json:"selection_flops"`
+	Training  float64       `json:"training_flops"`
+	Total     float64       `json:"total_flops"`
+	Left      float64       `json:"left_flops"`
+	Stop      string        `json:"stop"`
+	Notes     []string      `json:"notes"`
+}
+
+// ReadLedger reads the ledger of the run folder dir.
+func ReadLedger(dir string) (*Ledger, error) {
+	path := filepath.Join(dir, LedgerFile)
+	b, err := os.ReadFile(path)
+	if err != nil {
+		return nil, fmt.Errorf("read run %s: %w", dir, err)
+	}
+	var l Ledger
+	if err := json.Unmarshal(b, &l); err != nil {
+		return nil, fmt.Errorf("read %s: %w", path, err)
+	}
+	return &l, nil
+}
+
+// Score is one line of scores.jsonl, with its row number: the line's place in the file from 0,
+// which is the row's place among the indexed rows.
+type Score struct {
+	Row    int     `json:"-"`
+	ID     string  `json:"id"`
+	Score  float64 `json:"score"`
+	Rank   int     `json:"rank"`
+	Kept   bool    `json:"kept"`
+	Reason string  `json:"reason,omitempty"`
+	Tokens int64   `json:"tokens"`
+	Target *string `json:"target"` // the target row that contributed most; nil when none or not asked
+	Ledger float64 `json:"ledger"`
+}
+
+// maxScoreLine bounds one line of scores.jsonl: it holds two ids, each up to what the index took.
+const maxScoreLine = 16 << 20
+
+// EachScoreLine calls fn with every line of the run's scores.jsonl and its row number. The bytes
+// are only valid during the call. An error of fn comes back with the file and line it was on.
+// Callers that need only a few fields parse them from the line themselves, so that a pass over
+// millions of rows does not decode every field.
+func EachScoreLine(dir string, fn func(row int, line []byte) error) error {
+	path := filepath.Join(dir, ScoresFile)
+	f, err := os.Open(path)
+	if err != nil {
+		return fmt.Errorf("read run %s: %w", dir, err)
+	}
+	defer f.Close()
+	sc := bufio.NewScanner(f)
+	sc.Buffer(nil, maxScoreLine)
+	for row := 0; sc.Scan(); row++ {
+		if err := fn(row, sc.Bytes()); err != nil {
+			return fmt.Errorf("read %s:%d: %w", path, row+1, err)
+		}
+	}
+	if err := sc.Err(); err != nil {
+		return fmt.Errorf("read %s: %w", path, err)
+	}
+	return nil
+}
+
+// EachScore calls fn with every line of the run's scores.jsonl, decoded.
+func EachScore(dir string, fn func(s Score) error) error {
+	return EachScoreLine(dir, func(row int, line []byte) error {
+		s := Score{Row: row}
+		if err := json.Unmarshal(line, &s); err != nil {
+			return err
+		}
+		return fn(s)
+	})
+}
+
+// FindScores reads the lines of the run's scores.jsonl whose ids are among ids, every one of them
+// when an id repeats, keyed by id.
+func FindScores(dir string, ids []string) (map[string][]Score, error) {
+	want := map[string][]Score{}
+	for _, id := range ids {
+		want[id] = nil
+	}
+	err := EachScoreLine(dir, func(row int, line []byte) error {
+		var probe struct {
+			ID string `json:"id"`
+		}
+		if err := json.Unmarshal(line, &probe); err != nil {
+			return err
+		}
+		if _, ok := want[probe.ID]; !ok {
+			return nil
+		}
+		s := Score{Row: row}
+		if err := json.Unmarshal(line, &s); err != nil {
+			return err
+		}
+		want[probe.ID] = append(want[probe.ID], s)
+		return nil
+	})
+	return want, err
+}

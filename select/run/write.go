@@ -1,0 +1,240 @@
+package run
+
+import (
+	"bufio"
+	"crypto/sha256"
+	"encoding/hex"
+	"encoding/json"
+	"fmt"
+	"io"
+	"os"
+	"path/filepath"
+	"strconv"
+	"sync"
+
+	"github.com/klauspost/compress/gzip"
+	"github.com/klauspost/compress/zstd"
+
+	"sluice/index"
+	"sluice/index/atomicdir"
+	selection "sluice/select"
+)
+
+// write writes the run folder in a working folder beside it and publishes it when complete.
+func (p *picked) write() error {
+	opt := p.opt
+	tmp, err := atomicdir.Temp(opt.Out)
+	if err != nil {
+		return err
+	}
+	ok := false
+	defer func() {
+		if !ok {
+			os.RemoveAll(tmp)
+		}
+	}()
+	// The kept rows and the scores are nearly all of a run's bytes. Each is written, hashed and
+	// synced on a goroutine of its own, so that one's wait for the disk overlaps the other's work.
+	outs := []struct {
+		name string
+		fill func(w *bufio.Writer) error
+	}{
+		{KeptName(opt.Compress), p.copyKept},
+		{ScoresFile, p.writeScores},
+		{LedgerFile, func(w *bufio.Writer) error {
+			b, err := json.MarshalIndent(p.out.Ledger, "", "  ")
+			if err != nil {
+				return err
+			}
+			_, err = w.Write(append(b, '\n'))
+			return err
+		}},
+		{RejectedFile, func(w *bufio.Writer) error {
+			enc := json.NewEncoder(w)
+			for i := range p.trej {
+				if err := enc.Encode(&p.trej[i]); err != nil {
+					return err
+				}
+			}
+			return nil
+		}},
+	}
+	sums := make([]string, len(outs))
+	errs := make([]error, len(outs))
+	var wg sync.WaitGroup
+	for i, o := range outs {
+		wg.Go(func() { sums[i], errs[i] = writeHashed(filepath.Join(tmp, o.name), o.fill) })
+	}
+	wg.Wait()
+	hashes := map[string]string{}
+	for i, o := range outs {
+		if errs[i] != nil {
+			return errs[i]
+		}
+		hashes[o.name] = sums[i]
+	}
+	if err := writeManifest(tmp, p.manifest(), hashes); err != nil {
+		return err
+	}
+	if err := atomicdir.Publish(tmp, opt.Out); err != nil {
+		return err
+	}
+	ok = true
+	return nil
+}
+
+// manifest records the pick for the run folder. The hashes of the index's meta.json and of the
+// target file tie the run to its inputs.
+func (p *picked) manifest() *Manifest {
+	opt := p.opt
+	m := &Manifest{Sluice: opt.Version, Command: opt.Command,
+		Index: FileRef{Path: opt.Index}, Target: FileRef{Path: opt.Target}, Settings: p.out.Settings}
+	m.Index.SHA256, _ = sha256File(filepath.Join(opt.Index, "meta.json"))
+	m.Target.SHA256, _ = sha256File(opt.Target)
+	return m
+}
+
+// copyKept copies the kept rows to w, compressed as asked; decompressed, the bytes are the same.
+func (p *picked) copyKept(w *bufio.Writer) error {
+	kept := p.out.Kept
+	switch p.opt.Compress {
+	case "gzip":
+		zw := gzip.NewWriter(w)
+		if err := p.ix.CopyRows(zw, kept); err != nil {
+			return err
+		}
+		return zw.Close()
+	case "zstd":
+		zw, err := zstd.NewWriter(w)
+		if err != nil {
+			return err
+		}
+		if err := p.ix.CopyRows(zw, kept); err != nil {
+			zw.Close()
+			return err
+		}
+		return zw.Close()
+	}
+	return p.ix.CopyRows(w, kept)
+}
+
+// writeFileBytes writes b to path and fsyncs it.
+func writeFileBytes(path string, b []byte) error {
+	_, err := writeHashed(path, func(w *bufio.Writer) error { _, err := w.Write(b); return err })
+	return err
+}
+
+// writeHashed creates path, lets fill write it through a buffer, then flushes and fsyncs it, and
+// returns the SHA-256 of what was written, in hex, so that a manifest need not read the file again.
+func writeHashed(path string, fill func(w *bufio.Writer) error) (string, error) {
+	f, err := os.Create(path)
+	if err != nil {
+		return "", fmt.Errorf("write %w", err)
+	}
+	h := sha256.New()
+	w := bufio.NewWriterSize(io.MultiWriter(f, h), 1<<20)
+	err = fill(w)
+	if err == nil {
+		err = w.Flush()
+	}
+	if err == nil {
+		err = f.Sync()
+	}
+	if cerr := f.Close(); err == nil {
+		err = cerr
+	}
+	if err != nil {
+		return "", fmt.Errorf("write %s: %w", path, err)
+	}
+	return hex.EncodeToString(h.Sum(nil)), nil
+}
+
+// writeScores writes one line per indexed row in input order, in the schema of Score. Scores are
+// printed with the fewest digits that read back to the same float64, so the file agrees with
+// explanations to the bit.
+func (p *picked) writeScores(w *bufio.Writer) error {
+	// Target ids and reasons repeat on many lines: quote each once.
+	targets := make([][]byte, len(p.targets))
+	for i, t := range p.targets {
+		targets[i] = AppendJSONString(nil, t.ID)
+	}
+	reasons := map[selection.Reason][]byte{}
+	var plain [256]bool // the bytes that stand in a JSON string as they are
+	for c := range plain {
+		plain[c] = jsonPlain([]byte{byte(c)})
+	}
+	var b []byte
+	for r, d := range p.dec {
+		b = append(b[:0], `{"id":`...)
+		b = appendJSONID(b, p.ix, r, &plain)
+		b = append(b, `,"score":`...)
+		b = strconv.AppendFloat(b, p.res.Scores[r], 'g', -1, 64)
+		b = append(b, `,"rank":`...)
+		b = strconv.AppendInt(b, int64(d.Rank), 10)
+		b = append(b, `,"kept":`...)
+		b = strconv.AppendBool(b, d.Kept)
+		if !d.Kept {
+			q, ok := reasons[d.Reason]
+			if !ok {
+				q = AppendJSONString(nil, d.Reason.String())
+				reasons[d.Reason] = q
+			}
+			b = append(b, `,"reason":`...)
+			b = append(b, q...)
+		}
+		b = append(b, `,"tokens":`...)
+		b = strconv.AppendInt(b, p.tokens[r], 10)
+		b = append(b, `,"target":`...)
+		if p.res.Best == nil {
+			b = append(b, "null"...) // not asked for (--attribute=false)
+		} else if t := p.res.Best[r]; t >= 0 {
+			b = append(b, targets[t]...)
+		} else {
+			b = append(b, "null"...)
+		}
+		b = append(b, `,"ledger":`...)
+		b = strconv.AppendFloat(b, d.LedgerAfter, 'g', -1, 64)
+		b = append(b, "}\n"...)
+		if _, err := w.Write(b); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// appendJSONID appends the id of row r of ix as a JSON string, quoting it in place when all its
+// bytes are plain, as ids nearly always are.
+func appendJSONID(b []byte, ix *index.Index, r int, plain *[256]bool) []byte {
+	start := len(b)
+	b = append(b, '"')
+	b = ix.AppendRowID(b, r)
+	for _, c := range b[start+1:] {
+		if !plain[c] {
+			id := string(b[start+1:])
+			return AppendJSONString(b[:start], id)
+		}
+	}
+	return append(b, '"')
+}
+
+// jsonPlain reports whether s can stand in a JSON string as it is, as encoding/json would write it.
+func jsonPlain[T string | []byte](s T) bool {
+	for i := 0; i < len(s); i++ {
+		if c := s[i]; c < 0x20 || c >= 0x7f || c == '"' || c == '\\' || c == '<' || c == '>' || c == '&' {
+			return false
+		}
+	}
+	return true
+}
+
+// AppendJSONString appends s as a JSON string, byte for byte as encoding/json writes it. Ids are
+// nearly always plain ASCII, which is copied as it is; anything else goes through encoding/json.
+func AppendJSONString(b []byte, s string) []byte {
+	if !jsonPlain(s) {
+		q, _ := json.Marshal(s)
+		return append(b, q...)
+	}
+	b = append(b, '"')
+	b = append(b, s...)
+	return append(b, '"')
+}
