@@ -1,0 +1,47 @@
+package plan
+
+import (
+	"errors"
+	"testing"
+)
+
+func TestParseCurve(t *testing.T) {
+	c, err := ParseCurve(" grad = forward+backward, 100M ,0.657,4.0", 0.421, 1e9)
+	if err != nil {
+		t.Fatal(err)
+	}
+	want := Curve{Method: "grad", Cost: "forward+backward", Passes: 3, SelectorParams: 1e8, TrainedParams: 1e9,
+		P0: 0.421, Pbar: 0.657, Lambda: 4e-9}
+	if c.Method != want.Method || c.Cost != want.Cost || c.Passes != want.Passes || c.SelectorParams != want.SelectorParams ||
+		c.TrainedParams != want.TrainedParams || c.P0 != want.P0 || c.Pbar != want.Pbar || c.Lambda != want.Lambda {
+		t.Errorf("got %+v, want %+v", c, want)
+	}
+	if p, se := c.Predict(0); p != 0.421 || se != 0 {
+		t.Errorf("Predict(0) = %v ± %v: want P0 exactly", p, se)
+	}
+}
+
+func TestParseCurveErrors(t *testing.T) {
+	tests := []struct {
+		spec string
+		want error
+	}{
+		{"a=lexical,0,0.5", ErrBadCurve},
+		{"=lexical,0,0.5,1", ErrBadCurve},
+		{"lexical,0,0.5,1", ErrBadCurve},
+		{"a=forward,0,0.5,1", ErrBadCurve},
+		{"a=lexical,0,NaN,1", ErrBadCurve},
+		{"a=lexical,0,0.5,0", ErrBadCurve},
+		{"a=lexical,0,0.5,-1", ErrBadCurve},
+		{"a=lexical,0,0.5,Inf", ErrBadCurve},
+		{"a=sideways,0,0.5,1", ErrBadPilots},
+	}
+	for _, tt := range tests {
+		if _, err := ParseCurve(tt.spec, 0.4, 1e9); !errors.Is(err, tt.want) {
+			t.Errorf("ParseCurve(%q) = %v, want %v", tt.spec, err, tt.want)
+		}
+	}
+	if _, err := ParseCurve("a=forward,lots,0.5,1", 0.4, 1e9); err == nil {
+		t.Error("selector size lots accepted")
+	}
+}

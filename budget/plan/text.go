@@ -1,0 +1,140 @@
+package plan
+
+import (
+	"fmt"
+	"io"
+	"strconv"
+	"strings"
+
+	"sluice/budget"
+)
+
+// WriteText writes p for people: the fits, the table of budgets, the
+// changes of best method, the selector size ratios and, when p.Asked is set,
+// the answer at that budget. It leaves out p.Notes, which go last, after
+// whatever the caller adds about the asked budget (a command to run, say).
+func (p *Plan) WriteText(w io.Writer) error {
+	var b strings.Builder
+	p.writeFits(&b)
+	p.writeTable(&b)
+	if len(p.Changes) > 0 {
+		fmt.Fprintf(&b, "\nbest method changes:\n")
+		for _, ch := range p.Changes {
+			from := ch.From
+			if from == "" {
+				from = "none affordable"
+			}
+			fmt.Fprintf(&b, "  at %s FLOPs: %s -> %s\n", budget.FormatFLOPs(ch.Budget), from, ch.To)
+		}
+	}
+	p.writeRatios(&b)
+	if s := p.Asked; s != nil {
+		writeAsked(&b, s)
+	}
+	_, err := io.WriteString(w, b.String())
+	return err
+}
+
+func (p *Plan) writeFits(b *strings.Builder) {
+	fmt.Fprintf(b, "fits (P(k) = P̄ - (P̄ - P0)·exp(-λ·k), k in tokens; ± one standard error):\n")
+	fmt.Fprintf(b, "  %-14s %-17s %8s  %-17s %-17s %-21s %6s\n", "method", "cost", "selector", "P0", "Pbar", "lambda per 1B tok", "R2")
+	for _, c := range p.Curves {
+		fmt.Fprintf(b, "  %-14s %-17s %8s  %-17s %-17s %-21s %6.4f\n", c.Method, c.Cost, budget.FormatCount(c.SelectorParams),
+			metric(c.P0)+" ± "+metric(c.P0SE), metric(c.Pbar)+" ± "+metric(c.PbarSE),
+			strconv.FormatFloat(c.Lambda*1e9, 'f', 3, 64)+" ± "+strconv.FormatFloat(c.LambdaSE*1e9, 'f', 3, 64), c.R2)
+	}
+}
+
+// writeTable writes a row per budget of the grid: the best method, its
+// tokens and band, and every method's prediction where it affords training.
+func (p *Plan) writeTable(b *strings.Builder) {
+	fmt.Fprintf(b, "\nplan for a %s-parameter model, %s pool tokens, %g epoch(s); predicted metric per method\n",
+		budget.FormatCount(p.Config.TrainParams), budget.FormatCount(p.Config.PoolTokens), p.Config.Epochs)
+	fmt.Fprintf(b, "  %-10s  %-14s %9s  %-13s", "budget", "best", "tokens", "P ±2 SE")
+	for _, c := range p.Curves {
+		fmt.Fprintf(b, " %10.10s", c.Method)
+	}
+	b.WriteString("\n")
+	for _, s := range p.Steps {
+		bestName, tok, pr := "none", "-", "-"
+		if o, ok := s.best(); ok {
+			bestName, tok = o.Method, budget.FormatCount(o.Tokens)
+			pr = fmt.Sprintf("%.3f-%.3f", o.Low, o.High)
+		}
+		fmt.Fprintf(b, "  %-10s  %-14s %9s  %-13s", budget.FormatFLOPs(s.Budget), bestName, tok, pr)
+		for _, o := range s.Options {
+			v := "-"
+			if o.Affordable {
+				v = metric(o.P)
+			}
+			fmt.Fprintf(b, " %10s", v)
+		}
+		b.WriteString("\n")
+	}
+}
+
+// best is the option of the best method, false when none is affordable.
+func (s *Step) best() (Option, bool) {
+	for _, o := range s.Options {
+		if o.Method == s.Best && s.Best != "" {
+			return o, true
+		}
+	}
+	return Option{}, false
+}
+
+// writeRatios shows, at a few budgets, how small each model-based selector would have to be to match
+// the cheapest method, as trained/selector parameters; "now" is what the pilots' selectors have.
+func (p *Plan) writeRatios(b *strings.Builder) {
+	var model []int
+	for i, c := range p.Curves {
+		if c.Passes > 0 {
+			model = append(model, i)
+		}
+	}
+	if len(model) == 0 || len(p.Steps) == 0 {
+		return
+	}
+	base := p.Curves[cheapest(p.Curves, p.Config)].Method
+	fmt.Fprintf(b, "\ntrained/selector size ratio at and above which a method matches %s (its curve held fixed):\n", base)
+	fmt.Fprintf(b, "  %-10s ", "budget")
+	for _, i := range model {
+		if c := p.Curves[i]; c.Method != base {
+			fmt.Fprintf(b, " %20s", fmt.Sprintf("%.10s (now %.3g)", c.Method, p.Config.TrainParams/c.SelectorParams))
+		}
+	}
+	b.WriteString("\n")
+	for j, s := range p.Steps {
+		if j%6 != 0 && j != len(p.Steps)-1 {
+			continue
+		}
+		fmt.Fprintf(b, "  %-10s ", budget.FormatFLOPs(s.Budget))
+		for _, i := range model {
+			if p.Curves[i].Method == base {
+				continue
+			}
+			v := "never"
+			if r := s.Options[i].OvertakeRatio; r > 0 {
+				v = strconv.FormatFloat(r, 'g', 3, 64)
+			}
+			fmt.Fprintf(b, " %20s", v)
+		}
+		b.WriteString("\n")
+	}
+}
+
+// writeAsked says what to do with the budget asked about.
+func writeAsked(b *strings.Builder, s *Step) {
+	fmt.Fprintf(b, "\nat your budget of %s FLOPs: ", budget.FormatFLOPs(s.Budget))
+	o, ok := s.best()
+	if !ok {
+		b.WriteString("no method affords any training\n")
+		return
+	}
+	fmt.Fprintf(b, "use %s, keep %s tokens (%s FLOPs of training after %s of selection), predicted %s (%.3f-%.3f)\n",
+		o.Method, budget.FormatCount(o.Tokens), budget.FormatFLOPs(o.TrainingFLOPs), budget.FormatFLOPs(o.SelectionFLOPs), metric(o.P), o.Low, o.High)
+}
+
+// metric writes a predicted metric to four places, enough to tell methods
+// apart that differ in the third.
+func metric(v float64) string { return strconv.FormatFloat(v, 'f', 4, 64) }
