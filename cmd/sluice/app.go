@@ -61,79 +61,93 @@ selected subset narrows what the model sees, lexical scores measure overlap with
 not quality, and evaluation sets must be removed from the pool (decontaminated) before selection.
 `
 
+// dispatch runs the command named by args[0] and returns the exit status: 0 done, 1 failed, 2 a
+// mistake in the command line.
 func dispatch(ctx context.Context, args []string, e *env) int {
 	cmds := commands()
-	list := func() string {
-		var b strings.Builder
-		for _, c := range cmds {
-			fmt.Fprintf(&b, "  %-10s  %s\n", c.name(), c.summary())
-		}
-		return b.String()
-	}
 	if len(args) == 0 {
-		fmt.Fprintf(e.stderr, intro, list())
+		fmt.Fprintf(e.stderr, intro, commandList(cmds))
 		return 2
 	}
 	e.args = args
 	name := args[0]
-	if name == "help" || name == "-h" || name == "--help" {
-		if len(args) > 1 && name == "help" {
-			for _, c := range cmds {
-				if c.name() == args[1] {
-					fs := c.flags()
-					fs.SetOutput(e.stdout)
-					fs.Usage()
-					return 0
-				}
-			}
-			fmt.Fprintf(e.stderr, "sluice: no command %q\n", args[1])
-			return 2
-		}
-		fmt.Fprintf(e.stdout, intro, list())
-		return 0
-	}
-	if name == "version" || name == "--version" {
+	switch name {
+	case "help", "-h", "--help":
+		return help(cmds, args, e)
+	case "version", "--version":
 		fmt.Fprintln(e.stdout, "sluice", version())
 		return 0
 	}
 	for _, c := range cmds {
-		if c.name() != name {
-			continue
-		}
-		fs := c.flags()
-		fs.SetOutput(e.stderr)
-		for _, a := range args[1:] {
-			if a == "--" {
-				break
-			}
-			if a == "-h" || a == "--help" {
-				// Help asked for is output, on stdout, and a success.
-				fs.SetOutput(e.stdout)
-			}
-		}
-		if err := fs.Parse(args[1:]); err != nil {
-			if errors.Is(err, pflag.ErrHelp) {
-				return 0
-			}
-			fmt.Fprintf(e.stderr, "sluice %s: %v\nRun 'sluice %s --help' for usage.\n", name, err, name)
-			return 2
-		}
-		err := c.run(ctx, e, fs)
-		var ue *usageError
-		switch {
-		case err == nil:
-			return 0
-		case errors.As(err, &ue):
-			fmt.Fprintf(e.stderr, "sluice %s: %v\nRun 'sluice %s --help' for usage.\n", name, err, name)
-			return 2
-		default:
-			fmt.Fprintf(e.stderr, "sluice %s: %v\n", name, err)
-			return 1
+		if c.name() == name {
+			return runCommand(ctx, c, args[1:], e)
 		}
 	}
 	fmt.Fprintf(e.stderr, "sluice: no command %q\n\n", name)
-	fmt.Fprintf(e.stderr, intro, list())
+	fmt.Fprintf(e.stderr, intro, commandList(cmds))
 	return 2
+}
+
+func commandList(cmds []command) string {
+	var b strings.Builder
+	for _, c := range cmds {
+		fmt.Fprintf(&b, "  %-10s  %s\n", c.name(), c.summary())
+	}
+	return b.String()
+}
+
+// help prints the overview, or one command's usage, on stdout: help asked for is output.
+func help(cmds []command, args []string, e *env) int {
+	if len(args) > 1 && args[0] == "help" {
+		for _, c := range cmds {
+			if c.name() == args[1] {
+				fs := c.flags()
+				fs.SetOutput(e.stdout)
+				fs.Usage()
+				return 0
+			}
+		}
+		fmt.Fprintf(e.stderr, "sluice: no command %q\n", args[1])
+		return 2
+	}
+	fmt.Fprintf(e.stdout, intro, commandList(cmds))
+	return 0
+}
+
+// runCommand parses a command's flags and runs it, printing its error with the exit status it
+// calls for.
+func runCommand(ctx context.Context, c command, args []string, e *env) int {
+	name := c.name()
+	fs := c.flags()
+	fs.SetOutput(e.stderr)
+	for _, a := range args {
+		if a == "--" {
+			break
+		}
+		if a == "-h" || a == "--help" {
+			// Help asked for is output, on stdout, and a success.
+			fs.SetOutput(e.stdout)
+		}
+	}
+	if err := fs.Parse(args); err != nil {
+		if errors.Is(err, pflag.ErrHelp) {
+			return 0
+		}
+		fmt.Fprintf(e.stderr, "sluice %s: %v\nRun 'sluice %s --help' for usage.\n", name, err, name)
+		return 2
+	}
+	err := c.run(ctx, e, fs)
+	var ue *usageError
+	switch {
+	case err == nil:
+		return 0
+	case errors.As(err, &ue):
+		fmt.Fprintf(e.stderr, "sluice %s: %v\nRun 'sluice %s --help' for usage.\n", name, err, name)
+		return 2
+	default:
+		fmt.Fprintf(e.stderr, "sluice %s: %v\n", name, err)
+		return 1
+	}
 }
 
 // newFlags makes a GNU-style flag set whose usage shows the synopsis, the flags and examples.

@@ -2,6 +2,7 @@ package main
 
 import (
 	"bufio"
+	"bytes"
 	"context"
 	"encoding/json"
 	"errors"
@@ -14,6 +15,7 @@ import (
 
 	"sluice/cmd/sluice/demodata"
 	"sluice/index"
+	"sluice/index/atomicdir"
 	"sluice/score"
 	"sluice/select/run"
 )
@@ -35,7 +37,7 @@ func (*demoCmd) flags() *pflag.FlagSet {
 task under a small budget, and says what was kept and where the files are. The scenario is invented.`,
 		`  sluice demo
   sluice demo --out /tmp/sluice-demo --method tfidf`)
-	fs.String("out", "sluice-demo", "folder for the demo's files (made or reused)")
+	fs.String("out", "sluice-demo", "folder for the demo's files: made, or an earlier demo's replaced")
 	fs.String("method", "bm25", "scoring: bm25 or tfidf")
 	fs.String("aggregate", "sum", "over target rows: sum or max")
 	fs.BoolP("quiet", "q", false, "print nothing but errors")
@@ -55,17 +57,9 @@ func (c *demoCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 	if p.Aggregate, err = score.ParseAggregate(as); err != nil {
 		return usagef("--aggregate: %v", err)
 	}
-	if err := os.MkdirAll(out, 0o755); err != nil {
-		return fmt.Errorf("demo: %w", err)
-	}
-	pool, target := filepath.Join(out, "pool.jsonl"), filepath.Join(out, "target.jsonl")
-	for _, f := range []struct {
-		path string
-		data []byte
-	}{{pool, demodata.Pool()}, {target, demodata.Target()}} {
-		if err := os.WriteFile(f.path, f.data, 0o644); err != nil {
-			return fmt.Errorf("demo: %w", err)
-		}
+	pool, target, err := writeDemoData(out)
+	if err != nil {
+		return err
 	}
 	say := func(format string, a ...any) {
 		if !quiet {
@@ -94,20 +88,59 @@ func (c *demoCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 	de := *e
 	de.stderr = e.stdout // the demo's whole story goes to stdout
 	pr, err := pick(ctx, &de, opt, quiet)
-	if err != nil {
+	if err != nil || quiet {
 		return err
 	}
-	if quiet {
-		return nil
+	return printDemoTopics(e, pool, runDir, st.Rows, len(pr.Kept))
+}
+
+// demoFolder describes the demo's folder: the built-in pool, byte for byte, and nothing but the
+// demo's files, so that a rerun replaces only what an earlier demo wrote.
+func demoFolder() atomicdir.Kind {
+	return atomicdir.Kind{Name: "demo", Mark: "pool.jsonl",
+		IsOur: func(b []byte) bool { return bytes.Equal(b, demodata.Pool()) },
+		Holds: func(name string) bool {
+			return name == "pool.jsonl" || name == "target.jsonl" || name == "index" || name == "run"
+		}}
+}
+
+// writeDemoData writes the built-in pool and target rows into the folder out, which must be new,
+// empty or an earlier demo's.
+func writeDemoData(out string) (pool, target string, err error) {
+	if _, err := os.Stat(out); err == nil {
+		if err := atomicdir.CheckOut(out, demoFolder(), nil, index.Folder(), run.Folder()); err != nil {
+			return "", "", err
+		}
 	}
+	if err := os.MkdirAll(out, 0o755); err != nil {
+		return "", "", fmt.Errorf("demo: %w", err)
+	}
+	pool, target = filepath.Join(out, "pool.jsonl"), filepath.Join(out, "target.jsonl")
+	for _, f := range []struct {
+		path string
+		data []byte
+	}{{pool, demodata.Pool()}, {target, demodata.Target()}} {
+		if err := os.WriteFile(f.path, f.data, 0o644); err != nil {
+			return "", "", fmt.Errorf("demo: %w", err)
+		}
+	}
+	return pool, target, nil
+}
+
+// printDemoTopics says how the kept rows fall into the demo's topics, the target's first.
+func printDemoTopics(e *env, pool, runDir string, rows int64, kept int) error {
 	topics, err := topicCounts(pool, filepath.Join(runDir, "kept.jsonl"))
 	if err != nil {
 		return err
 	}
 	want := demodata.TargetTopic
-	say("\nkept rows by topic:\n")
-	var restRows, restTopics int
+	w := e.stdout
+	fmt.Fprintf(w, "\nkept rows by topic:\n")
+	var restRows, restTopics, hit int
 	for _, t := range topics {
+		if t.name == want {
+			hit = t.kept
+		}
 		if t.kept == 0 && t.name != want {
 			restRows += t.pool
 			restTopics++
@@ -117,21 +150,15 @@ func (c *demoCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 		if t.name == want {
 			mark = "   <- the target task"
 		}
-		say("  %-22s %4d of %4d rows kept (%4.1f%% of the pool)%s\n", t.name, t.kept, t.pool, 100*float64(t.pool)/float64(st.Rows), mark)
+		fmt.Fprintf(w, "  %-22s %4d of %4d rows kept (%4.1f%% of the pool)%s\n", t.name, t.kept, t.pool, 100*float64(t.pool)/float64(rows), mark)
 	}
 	if restTopics > 0 {
-		say("  %d other topics           0 of %4d rows kept\n", restTopics, restRows)
+		fmt.Fprintf(w, "  %d other topics           0 of %4d rows kept\n", restTopics, restRows)
 	}
-	if len(pr.Kept) > 0 {
-		var hit int
-		for _, t := range topics {
-			if t.name == want {
-				hit = t.kept
-			}
-		}
-		say("precision: %.1f%% of kept rows are %s\n", 100*float64(hit)/float64(len(pr.Kept)), want)
+	if kept > 0 {
+		fmt.Fprintf(w, "precision: %.1f%% of kept rows are %s\n", 100*float64(hit)/float64(kept), want)
 	}
-	say("\nfiles:\n  %s  the kept rows, byte for byte\n  %s  every row's score, rank and fate\n  %s  the FLOP ledger\n",
+	fmt.Fprintf(w, "\nfiles:\n  %s  the kept rows, byte for byte\n  %s  every row's score, rank and fate\n  %s  the FLOP ledger\n",
 		filepath.Join(runDir, "kept.jsonl"), filepath.Join(runDir, "scores.jsonl"), filepath.Join(runDir, "ledger.json"))
 	return nil
 }

@@ -51,6 +51,10 @@ before you index and train on it.`,
 	return fs
 }
 
+// maxWorkers bounds --workers: each worker holds a share of --mem and batches of its own, so a
+// mistyped count would exhaust memory before any work was done.
+const maxWorkers = 256
+
 func (c *indexCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 	out, _ := fs.GetString("out")
 	dry, _ := fs.GetBool("dry-run")
@@ -61,65 +65,16 @@ func (c *indexCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 	if len(pools) == 0 {
 		return usagef("no pool files given")
 	}
-	opt := index.Options{Command: append([]string{"sluice"}, e.args...)}
-	opt.Text, _ = fs.GetString("text")
-	opt.ID, _ = fs.GetString("id")
-	opt.Tokens, _ = fs.GetString("tokens")
-	opt.Analyzer, _ = fs.GetString("analyzer")
-	opt.Workers, _ = fs.GetInt("workers")
-	opt.Strict, _ = fs.GetBool("strict")
-	opt.DryRun = dry
-	quiet, _ := fs.GetBool("quiet")
-	if opt.Text != "" {
-		if _, err := jsonl.ParseSpec(opt.Text); err != nil {
-			return usagef("--text: %v", err)
-		}
-	}
-	if _, err := jsonl.NewExtractor(jsonl.Shapes()[0], opt.ID, ""); err != nil {
-		return usagef("--id: %v", err)
-	}
-	if _, err := jsonl.NewExtractor(jsonl.Shapes()[0], "", opt.Tokens); err != nil {
-		return usagef("--tokens: %v", err)
-	}
-	if _, err := analysis.New(opt.Analyzer); err != nil {
-		return usagef("--analyzer: %v", err)
-	}
-	memS, _ := fs.GetString("mem")
-	mem, err := budget.ParseSize(memS)
+	opt, err := indexOptions(fs)
 	if err != nil {
-		return usagef("--mem: %v", err)
+		return err
 	}
-	if mem < 16<<20 {
-		return usagef("--mem %s: at least 16MiB is needed", memS)
+	opt.Command = append([]string{"sluice"}, e.args...)
+	total, err := poolBytes(pools)
+	if err != nil {
+		return err
 	}
-	opt.Mem = mem
-	mrS, _ := fs.GetString("max-row-bytes")
-	mr, err := budget.ParseSize(mrS)
-	if err != nil || mr <= 0 || mr > 1<<31 {
-		return usagef("--max-row-bytes %q: give a size from 1 byte to 2GiB", mrS)
-	}
-	opt.MaxRowBytes = int(mr)
-	if opt.Workers < 0 {
-		return usagef("--workers %d: must be 0 or more", opt.Workers)
-	}
-	var total int64
-	for _, p := range pools {
-		if p == "-" {
-			continue
-		}
-		fi, err := os.Stat(p)
-		if err != nil {
-			var pe *os.PathError
-			if errors.As(err, &pe) {
-				err = pe.Err
-			}
-			return fmt.Errorf("read %s: %w", p, err)
-		}
-		if fi.IsDir() {
-			return fmt.Errorf("read %s: is a folder, not a JSONL file", p)
-		}
-		total += fi.Size()
-	}
+	quiet, _ := fs.GetBool("quiet")
 	bar := newProgress(e, quiet, total, "indexing")
 	opt.Progress = bar.add
 	st, err := index.Build(ctx, out, pools, opt)
@@ -134,6 +89,75 @@ func (c *indexCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 		printIndexSummary(e, out, st)
 	}
 	return nil
+}
+
+// indexOptions resolves the index's flags, refusing any mistake before work starts.
+func indexOptions(fs *pflag.FlagSet) (index.Options, error) {
+	var opt index.Options
+	opt.Text, _ = fs.GetString("text")
+	opt.ID, _ = fs.GetString("id")
+	opt.Tokens, _ = fs.GetString("tokens")
+	opt.Analyzer, _ = fs.GetString("analyzer")
+	opt.Workers, _ = fs.GetInt("workers")
+	opt.Strict, _ = fs.GetBool("strict")
+	opt.DryRun, _ = fs.GetBool("dry-run")
+	if opt.Text != "" {
+		if _, err := jsonl.ParseSpec(opt.Text); err != nil {
+			return opt, usagef("--text: %v", err)
+		}
+	}
+	if _, err := jsonl.NewExtractor(jsonl.Shapes()[0], opt.ID, ""); err != nil {
+		return opt, usagef("--id: %v", err)
+	}
+	if _, err := jsonl.NewExtractor(jsonl.Shapes()[0], "", opt.Tokens); err != nil {
+		return opt, usagef("--tokens: %v", err)
+	}
+	if _, err := analysis.New(opt.Analyzer); err != nil {
+		return opt, usagef("--analyzer: %v", err)
+	}
+	memS, _ := fs.GetString("mem")
+	mem, err := budget.ParseSize(memS)
+	if err != nil {
+		return opt, usagef("--mem: %v", err)
+	}
+	if mem < 16<<20 {
+		return opt, usagef("--mem %s: at least 16MiB is needed", memS)
+	}
+	opt.Mem = mem
+	mrS, _ := fs.GetString("max-row-bytes")
+	mr, err := budget.ParseSize(mrS)
+	if err != nil || mr <= 0 || mr > 1<<31 {
+		return opt, usagef("--max-row-bytes %q: give a size from 1 byte to 2GiB", mrS)
+	}
+	opt.MaxRowBytes = int(mr)
+	if opt.Workers < 0 || opt.Workers > maxWorkers {
+		return opt, usagef("--workers %d: give 0 (one per core) to %d", opt.Workers, maxWorkers)
+	}
+	return opt, nil
+}
+
+// poolBytes is the size of the pool files, for the progress bar; it refuses a missing file or a
+// folder before any work starts.
+func poolBytes(pools []string) (int64, error) {
+	var total int64
+	for _, p := range pools {
+		if p == "-" {
+			continue
+		}
+		fi, err := os.Stat(p)
+		if err != nil {
+			var pe *os.PathError
+			if errors.As(err, &pe) {
+				err = pe.Err
+			}
+			return 0, fmt.Errorf("read %s: %w", p, err)
+		}
+		if fi.IsDir() {
+			return 0, fmt.Errorf("read %s: is a folder, not a JSONL file", p)
+		}
+		total += fi.Size()
+	}
+	return total, nil
 }
 
 func printIndexSummary(e *env, out string, st *index.Stats) {

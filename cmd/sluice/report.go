@@ -55,6 +55,9 @@ func (c *reportCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 	case o.Files < 1 || o.Files > 500:
 		return usagef("--files %d: give 1 to 500", o.Files)
 	}
+	if err := report.CheckOut(out, fs.Arg(0), o.Inputs); err != nil {
+		return err
+	}
 	rep, err := report.Build(ctx, fs.Arg(0), o)
 	if err != nil {
 		return err

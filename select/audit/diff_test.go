@@ -25,4 +25,3 @@ func TestPearsonOfRanksIsSpearman(t *testing.T) {
 		t.Errorf("rho with no spread should be NaN")
 	}
 }
-

@@ -52,4 +52,3 @@ func TestScoreHist(t *testing.T) {
 		})
 	}
 }
-

@@ -20,6 +20,7 @@ import (
 
 	"sluice/budget"
 	"sluice/index"
+	"sluice/index/atomicdir"
 	"sluice/select/audit"
 	"sluice/select/run"
 )
@@ -675,6 +676,26 @@ func shortenLeft(s string, n int) string {
 	return "…" + string(r[len(r)-n+1:])
 }
 
+// generator is the mark every page carries near its start, by which a later report knows the file
+// it would replace is a report.
+const generator = `<meta name="generator" content="sluice report"/>`
+
+// isReport reports whether the start of a file is a page this package wrote.
+func isReport(head []byte) bool {
+	return bytes.HasPrefix(head, []byte("<!DOCTYPE html>")) && bytes.Contains(head, []byte(generator))
+}
+
+// CheckOut reports, before any work is done, whether the page of the run folder dir may be written
+// to out: a new file, or an earlier report, and never the run's files, its index or its target.
+func CheckOut(out, dir string, in run.Inputs) error {
+	inputs := []string{dir}
+	if m, err := run.ReadManifest(dir); err == nil {
+		in.Apply(m)
+		inputs = append(inputs, m.Index.Path, m.Target.Path)
+	}
+	return atomicdir.CheckFile(out, "report", isReport, inputs)
+}
+
 // WriteFile writes the page beside out and renames it into place, so a reader never sees half.
 func (rep *Page) WriteFile(out string) error {
 	var buf bytes.Buffer
@@ -728,6 +749,7 @@ const reportHTML = `<!DOCTYPE html>
 <html lang="en">
 <head>
 <meta charset="utf-8"/>
+<meta name="generator" content="sluice report"/>
 <meta name="viewport" content="width=device-width, initial-scale=1"/>
 <meta http-equiv="Content-Security-Policy" content="default-src 'none'; style-src 'unsafe-inline'"/>
 <title>sluice report: {{.Run}}</title>

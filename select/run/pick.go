@@ -2,9 +2,8 @@ package run
 
 import (
 	"context"
+	"encoding/json"
 	"fmt"
-	"os"
-	"path/filepath"
 	"strings"
 
 	"sluice/budget"
@@ -72,14 +71,14 @@ type picked struct {
 	res     *score.Result
 	dec     []selection.Decision
 	tokens  []int64
-	out    Result
+	out     Result
 }
 
 // Pick opens the index, reads and analyses the target rows, scores every indexed row, charges the
 // selection, keeps rows from the top while the ledger stays within the budget, and writes the run
 // folder opt.Out, published only when complete. Nothing is written when it fails.
 func Pick(ctx context.Context, opt Options) (*Result, error) {
-	if err := CheckOut(opt.Out); err != nil {
+	if err := CheckOut(opt); err != nil {
 		return nil, err
 	}
 	ix, err := index.Open(opt.Index)
@@ -263,11 +262,30 @@ func stopText(s selection.Summary, o selection.Options) string {
 	return s.Stop.String()
 }
 
-// CheckOut refuses, before any work is done, to replace anything but an earlier run folder or an
-// empty one.
-func CheckOut(dir string) error {
-	return atomicdir.CheckReplaceable(dir, func(dir string) bool {
-		_, err := os.Stat(filepath.Join(dir, LedgerFile))
-		return err == nil
-	})
+// Folder describes the kind of folder a run is, for atomicdir's checks: a manifest that sluice wrote, and
+// nothing but a run's files.
+func Folder() atomicdir.Kind {
+	return atomicdir.Kind{Name: "run", Mark: ManifestFile,
+		IsOur: func(b []byte) bool {
+			var m struct {
+				Sluice   string   `json:"sluice"`
+				Settings Settings `json:"settings"`
+				Files    map[string]string
+			}
+			return json.Unmarshal(b, &m) == nil && m.Sluice != "" && m.Settings.Method != "" && m.Files != nil
+		},
+		Holds: func(name string) bool {
+			switch name {
+			case ManifestFile, ScoresFile, LedgerFile, RejectedFile, KeptName("none"), KeptName("gzip"), KeptName("zstd"):
+				return true
+			}
+			return false
+		}}
+}
+
+// CheckOut refuses, before any work is done, to write the run folder of opt anywhere but over
+// nothing, an empty folder or an earlier run folder holding nothing else, and to replace or hold
+// any input of the pick. A run folder may not be made inside an index or another run either.
+func CheckOut(opt Options) error {
+	return atomicdir.CheckOut(opt.Out, Folder(), []string{opt.Index, opt.Target}, index.Folder(), Folder())
 }

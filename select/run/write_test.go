@@ -14,4 +14,3 @@ func TestAppendJSONString(t *testing.T) {
 		}
 	}
 }
-
