@@ -19,6 +19,7 @@ import (
 	"github.com/valyala/fastjson"
 
 	"sluice/budget"
+	"sluice/budget/chart"
 	"sluice/index"
 	"sluice/index/atomicdir"
 	"sluice/select/audit"
@@ -320,11 +321,11 @@ func newHistChart(h *scoreHist, rep *Page) histChart {
 	for i := 0; i < n; i++ {
 		top = max(top, h.kept[i]+h.dropped[i])
 	}
-	step := niceStep(float64(top) / 4)
+	step := chart.NiceStep(float64(top) / 4)
 	ymax := math.Ceil(float64(top)/step) * step
-	plotW, plotH := c.PlotR-c.PlotL, c.PlotB-c.PlotT
+	plotW := c.PlotR - c.PlotL
 	bw := plotW / float64(n)
-	y := func(v float64) float64 { return c.PlotB - v/ymax*plotH }
+	y := chart.Linear(0, ymax).Onto(c.PlotB, c.PlotT).At
 	for i := 0; i < n; i++ {
 		k, d := h.kept[i], h.dropped[i]
 		lo, hi := float64(i)*h.width, float64(i+1)*h.width
@@ -353,20 +354,6 @@ func newHistChart(h *scoreHist, rep *Page) histChart {
 		}
 	}
 	return c
-}
-
-// niceStep rounds v up to 1, 2 or 5 times a power of ten.
-func niceStep(v float64) float64 {
-	if v <= 1 {
-		return 1
-	}
-	p := math.Pow(10, math.Floor(math.Log10(v)))
-	for _, m := range []float64{1, 2, 5, 10} {
-		if m*p >= v {
-			return m * p
-		}
-	}
-	return 10 * p
 }
 
 type ledgerSeg struct {
