@@ -1,0 +1,397 @@
+package dedup
+
+import (
+	"fmt"
+	"math"
+	"unicode/utf8"
+)
+
+// Defaults for Params.
+const (
+	DefaultShingle   = 5   // words per shingle
+	DefaultHashes    = 128 // hash functions, the signature length K
+	DefaultThreshold = 0.8 // Jaccard similarity of near duplicates
+)
+
+// Bounds on Params, to keep a mistyped number from asking for gigabytes.
+const (
+	maxShingle = 1 << 10
+	maxHashes  = 1 << 14
+)
+
+// Params configures near-duplicate detection. The zero value means the defaults. Signatures can
+// be compared only when made with the same Shingle, Hashes and Seed.
+type Params struct {
+	// Shingle is the number of words in a shingle; 0 means DefaultShingle.
+	Shingle int
+	// Hashes is the number of hash functions K, the length of a signature; 0 means DefaultHashes.
+	Hashes int
+	// Threshold is the Jaccard similarity at or above which two rows are near duplicates, in
+	// (0, 1]; 0 means DefaultThreshold.
+	Threshold float64
+	// Bands is the number b of LSH bands, which must divide Hashes; 0 means the number that
+	// ChooseBands picks for Hashes and Threshold.
+	Bands int
+	// Seed seeds the hash functions.
+	Seed uint64
+}
+
+// resolve fills in the defaults and checks p.
+func (p Params) resolve() (Params, error) {
+	if p.Shingle == 0 {
+		p.Shingle = DefaultShingle
+	}
+	if p.Hashes == 0 {
+		p.Hashes = DefaultHashes
+	}
+	if p.Threshold == 0 {
+		p.Threshold = DefaultThreshold
+	}
+	if p.Shingle < 1 || p.Shingle > maxShingle {
+		return p, fmt.Errorf("shingle of %d words: must be in [1, %d]: %w", p.Shingle, maxShingle, ErrParams)
+	}
+	if p.Hashes < 1 || p.Hashes > maxHashes {
+		return p, fmt.Errorf("%d hash functions: must be in [1, %d]: %w", p.Hashes, maxHashes, ErrParams)
+	}
+	if !(p.Threshold > 0 && p.Threshold <= 1) {
+		return p, fmt.Errorf("threshold %v: must be in (0, 1]: %w", p.Threshold, ErrParams)
+	}
+	if p.Bands == 0 {
+		b, _, err := ChooseBands(p.Hashes, p.Threshold)
+		if err != nil {
+			return p, err
+		}
+		p.Bands = b
+	}
+	if p.Bands < 1 || p.Hashes%p.Bands != 0 {
+		return p, fmt.Errorf("%d bands: must divide %d hash functions: %w", p.Bands, p.Hashes, ErrParams)
+	}
+	return p, nil
+}
+
+// ChooseBands picks the number of bands b and rows per band r, with b·r = k, for which LSH best
+// separates pairs below Jaccard similarity t from pairs at or above it. A pair of similarity s
+// becomes a candidate with probability P(s) = 1 − (1 − s^r)^b, the S-curve of Leskovec,
+// Rajaraman and Ullman, Mining of Massive Datasets, ch. 3. ChooseBands minimises the false
+// positive area ∫₀ᵗ P(s) ds plus the false negative area ∫ₜ¹ (1 − P(s)) ds, weighted equally,
+// over the divisors b of k (the smaller b on a tie).
+//
+// For k = 128 and t = 0.8 that is b = 8, r = 16, whose S-curve is steepest near
+// (1/b)^(1/r) ≈ 0.878: a pair at s = 0.8 becomes a candidate with probability 0.20, at s = 0.9
+// with 0.81, at s = 0.95 with 0.99. Equal weights suit a caller who pays for false positives as
+// much as for misses; a Detector confirms every candidate, so its false positives cost only a
+// comparison, and a caller who would rather miss fewer pairs between t and 0.9 can set more bands
+// (b = 16, r = 8 catches a pair at 0.8 with probability 0.95) in Params.Bands.
+func ChooseBands(k int, t float64) (bands, rows int, err error) {
+	if k < 1 || k > maxHashes {
+		return 0, 0, fmt.Errorf("choose bands: %d hash functions: must be in [1, %d]: %w", k, maxHashes, ErrParams)
+	}
+	if !(t > 0 && t <= 1) {
+		return 0, 0, fmt.Errorf("choose bands: threshold %v: must be in (0, 1]: %w", t, ErrParams)
+	}
+	best := math.Inf(1)
+	for b := 1; b <= k; b++ {
+		if k%b != 0 {
+			continue
+		}
+		r := k / b
+		fp, fn := bandAreas(b, r, t)
+		if fp+fn < best {
+			best, bands, rows = fp+fn, b, r
+		}
+	}
+	return bands, rows, nil
+}
+
+// bandAreas returns the false positive and false negative areas of ChooseBands by composite
+// Simpson's rule on 2,000 intervals each side of t; P is a polynomial and smooth, so that is
+// accurate to far better than the differences between neighbouring choices.
+func bandAreas(b, r int, t float64) (fp, fn float64) {
+	p := func(s float64) float64 { return 1 - math.Pow(1-math.Pow(s, float64(r)), float64(b)) }
+	fp = simpson(p, 0, t)
+	fn = simpson(func(s float64) float64 { return 1 - p(s) }, t, 1)
+	return fp, fn
+}
+
+func simpson(f func(float64) float64, lo, hi float64) float64 {
+	const n = 2000
+	if hi <= lo {
+		return 0
+	}
+	h := (hi - lo) / n
+	sum := f(lo) + f(hi)
+	for i := 1; i < n; i++ {
+		w := 2.0
+		if i%2 == 1 {
+			w = 4
+		}
+		sum += w * f(lo+float64(i)*h)
+	}
+	return sum * h / 3
+}
+
+// Signature is a MinHash signature: for each of K hash functions, the smallest value it takes
+// over a row's shingles (Broder, 1997). The share of positions where two signatures agree
+// estimates the Jaccard similarity of the two rows' shingle sets, with standard deviation
+// √(J(1−J)/K). A row without words has no shingles and every value 2³²−1.
+type Signature []uint32
+
+// Similarity estimates the Jaccard similarity of the rows behind s and o: the share of positions
+// where they agree. Signatures of different lengths, or empty ones, have similarity 0.
+func (s Signature) Similarity(o Signature) float64 {
+	if len(s) != len(o) || len(s) == 0 {
+		return 0
+	}
+	eq := 0
+	for i, v := range s {
+		if v == o[i] {
+			eq++
+		}
+	}
+	return float64(eq) / float64(len(s))
+}
+
+// noWords reports whether s is the signature of a row without words.
+func (s Signature) noWords() bool {
+	for _, v := range s {
+		if v != math.MaxUint32 {
+			return false
+		}
+	}
+	return true
+}
+
+// Word hashing is FNV-1a, 64 bits (the constants of hash/fnv), written out so that it allocates
+// nothing and can be resumed across writes.
+const (
+	fnvOffset = 14695981039346656037
+	fnvPrime  = 1099511628211
+)
+
+// batch is how many shingle hashes a Signer gathers before applying the K hash functions to them,
+// so that each running minimum stays in a register for the whole batch.
+const batch = 64
+
+// Signer makes MinHash signatures. Words are maximal runs of letters, marks and decimal digits
+// (other runes separate them), case folded as Normalize folds them. A shingle is k consecutive
+// words (Params.Shingle); a row with at least one but fewer than k words is one shingle of all
+// its words, so that short rows still have a signature (and are near duplicates only of rows of
+// the same few words). The K hash functions are h_i(x) = ⌊(a_i·x + c_i) / 2³²⌋ mod 2³² on the
+// 64-bit shingle hash x, with a_i odd and a_i, c_i drawn from Params.Seed, so equal Params give
+// equal signatures in any process.
+//
+// A Signer is reused from row to row and allocates nothing per row; it must not be shared
+// between goroutines: make one per goroutine.
+type Signer struct {
+	k    int
+	a, c []uint64
+	runes
+	word   uint64 // FNV-1a state of the current word
+	inWord bool
+	ring   []uint64 // hashes of the last k words, oldest at ring[n % k] once n ≥ k
+	n      int      // words so far in the row
+	buf    []uint64 // shingle hashes not yet applied
+	sig    []uint32
+	work   Work
+}
+
+// NewSigner returns a Signer for p.
+func NewSigner(p Params) (*Signer, error) {
+	p, err := p.resolve()
+	if err != nil {
+		return nil, fmt.Errorf("new signer: %w", err)
+	}
+	s := &Signer{
+		k:    p.Shingle,
+		a:    make([]uint64, p.Hashes),
+		c:    make([]uint64, p.Hashes),
+		ring: make([]uint64, p.Shingle),
+		buf:  make([]uint64, 0, batch),
+		sig:  make([]uint32, p.Hashes),
+	}
+	g := splitmix{p.Seed}
+	for i := range s.a {
+		s.a[i] = g.next() | 1
+		s.c[i] = g.next()
+	}
+	s.Reset()
+	return s, nil
+}
+
+// Reset drops the text written since the last Sum.
+func (s *Signer) Reset() {
+	s.npend = 0
+	s.word, s.inWord, s.n = fnvOffset, false, 0
+	s.buf = s.buf[:0]
+	for i := range s.sig {
+		s.sig[i] = math.MaxUint32
+	}
+}
+
+// Write adds p to the text of the current row, as if concatenated with what was written before:
+// write a space between parts whose words should not run together. It always returns len(p),
+// nil; it satisfies io.Writer.
+func (s *Signer) Write(p []byte) (int, error) {
+	n := len(p)
+	s.work.Bytes += int64(n)
+	p = s.feed(p, s.rune)
+	for i := 0; i < len(p); {
+		c := p[i]
+		if c >= utf8.RuneSelf {
+			if !utf8.FullRune(p[i:]) {
+				s.keep(p[i:])
+				break
+			}
+			r, raw, size := decode(p[i:])
+			s.rune(r, raw)
+			i += size
+			continue
+		}
+		i++
+		switch {
+		case 'a' <= c && c <= 'z' || '0' <= c && c <= '9':
+		case 'A' <= c && c <= 'Z':
+			c += 'a' - 'A'
+		default:
+			if s.inWord {
+				s.endWord()
+			}
+			continue
+		}
+		s.word = (s.word ^ uint64(c)) * fnvPrime
+		s.inWord = true
+	}
+	return n, nil
+}
+
+// rune handles one rune that is not ASCII, or an invalid byte (raw != 0), which separates words.
+func (s *Signer) rune(r rune, raw byte) {
+	if raw != 0 || !isWordRune(r) {
+		if s.inWord {
+			s.endWord()
+		}
+		return
+	}
+	var b [utf8.UTFMax]byte
+	for _, c := range b[:utf8.EncodeRune(b[:], fold(r))] {
+		s.word = (s.word ^ uint64(c)) * fnvPrime
+	}
+	s.inWord = true
+}
+
+func (s *Signer) endWord() {
+	s.addWord(s.word)
+	s.word, s.inWord = fnvOffset, false
+}
+
+// addWord takes the next word's hash and, once there are k words, the shingle that it ends.
+func (s *Signer) addWord(h uint64) {
+	s.ring[s.n%s.k] = h
+	s.n++
+	if s.n >= s.k {
+		s.addShingle(s.n%s.k, s.k)
+	}
+}
+
+// addShingle hashes the m words that start at ring[start] into a shingle hash.
+func (s *Signer) addShingle(start, m int) {
+	h := uint64(0x243F6A8885A308D3) // digits of π: any fixed value serves
+	for j := 0; j < m; j++ {
+		h = (h ^ s.ring[(start+j)%s.k]) * 0x9E3779B97F4A7C15
+		h ^= h >> 29
+	}
+	s.buf = append(s.buf, mix64(h^uint64(m)))
+	s.work.ShingleWords += int64(m)
+	if len(s.buf) == batch {
+		s.apply()
+	}
+}
+
+// apply applies the K hash functions to the gathered shingle hashes, four functions at a time
+// so that each shingle hash is loaded once for four (about a third faster than one at a time).
+func (s *Signer) apply() {
+	buf := s.buf
+	k := len(s.a)
+	a, c, sig := s.a[:k], s.c[:k], s.sig[:k]
+	i := 0
+	for ; i+3 < k; i += 4 {
+		a0, a1, a2, a3 := a[i], a[i+1], a[i+2], a[i+3]
+		c0, c1, c2, c3 := c[i], c[i+1], c[i+2], c[i+3]
+		m0, m1, m2, m3 := sig[i], sig[i+1], sig[i+2], sig[i+3]
+		for _, x := range buf {
+			m0 = min(m0, uint32((a0*x+c0)>>32))
+			m1 = min(m1, uint32((a1*x+c1)>>32))
+			m2 = min(m2, uint32((a2*x+c2)>>32))
+			m3 = min(m3, uint32((a3*x+c3)>>32))
+		}
+		sig[i], sig[i+1], sig[i+2], sig[i+3] = m0, m1, m2, m3
+	}
+	for ; i < k; i++ {
+		m, ai, ci := sig[i], a[i], c[i]
+		for _, x := range buf {
+			m = min(m, uint32((ai*x+ci)>>32))
+		}
+		sig[i] = m
+	}
+	s.work.MinHashes += int64(len(buf)) * int64(k)
+	s.buf = s.buf[:0]
+}
+
+// Sum appends to dst[:0] the signature of the text written since the last Sum or Reset, returns
+// it, and starts a new row. Pass the previous signature as dst to reuse its memory.
+func (s *Signer) Sum(dst Signature) Signature {
+	s.drain(s.rune, true)
+	if s.inWord {
+		s.endWord()
+	}
+	if 0 < s.n && s.n < s.k {
+		s.addShingle(0, s.n)
+	}
+	if len(s.buf) > 0 {
+		s.apply()
+	}
+	dst = append(dst[:0], s.sig...)
+	s.Reset()
+	return dst
+}
+
+// SignWords appends to dst[:0] the signature of a row given as words, which are taken as they
+// are (not case folded), and returns it. It drops any text written since the last Sum.
+func (s *Signer) SignWords(dst Signature, words []string) Signature {
+	s.Reset()
+	for _, w := range words {
+		h := uint64(fnvOffset)
+		for i := 0; i < len(w); i++ {
+			h = (h ^ uint64(w[i])) * fnvPrime
+		}
+		s.work.Bytes += int64(len(w))
+		s.addWord(h)
+	}
+	return s.Sum(dst)
+}
+
+// Work returns what the Signer has done since it was made.
+func (s *Signer) Work() Work { return s.work }
+
+// mix64 is the 64-bit finaliser of MurmurHash3 (Austin Appleby, public domain), which spreads
+// every input bit over the output.
+func mix64(x uint64) uint64 {
+	x ^= x >> 33
+	x *= 0xff51afd7ed558ccd
+	x ^= x >> 33
+	x *= 0xc4ceb9fe1a85ec53
+	x ^= x >> 33
+	return x
+}
+
+// splitmix is the SplitMix64 generator (Steele, Lea and Flood, "Fast splittable pseudorandom
+// number generators", OOPSLA 2014), used to draw hash coefficients from a seed.
+type splitmix struct{ s uint64 }
+
+func (g *splitmix) next() uint64 {
+	g.s += 0x9E3779B97F4A7C15
+	z := g.s
+	z = (z ^ (z >> 30)) * 0xBF58476D1CE4E5B9
+	z = (z ^ (z >> 27)) * 0x94D049BB133111EB
+	return z ^ (z >> 31)
+}

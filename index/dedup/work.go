@@ -1,0 +1,48 @@
+package dedup
+
+// Work counts the operations behind deduplication, so that a FLOP ledger can charge them. Each
+// count has a FLOP-equivalent weight, sluice's stated convention (an estimate of the arithmetic
+// per unit, counted from the algorithm, not measured on a machine):
+//
+//	field        one unit is                                                      FLOP-equivalents
+//	Bytes        a text byte read: decoded, classified, case folded, hashed into   4
+//	             its word (FNV-1a: one xor, one multiply)
+//	Hashed       a normalised byte fed to SHA-256 (64 rounds of about 25 32-bit   32
+//	             operations and a 48-word message schedule per 64-byte block,
+//	             our count from the definition in FIPS 180-4)
+//	ShingleWords a word hash mixed into a shingle hash (k per shingle of k words)  2
+//	MinHashes    one hash function applied to one shingle and kept if smaller:     4
+//	             multiply, add, shift, compare (K per shingle)
+//	BandValues   a signature value mixed into a band's bucket key (K per row)      2
+//	Probes       a bucket looked up or inserted (b per row)                        8
+//	Compared     a sketch byte compared while confirming a candidate (K per pair)  1
+//
+// For a row of w words (w ≥ k) and K hash functions the MinHash term, 4·K·(w − k + 1), dominates.
+type Work struct {
+	Bytes        int64
+	Hashed       int64
+	ShingleWords int64
+	MinHashes    int64
+	BandValues   int64
+	Probes       int64
+	Compared     int64
+}
+
+// FLOPs converts w to FLOP-equivalents with the weights in Work's documentation.
+func (w Work) FLOPs() float64 {
+	return 4*float64(w.Bytes) + 32*float64(w.Hashed) + 2*float64(w.ShingleWords) +
+		4*float64(w.MinHashes) + 2*float64(w.BandValues) + 8*float64(w.Probes) + float64(w.Compared)
+}
+
+// Plus returns the sum of w and v, for adding up the Work of several goroutines.
+func (w Work) Plus(v Work) Work {
+	return Work{
+		Bytes:        w.Bytes + v.Bytes,
+		Hashed:       w.Hashed + v.Hashed,
+		ShingleWords: w.ShingleWords + v.ShingleWords,
+		MinHashes:    w.MinHashes + v.MinHashes,
+		BandValues:   w.BandValues + v.BandValues,
+		Probes:       w.Probes + v.Probes,
+		Compared:     w.Compared + v.Compared,
+	}
+}
