@@ -19,6 +19,11 @@ type Options struct {
 	MaxRows       int     // most rows to keep; 0 means no limit
 	MinScore      float64 // rows scoring below this are not kept
 	KeepUnmatched bool    // allow rows with score <= 0, which share nothing with the target
+	// Barred, when not nil, holds a reason for every row that must not be kept whatever its score
+	// and cost (Kept for the others): a row that fell at an earlier stage, or has no score. Such a
+	// row is ranked like any other, stops nothing and costs nothing; its score may be NaN, and a
+	// NaN ranks after every number.
+	Barred []Reason
 }
 
 // A Reason says why a row was not kept.
@@ -26,17 +31,19 @@ type Reason uint8
 
 // Reasons, in the words String gives them in output files.
 const (
-	Kept     Reason = iota // ""
-	BelowCut               // "below-cut": ranked after the stop, not considered
-	Budget                 // "budget": considered, but its cost did not fit
-	MaxRows                // "max-rows": considered after MaxRows rows were kept
-	MinScore               // "min-score": scored below Options.MinScore
-	NoMatch                // "no-match": scored <= 0 and Options.KeepUnmatched is false
+	Kept      Reason = iota // ""
+	BelowCut                // "below-cut": ranked after the stop, not considered
+	Budget                  // "budget": considered, but its cost did not fit
+	MaxRows                 // "max-rows": considered after MaxRows rows were kept
+	MinScore                // "min-score": scored below Options.MinScore
+	NoMatch                 // "no-match": scored <= 0 and Options.KeepUnmatched is false
+	Prefilter               // "prefilter": fell at the cheap first stage of a cascade
+	Unscored                // "no-score": the scores brought in have none for it
 )
 
 var reasonNames = [...]string{
 	Kept: "", BelowCut: "below-cut", Budget: "budget", MaxRows: "max-rows",
-	MinScore: "min-score", NoMatch: "no-match",
+	MinScore: "min-score", NoMatch: "no-match", Prefilter: "prefilter", Unscored: "no-score",
 }
 
 // String returns the stable lower-case word used for r in output files; it
@@ -141,7 +148,7 @@ func Order(scores []float64) []int {
 // walk goes on. Rows after a budget or max-rows stop get BelowCut. When Fixed
 // alone exceeds Budget no row is considered and every row gets BelowCut.
 //
-// Scores must not be NaN; costs must be finite and >= 0; Budget and Fixed
+// Scores must not be NaN but for barred rows; costs must be finite and >= 0; Budget and Fixed
 // must be finite and >= 0; MaxRows must be >= 0 and MinScore not NaN.
 func Pick(scores []float64, costs []float64, opt Options) ([]Decision, Summary, error) {
 	if err := check(scores, costs, opt); err != nil {
@@ -160,6 +167,8 @@ func Pick(scores []float64, costs []float64, opt Options) ([]Decision, Summary, 
 		d := &dec[i]
 		d.Rank = r + 1
 		switch {
+		case opt.Barred != nil && opt.Barred[i] != Kept:
+			d.Reason = opt.Barred[i]
 		case byScore:
 			d.Reason = scoreReason(scores[i], opt)
 		case stopped:
@@ -218,8 +227,11 @@ func check(scores, costs []float64, opt Options) error {
 	if math.IsNaN(opt.MinScore) {
 		return fmt.Errorf("pick: min score is NaN: %w", ErrBadInput)
 	}
+	if opt.Barred != nil && len(opt.Barred) != len(scores) {
+		return fmt.Errorf("pick: %d scores but %d barred reasons: %w", len(scores), len(opt.Barred), ErrBadInput)
+	}
 	for i, s := range scores {
-		if math.IsNaN(s) {
+		if math.IsNaN(s) && (opt.Barred == nil || opt.Barred[i] == Kept) {
 			return fmt.Errorf("pick: row %d: score is NaN: %w", i, ErrBadInput)
 		}
 	}

@@ -485,3 +485,37 @@ func BenchmarkPick(b *testing.B) {
 	}
 	b.ReportMetric(float64(b.N)*n/b.Elapsed().Seconds(), "rows/s")
 }
+
+// TestBarred: a barred row is never kept, stops nothing, costs nothing, and may have no score (NaN,
+// ranked last); the others are picked as if it were not there.
+func TestBarred(t *testing.T) {
+	nan := math.NaN()
+	scores := []float64{5, 4, nan, 3, 2}
+	costs := []float64{1, 1, 1, 1, 1}
+	barred := []Reason{Kept, Prefilter, Unscored, Kept, Kept}
+	dec, sum, err := Pick(scores, costs, Options{Budget: 2, Barred: barred})
+	if err != nil {
+		t.Fatal(err)
+	}
+	want := []Decision{
+		{Rank: 1, Kept: true, LedgerAfter: 1},
+		{Rank: 2, Reason: Prefilter, LedgerAfter: 1},
+		{Rank: 5, Reason: Unscored, LedgerAfter: 2},
+		{Rank: 3, Kept: true, LedgerAfter: 2},
+		{Rank: 4, Reason: Budget, LedgerAfter: 2},
+	}
+	for i := range want {
+		if dec[i] != want[i] {
+			t.Errorf("row %d: %+v, want %+v", i, dec[i], want[i])
+		}
+	}
+	if sum.Kept != 2 || sum.Stop != StopBudget || sum.StopRank != 4 {
+		t.Errorf("summary %+v", sum)
+	}
+	if _, _, err := Pick(scores, costs, Options{Budget: 2}); !errors.Is(err, ErrBadInput) {
+		t.Errorf("a NaN score of a row not barred: %v", err)
+	}
+	if Prefilter.String() != "prefilter" || Unscored.String() != "no-score" {
+		t.Errorf("reason words %q %q", Prefilter, Unscored)
+	}
+}
