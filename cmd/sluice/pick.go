@@ -6,6 +6,7 @@ import (
 	"io"
 	"math"
 	"slices"
+	"strconv"
 	"strings"
 	"time"
 
@@ -56,9 +57,13 @@ evaluation sets from the pool before picking, or the pick will find them.`,
 	fs.Bool("index-settings", false, "take the index's text spec and analyzer whatever --target-text and --analyzer say")
 	fs.String("target-id", "", "field holding each target row's id (default: the index's id field, else file:line)")
 	fs.String("analyzer", "", "refuse an index built with another analyzer ("+strings.Join(analysis.Names(), " or ")+"; default: take the index's)")
-	fs.String("method", "bm25", "scoring: bm25 or tfidf")
+	fs.String("method", "bm25", "scoring: bm25 or tfidf (lexical, from the index), or ngram (n-gram language models)")
 	fs.String("aggregate", "sum", "over target rows: sum (the set as one query) or max (nearest target row)")
 	fs.Bool("attribute", true, "name, for every row, the target row that contributed most; with --aggregate sum\nthis costs one pass per target row, and --attribute=false skips it")
+	fs.Int("order", run.DefaultNgramOrder, "ngram: n-gram order, 3 to 5")
+	fs.String("ngram-score", "difference", "ngram: difference (target model against a pool-sample model, per token) or target (target model alone)")
+	fs.Uint64("ngram-seed", 1, "ngram: seed of the pool sample the pool model is trained on")
+	fs.String("prefilter", "", "before a model-based method, keep only the best rows by a lexical method:\nMETHOD:SHARE% (bm25:20%) or METHOD:TOKENS (tfidf:50M); the rest are never scored")
 	fs.Float64("k1", 1.2, "BM25 term-frequency saturation")
 	fs.Float64("b", 0.75, "BM25 length normalisation")
 	fs.String("budget", "", "total FLOPs for selection plus training, e.g. 2.5e18 or 400P")
@@ -136,6 +141,9 @@ func pickOptions(fs *pflag.FlagSet) (run.Options, error) {
 	if opt.Params, err = scoreParams(fs); err != nil {
 		return opt, err
 	}
+	if err := methodFlags(fs, &opt); err != nil {
+		return opt, err
+	}
 	if opt.Budget, opt.BudgetHow, err = budgetFlags(fs); err != nil {
 		return opt, err
 	}
@@ -150,8 +158,10 @@ func scoreParams(fs *pflag.FlagSet) (score.Params, error) {
 	str := func(n string) string { v, _ := fs.GetString(n); return v }
 	var err error
 	p := score.DefaultParams()
-	if p.Method, err = score.ParseMethod(str("method")); err != nil {
-		return p, usagef("--method: %v", err)
+	if m := str("method"); m != run.MethodNgram {
+		if p.Method, err = score.ParseMethod(m); err != nil {
+			return p, usagef("--method %q: give %s", m, strings.Join(run.Methods(), ", "))
+		}
 	}
 	if p.Aggregate, err = score.ParseAggregate(str("aggregate")); err != nil {
 		return p, usagef("--aggregate: %v", err)
@@ -177,6 +187,54 @@ func scoreParams(fs *pflag.FlagSet) (score.Params, error) {
 	}
 	p.CacheBytes = mem
 	return p, nil
+}
+
+// methodFlags resolves the method and the flags of the model-based methods and the cascade.
+func methodFlags(fs *pflag.FlagSet, opt *run.Options) error {
+	opt.Method, _ = fs.GetString("method")
+	opt.Ngram.Order, _ = fs.GetInt("order")
+	opt.Ngram.Seed, _ = fs.GetUint64("ngram-seed")
+	switch ns, _ := fs.GetString("ngram-score"); ns {
+	case "difference":
+	case "target":
+		opt.Ngram.TargetOnly = true
+	default:
+		return usagef("--ngram-score %q: give difference or target", ns)
+	}
+	if opt.Ngram.Order < 3 || opt.Ngram.Order > 5 {
+		return usagef("--order %d: give 3, 4 or 5", opt.Ngram.Order)
+	}
+	for _, f := range []string{"order", "ngram-score", "ngram-seed"} {
+		if fs.Changed(f) && opt.Method != run.MethodNgram {
+			return usagef("--%s is for --method ngram", f)
+		}
+	}
+	pf, _ := fs.GetString("prefilter")
+	if pf == "" {
+		return nil
+	}
+	if opt.Method == run.MethodBM25 || opt.Method == run.MethodTFIDF {
+		return usagef("--prefilter goes before a model-based method (--method ngram), not before %s", opt.Method)
+	}
+	m, amount, ok := strings.Cut(pf, ":")
+	var err error
+	if opt.Prefilter.Method, err = score.ParseMethod(m); !ok || err != nil {
+		return usagef("--prefilter %q: give METHOD:SHARE%% or METHOD:TOKENS, METHOD bm25 or tfidf", pf)
+	}
+	if share, isShare := strings.CutSuffix(amount, "%"); isShare {
+		v, err := strconv.ParseFloat(share, 64)
+		if err != nil || !(v > 0 && v <= 100) {
+			return usagef("--prefilter %q: the share must be above 0%% and at most 100%%", pf)
+		}
+		opt.Prefilter.Share = v / 100
+		return nil
+	}
+	v, err := budget.ParseCount(amount)
+	if err != nil || v < 1 || v > math.MaxInt64/2 {
+		return usagef("--prefilter %q: give a share (20%%) or a token count (50M)", pf)
+	}
+	opt.Prefilter.Tokens = int64(v)
+	return nil
 }
 
 // budgetFlags resolves --budget, or --gpu-hours with --gpu-flops and --mfu, to FLOPs and says how
@@ -237,6 +295,7 @@ func trainingFlags(fs *pflag.FlagSet, opt *run.Options) error {
 		return usagef("--max-rows %d: must be 0 or more", opt.Select.MaxRows)
 	}
 	opt.Select.MinScore, _ = fs.GetFloat64("min-score")
+	opt.MinScoreSet = fs.Changed("min-score")
 	if math.IsNaN(opt.Select.MinScore) || math.IsInf(opt.Select.MinScore, 0) {
 		return usagef("--min-score %v: must be finite", opt.Select.MinScore)
 	}
@@ -253,8 +312,8 @@ func printPickSummary(w io.Writer, opt run.Options, res *run.Result, took time.D
 		return fmt.Sprintf("%.1f%%", 100*v/l.Budget)
 	}
 	var sb strings.Builder
-	fmt.Fprintf(&sb, "picked %d of %d rows (%d tokens) with %s/%s against %d target rows in %s\n",
-		len(res.Kept), res.Rows, res.KeptTokens, opt.Params.Method, opt.Params.Aggregate, res.Targets, took.Round(time.Millisecond))
+	fmt.Fprintf(&sb, "picked %d of %d rows (%d tokens) with %s against %d target rows in %s\n",
+		len(res.Kept), res.Rows, res.KeptTokens, res.Settings.MethodName(), res.Targets, took.Round(time.Millisecond))
 	fmt.Fprintf(&sb, "  budget     %s FLOPs (%s)\n", budget.FormatFLOPs(l.Budget), opt.BudgetHow)
 	fmt.Fprintf(&sb, "  selection  %s FLOPs (%s)\n", budget.FormatFLOPs(l.Selection()), pct(l.Selection()))
 	fmt.Fprintf(&sb, "  training   %s FLOPs (%s)\n", budget.FormatFLOPs(l.Training()), pct(l.Training()))

@@ -84,6 +84,15 @@ func printWhy(w *bufio.Writer, r audit.Row) {
 		}
 		tw.Flush()
 	}
+	if len(r.Words) > 0 {
+		fmt.Fprintf(w, "  tokens  that moved the score most (part = (target - pool log-probability) / symbols)\n")
+		tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
+		fmt.Fprintf(tw, "\ttoken\tat\ttarget ln p\tn\tpool ln p\tn\tpart\t\n")
+		for _, x := range r.Words {
+			fmt.Fprintf(tw, "\t%s\t%d\t%.4f\t%d\t%.4f\t%d\t%+.5g\t\n", x.Token, x.Pos, x.Target, x.TargetOrder, x.Pool, x.PoolOrder, x.Part)
+		}
+		tw.Flush()
+	}
 	if len(r.Targets) > 0 {
 		fmt.Fprintf(w, "  best target rows\n")
 		for _, t := range r.Targets {

@@ -2,12 +2,15 @@ package audit
 
 import (
 	"context"
+	"encoding/json"
 	"fmt"
 	"math"
+	"sort"
 
 	"sluice/budget"
 	"sluice/index"
 	"sluice/score"
+	"sluice/score/ngram"
 	"sluice/select/run"
 )
 
@@ -27,9 +30,41 @@ type Row struct {
 	Ledger  float64      `json:"ledger"`
 	Budget  float64      `json:"budget"`
 	Method  string       `json:"method"`
-	Parts   []score.Part `json:"parts"`
+	Parts   []score.Part `json:"parts"`           // lexical methods: the terms that made the score
+	Words   []Word       `json:"words,omitempty"` // n-gram: the tokens that moved the score most
 	Targets []Target     `json:"targets"`
 }
+
+// MarshalJSON writes the row; a row barred before its method scored it has "score": null, as in
+// scores.jsonl.
+func (r Row) MarshalJSON() ([]byte, error) {
+	type plain Row
+	v := struct {
+		plain
+		Score *float64 `json:"score"`
+	}{plain: plain(r)}
+	if !math.IsNaN(r.Score) {
+		v.Score = &r.Score
+	}
+	return json.Marshal(v)
+}
+
+// Word is one token's share of an n-gram score: its log-probability under the target model and
+// under the pool model (natural logs), the longest n-gram each model held for it, and its part of
+// the score, which is (Target − Pool) / (tokens + 1).
+type Word struct {
+	Token       string  `json:"token"`
+	Pos         int     `json:"pos"`
+	Target      float64 `json:"target_logprob"`
+	Pool        float64 `json:"pool_logprob"`
+	TargetOrder int     `json:"target_order"`
+	PoolOrder   int     `json:"pool_order"`
+	Part        float64 `json:"part"`
+}
+
+// words is how many of a row's tokens an n-gram explanation lists, largest part (either sign)
+// first.
+const words = 12
 
 // Target is a target row that matched a pool row, with its score and the terms they share.
 type Target struct {
@@ -48,11 +83,13 @@ type Explainer struct {
 	targets []index.Target
 	qs      []score.Query
 	p       score.Params
+	nm      *run.NgramModels // for an n-gram run
+	ctx     context.Context
 }
 
 // NewExplainer opens the run folder dir and its inputs (at the manifest's paths, or where in says),
 // checking that they are the ones the run used.
-func NewExplainer(dir string, in run.Inputs) (*Explainer, error) {
+func NewExplainer(ctx context.Context, dir string, in run.Inputs) (*Explainer, error) {
 	m, err := run.ReadManifest(dir)
 	if err != nil {
 		return nil, err
@@ -61,20 +98,16 @@ func NewExplainer(dir string, in run.Inputs) (*Explainer, error) {
 	if err := run.CheckInputs("explain", dir, m); err != nil {
 		return nil, err
 	}
-	p := score.DefaultParams()
-	if p.Method, err = score.ParseMethod(m.Settings.Method); err != nil {
-		return nil, err
-	}
-	if p.Aggregate, err = score.ParseAggregate(m.Settings.Aggregate); err != nil {
-		return nil, err
-	}
-	p.K1, p.B = m.Settings.K1, m.Settings.B
 	ix, err := index.Open(m.Index.Path)
 	if err != nil {
 		return nil, err
 	}
-	x := &Explainer{dir: dir, m: m, ix: ix, p: p}
+	x := &Explainer{dir: dir, m: m, ix: ix, ctx: ctx}
 	if err := x.readTargets(); err != nil {
+		ix.Close()
+		return nil, err
+	}
+	if err := x.method(); err != nil {
 		ix.Close()
 		return nil, err
 	}
@@ -82,6 +115,30 @@ func NewExplainer(dir string, in run.Inputs) (*Explainer, error) {
 		x.stop = l.Stop
 	}
 	return x, nil
+}
+
+// method readies what explaining the run's method needs: its lexical parameters, or its n-gram
+// models trained again exactly as the pick trained them.
+func (x *Explainer) method() error {
+	st := x.m.Settings
+	if st.Method == run.MethodNgram {
+		if st.Ngram == nil {
+			return fmt.Errorf("explain %s: the manifest names the ngram method without its options", x.dir)
+		}
+		var err error
+		x.nm, err = run.TrainNgram(x.ctx, x.ix, x.targets, *st.Ngram)
+		return err
+	}
+	var err error
+	x.p = score.DefaultParams()
+	if x.p.Method, err = score.ParseMethod(st.Method); err != nil {
+		return fmt.Errorf("explain %s: %w", x.dir, err)
+	}
+	if x.p.Aggregate, err = score.ParseAggregate(st.Aggregate); err != nil {
+		return fmt.Errorf("explain %s: %w", x.dir, err)
+	}
+	x.p.K1, x.p.B = st.K1, st.B
+	return nil
 }
 
 func (x *Explainer) readTargets() error {
@@ -113,31 +170,59 @@ func (x *Explainer) Index() *index.Index { return x.ix }
 func (x *Explainer) Targets() []index.Target { return x.targets }
 
 // Explain explains the row of scores.jsonl s, showing the top best-matching target rows. The score
-// is recomputed from the index and must agree with s.Score to the last bit.
+// is recomputed from the index (and, for an n-gram run, the row's text) and must agree with
+// s.Score to the last bit.
 func (x *Explainer) Explain(s run.Score, top int) (Row, error) {
-	ex, err := score.Explain(x.ix, x.qs, x.p, s.Row, top)
-	if err != nil {
-		return Row{}, err
-	}
-	if math.Float64bits(ex.Score) != math.Float64bits(s.Score) {
-		return Row{}, fmt.Errorf("explain %s: row %q: recomputed score %v disagrees with scores.jsonl's %v", x.dir, s.ID, ex.Score, s.Score)
-	}
 	st := x.m.Settings
 	loc := x.ix.RowLocation(s.Row)
 	r := Row{ID: s.ID, Row: s.Row, Source: fmt.Sprintf("%s:%d", loc.File, loc.Line), Score: s.Score, Rank: s.Rank,
 		Rows: x.ix.NumRows(), Kept: s.Kept, Reason: s.Reason, Tokens: s.Tokens, Ledger: s.Ledger,
-		Budget: st.Budget, Method: st.Method + "/" + st.Aggregate, Parts: ex.Parts}
-	for _, tm := range ex.Targets {
-		r.Targets = append(r.Targets, Target{ID: x.targets[tm.Index].ID, Score: tm.Score, Shared: tm.Shared})
+		Budget: st.Budget, Method: st.MethodName()}
+	var got float64
+	switch {
+	case math.IsNaN(s.Score):
+		// Barred before the method scored it: nothing to recompute.
+		r.Why = fate(r, st, x.stop)
+		return r, nil
+	case x.nm != nil:
+		terms, err := run.RowTerms(x.ctx, x.ix, s.Row)
+		if err != nil {
+			return Row{}, err
+		}
+		got = x.nm.Score(terms)
+		r.Words = topWords(x.nm.Explain(terms))
+	default:
+		ex, err := score.Explain(x.ix, x.qs, x.p, s.Row, top)
+		if err != nil {
+			return Row{}, err
+		}
+		got, r.Parts = ex.Score, ex.Parts
+		for _, tm := range ex.Targets {
+			r.Targets = append(r.Targets, Target{ID: x.targets[tm.Index].ID, Score: tm.Score, Shared: tm.Shared})
+		}
+	}
+	if math.Float64bits(got) != math.Float64bits(s.Score) {
+		return Row{}, fmt.Errorf("explain %s: row %q: recomputed score %v disagrees with scores.jsonl's %v", x.dir, s.ID, got, s.Score)
 	}
 	r.Why = fate(r, st, x.stop)
 	return r, nil
 }
 
+// topWords keeps the tokens whose parts moved the score most, largest magnitude first (ties in
+// text order).
+func topWords(parts []ngram.TokenPart) []Word {
+	ws := make([]Word, len(parts))
+	for i, p := range parts {
+		ws[i] = Word{Token: p.Token, Pos: p.Pos, Target: p.Target, Pool: p.Pool, TargetOrder: p.TargetOrder, PoolOrder: p.PoolOrder, Part: p.Part}
+	}
+	sort.SliceStable(ws, func(i, j int) bool { return math.Abs(ws[i].Part) > math.Abs(ws[j].Part) })
+	return ws[:min(len(ws), words)]
+}
+
 // Explain explains the rows of the run folder dir with the given ids (every row with that id, if
 // ids repeat), showing the top best-matching target rows of each.
 func Explain(ctx context.Context, dir string, in run.Inputs, ids []string, top int) ([]Row, error) {
-	x, err := NewExplainer(dir, in)
+	x, err := NewExplainer(ctx, dir, in)
 	if err != nil {
 		return nil, err
 	}
@@ -185,6 +270,10 @@ func fate(r Row, st run.Settings, stop string) string {
 		return fmt.Sprintf("min-score: its score %g is below --min-score %g", r.Score, st.MinScore)
 	case "no-match":
 		return "no match: it shares no term with any target row"
+	case "prefilter":
+		return fmt.Sprintf("fell at the prefilter (%s): the cheap first stage did not rank it high enough to be scored by %s", st.Prefilter, st.Method)
+	case "no-score":
+		return "no score: the scores brought in have none for it"
 	}
 	return r.Reason
 }

@@ -177,14 +177,14 @@ func Build(ctx context.Context, dir string, o Options) (*Page, error) {
 	if err := run.CheckInputs("report", dir, m); err != nil {
 		return nil, err
 	}
-	x, err := audit.NewExplainer(dir, o.Inputs)
+	x, err := audit.NewExplainer(ctx, dir, o.Inputs)
 	if err != nil {
 		return nil, err
 	}
 	defer x.Close()
 	ix := x.Index()
 	rep := &Page{Run: dir, Sluice: m.Sluice, Command: strings.Join(m.Command, " "), Settings: m.Settings,
-		Method: m.Settings.Method + "/" + m.Settings.Aggregate, Ledger: *led, CutRank: -1}
+		Method: m.Settings.MethodName(), Ledger: *led, CutRank: -1}
 	t, err := tallyScores(ctx, dir, ix, rep, o.Sample)
 	if err != nil {
 		return nil, err

@@ -65,6 +65,29 @@ type Settings struct {
 	MaxRows     int     `json:"max_rows"`
 	MinScore    float64 `json:"min_score"`
 	Kept        string  `json:"kept"` // the kept file's name
+	// NoScoreFloor says a model-based method's scores had no --min-score floor.
+	NoScoreFloor bool          `json:"no_score_floor,omitempty"`
+	Prefilter    string        `json:"prefilter,omitempty"` // a cascade's first stage, METHOD:SHARE% or METHOD:TOKENS
+	Ngram        *NgramOptions `json:"ngram,omitempty"`
+}
+
+// MethodName names the method as summaries and pages show it: bm25/sum, ngram-3, ngram-3 after
+// bm25:20%.
+func (s Settings) MethodName() string {
+	name := s.Method
+	switch {
+	case s.Aggregate != "":
+		name += "/" + s.Aggregate
+	case s.Ngram != nil:
+		name = fmt.Sprintf("%s-%d", s.Method, s.Ngram.Order)
+		if s.Ngram.TargetOnly {
+			name += " (target model alone)"
+		}
+	}
+	if s.Prefilter != "" {
+		name += " after " + s.Prefilter
+	}
+	return name
 }
 
 // ReadManifest reads the manifest of the run folder dir.

@@ -4,6 +4,7 @@ import (
 	"context"
 	"encoding/json"
 	"fmt"
+	"math"
 	"strings"
 
 	"sluice/budget"
@@ -24,7 +25,14 @@ type Options struct {
 	Analyzer   string // "" takes the index's; else the index must have been built with it
 	OtherText  bool   // a TargetText unlike the index's spec is meant
 
-	Params      score.Params
+	Method    string       // one of Methods(); "" takes Params.Method
+	Params    score.Params // the lexical methods' parameters
+	Ngram     NgramOptions // for MethodNgram
+	Prefilter Prefilter    // a cheap first stage before a model-based method; zero for none
+	// MinScoreSet says Select.MinScore was given. Model-based scores can be below zero, so
+	// without it they have no floor; lexical scores always keep theirs (0 by default).
+	MinScoreSet bool
+
 	Budget      float64 // FLOPs for selection and training together
 	BudgetHow   string  // how the budget was given, for the ledger and manifest
 	TrainParams float64 // parameters of the model to be trained
@@ -62,16 +70,20 @@ func reconciliation(m index.Meta, targets, targetsRejected int) string {
 
 // picked is a pick in progress: what writing the run folder needs.
 type picked struct {
-	opt     *Options
-	ix      *index.Index
-	spec    string
-	tid     string
-	targets []index.Target
-	trej    []index.Reject
-	res     *score.Result
-	dec     []selection.Decision
-	tokens  []int64
-	out     Result
+	opt       *Options
+	ix        *index.Index
+	spec      string
+	tid       string
+	targets   []index.Target
+	trej      []index.Reject
+	tokens    []int64            // per row, for the ledger
+	led       *budget.Ledger     // the selection charged so far
+	scores    []float64          // per row; NaN where barred with no score
+	best      []int32            // per row, the best-matching target row or -1; nil if none
+	barred    []selection.Reason // per row, why a row may not be kept; nil if none is barred
+	survivors int                // rows that passed the prefilter
+	dec       []selection.Decision
+	out       Result
 }
 
 // Pick opens the index, reads and analyses the target rows, scores every indexed row, charges the
@@ -90,15 +102,11 @@ func Pick(ctx context.Context, opt Options) (*Result, error) {
 	if err := p.readTargets(); err != nil {
 		return nil, err
 	}
-	qs := make([]score.Query, len(p.targets))
-	for i, t := range p.targets {
-		qs[i] = score.Query{ID: t.ID, Terms: t.Terms}
-	}
-	if p.res, err = score.Score(ctx, corpus{ix}, qs, opt.Params); err != nil {
+	p.rowTokens()
+	if err := p.score(ctx); err != nil {
 		return nil, err
 	}
-	led := p.selectionLedger()
-	if err := p.keep(led); err != nil {
+	if err := p.keep(); err != nil {
 		return nil, err
 	}
 	if err := p.write(); err != nil {
@@ -146,30 +154,9 @@ func (p *picked) readTargets() error {
 	return nil
 }
 
-// selectionLedger charges the work of choosing: analysing pool and target, and scoring.
-func (p *picked) selectionLedger() *budget.Ledger {
-	m, w, prm := p.ix.Meta(), p.res.Work, p.opt.Params
-	led := &budget.Ledger{Budget: p.opt.Budget}
-	led.AddSelection("analyse pool rows (index build)", "term", float64(m.TotalLen), budget.FLOPsPerToken,
-		fmt.Sprintf("%d FLOPs x %d pool terms", budget.FLOPsPerToken, m.TotalLen))
-	led.AddSelection("analyse target rows", "term", float64(w.TargetTokens), budget.FLOPsPerToken,
-		fmt.Sprintf("%d FLOPs x %d target terms", budget.FLOPsPerToken, w.TargetTokens))
-	led.AddSelection(fmt.Sprintf("score pool (%s, %s): postings visited", prm.Method, prm.Aggregate), "posting", float64(w.Postings), budget.FLOPsPerPosting,
-		fmt.Sprintf("%d FLOPs x %d postings in %d passes", budget.FLOPsPerPosting, w.Postings, w.Passes))
-	return led
-}
-
-// keep prices every row's training, keeps rows from the top under the budget and completes the
-// ledger.
-func (p *picked) keep(led *budget.Ledger) error {
-	opt, m := p.opt, p.ix.Meta()
-	if led.Selection() > opt.Budget {
-		// Nothing can be kept, and a run folder would show a ledger over its budget: say so instead.
-		return fmt.Errorf("the selection cost alone, %s FLOPs (%s), exceeds the budget of %s FLOPs: raise the budget; nothing was written",
-			budget.FormatFLOPs(led.Selection()), strings.Join(selectionWords(led), " + "), budget.FormatFLOPs(opt.Budget))
-	}
+// rowTokens reads every row's token count: the training cost the ledger charges for it.
+func (p *picked) rowTokens() {
 	n := p.ix.NumRows()
-	costs := make([]float64, n)
 	p.tokens = make([]int64, n)
 	for r := 0; r < n; r++ {
 		t, ok, tb := p.ix.RowTokens(r)
@@ -177,11 +164,32 @@ func (p *picked) keep(led *budget.Ledger) error {
 			t = int64(budget.EstimateTokens(int(tb)))
 		}
 		p.tokens[r] = t
+	}
+}
+
+// keep prices every row's training, keeps rows from the top under the budget and completes the
+// ledger.
+func (p *picked) keep() error {
+	opt, m, led := p.opt, p.ix.Meta(), p.led
+	if led.Selection() > opt.Budget {
+		// Nothing can be kept, and a run folder would show a ledger over its budget: say so instead.
+		return fmt.Errorf("the selection cost alone, %s FLOPs (%s), exceeds the budget of %s FLOPs: raise the budget; nothing was written",
+			budget.FormatFLOPs(led.Selection()), strings.Join(selectionWords(led), " + "), budget.FormatFLOPs(opt.Budget))
+	}
+	n := p.ix.NumRows()
+	costs := make([]float64, n)
+	for r, t := range p.tokens {
 		costs[r] = budget.TrainFLOPs(opt.TrainParams, float64(t), opt.Epochs)
 	}
 	so := opt.Select
-	so.Budget, so.Fixed = opt.Budget, led.Selection()
-	dec, sum, err := selection.Pick(p.res.Scores, costs, so)
+	so.Budget, so.Fixed, so.Barred = opt.Budget, led.Selection(), p.barred
+	if !lexical(opt.method()) {
+		so.KeepUnmatched = true
+		if !opt.MinScoreSet {
+			so.MinScore = math.Inf(-1)
+		}
+	}
+	dec, sum, err := selection.Pick(p.scores, costs, so)
 	if err != nil {
 		return err
 	}
@@ -195,7 +203,7 @@ func (p *picked) keep(led *budget.Ledger) error {
 	}
 	led.AddTraining(fmt.Sprintf("train %s-parameter model on kept rows", budget.FormatCount(opt.TrainParams)), "token", float64(r.KeptTokens)*opt.Epochs, 6*opt.TrainParams,
 		fmt.Sprintf("6 x %g parameters x %d tokens x %g epochs", opt.TrainParams, r.KeptTokens, opt.Epochs))
-	led.Stop = stopText(sum, opt.Select)
+	led.Stop = stopText(sum, so)
 	tokSrc := "UTF-8 bytes of the text fields / 4, rounded up (rule of thumb for English, common practice)"
 	if m.TokensField != "" {
 		tokSrc = fmt.Sprintf("field %q of each row", m.TokensField)
@@ -206,6 +214,9 @@ func (p *picked) keep(led *budget.Ledger) error {
 		"selection cost is charged over the whole pool before any row is kept",
 		reconciliation(m, len(p.targets), len(p.trej)),
 	)
+	if opt.Prefilter.active() {
+		led.Notes = append(led.Notes, fmt.Sprintf("cascade: %d of %d rows passed the prefilter %s; the others have reason prefilter and no score", p.survivors, n, opt.Prefilter))
+	}
 	if m.DuplicateIDs > 0 {
 		led.Notes = append(led.Notes, fmt.Sprintf("ids: %d rows repeat an earlier row's id; scores.jsonl is in input order, so its n-th line is the n-th indexed row", m.DuplicateIDs))
 	}
@@ -218,13 +229,22 @@ func (p *picked) keep(led *budget.Ledger) error {
 // settings are the pick's settings as the manifest records them.
 func (p *picked) settings() Settings {
 	o := p.opt
-	return Settings{
+	st := Settings{
 		Analyzer: p.ix.Meta().Analyzer, TargetText: p.spec, TargetID: p.tid,
-		Method: o.Params.Method.String(), Aggregate: o.Params.Aggregate.String(),
+		Method: o.method(), Aggregate: o.Params.Aggregate.String(),
 		K1: o.Params.K1, B: o.Params.B, Attribute: !o.Params.SkipBest,
 		Budget: o.Budget, BudgetHow: o.BudgetHow, TrainParams: o.TrainParams, Epochs: o.Epochs,
 		Fill: o.Select.Fill, MaxRows: o.Select.MaxRows, MinScore: o.Select.MinScore, Kept: KeptName(o.Compress),
+		Prefilter: o.Prefilter.String(),
 	}
+	if !lexical(st.Method) {
+		st.Aggregate, st.K1, st.B, st.Attribute = "", 0, 0, false
+		st.NoScoreFloor = !o.MinScoreSet
+	}
+	if st.Method == MethodNgram {
+		st.Ngram = &o.Ngram
+	}
+	return st
 }
 
 // corpus lets the scorer read an index's posting lists through index cursors, a span of rows at a

@@ -4,6 +4,7 @@ import (
 	"bufio"
 	"encoding/json"
 	"fmt"
+	"math"
 	"os"
 	"path/filepath"
 
@@ -48,6 +49,25 @@ type Score struct {
 	Tokens int64   `json:"tokens"`
 	Target *string `json:"target"` // the target row that contributed most; nil when none or not asked
 	Ledger float64 `json:"ledger"`
+}
+
+// UnmarshalJSON reads a line of scores.jsonl; a row the method did not score (it fell at an
+// earlier stage, or had no score brought in) has "score": null, read as NaN.
+func (s *Score) UnmarshalJSON(b []byte) error {
+	type plain Score
+	var v struct {
+		*plain
+		Score *float64 `json:"score"`
+	}
+	v.plain = (*plain)(s)
+	if err := json.Unmarshal(b, &v); err != nil {
+		return err
+	}
+	s.Score = math.NaN()
+	if v.Score != nil {
+		s.Score = *v.Score
+	}
+	return nil
 }
 
 // maxScoreLine bounds one line of scores.jsonl: it holds two ids, each up to what the index took.

@@ -7,6 +7,7 @@ import (
 	"encoding/json"
 	"fmt"
 	"io"
+	"math"
 	"os"
 	"path/filepath"
 	"strconv"
@@ -168,7 +169,11 @@ func (p *picked) writeScores(w *bufio.Writer) error {
 		b = append(b[:0], `{"id":`...)
 		b = appendJSONID(b, p.ix, r, &plain)
 		b = append(b, `,"score":`...)
-		b = strconv.AppendFloat(b, p.res.Scores[r], 'g', -1, 64)
+		if s := p.scores[r]; math.IsNaN(s) {
+			b = append(b, "null"...) // a barred row the method did not score
+		} else {
+			b = strconv.AppendFloat(b, s, 'g', -1, 64)
+		}
 		b = append(b, `,"rank":`...)
 		b = strconv.AppendInt(b, int64(d.Rank), 10)
 		b = append(b, `,"kept":`...)
@@ -185,9 +190,9 @@ func (p *picked) writeScores(w *bufio.Writer) error {
 		b = append(b, `,"tokens":`...)
 		b = strconv.AppendInt(b, p.tokens[r], 10)
 		b = append(b, `,"target":`...)
-		if p.res.Best == nil {
-			b = append(b, "null"...) // not asked for (--attribute=false)
-		} else if t := p.res.Best[r]; t >= 0 {
+		if p.best == nil {
+			b = append(b, "null"...) // not asked for (--attribute=false), or not a lexical method
+		} else if t := p.best[r]; t >= 0 {
 			b = append(b, targets[t]...)
 		} else {
 			b = append(b, "null"...)
