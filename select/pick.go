@@ -19,6 +19,10 @@ type Options struct {
 	MaxRows       int     // most rows to keep; 0 means no limit
 	MinScore      float64 // rows scoring below this are not kept
 	KeepUnmatched bool    // allow rows with score <= 0, which share nothing with the target
+	// Unit, when above zero, says costs are counts (tokens, say) of Unit FLOPs each: every sum is
+	// then a sum of counts, exact while below 2^53, times Unit, so the fit test and a ledger that
+	// multiplies the kept count by Unit reach the same total to the bit. Counts must be whole.
+	Unit float64
 	// Barred, when not nil, holds a reason for every row that must not be kept whatever its score
 	// and cost (Kept for the others): a row that fell at an earlier stage, or has no score. Such a
 	// row is ranked like any other, stops nothing and costs nothing; its score may be NaN, and a
@@ -157,6 +161,14 @@ func Pick(scores []float64, costs []float64, opt Options) ([]Decision, Summary, 
 	order := Order(scores)
 	dec := make([]Decision, len(scores))
 	total := opt.Fixed
+	var count float64 // with Unit, the kept counts so far
+	fits := func(c float64) (float64, bool) {
+		if opt.Unit > 0 {
+			t := opt.Fixed + opt.Unit*(count+c)
+			return t, t <= opt.Budget
+		}
+		return total + c, total+c <= opt.Budget
+	}
 	sum := Summary{Stop: StopExhausted}
 	if opt.Fixed > opt.Budget {
 		sum.Stop = StopFixedOverBudget
@@ -166,6 +178,7 @@ func Pick(scores []float64, costs []float64, opt Options) ([]Decision, Summary, 
 	for r, i := range order {
 		d := &dec[i]
 		d.Rank = r + 1
+		next, fit := fits(costs[i])
 		switch {
 		case opt.Barred != nil && opt.Barred[i] != Kept:
 			d.Reason = opt.Barred[i]
@@ -182,8 +195,9 @@ func Pick(scores []float64, costs []float64, opt Options) ([]Decision, Summary, 
 			if d.Reason == MinScore {
 				sum.Stop = StopMinScore
 			}
-		case total+costs[i] <= opt.Budget:
-			total += costs[i]
+		case fit:
+			total = next
+			count += costs[i]
 			d.Kept = true
 			sum.Kept++
 			sum.KeptCost += costs[i]
@@ -197,6 +211,9 @@ func Pick(scores []float64, costs []float64, opt Options) ([]Decision, Summary, 
 	}
 	sum.Total = total
 	sum.Left = opt.Budget - total
+	if opt.Unit > 0 {
+		sum.KeptCost = opt.Unit * count
+	}
 	return dec, sum, nil
 }
 
@@ -223,6 +240,9 @@ func check(scores, costs []float64, opt Options) error {
 	}
 	if opt.MaxRows < 0 {
 		return fmt.Errorf("pick: max rows %d: must be >= 0: %w", opt.MaxRows, ErrBadInput)
+	}
+	if !finiteNonNeg(opt.Unit) {
+		return fmt.Errorf("pick: unit cost %v: must be finite and >= 0: %w", opt.Unit, ErrBadInput)
 	}
 	if math.IsNaN(opt.MinScore) {
 		return fmt.Errorf("pick: min score is NaN: %w", ErrBadInput)

@@ -28,6 +28,7 @@ its occurrence.`,
   sluice diff --json --top 50 run-bm25 run-tfidf | jq .moved`)
 	fs.Bool("json", false, "print one JSON object instead of text")
 	fs.Int("top", 10, "how many of the rows that moved most to list")
+	fs.Bool("across-indexes", false, "compare runs made on different indexes (rows are still matched by id)")
 	return fs
 }
 
@@ -40,7 +41,8 @@ func (c *diffCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 	if top < 0 {
 		return usagef("--top %d: must be 0 or more", top)
 	}
-	d, err := audit.Compare(fs.Arg(0), fs.Arg(1), top)
+	across, _ := fs.GetBool("across-indexes")
+	d, err := audit.Compare(fs.Arg(0), fs.Arg(1), top, across)
 	if err != nil {
 		return err
 	}
@@ -72,7 +74,11 @@ func (c *diffCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 	if len(d.Moved) > 0 {
 		fmt.Fprintf(w, "rows that moved most:\n")
 		for _, m := range d.Moved {
-			fmt.Fprintf(w, "  %-28s rank %7d -> %-7d  kept %s -> %s\n", m.ID, m.RankA, m.RankB, yesNo(m.KeptA), yesNo(m.KeptB))
+			id := m.ID
+			if m.Occurrence > 1 {
+				id = fmt.Sprintf("%s (occurrence %d)", m.ID, m.Occurrence)
+			}
+			fmt.Fprintf(w, "  %-28s rank %7d -> %-7d  kept %s -> %s\n", id, m.RankA, m.RankB, yesNo(m.KeptA), yesNo(m.KeptB))
 		}
 	}
 	return nil

@@ -75,6 +75,7 @@ func (c *indexCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 		return err
 	}
 	quiet, _ := fs.GetBool("quiet")
+	before, _ := index.Identity(out) // "" when there is no index there yet
 	bar := newProgress(e, quiet, total, "indexing")
 	opt.Progress = bar.add
 	st, err := index.Build(ctx, out, pools, opt)
@@ -82,11 +83,15 @@ func (c *indexCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 	if err != nil {
 		return err
 	}
+	if dry {
+		out = "nothing (--dry-run)"
+	}
 	if !quiet {
-		if dry {
-			out = "nothing (--dry-run)"
-		}
 		printIndexSummary(e, out, st)
+	}
+	if after, _ := index.Identity(out); before != "" && after != before {
+		// Every run made on the replaced index names its identity: they no longer verify.
+		fmt.Fprintf(e.stderr, "  replaced   an index of other content (identity %.12s, now %.12s): runs made on it no longer verify or explain\n", before, after)
 	}
 	return nil
 }

@@ -1,11 +1,14 @@
 package main
 
 import (
+	"bytes"
 	"context"
 	"encoding/json"
 	"math"
+	"os"
 	"path/filepath"
 	"strings"
+	"syscall"
 	"testing"
 
 	"sluice/select/audit"
@@ -83,5 +86,76 @@ func TestNgramAndCascadeThroughTheCommandLine(t *testing.T) {
 		if code, _, stderr := sluice(t, args...); code != 2 || !strings.Contains(stderr, tc.want) {
 			t.Errorf("%s: exit %d, %q lacks %q", tc.args, code, stderr, tc.want)
 		}
+	}
+}
+
+// TestPipedTarget: a target read from stdin or a pipe is kept in the run folder and hashed as read,
+// so verify, why and report work on the run; before, the manifest held the hash of nothing and all
+// three refused.
+func TestPipedTarget(t *testing.T) {
+	dir, idx, target := demoIndex(t)
+	want, err := os.ReadFile(target)
+	if err != nil {
+		t.Fatal(err)
+	}
+	fifo := filepath.Join(dir, "fifo")
+	if err := syscall.Mkfifo(fifo, 0o600); err != nil {
+		t.Fatal(err)
+	}
+	go func() {
+		f, err := os.OpenFile(fifo, os.O_WRONLY, 0)
+		if err == nil {
+			f.Write(want)
+			f.Close()
+		}
+	}()
+	for name, tgt := range map[string]string{"stdin": "-", "fifo": fifo} {
+		out := filepath.Join(dir, "run-"+name)
+		var stdout, stderr bytes.Buffer
+		e := &env{stdin: bytes.NewReader(want), stdout: &stdout, stderr: &stderr}
+		args := []string{"pick", "--quiet", "--index", idx, "--target", tgt, "--budget", "6e12", "--train-params", "125M", "--out", out}
+		if code := dispatch(context.Background(), args, e); code != 0 {
+			t.Fatalf("%s: exit %d: %s", name, code, stderr.String())
+		}
+		if got, err := os.ReadFile(filepath.Join(out, run.TargetCopy)); err != nil || !bytes.Equal(got, want) {
+			t.Errorf("%s: the run's copy of the target differs (%v)", name, err)
+		}
+		m, err := run.ReadManifest(out)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if m.Target.Path != filepath.Join(out, run.TargetCopy) {
+			t.Errorf("%s: manifest names the target %s", name, m.Target.Path)
+		}
+		for _, args := range [][]string{{"verify", out}, {"why", "--run", out, "pool-0028"}, {"report", "-q", "--out", out + ".html", out}} {
+			if code, _, stderr := sluice(t, args...); code != 0 {
+				t.Errorf("%s: %v: exit %d: %s", name, args, code, stderr)
+			}
+		}
+	}
+}
+
+// TestIndexIdentityIsItsContent: rebuilding an index with the same content, asked for with other
+// flags (-q), keeps every run made on it valid; before, the command line was part of the identity
+// and verify refused every earlier run. A rebuild of other content says it breaks them.
+func TestIndexIdentityIsItsContent(t *testing.T) {
+	dir, idx, target := demoIndex(t)
+	out := filepath.Join(dir, "run")
+	if code, _, stderr := sluice(t, "pick", "--quiet", "--index", idx, "--target", target, "--budget", "6e12", "--train-params", "125M", "--out", out); code != 0 {
+		t.Fatal(stderr)
+	}
+	pool := filepath.Join(dir, "pool.jsonl")
+	if code, _, stderr := sluice(t, "index", "--id", "id", "--workers", "1", "--out", idx, pool); code != 0 || strings.Contains(stderr, "replaced") {
+		t.Fatalf("rebuild: exit %d: %s", code, stderr)
+	}
+	if code, _, stderr := sluice(t, "verify", out); code != 0 {
+		t.Errorf("verify after a rebuild of the same content: exit %d: %s", code, stderr)
+	}
+	code, _, stderr := sluice(t, "index", "--out", idx, pool) // no --id: other content
+	if code != 0 || !strings.Contains(stderr, "runs made on it no longer verify") {
+		t.Errorf("rebuild of other content: exit %d: %s", code, stderr)
+	}
+	if code, _, stderr := sluice(t, "verify", out); code != 1 || !strings.Contains(stderr, "not the index the run used") {
+		t.Errorf("verify after a rebuild of other content: exit %d: %s", code, stderr)
 	}
 }

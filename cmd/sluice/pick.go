@@ -91,6 +91,7 @@ func (c *pickCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 		return err
 	}
 	opt.Command = append([]string{"sluice"}, e.args...)
+	opt.Stdin = e.stdin
 	quiet, _ := fs.GetBool("quiet")
 	_, err = pick(ctx, e, opt, quiet)
 	return err
@@ -153,6 +154,10 @@ func pickOptions(fs *pflag.FlagSet) (run.Options, error) {
 	return opt, nil
 }
 
+// maxK1 bounds BM25's saturation: far past any useful value (0.5 to 3 are usual), and low enough
+// that no score overflows.
+const maxK1 = 1000
+
 // scoreParams resolves the scoring flags.
 func scoreParams(fs *pflag.FlagSet) (score.Params, error) {
 	str := func(n string) string { v, _ := fs.GetString(n); return v }
@@ -171,8 +176,8 @@ func scoreParams(fs *pflag.FlagSet) (score.Params, error) {
 	if attr, _ := fs.GetBool("attribute"); !attr && p.Aggregate == score.Sum {
 		p.SkipBest = true
 	}
-	if !(p.K1 >= 0 && !math.IsInf(p.K1, 0)) {
-		return p, usagef("--k1 %v: must be a finite number, 0 or more", p.K1)
+	if !(p.K1 >= 0 && p.K1 <= maxK1) {
+		return p, usagef("--k1 %v: give 0 to %g (1.2 is usual)", p.K1, float64(maxK1))
 	}
 	if !(p.B >= 0 && p.B <= 1) {
 		return p, usagef("--b %v: must be between 0 and 1", p.B)

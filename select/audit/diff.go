@@ -2,10 +2,10 @@ package audit
 
 import (
 	"encoding/json"
+	"errors"
 	"fmt"
 	"math"
 	"sort"
-	"strconv"
 
 	"sluice/select/run"
 )
@@ -17,7 +17,16 @@ type Side struct {
 	KeptTokens int64   `json:"kept_tokens"`
 	Budget     float64 `json:"budget_flops"`
 	Used       float64 `json:"used_flops"`
-	rows       map[string]sideRow
+	Index      string  `json:"index"` // the index the run was made on, by its identity
+	rows       map[rowKey]sideRow
+}
+
+// rowKey names a row across two runs: its id and which occurrence of that id it is, so that a
+// repeated id pairs with the same occurrence in the other run and no id can pose as another's
+// repetition.
+type rowKey struct {
+	id string
+	n  int
 }
 
 type sideRow struct {
@@ -28,11 +37,12 @@ type sideRow struct {
 
 // Moved is a row whose rank differs between the two runs.
 type Moved struct {
-	ID    string `json:"id"`
-	RankA int    `json:"rank_a"`
-	RankB int    `json:"rank_b"`
-	KeptA bool   `json:"kept_a"`
-	KeptB bool   `json:"kept_b"`
+	ID         string `json:"id"`
+	Occurrence int    `json:"occurrence,omitempty"` // 2 for the second row with this id, and so on
+	RankA      int    `json:"rank_a"`
+	RankB      int    `json:"rank_b"`
+	KeptA      bool   `json:"kept_a"`
+	KeptB      bool   `json:"kept_b"`
 }
 
 // Diff compares two runs: rows kept in both or one, their tokens and Jaccard index, and the rank
@@ -53,12 +63,20 @@ type Diff struct {
 	SpearmanNote string  `json:"spearman_note,omitempty"`
 }
 
-// readSide reads the scores and ledger of the run folder dir. Rows are keyed by id; a repeated id is
-// keyed by its occurrence (id#2, id#3, ...).
+// readSide reads the scores, ledger and manifest of the run folder dir. Rows are keyed by id and
+// occurrence.
 func readSide(dir string) (Side, error) {
-	s := Side{Run: dir, rows: map[string]sideRow{}}
+	s := Side{Run: dir, rows: map[rowKey]sideRow{}}
+	m, err := run.ReadManifest(dir)
+	if err != nil {
+		return s, err
+	}
+	s.Index = m.Index.Identity
+	if s.Index == "" {
+		s.Index = m.Index.SHA256 // a run from before identities: meta.json's hash
+	}
 	seen := map[string]int{}
-	err := run.EachScoreLine(dir, func(_ int, line []byte) error {
+	err = run.EachScoreLine(dir, func(_ int, line []byte) error {
 		var r struct {
 			ID     string `json:"id"`
 			Rank   int    `json:"rank"`
@@ -68,11 +86,8 @@ func readSide(dir string) (Side, error) {
 		if err := json.Unmarshal(line, &r); err != nil {
 			return err
 		}
-		key := r.ID
-		if n := seen[r.ID]; n > 0 {
-			key = r.ID + "#" + strconv.Itoa(n+1)
-		}
 		seen[r.ID]++
+		key := rowKey{r.ID, seen[r.ID]}
 		s.rows[key] = sideRow{rank: r.Rank, kept: r.Kept, tokens: r.Tokens}
 		if r.Kept {
 			s.Kept++
@@ -91,8 +106,13 @@ func readSide(dir string) (Side, error) {
 	return s, nil
 }
 
+// ErrOtherIndex is returned by Compare for runs made on different indexes: their rows are other
+// rows, and matching them by id would compare nothing with nothing.
+var ErrOtherIndex = errors.New("the runs were made on different indexes")
+
 // Compare compares the run folders a and b, listing at most top of the rows whose rank moved most.
-func Compare(a, b string, top int) (*Diff, error) {
+// Runs made on different indexes are refused unless acrossIndexes is set.
+func Compare(a, b string, top int, acrossIndexes bool) (*Diff, error) {
 	var d Diff
 	var err error
 	if d.A, err = readSide(a); err != nil {
@@ -100,6 +120,9 @@ func Compare(a, b string, top int) (*Diff, error) {
 	}
 	if d.B, err = readSide(b); err != nil {
 		return nil, err
+	}
+	if d.A.Index != d.B.Index && !acrossIndexes {
+		return nil, fmt.Errorf("diff %s %s: %w (identities %.12s and %.12s): rows are matched by id, which only means the same row on the same pool", a, b, ErrOtherIndex, d.A.Index, d.B.Index)
 	}
 	var ra, rb []float64
 	for id, x := range d.A.rows {
@@ -116,7 +139,11 @@ func Compare(a, b string, top int) (*Diff, error) {
 			ra = append(ra, float64(x.rank))
 			rb = append(rb, float64(y.rank))
 			if x.rank != y.rank {
-				d.Moved = append(d.Moved, Moved{ID: id, RankA: x.rank, RankB: y.rank, KeptA: x.kept, KeptB: y.kept})
+				m := Moved{ID: id.id, RankA: x.rank, RankB: y.rank, KeptA: x.kept, KeptB: y.kept}
+				if id.n > 1 {
+					m.Occurrence = id.n
+				}
+				d.Moved = append(d.Moved, m)
 			}
 		}
 	}
@@ -139,7 +166,7 @@ func Compare(a, b string, top int) (*Diff, error) {
 		if di != dj {
 			return di > dj
 		}
-		return d.Moved[i].RankA < d.Moved[j].RankA
+		return d.Moved[i].RankA < d.Moved[j].RankA // ranks are distinct, so the order is total
 	})
 	if len(d.Moved) > top {
 		d.Moved = d.Moved[:top]

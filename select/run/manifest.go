@@ -9,6 +9,8 @@ import (
 	"os"
 	"path/filepath"
 	"sort"
+
+	"sluice/index"
 )
 
 // The files of a run folder. The kept rows' name depends on compression: see KeptName.
@@ -41,10 +43,23 @@ type Manifest struct {
 	Files    map[string]string `json:"files"`  // SHA-256 of every other file of the run
 }
 
-// FileRef names an input of a run and the SHA-256 it had.
+// FileRef names an input of a run and the SHA-256 it had. For the index, SHA256 is that of its
+// meta.json and Identity that of its content (see IndexIdentity); a manifest without Identity is
+// checked by SHA256 alone.
 type FileRef struct {
-	Path   string `json:"path"`
-	SHA256 string `json:"sha256"`
+	Path     string `json:"path"`
+	SHA256   string `json:"sha256"`
+	Identity string `json:"identity,omitempty"`
+}
+
+// sameIndex reports whether the index at dir is the one ref names, and what it found if not.
+func sameIndex(ref FileRef, dir string) (bool, string, error) {
+	if ref.Identity == "" {
+		got, err := sha256File(filepath.Join(dir, "meta.json"))
+		return got == ref.SHA256, "meta.json SHA-256 " + short(got) + ", manifest says " + short(ref.SHA256), err
+	}
+	got, err := index.Identity(dir)
+	return got == ref.Identity, "identity " + short(got) + ", manifest says " + short(ref.Identity), err
 }
 
 // Settings are a pick's settings with every default resolved.
@@ -162,14 +177,14 @@ func (in Inputs) Apply(m *Manifest) {
 // used: the index by its meta.json, which holds the checksum of every other index file. what names
 // the caller's work in the error ("explain", "report").
 func CheckInputs(what, dir string, m *Manifest) error {
-	got, err := sha256File(filepath.Join(m.Index.Path, "meta.json"))
+	same, _, err := sameIndex(m.Index, m.Index.Path)
 	if err != nil {
 		return fmt.Errorf("%s %s: index %s: %w (if it has moved, say where with --index)", what, dir, m.Index.Path, err)
 	}
-	if got != m.Index.SHA256 {
+	if !same {
 		return fmt.Errorf("%s %s: index %s is not the one the run used (run 'sluice verify %s')", what, dir, m.Index.Path, dir)
 	}
-	got, err = sha256File(m.Target.Path)
+	got, err := sha256File(m.Target.Path)
 	if err != nil {
 		return fmt.Errorf("%s %s: target %s: %w (if it has moved, say where with --target)", what, dir, m.Target.Path, err)
 	}
@@ -197,10 +212,10 @@ func Verify(dir string, m *Manifest) []string {
 			bad = append(bad, fmt.Sprintf("%s: changed since the run (SHA-256 %s, manifest says %s)", name, got[:12], short(m.Files[name])))
 		}
 	}
-	if got, err := sha256File(filepath.Join(m.Index.Path, "meta.json")); err != nil {
+	if same, what, err := sameIndex(m.Index, m.Index.Path); err != nil {
 		bad = append(bad, fmt.Sprintf("index %s: %v", m.Index.Path, err))
-	} else if got != m.Index.SHA256 {
-		bad = append(bad, fmt.Sprintf("index %s: not the index the run used (meta.json SHA-256 %s, manifest says %s)", m.Index.Path, got[:12], short(m.Index.SHA256)))
+	} else if !same {
+		bad = append(bad, fmt.Sprintf("index %s: not the index the run used (%s)", m.Index.Path, what))
 	}
 	if got, err := sha256File(m.Target.Path); err != nil {
 		bad = append(bad, fmt.Sprintf("target %s: %v", m.Target.Path, err))

@@ -81,7 +81,7 @@ func (p *picked) score(ctx context.Context) error {
 			return err
 		}
 		p.scores, p.best = res.Scores, res.Best
-		return nil
+		return checkFinite(p.scores, nil)
 	case opt.Prefilter.active():
 		var err error
 		if rows, err = p.prefilter(ctx); err != nil {
@@ -158,7 +158,7 @@ func (p *picked) prefilter(ctx context.Context) ([]int, error) {
 func checkFinite(scores []float64, barred []selection.Reason) error {
 	for r, s := range scores {
 		if (barred == nil || barred[r] == selection.Kept) && (math.IsNaN(s) || math.IsInf(s, 0)) {
-			return fmt.Errorf("row %d: score %v is not a finite number", r, s)
+			return fmt.Errorf("score row %d: %v is not a finite number (are --k1 and --b sensible?); nothing was written", r, s)
 		}
 	}
 	return nil

@@ -3,6 +3,7 @@ package run
 import (
 	"context"
 	"math"
+	"os"
 	"path/filepath"
 	"strings"
 	"testing"
@@ -131,5 +132,19 @@ func TestCascadeCharges(t *testing.T) {
 	}
 	if sum != lc.Selection {
 		t.Errorf("selection %v is not the sum of its stages %v", lc.Selection, sum)
+	}
+}
+
+// TestNonFiniteScoresRefused: parameters that overflow a score stop the pick before anything is
+// written; before, +Inf went into scores.jsonl, which is then not JSON.
+func TestNonFiniteScoresRefused(t *testing.T) {
+	dir, idx, target := demo(t)
+	opt := demoOptions(idx, target, filepath.Join(dir, "inf"))
+	opt.Params.K1, opt.Params.B = 1e308, 0
+	if _, err := Pick(context.Background(), opt); err == nil || !strings.Contains(err.Error(), "not a finite number") {
+		t.Errorf("k1 1e308: %v", err)
+	}
+	if _, err := os.Stat(opt.Out); !os.IsNotExist(err) {
+		t.Errorf("a run folder was written: %v", err)
 	}
 }

@@ -1,10 +1,14 @@
 package run
 
 import (
+	"bufio"
 	"context"
 	"encoding/json"
 	"fmt"
+	"io"
 	"math"
+	"os"
+	"path/filepath"
 	"strings"
 
 	"sluice/budget"
@@ -39,10 +43,11 @@ type Options struct {
 	Epochs      float64
 	Select      selection.Options // Budget and Fixed are set by Pick
 
-	Out      string   // run folder to write
-	Compress string   // none, gzip or zstd
-	Command  []string // the command line, for the manifest
-	Version  string   // sluice's version, for the manifest
+	Out      string    // run folder to write
+	Compress string    // none, gzip or zstd
+	Command  []string  // the command line, for the manifest
+	Version  string    // sluice's version, for the manifest
+	Stdin    io.Reader // read for a Target of "-"; nil is os.Stdin
 }
 
 // Result is what a pick did, for a summary; the run folder holds all of it and more.
@@ -84,6 +89,43 @@ type picked struct {
 	survivors int                // rows that passed the prefilter
 	dec       []selection.Decision
 	out       Result
+	tmp       string // the run's working folder, once made
+	target    string // where the target is read from: opt.Target, or its copy in tmp
+}
+
+// TargetCopy is the name a target that could be read only once (stdin, a pipe) is kept under in
+// the run folder, so that the run can be explained and verified later.
+const TargetCopy = "target.jsonl"
+
+// keepPipedTarget copies a target that is not a regular file into the run's working folder, made
+// now for it, and reads it from there; a regular file is read where it is.
+func (p *picked) keepPipedTarget() error {
+	p.target = p.opt.Target
+	var src io.Reader
+	if p.opt.Target == "-" {
+		src = p.opt.Stdin
+		if src == nil {
+			src = os.Stdin
+		}
+	} else if fi, err := os.Stat(p.opt.Target); err != nil || fi.Mode().IsRegular() {
+		return nil // a missing target is reported by the reader, with its context
+	} else {
+		f, err := os.Open(p.opt.Target)
+		if err != nil {
+			return fmt.Errorf("read target %s: %w", p.opt.Target, err)
+		}
+		defer f.Close()
+		src = f
+	}
+	tmp, err := atomicdir.Temp(p.opt.Out)
+	if err != nil {
+		return err
+	}
+	p.tmp, p.target = tmp, filepath.Join(tmp, TargetCopy)
+	if _, err := writeHashed(p.target, func(w *bufio.Writer) error { _, err := io.Copy(w, src); return err }); err != nil {
+		return fmt.Errorf("read target %s: %w", p.opt.Target, err)
+	}
+	return nil
 }
 
 // Pick opens the index, reads and analyses the target rows, scores every indexed row, charges the
@@ -99,6 +141,14 @@ func Pick(ctx context.Context, opt Options) (*Result, error) {
 	}
 	defer ix.Close()
 	p := &picked{opt: &opt, ix: ix}
+	defer func() {
+		if p.tmp != "" {
+			os.RemoveAll(p.tmp) // published by now if all went well, so gone already
+		}
+	}()
+	if err := p.keepPipedTarget(); err != nil {
+		return nil, err
+	}
 	if err := p.readTargets(); err != nil {
 		return nil, err
 	}
@@ -140,7 +190,7 @@ func (p *picked) readTargets() error {
 	if p.tid == "" {
 		p.tid = m.IDField
 	}
-	p.targets, p.trej, err = index.ReadTargets(opt.Target, p.spec, p.tid, an, m.MaxRowBytes)
+	p.targets, p.trej, err = index.ReadTargets(p.target, p.spec, p.tid, an, m.MaxRowBytes)
 	if err != nil {
 		return err
 	}
@@ -176,13 +226,17 @@ func (p *picked) keep() error {
 		return fmt.Errorf("the selection cost alone, %s FLOPs (%s), exceeds the budget of %s FLOPs: raise the budget; nothing was written",
 			budget.FormatFLOPs(led.Selection()), strings.Join(selectionWords(led), " + "), budget.FormatFLOPs(opt.Budget))
 	}
+	// Costs are tokens at one price per token over every epoch, so that the fit test and the
+	// ledger's training line are the same product and the ledger never passes its budget by a
+	// rounding.
 	n := p.ix.NumRows()
+	unit := budget.TrainFLOPs(opt.TrainParams, 1, opt.Epochs)
 	costs := make([]float64, n)
 	for r, t := range p.tokens {
-		costs[r] = budget.TrainFLOPs(opt.TrainParams, float64(t), opt.Epochs)
+		costs[r] = float64(t)
 	}
 	so := opt.Select
-	so.Budget, so.Fixed, so.Barred = opt.Budget, led.Selection(), p.barred
+	so.Budget, so.Fixed, so.Barred, so.Unit = opt.Budget, led.Selection(), p.barred, unit
 	if !lexical(opt.method()) {
 		so.KeepUnmatched = true
 		if !opt.MinScoreSet {
@@ -201,7 +255,7 @@ func (p *picked) keep() error {
 			r.KeptTokens += p.tokens[row]
 		}
 	}
-	led.AddTraining(fmt.Sprintf("train %s-parameter model on kept rows", budget.FormatCount(opt.TrainParams)), "token", float64(r.KeptTokens)*opt.Epochs, 6*opt.TrainParams,
+	led.AddTraining(fmt.Sprintf("train %s-parameter model on kept rows", budget.FormatCount(opt.TrainParams)), "token", float64(r.KeptTokens), unit,
 		fmt.Sprintf("6 x %g parameters x %d tokens x %g epochs", opt.TrainParams, r.KeptTokens, opt.Epochs))
 	led.Stop = stopText(sum, so)
 	tokSrc := "UTF-8 bytes of the text fields / 4, rounded up (rule of thumb for English, common practice)"
@@ -296,7 +350,7 @@ func Folder() atomicdir.Kind {
 		},
 		Holds: func(name string) bool {
 			switch name {
-			case ManifestFile, ScoresFile, LedgerFile, RejectedFile, KeptName("none"), KeptName("gzip"), KeptName("zstd"):
+			case ManifestFile, ScoresFile, LedgerFile, RejectedFile, TargetCopy, KeptName("none"), KeptName("gzip"), KeptName("zstd"):
 				return true
 			}
 			return false

@@ -6,9 +6,11 @@ import (
 	"errors"
 	"os"
 	"path/filepath"
+	"slices"
 	"strings"
 	"testing"
 
+	"sluice/budget"
 	"sluice/cmd/sluice/demodata"
 	"sluice/index"
 	"sluice/index/atomicdir"
@@ -173,4 +175,41 @@ func listing(t *testing.T, dir string) string {
 		b.WriteString(e.Name() + " ")
 	}
 	return b.String()
+}
+
+// TestLedgerNeverPassesItsBudget picks at budgets that sit exactly where row costs added one by one
+// reach them: before, the fit test added costs row by row while the ledger multiplied the kept
+// tokens, and the two disagreed in the last bits, leaving ledgers over budget by a rounding.
+func TestLedgerNeverPassesItsBudget(t *testing.T) {
+	dir, idx, target := demo(t)
+	opt := demoOptions(idx, target, filepath.Join(dir, "all"))
+	opt.Budget, opt.TrainParams, opt.Epochs = 1e18, 1.37e9, 1.1 // 1.1 is no binary fraction, so products round
+	res, err := Pick(context.Background(), opt)
+	if err != nil {
+		t.Fatal(err)
+	}
+	type ranked struct{ rank, tokens int }
+	var rows []ranked
+	EachScore(opt.Out, func(s Score) error {
+		if s.Kept {
+			rows = append(rows, ranked{s.Rank, int(s.Tokens)})
+		}
+		return nil
+	})
+	slices.SortFunc(rows, func(a, b ranked) int { return a.rank - b.rank })
+	fixed := res.Ledger.Selection()
+	b := fixed
+	for k, r := range rows[:min(len(rows), 40)] {
+		b += budget.TrainFLOPs(opt.TrainParams, float64(r.tokens), opt.Epochs)
+		o := opt
+		o.Budget, o.Out = b, filepath.Join(dir, "k")
+		res, err := Pick(context.Background(), o)
+		if err != nil {
+			t.Fatal(err)
+		}
+		l, _ := ReadLedger(o.Out)
+		if l.Total > l.Budget || res.Ledger.Total() > b || l.Left < 0 {
+			t.Fatalf("budget at the %d-th row: ledger total %v over budget %v", k+1, l.Total, l.Budget)
+		}
+	}
 }

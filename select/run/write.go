@@ -24,16 +24,13 @@ import (
 // write writes the run folder in a working folder beside it and publishes it when complete.
 func (p *picked) write() error {
 	opt := p.opt
-	tmp, err := atomicdir.Temp(opt.Out)
-	if err != nil {
-		return err
-	}
-	ok := false
-	defer func() {
-		if !ok {
-			os.RemoveAll(tmp)
+	if p.tmp == "" {
+		var err error
+		if p.tmp, err = atomicdir.Temp(opt.Out); err != nil {
+			return err
 		}
-	}()
+	}
+	tmp := p.tmp
 	// The kept rows and the scores are nearly all of a run's bytes. Each is written, hashed and
 	// synced on a goroutine of its own, so that one's wait for the disk overlaps the other's work.
 	outs := []struct {
@@ -80,7 +77,7 @@ func (p *picked) write() error {
 	if err := atomicdir.Publish(tmp, opt.Out); err != nil {
 		return err
 	}
-	ok = true
+	p.tmp = ""
 	return nil
 }
 
@@ -91,7 +88,12 @@ func (p *picked) manifest() *Manifest {
 	m := &Manifest{Sluice: opt.Version, Command: opt.Command,
 		Index: FileRef{Path: opt.Index}, Target: FileRef{Path: opt.Target}, Settings: p.out.Settings}
 	m.Index.SHA256, _ = sha256File(filepath.Join(opt.Index, "meta.json"))
-	m.Target.SHA256, _ = sha256File(opt.Target)
+	m.Index.Identity, _ = index.Identity(opt.Index)
+	m.Target.SHA256, _ = sha256File(p.target)
+	if p.target != opt.Target {
+		// Read once from a pipe: the run keeps what was read, and names its own copy.
+		m.Target.Path = filepath.Join(opt.Out, TargetCopy)
+	}
 	return m
 }
 
