@@ -105,23 +105,27 @@ func cutSuffix(s string, suffixes map[string]int, fold bool) (string, int) {
 // are accepted: lower-case "m" would be milli and lower-case "e" would be
 // read as an unfinished exponent.
 var flopSuffixes = map[string]int{
-	"k": 3, "K": 3, "M": 6, "G": 9, "T": 12, "P": 15, "E": 18, "Z": 21,
+	"k": 3, "K": 3, "M": 6, "G": 9, "g": 9, "T": 12, "t": 12, "P": 15, "p": 15, "E": 18, "Z": 21, "z": 21,
 }
 
 // ParseFLOPs parses a positive FLOP count such as "2.5e18", "1E21",
-// "1000000", "400T", "2.5E" or "3.2e21 FLOPs". An optional trailing unit
-// "FLOP" or "FLOPs" (any case) is ignored. A trailing SI prefix k/K, M, G,
-// T, P, E or Z scales the number; since "E" is both the exa prefix and the
+// "1000000", "400T", "400p", "989TF", "2.5E" or "3.2e21 FLOPs". An optional
+// trailing unit "FLOP", "FLOPs", "FLOP/s" or "F" (any case) is ignored, so
+// that a GPU's rate reads as it is quoted ("989 TFLOP/s"). A trailing SI
+// prefix k/K, M, G/g, T/t, P/p, E or Z/z scales the number (lower-case m
+// would be milli and e an unfinished exponent, so neither is taken); since "E" is both the exa prefix and the
 // exponent marker, "2.5E" means 2.5e18 while "2.5E18" is scientific
 // notation, and both may be combined ("1.5E3E" is 1.5e21). The result is
 // correctly rounded from the decimal as written.
 func ParseFLOPs(s string) (float64, error) {
 	const what = "FLOPs"
 	t := strings.TrimSpace(s)
-	if low := strings.ToLower(t); strings.HasSuffix(low, "flops") {
-		t = t[:len(t)-5]
-	} else if strings.HasSuffix(low, "flop") {
-		t = t[:len(t)-4]
+	low := strings.ToLower(t)
+	for _, unit := range []string{"flop/s", "flops", "flop", "f"} {
+		if strings.HasSuffix(low, unit) {
+			t = t[:len(t)-len(unit)]
+			break
+		}
 	}
 	return parsePositive(what, s, strings.TrimRight(t, " "), flopSuffixes, false)
 }

@@ -39,6 +39,11 @@ func TestParseFLOPs(t *testing.T) {
 		{"1e21 flops", 1e21},
 		{"1e21 FLOP", 1e21},
 		{"400TFLOPs", 4e14},
+		{"989TF", 989e12}, // a GPU's rate as it is often quoted
+		{"989 TFLOP/s", 989e12},
+		{"989t", 989e12},
+		{"400p", 4e17},
+		{"2g", 2e9},
 		{"2.5E FLOPs", 2.5e18},
 		// A suffix shifts the decimal exponent before the single rounding, so
 		// results match strconv.ParseFloat of the same value written out.
@@ -62,7 +67,7 @@ func TestParseFLOPsErrors(t *testing.T) {
 		"", "   ", "FLOPs", "-1", "-1e21", "0", "0.0", "0E", "1e-400",
 		"1e400", "1e99999999999", "NaN", "nan", "Inf", "+Inf", "infinity",
 		"1e", "2.5e", "1e+", "E", "k", "1x", "1m", "1 2", "1..2", "1.2.3",
-		"0x10", "1_000", "+5", "1kk", "1 FLOP/s", "1EB", "1Ki", "Z1", "½",
+		"0x10", "1_000", "+5", "1kk", "1EB", "1Ki", "Z1", "½",
 	} {
 		_, err := ParseFLOPs(in)
 		if !errors.Is(err, ErrBadNumber) {
@@ -242,4 +247,19 @@ func FuzzParseSize(f *testing.F) {
 			t.Fatalf("ParseSize(%q) = %d; ParseSize(%q) = %d, %v", s, v, back, w, err)
 		}
 	})
+}
+
+func TestAccelerators(t *testing.T) {
+	a, err := LookupAccelerator("H100-SXM")
+	if err != nil || a.PeakFLOPs != 989e12 || a.Precision != "BF16" {
+		t.Errorf("h100-sxm: %+v, %v", a, err)
+	}
+	if _, err := LookupAccelerator("abacus"); !errors.Is(err, ErrBadNumber) || !strings.Contains(err.Error(), "a100") {
+		t.Errorf("unknown accelerator: %v", err)
+	}
+	for _, a := range Accelerators() {
+		if !(a.PeakFLOPs > 1e13 && a.PeakFLOPs < 1e16) || a.Precision == "" {
+			t.Errorf("%+v", a)
+		}
+	}
 }

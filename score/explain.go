@@ -8,20 +8,20 @@ import (
 
 // Part is one query term's share of a score.
 type Part struct {
-	Term string
-	TF   int // frequency in the pool row
-	DF   int // pool rows holding the term
-	IDF  float64
+	Term string  `json:"term"`
+	TF   int     `json:"tf"` // frequency in the pool row
+	DF   int     `json:"df"` // pool rows holding the term
+	IDF  float64 `json:"idf"`
 	// TFPart is the pool-row side of the term weight: the BM25 saturation
 	// tf·(k1+1)/(tf + k1·(1 − b + b·len/avglen)), or for TF-IDF the raw tf
 	// divided by the row's TF-IDF norm.
-	TFPart float64
+	TFPart float64 `json:"tf_part"`
 	// QueryWeight is the query side: for BM25 1 per target row holding the
 	// term; for TF-IDF the target's normalised weight (Max) or its mean over
 	// the target rows (Sum).
-	QueryWeight float64
+	QueryWeight float64 `json:"query_weight"`
 	// Contribution is (QueryWeight·IDF)·TFPart, rounded as Score rounds it.
-	Contribution float64
+	Contribution float64 `json:"contribution"`
 }
 
 // TargetMatch is one target row's score against a pool row.

@@ -99,6 +99,10 @@ func commandList(cmds []command) string {
 // help prints the overview, or one command's usage, on stdout: help asked for is output.
 func help(cmds []command, args []string, e *env) int {
 	if len(args) > 1 && args[0] == "help" {
+		if args[1] == "help" {
+			fmt.Fprintln(e.stdout, "Usage:\n  sluice help [COMMAND]\n\nShows the commands, or one command's flags and examples.")
+			return 0
+		}
 		for _, c := range cmds {
 			if c.name() == args[1] {
 				fs := c.flags()
@@ -141,6 +145,10 @@ func runCommand(ctx context.Context, c command, args []string, e *env) int {
 	switch {
 	case err == nil:
 		return 0
+	case ctx.Err() != nil && errors.Is(err, ctx.Err()):
+		// Ctrl-C or SIGTERM: what was being written was not published, so nothing is half made.
+		fmt.Fprintf(e.stderr, "sluice %s: interrupted; nothing was published\n", name)
+		return 130
 	case errors.As(err, &ue):
 		fmt.Fprintf(e.stderr, "sluice %s: %v\nRun 'sluice %s --help' for usage.\n", name, err, name)
 		return 2

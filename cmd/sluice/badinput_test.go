@@ -214,7 +214,7 @@ func TestBadPoolInput(t *testing.T) {
 			if code != tc.code {
 				t.Fatalf("exit %d, want %d; stderr:\n%s", code, tc.code, stderr)
 			}
-			hasAll(t, "stderr", stderr, tc.msg)
+			hasAll(t, "output", stdout+stderr, tc.msg)
 			if code != 0 {
 				if stdout != "" {
 					t.Errorf("stdout %q after a failure", stdout)
@@ -222,7 +222,7 @@ func TestBadPoolInput(t *testing.T) {
 				assertNothingWritten(t, filepath.Join(dir, "idx"))
 				return
 			}
-			checkIndexed(t, tc, stderr)
+			checkIndexed(t, tc, stdout)
 			if len(tc.rejects) > 0 {
 				checkStrict(t, tc, flags)
 			}
@@ -293,12 +293,12 @@ func checkPicked(t *testing.T, tc poolCase) {
 	if tc.targetText != "" {
 		args = append(args, "--target-text", tc.targetText, "--other-target-text")
 	}
-	code, _, stderr := sluice(t, args...)
+	code, stdout, stderr := sluice(t, args...)
 	if code != 0 {
 		t.Fatalf("pick: exit %d: %s", code, stderr)
 	}
 	recon := fmt.Sprintf("rows: read %d = indexed %d + quarantined %d; target rows: read 1 = used 1 + quarantined 0", tc.read, tc.indexed, len(tc.rejects))
-	hasAll(t, "pick summary", stderr, []string{strings.Replace(recon, "rows: ", "rows       ", 1)})
+	hasAll(t, "pick summary", stdout, []string{strings.Replace(recon, "rows: ", "rows       ", 1)})
 	var led struct{ Notes []string }
 	b, _ := os.ReadFile(filepath.Join("run", "ledger.json"))
 	if err := json.Unmarshal(b, &led); err != nil {
@@ -497,11 +497,11 @@ func TestBadPickInput(t *testing.T) {
 	}
 
 	t.Run("target sharing no term", func(t *testing.T) {
-		code, _, stderr := sluice(t, append(append([]string{"pick"}, with("--target", "target-no-match.jsonl")...), "--out", "run-nomatch")...)
+		code, stdout, stderr := sluice(t, append(append([]string{"pick"}, with("--target", "target-no-match.jsonl")...), "--out", "run-nomatch")...)
 		if code != 0 {
 			t.Fatalf("exit %d: %s", code, stderr)
 		}
-		hasAll(t, "summary", stderr, []string{"picked 0 of 3 rows", "warning    no pool row shares a term with the target rows",
+		hasAll(t, "summary", stdout, []string{"picked 0 of 3 rows", "warning    no pool row shares a term with the target rows",
 			"rows       read 3 = indexed 3 + quarantined 0; target rows: read 1 = used 1 + quarantined 0"})
 		scores := readScores(t, filepath.Join("run-nomatch", "scores.jsonl"))
 		if len(scores) != 3 {
@@ -517,11 +517,11 @@ func TestBadPickInput(t *testing.T) {
 		}
 	})
 	t.Run("target with a bad row", func(t *testing.T) {
-		code, _, stderr := sluice(t, append(append([]string{"pick"}, with("--target", "text-null.jsonl")...), "--out", "run-trej")...)
+		code, stdout, stderr := sluice(t, append(append([]string{"pick"}, with("--target", "text-null.jsonl")...), "--out", "run-trej")...)
 		if code != 0 {
 			t.Fatalf("exit %d: %s", code, stderr)
 		}
-		hasAll(t, "summary", stderr, []string{"target rows: read 3 = used 2 + quarantined 1", "quarantine run-trej/rejected.jsonl (target rows)"})
+		hasAll(t, "summary", stdout, []string{"target rows: read 3 = used 2 + quarantined 1", "quarantine run-trej/rejected.jsonl (target rows)"})
 		rej := readRejects(t, filepath.Join("run-trej", "rejected.jsonl"))
 		want := index.Reject{File: "text-null.jsonl", Line: 2, Offset: 61, Length: 24, Reason: "no text: no string at text", Raw: `{"id":"b1","text":null}`}
 		if len(rej) != 1 || rej[0] != want {
@@ -577,7 +577,7 @@ func TestHugeRow(t *testing.T) {
 			var before, after runtime.MemStats
 			runtime.GC()
 			runtime.ReadMemStats(&before)
-			code, _, stderr := sluice(t, append(append([]string{"index", "--text", "text", "--id", "id", "--out", out}, tc.flags...), "huge.jsonl")...)
+			code, stdout, stderr := sluice(t, append(append([]string{"index", "--text", "text", "--id", "id", "--out", out}, tc.flags...), "huge.jsonl")...)
 			runtime.ReadMemStats(&after)
 			if code != 0 {
 				t.Fatalf("exit %d: %s", code, stderr)
@@ -585,7 +585,7 @@ func TestHugeRow(t *testing.T) {
 			if alloc := after.TotalAlloc - before.TotalAlloc; alloc > tc.maxAlloc {
 				t.Errorf("allocated %d MiB for a %d MiB line, want at most %d MiB", alloc>>20, lineBytes>>20, tc.maxAlloc>>20)
 			}
-			hasAll(t, "summary", stderr, []string{"read 3 = indexed 2 + quarantined 1"})
+			hasAll(t, "summary", stdout, []string{"read 3 = indexed 2 + quarantined 1"})
 			rej := readRejects(t, filepath.Join(out, "rejected.jsonl"))
 			want := index.Reject{File: "huge.jsonl", Line: 2, Offset: 61, Length: hugeLen,
 				Reason: fmt.Sprintf("row longer than --max-row-bytes (%d bytes)", hugeLen)}

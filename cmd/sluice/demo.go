@@ -150,7 +150,7 @@ func printDemoTopics(e *env, pool, runDir string, rows int64, kept int) error {
 		if t.name == want {
 			mark = "   <- the target task"
 		}
-		fmt.Fprintf(w, "  %-22s %4d of %4d rows kept (%4.1f%% of the pool)%s\n", t.name, t.kept, t.pool, 100*float64(t.pool)/float64(rows), mark)
+		fmt.Fprintf(w, "  %-22s %4d of %4d rows kept (the topic is %4.1f%% of the pool)%s\n", t.name, t.kept, t.pool, 100*float64(t.pool)/float64(rows), mark)
 	}
 	if restTopics > 0 {
 		fmt.Fprintf(w, "  %d other topics           0 of %4d rows kept\n", restTopics, restRows)

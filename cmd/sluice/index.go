@@ -171,17 +171,17 @@ func printIndexSummary(e *env, out string, st *index.Stats) {
 	if m.TextDetected {
 		how = "detected; pass --text to choose"
 	}
-	fmt.Fprintf(e.stderr, "indexed %d rows from %d file(s) into %s\n", m.Rows, len(m.Sources), out)
-	fmt.Fprintf(e.stderr, "  text fields   %s (%s)\n", m.Text, how)
-	fmt.Fprintf(e.stderr, "  analyzer      %s\n", m.Analyzer)
-	fmt.Fprintf(e.stderr, "  rows          read %d = indexed %d + quarantined %d (blank lines skipped: %d)\n", m.RowsRead, m.Rows, m.RowsRejected, m.BlankLines)
-	fmt.Fprintf(e.stderr, "  terms         %d distinct, %d postings, mean row length %.1f terms\n", m.Terms, m.Postings, m.AvgLen)
+	fmt.Fprintf(e.stdout, "indexed %d rows from %d file(s) into %s\n", m.Rows, len(m.Sources), out)
+	fmt.Fprintf(e.stdout, "  text fields   %s (%s)\n", m.Text, how)
+	fmt.Fprintf(e.stdout, "  analyzer      %s\n", m.Analyzer)
+	fmt.Fprintf(e.stdout, "  rows          read %d = indexed %d + quarantined %d (blank lines skipped: %d)\n", m.RowsRead, m.Rows, m.RowsRejected, m.BlankLines)
+	fmt.Fprintf(e.stdout, "  terms         %d distinct, %d postings, mean row length %.1f terms\n", m.Terms, m.Postings, m.AvgLen)
 	if d := st.FirstDuplicate; d != nil {
 		// Allowed, not quarantined: the rows are good, only their names clash.
-		fmt.Fprintf(e.stderr, "  ids           %d rows repeat an earlier row's id (kept; scores.jsonl is in input order), the first %s at %s:%d and %s:%d\n",
+		fmt.Fprintf(e.stdout, "  ids           %d rows repeat an earlier row's id (kept; scores.jsonl is in input order), the first %s at %s:%d and %s:%d\n",
 			m.DuplicateIDs, strconv.Quote(d.ID), d.First.File, d.First.Line, d.Second.File, d.Second.Line)
 	}
 	if m.RowsRejected > 0 {
-		fmt.Fprintf(e.stderr, "  quarantine    %s/rejected.jsonl\n", out)
+		fmt.Fprintf(e.stdout, "  quarantine    %s/rejected.jsonl\n", out)
 	}
 }

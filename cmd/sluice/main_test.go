@@ -100,13 +100,13 @@ func TestIndexAndPick(t *testing.T) {
 			for _, fill := range []string{"--fill=false", "--fill"} {
 				t.Run(method+"/"+agg+fill, func(t *testing.T) {
 					out := filepath.Join(dir, "run-"+method+agg+fill)
-					code, _, stderr := sluice(t, "pick", "--index", idx, "--target", target, "--method", method,
+					code, stdout, stderr := sluice(t, "pick", "--index", idx, "--target", target, "--method", method,
 						"--aggregate", agg, fill, "--budget", "5e12", "--train-params", "125M", "--out", out)
 					if code != 0 {
 						t.Fatalf("pick: exit %d: %s", code, stderr)
 					}
-					if !strings.Contains(stderr, "picked") {
-						t.Errorf("no summary on stderr: %q", stderr)
+					if !strings.Contains(stdout, "picked") || stderr != "" {
+						t.Errorf("the summary belongs on stdout, nothing on stderr: %q, %q", stdout, stderr)
 					}
 					scores := readScores(t, filepath.Join(out, "scores.jsonl"))
 					if len(scores) != len(poolLines) {

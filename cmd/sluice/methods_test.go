@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"context"
 	"encoding/json"
+	"fmt"
 	"math"
 	"os"
 	"path/filepath"
@@ -157,5 +158,70 @@ func TestIndexIdentityIsItsContent(t *testing.T) {
 	}
 	if code, _, stderr := sluice(t, "verify", out); code != 1 || !strings.Contains(stderr, "not the index the run used") {
 		t.Errorf("verify after a rebuild of other content: exit %d: %s", code, stderr)
+	}
+}
+
+// TestCommandLineManners: results on stdout and nothing else there; every missing flag named at
+// once; help about help; an interrupted command says so and exits 130 with nothing published.
+func TestCommandLineManners(t *testing.T) {
+	code, _, stderr := sluice(t, "pick")
+	if code != 2 || !strings.Contains(stderr, "these are required: --index, --target, --out, --train-params, a budget") {
+		t.Errorf("pick with nothing: exit %d: %s", code, stderr)
+	}
+	if code, stdout, _ := sluice(t, "help", "help"); code != 0 || !strings.Contains(stdout, "sluice help [COMMAND]") {
+		t.Errorf("help help: exit %d: %s", code, stdout)
+	}
+	dir, idx, target := demoIndex(t)
+	ctx, cancel := context.WithCancel(context.Background())
+	cancel()
+	var out, errb bytes.Buffer
+	args := []string{"pick", "--index", idx, "--target", target, "--budget", "6e12", "--train-params", "125M", "--out", filepath.Join(dir, "run")}
+	if code := dispatch(ctx, args, &env{stdin: strings.NewReader(""), stdout: &out, stderr: &errb}); code != 130 || !strings.Contains(errb.String(), "interrupted") {
+		t.Errorf("interrupted pick: exit %d: %s", code, errb.String())
+	}
+	if _, err := os.Stat(filepath.Join(dir, "run")); !os.IsNotExist(err) {
+		t.Errorf("an interrupted pick published its run: %v", err)
+	}
+	code, stdout, stderr := sluice(t, "pick", "--index", idx, "--target", target, "--budget", "6e12", "--train-params", "125M", "--out", filepath.Join(dir, "run"))
+	if code != 0 || !strings.Contains(stdout, "picked") || !strings.Contains(stdout, "40 target rows") || !strings.Contains(stdout, "manifest.json") || stderr != "" {
+		t.Errorf("pick: exit %d, stdout %q, stderr %q", code, stdout, stderr)
+	}
+}
+
+// TestBudgetsAsPeopleStateThem: rates as GPUs are quoted, named accelerators, and wall-clock hours
+// on several GPUs all give the FLOPs they should (hours x 3600 x peak x MFU).
+func TestBudgetsAsPeopleStateThem(t *testing.T) {
+	dir, idx, target := demoIndex(t)
+	for i, tc := range []struct {
+		flags string
+		want  float64
+	}{
+		{"--gpu-hours 1 --gpu-flops 989TF --mfu 0.4", 1 * 3600 * 989e12 * 0.4},
+		{"--gpu-hours 1 --gpu-flops h100-sxm --mfu 0.4", 1 * 3600 * 989e12 * 0.4},
+		{"--gpus 8 --hours 2 --gpu-flops 312t --mfu 0.5", 16 * 3600 * 312e12 * 0.5},
+		{"--budget 400p", 4e17},
+	} {
+		out := filepath.Join(dir, fmt.Sprintf("run%d", i))
+		args := append([]string{"pick", "-q", "--index", idx, "--target", target, "--train-params", "125M", "--out", out}, strings.Fields(tc.flags)...)
+		if code, _, stderr := sluice(t, args...); code != 0 {
+			t.Fatalf("%s: exit %d: %s", tc.flags, code, stderr)
+		}
+		l, err := run.ReadLedger(out)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if math.Abs(l.Budget-tc.want) > 1e-9*tc.want {
+			t.Errorf("%s: budget %v, want %v", tc.flags, l.Budget, tc.want)
+		}
+	}
+	for _, tc := range []struct{ flags, want string }{
+		{"--gpus 8 --gpu-flops a100 --mfu 0.4", "--gpus and --hours go together"},
+		{"--gpu-hours 3 --gpus 8 --hours 2 --gpu-flops a100 --mfu 0.4", "not both"},
+		{"--gpu-hours 3 --gpu-flops abacus --mfu 0.4", "or name an accelerator: a100"},
+	} {
+		args := append([]string{"pick", "--index", idx, "--target", target, "--train-params", "125M", "--out", filepath.Join(dir, "x")}, strings.Fields(tc.flags)...)
+		if code, _, stderr := sluice(t, args...); code != 2 || !strings.Contains(stderr, tc.want) {
+			t.Errorf("%s: exit %d: %q lacks %q", tc.flags, code, stderr, tc.want)
+		}
 	}
 }

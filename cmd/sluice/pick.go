@@ -1,6 +1,7 @@
 package main
 
 import (
+	"cmp"
 	"context"
 	"fmt"
 	"io"
@@ -66,10 +67,7 @@ evaluation sets from the pool before picking, or the pick will find them.`,
 	fs.String("prefilter", "", "before a model-based method, keep only the best rows by a lexical method:\nMETHOD:SHARE% (bm25:20%) or METHOD:TOKENS (tfidf:50M); the rest are never scored")
 	fs.Float64("k1", 1.2, "BM25 term-frequency saturation")
 	fs.Float64("b", 0.75, "BM25 length normalisation")
-	fs.String("budget", "", "total FLOPs for selection plus training, e.g. 2.5e18 or 400P")
-	fs.Float64("gpu-hours", 0, "budget as GPU hours (with --gpu-flops and --mfu)")
-	fs.String("gpu-flops", "", "peak FLOP/s of one GPU, e.g. 989T")
-	fs.Float64("mfu", 0, "model FLOPs utilisation, a fraction in (0,1]")
+	addBudgetFlags(fs)
 	fs.String("train-params", "", "parameters of the model to be trained, e.g. 7B or 1.3e9 (required)")
 	fs.Float64("epochs", 1, "training epochs over the kept rows")
 	fs.Bool("fill", false, "after the first row that does not fit, keep scanning for rows that do")
@@ -103,7 +101,7 @@ func pick(ctx context.Context, e *env, opt run.Options, quiet bool) (*run.Result
 	started := time.Now()
 	res, err := run.Pick(ctx, opt)
 	if err == nil && !quiet {
-		printPickSummary(e.stderr, opt, res, time.Since(started))
+		printPickSummary(e.stdout, opt, res, time.Since(started))
 	}
 	return res, err
 }
@@ -122,10 +120,24 @@ func pickOptions(fs *pflag.FlagSet) (run.Options, error) {
 	default:
 		return opt, usagef("--compress %q: give none, gzip or zstd", opt.Compress)
 	}
-	for _, req := range []struct{ v, name string }{{opt.Index, "--index"}, {opt.Target, "--target"}, {opt.Out, "--out"}} {
+	var missing []string
+	for _, req := range []struct{ v, name string }{{opt.Index, "--index"}, {opt.Target, "--target"}, {opt.Out, "--out"}, {str("train-params"), "--train-params"}} {
 		if req.v == "" {
-			return opt, usagef("%s is required", req.name)
+			missing = append(missing, req.name)
 		}
+	}
+	if !budgetGiven(fs) {
+		missing = append(missing, "a budget (--budget FLOPS, or --gpu-hours with --gpu-flops and --mfu)")
+	}
+	switch len(missing) {
+	case 0:
+	case 1:
+		if strings.HasPrefix(missing[0], "a budget") {
+			return opt, usagef("a budget is required: --budget FLOPS, or --gpu-hours with --gpu-flops and --mfu")
+		}
+		return opt, usagef("%s is required", missing[0])
+	default:
+		return opt, usagef("these are required: %s", strings.Join(missing, ", "))
 	}
 	if opt.Analyzer != "" && !slices.Contains(analysis.Names(), opt.Analyzer) {
 		return opt, usagef("--analyzer %q: give %s", opt.Analyzer, strings.Join(analysis.Names(), " or "))
@@ -242,44 +254,6 @@ func methodFlags(fs *pflag.FlagSet, opt *run.Options) error {
 	return nil
 }
 
-// budgetFlags resolves --budget, or --gpu-hours with --gpu-flops and --mfu, to FLOPs and says how
-// the budget was given.
-func budgetFlags(fs *pflag.FlagSet) (float64, string, error) {
-	b, _ := fs.GetString("budget")
-	gh, _ := fs.GetFloat64("gpu-hours")
-	gf, _ := fs.GetString("gpu-flops")
-	mfu, _ := fs.GetFloat64("mfu")
-	// Changed, not the values, says what was given: --mfu 0 is a bad MFU, not a missing one.
-	ghSet, gfSet, mfuSet := fs.Changed("gpu-hours"), fs.Changed("gpu-flops"), fs.Changed("mfu")
-	switch {
-	case fs.Changed("budget") && (ghSet || gfSet || mfuSet):
-		return 0, "", usagef("give either --budget or --gpu-hours with --gpu-flops and --mfu, not both")
-	case fs.Changed("budget"):
-		v, err := budget.ParseFLOPs(b)
-		if err != nil {
-			return 0, "", usagef("--budget: %v", err)
-		}
-		return v, "--budget " + b, nil
-	case !ghSet && !gfSet && !mfuSet:
-		return 0, "", usagef("a budget is required: --budget FLOPS, or --gpu-hours with --gpu-flops and --mfu")
-	case !ghSet || !gfSet || !mfuSet:
-		return 0, "", usagef("--gpu-hours needs --gpu-flops and --mfu too (there are no defaults for them)")
-	case !(gh > 0 && !math.IsInf(gh, 0)):
-		return 0, "", usagef("--gpu-hours %v: must be a finite number above 0", gh)
-	case !(mfu > 0 && mfu <= 1):
-		return 0, "", usagef("--mfu %v: must be a fraction above 0 and at most 1", mfu)
-	}
-	peak, err := budget.ParseFLOPs(gf)
-	if err != nil {
-		return 0, "", usagef("--gpu-flops: %v", err)
-	}
-	v, err := budget.FromGPUHours(gh, peak, mfu)
-	if err != nil {
-		return 0, "", usagef("%v", err)
-	}
-	return v, fmt.Sprintf("%g GPU-hours x %s FLOP/s x MFU %g", gh, gf, mfu), nil
-}
-
 // trainingFlags resolves the trained model's size, the epochs and the stops of the pick.
 func trainingFlags(fs *pflag.FlagSet, opt *run.Options) error {
 	tp, _ := fs.GetString("train-params")
@@ -317,8 +291,8 @@ func printPickSummary(w io.Writer, opt run.Options, res *run.Result, took time.D
 		return fmt.Sprintf("%.1f%%", 100*v/l.Budget)
 	}
 	var sb strings.Builder
-	fmt.Fprintf(&sb, "picked %d of %d rows (%d tokens) with %s against %d target rows in %s\n",
-		len(res.Kept), res.Rows, res.KeptTokens, res.Settings.MethodName(), res.Targets, took.Round(time.Millisecond))
+	fmt.Fprintf(&sb, "picked %d of %d rows (%d tokens) with %s against %s in %s\n",
+		len(res.Kept), res.Rows, res.KeptTokens, res.Settings.MethodName(), plural(res.Targets, "target row"), took.Round(time.Millisecond))
 	fmt.Fprintf(&sb, "  budget     %s FLOPs (%s)\n", budget.FormatFLOPs(l.Budget), opt.BudgetHow)
 	fmt.Fprintf(&sb, "  selection  %s FLOPs (%s)\n", budget.FormatFLOPs(l.Selection()), pct(l.Selection()))
 	fmt.Fprintf(&sb, "  training   %s FLOPs (%s)\n", budget.FormatFLOPs(l.Training()), pct(l.Training()))
@@ -326,14 +300,50 @@ func printPickSummary(w io.Writer, opt run.Options, res *run.Result, took time.D
 	fmt.Fprintf(&sb, "  stopped    %s\n", l.Stop)
 	if res.Summary.Stop == selection.StopNoMatch && res.Summary.StopRank == 1 {
 		fmt.Fprintf(&sb, "  warning    no pool row shares a term with the target rows: check --target-text and that the target is the task you meant\n")
+	} else if res.Summary.Stop == selection.StopNoMatch || res.Summary.Stop == selection.StopExhausted {
+		fmt.Fprintf(&sb, "  note       the budget buys more than the pool holds worth keeping: %s of it is left; every row that matches at all was kept\n", pct(l.Left()))
 	}
 	fmt.Fprintf(&sb, "  %s\n", strings.Replace(res.Reconciliation(), "rows: ", "rows       ", 1))
+	printSources(&sb, res)
 	if res.Meta.RowsRejected > 0 {
 		fmt.Fprintf(&sb, "  quarantine %s/rejected.jsonl (pool rows)\n", opt.Index)
 	}
 	if res.TargetsRejected > 0 {
 		fmt.Fprintf(&sb, "  quarantine %s/rejected.jsonl (target rows)\n", opt.Out)
 	}
-	fmt.Fprintf(&sb, "  wrote      %s/{%s,scores.jsonl,ledger.json,rejected.jsonl}\n", opt.Out, run.KeptName(opt.Compress))
+	fmt.Fprintf(&sb, "  wrote      %s/{%s}\n", opt.Out, strings.Join(res.Files, ","))
 	fmt.Fprint(w, sb.String())
+}
+
+// summarySources is how many pool files the pick summary names; the rest share one line.
+const summarySources = 8
+
+// printSources lists the pool files that gave the most kept tokens.
+func printSources(sb *strings.Builder, res *run.Result) {
+	if len(res.Sources) < 2 {
+		return
+	}
+	src := slices.Clone(res.Sources)
+	slices.SortStableFunc(src, func(a, b run.SourceTally) int { return cmp.Compare(b.KeptTokens, a.KeptTokens) })
+	fmt.Fprintf(sb, "  by file    kept rows of rows, kept tokens\n")
+	for i, s := range src {
+		if i == summarySources {
+			var rows, kept int
+			var tok int64
+			for _, r := range src[i:] {
+				rows, kept, tok = rows+r.Rows, kept+r.KeptRows, tok+r.KeptTokens
+			}
+			fmt.Fprintf(sb, "             %d more files: %d of %d rows, %d tokens\n", len(src)-i, kept, rows, tok)
+			break
+		}
+		fmt.Fprintf(sb, "             %s: %d of %d rows, %d tokens\n", s.File, s.KeptRows, s.Rows, s.KeptTokens)
+	}
+}
+
+// plural writes n with a noun, adding an s when n is not 1.
+func plural(n int, noun string) string {
+	if n == 1 {
+		return "1 " + noun
+	}
+	return fmt.Sprintf("%d %ss", n, noun)
 }

@@ -2,15 +2,19 @@ package main
 
 import (
 	"bufio"
+	"cmp"
 	"context"
 	"encoding/json"
 	"fmt"
+	"math"
+	"slices"
 	"strings"
 	"text/tabwriter"
 
 	"github.com/spf13/pflag"
 
 	"sluice/budget"
+	"sluice/score"
 	"sluice/select/audit"
 )
 
@@ -75,14 +79,20 @@ func printWhy(w *bufio.Writer, r audit.Row) {
 	fmt.Fprintf(w, "  score   %v (%s), rank %d of %d\n", r.Score, r.Method, r.Rank, r.Rows)
 	fmt.Fprintf(w, "  fate    %s\n", r.Why)
 	fmt.Fprintf(w, "  ledger  %s of %s FLOPs after it; its %d tokens\n", budget.FormatFLOPs(r.Ledger), budget.FormatFLOPs(r.Budget), r.Tokens)
-	if len(r.Parts) > 0 {
-		fmt.Fprintf(w, "  terms   (contributions add up to the score)\n")
+	fmt.Fprintf(w, "  text    %s\n", r.Text)
+	switch {
+	case len(r.Parts) > 0:
+		fmt.Fprintf(w, "  terms   largest contribution first (they add up to the score)\n")
 		tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
 		fmt.Fprintf(tw, "\tterm\ttf\tdf\tidf\ttf part\tweight\tcontribution\t\n")
-		for _, p := range r.Parts {
+		parts := slices.Clone(r.Parts)
+		slices.SortStableFunc(parts, func(a, b score.Part) int { return cmp.Compare(b.Contribution, a.Contribution) })
+		for _, p := range parts {
 			fmt.Fprintf(tw, "\t%s\t%d\t%d\t%.4f\t%.4f\t%.4g\t%.6g\t\n", p.Term, p.TF, p.DF, p.IDF, p.TFPart, p.QueryWeight, p.Contribution)
 		}
 		tw.Flush()
+	case len(r.Words) == 0 && !math.IsNaN(r.Score):
+		fmt.Fprintf(w, "  terms   none: this row shares no term with any target row, so its score is 0\n")
 	}
 	if len(r.Words) > 0 {
 		fmt.Fprintf(w, "  tokens  that moved the score most (part = (target - pool log-probability) / symbols)\n")

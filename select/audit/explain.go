@@ -1,11 +1,13 @@
 package audit
 
 import (
+	"bytes"
 	"context"
 	"encoding/json"
 	"fmt"
 	"math"
 	"sort"
+	"unicode/utf8"
 
 	"sluice/budget"
 	"sluice/index"
@@ -30,6 +32,7 @@ type Row struct {
 	Ledger  float64      `json:"ledger"`
 	Budget  float64      `json:"budget"`
 	Method  string       `json:"method"`
+	Text    string       `json:"text"`            // the row as it stands in its file, cut at textBytes
 	Parts   []score.Part `json:"parts"`           // lexical methods: the terms that made the score
 	Words   []Word       `json:"words,omitempty"` // n-gram: the tokens that moved the score most
 	Targets []Target     `json:"targets"`
@@ -60,6 +63,26 @@ type Word struct {
 	TargetOrder int     `json:"target_order"`
 	PoolOrder   int     `json:"pool_order"`
 	Part        float64 `json:"part"`
+}
+
+// textBytes caps the row text an explanation carries: enough to recognise the row.
+const textBytes = 2000
+
+// rowText reads a row's line from its pool file, cut at textBytes on a character boundary.
+func (x *Explainer) rowText(row int) string {
+	var b bytes.Buffer
+	if err := x.ix.CopyRows(&b, []int{row}); err != nil {
+		return "(the row could not be read again: " + err.Error() + ")"
+	}
+	t := bytes.TrimRight(b.Bytes(), "\r\n")
+	if len(t) > textBytes {
+		cut := textBytes
+		for cut > 0 && !utf8.RuneStart(t[cut]) {
+			cut--
+		}
+		return string(t[:cut]) + " …"
+	}
+	return string(t)
 }
 
 // words is how many of a row's tokens an n-gram explanation lists, largest part (either sign)
@@ -177,7 +200,7 @@ func (x *Explainer) Explain(s run.Score, top int) (Row, error) {
 	loc := x.ix.RowLocation(s.Row)
 	r := Row{ID: s.ID, Row: s.Row, Source: fmt.Sprintf("%s:%d", loc.File, loc.Line), Score: s.Score, Rank: s.Rank,
 		Rows: x.ix.NumRows(), Kept: s.Kept, Reason: s.Reason, Tokens: s.Tokens, Ledger: s.Ledger,
-		Budget: st.Budget, Method: st.MethodName()}
+		Budget: st.Budget, Method: st.MethodName(), Text: x.rowText(s.Row)}
 	var got float64
 	switch {
 	case math.IsNaN(s.Score):

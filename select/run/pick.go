@@ -61,6 +61,15 @@ type Result struct {
 	KeptTokens      int64
 	Ledger          *budget.Ledger
 	Summary         selection.Summary
+	Sources         []SourceTally // per pool file, in the index's order
+	Files           []string      // the files written into the run folder, manifest last
+}
+
+// SourceTally is what a pick kept of one pool file.
+type SourceTally struct {
+	File               string
+	Rows, KeptRows     int
+	Tokens, KeptTokens int64
 }
 
 // Reconciliation is the line every pick summary and ledger carries, so no row vanishes unseen.
@@ -198,8 +207,13 @@ func (p *picked) readTargets() error {
 	case len(p.targets) == 0 && len(p.trej) == 0:
 		return fmt.Errorf("read target %s: the target set is empty: no rows to pick for; nothing was written", opt.Target)
 	case len(p.targets) == 0:
-		return fmt.Errorf("read target %s: no usable target rows: all %d quarantined, the first at line %d: %s; nothing was written",
-			opt.Target, len(p.trej), p.trej[0].Line, p.trej[0].Reason)
+		hint := ""
+		if strings.HasPrefix(p.trej[0].Reason, "no text") {
+			// Most often the target file names its fields otherwise than the pool does.
+			hint = fmt.Sprintf(" (the target was read with the text fields %s; if its rows name them otherwise, give --target-text FIELDS with --other-target-text)", p.spec)
+		}
+		return fmt.Errorf("read target %s: no usable target rows: all %d quarantined, the first at line %d: %s%s; nothing was written",
+			opt.Target, len(p.trej), p.trej[0].Line, p.trej[0].Reason, hint)
 	}
 	return nil
 }
@@ -249,10 +263,19 @@ func (p *picked) keep() error {
 	}
 	p.dec = dec
 	r := &p.out
+	r.Sources = make([]SourceTally, len(m.Sources))
+	for i, src := range m.Sources {
+		r.Sources[i].File = src.Path
+	}
 	for row, d := range dec {
+		st := &r.Sources[p.ix.RowLocation(row).Source]
+		st.Rows++
+		st.Tokens += p.tokens[row]
 		if d.Kept {
 			r.Kept = append(r.Kept, row)
 			r.KeptTokens += p.tokens[row]
+			st.KeptRows++
+			st.KeptTokens += p.tokens[row]
 		}
 	}
 	led.AddTraining(fmt.Sprintf("train %s-parameter model on kept rows", budget.FormatCount(opt.TrainParams)), "token", float64(r.KeptTokens), unit,

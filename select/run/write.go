@@ -74,6 +74,13 @@ func (p *picked) write() error {
 	if err := writeManifest(tmp, p.manifest(), hashes); err != nil {
 		return err
 	}
+	for _, o := range outs {
+		p.out.Files = append(p.out.Files, o.name)
+	}
+	if p.target != opt.Target {
+		p.out.Files = append(p.out.Files, TargetCopy)
+	}
+	p.out.Files = append(p.out.Files, ManifestFile)
 	if err := atomicdir.Publish(tmp, opt.Out); err != nil {
 		return err
 	}

@@ -1,0 +1,127 @@
+package main
+
+import (
+	"fmt"
+	"math"
+	"strings"
+
+	"github.com/spf13/pflag"
+
+	"sluice/budget"
+)
+
+// hourFlags are the flags that give a budget as time on accelerators.
+var hourFlags = []string{"gpu-hours", "gpus", "hours", "gpu-flops", "mfu"}
+
+// addBudgetFlags declares the ways a budget can be given: FLOPs, or time on accelerators.
+func addBudgetFlags(fs *pflag.FlagSet) {
+	var names []string
+	for _, a := range budget.Accelerators() {
+		names = append(names, a.Name)
+	}
+	fs.String("budget", "", "total FLOPs for selection plus training, e.g. 2.5e18 or 400P")
+	fs.Float64("gpu-hours", 0, "budget as GPU-hours in total, over all GPUs (with --gpu-flops and --mfu)")
+	fs.Int("gpus", 0, "budget as --hours of wall-clock time on this many GPUs (with --gpu-flops and --mfu)")
+	fs.Float64("hours", 0, "wall-clock hours on --gpus GPUs")
+	fs.String("gpu-flops", "", "peak FLOP/s of one GPU for your precision, e.g. 989T, or a name: "+strings.Join(names, ", "))
+	fs.Float64("mfu", 0, "model FLOPs utilisation, a fraction in (0,1]; 0.3-0.5 is common for dense training")
+}
+
+// budgetGiven reports whether any budget flag was given.
+func budgetGiven(fs *pflag.FlagSet) bool {
+	if fs.Changed("budget") {
+		return true
+	}
+	for _, f := range hourFlags {
+		if fs.Changed(f) {
+			return true
+		}
+	}
+	return false
+}
+
+// budgetFlags resolves --budget, or time on accelerators (--gpu-hours, or --gpus with --hours)
+// with --gpu-flops and --mfu, to FLOPs, and says how the budget was given.
+func budgetFlags(fs *pflag.FlagSet) (float64, string, error) {
+	if fs.Changed("budget") {
+		for _, f := range hourFlags {
+			if fs.Changed(f) {
+				return 0, "", usagef("give either --budget or GPU time (--gpu-hours, or --gpus and --hours, with --gpu-flops and --mfu), not both")
+			}
+		}
+		b, _ := fs.GetString("budget")
+		v, err := budget.ParseFLOPs(b)
+		if err != nil {
+			return 0, "", usagef("--budget: %v", err)
+		}
+		return v, "--budget " + b, nil
+	}
+	if !budgetGiven(fs) {
+		return 0, "", usagef("a budget is required: --budget FLOPS, or --gpu-hours with --gpu-flops and --mfu")
+	}
+	hours, how, err := gpuHours(fs)
+	if err != nil {
+		return 0, "", err
+	}
+	mfu, _ := fs.GetFloat64("mfu")
+	gf, _ := fs.GetString("gpu-flops")
+	// Changed, not the values, says what was given: --mfu 0 is a bad MFU, not a missing one.
+	switch {
+	case !fs.Changed("gpu-flops") || !fs.Changed("mfu"):
+		return 0, "", usagef("GPU time needs --gpu-flops and --mfu too (there are no defaults for them)")
+	case !(mfu > 0 && mfu <= 1):
+		return 0, "", usagef("--mfu %v: must be a fraction above 0 and at most 1", mfu)
+	}
+	peak, rate, err := gpuRate(gf)
+	if err != nil {
+		return 0, "", err
+	}
+	v, err := budget.FromGPUHours(hours, peak, mfu)
+	if err != nil {
+		return 0, "", usagef("%v", err)
+	}
+	return v, fmt.Sprintf("%s x %s x MFU %g", how, rate, mfu), nil
+}
+
+// gpuHours reads the GPU-hours in total: --gpu-hours, or --gpus times --hours.
+func gpuHours(fs *pflag.FlagSet) (float64, string, error) {
+	gh, _ := fs.GetFloat64("gpu-hours")
+	n, _ := fs.GetInt("gpus")
+	h, _ := fs.GetFloat64("hours")
+	switch {
+	case fs.Changed("gpu-hours") && (fs.Changed("gpus") || fs.Changed("hours")):
+		return 0, "", usagef("give --gpu-hours (in total) or --gpus with --hours (wall-clock), not both")
+	case fs.Changed("gpu-hours"):
+		if !(gh > 0 && !math.IsInf(gh, 0)) {
+			return 0, "", usagef("--gpu-hours %v: must be a finite number above 0", gh)
+		}
+		return gh, fmt.Sprintf("%g GPU-hours", gh), nil
+	case fs.Changed("gpus") != fs.Changed("hours"):
+		return 0, "", usagef("--gpus and --hours go together: the wall-clock hours on that many GPUs")
+	case !fs.Changed("gpus"):
+		return 0, "", usagef("GPU time needs --gpu-hours, or --gpus with --hours")
+	case n < 1 || n > 1_000_000:
+		return 0, "", usagef("--gpus %d: give 1 to 1000000", n)
+	case !(h > 0 && !math.IsInf(h, 0)):
+		return 0, "", usagef("--hours %v: must be a finite number above 0", h)
+	}
+	return float64(n) * h, fmt.Sprintf("%d GPUs x %g hours", n, h), nil
+}
+
+// gpuRate reads --gpu-flops: a peak rate, or the name of an accelerator whose data-sheet peak is
+// taken.
+func gpuRate(s string) (float64, string, error) {
+	peak, perr := budget.ParseFLOPs(s)
+	if perr == nil {
+		return peak, s + " FLOP/s", nil
+	}
+	a, err := budget.LookupAccelerator(s)
+	if err != nil {
+		var names []string
+		for _, a := range budget.Accelerators() {
+			names = append(names, a.Name)
+		}
+		return 0, "", usagef("--gpu-flops: %v; or name an accelerator: %s", perr, strings.Join(names, ", "))
+	}
+	return a.PeakFLOPs, fmt.Sprintf("%s (%s peak %s FLOP/s, data sheet)", a.Name, a.Precision, budget.FormatFLOPs(a.PeakFLOPs)), nil
+}
