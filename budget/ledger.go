@@ -23,6 +23,9 @@ type Line struct {
 	FLOPs     float64 `json:"flops"`      // Count × UnitFLOPs
 	Formula   string  `json:"formula"`    // how FLOPs was worked out, for people
 	Kind      string  `json:"kind"`       // KindSelection or KindTraining
+	// Declared marks work done elsewhere (embeddings, gradients, a classifier) and charged at the
+	// cost the user declared for it, not counted by sluice.
+	Declared bool `json:"declared,omitempty"`
 }
 
 // A Ledger accounts for a FLOP budget: what selection cost, what training the
@@ -45,6 +48,13 @@ type Ledger struct {
 // each. An empty formula is replaced by one built from the numbers.
 func (l *Ledger) AddSelection(what, unit string, count, unitFLOPs float64, formula string) {
 	l.add(KindSelection, what, unit, count, unitFLOPs, formula)
+}
+
+// AddDeclared records selection work done elsewhere, charged at the cost the caller declares for
+// it; the line is marked so that a reader can tell it from work sluice counted.
+func (l *Ledger) AddDeclared(what, unit string, count, unitFLOPs float64, formula string) {
+	l.add(KindSelection, what, unit, count, unitFLOPs, formula)
+	l.Lines[len(l.Lines)-1].Declared = true
 }
 
 // AddTraining records training work in the same form as AddSelection; for

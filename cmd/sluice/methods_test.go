@@ -6,12 +6,16 @@ import (
 	"encoding/json"
 	"fmt"
 	"math"
+	"math/rand/v2"
 	"os"
 	"path/filepath"
+	"slices"
 	"strings"
 	"syscall"
 	"testing"
 
+	"sluice/budget"
+	"sluice/cmd/sluice/demodata"
 	"sluice/select/audit"
 	"sluice/select/run"
 )
@@ -224,4 +228,137 @@ func TestBudgetsAsPeopleStateThem(t *testing.T) {
 			t.Errorf("%s: exit %d: %q lacks %q", tc.flags, code, stderr, tc.want)
 		}
 	}
+}
+
+// writeVectors writes a JSONL vector file with a seeded random vector per id: inputs for checking
+// that a pick and its explanations agree, not values checked against anything.
+func writeVectors(t *testing.T, path string, ids []string, dim int, seed uint64) {
+	t.Helper()
+	r := rand.New(rand.NewPCG(seed, 1))
+	var b bytes.Buffer
+	for _, id := range ids {
+		v := make([]float32, dim)
+		for i := range v {
+			v[i] = float32(r.NormFloat64())
+		}
+		line, _ := json.Marshal(map[string]any{"id": id, "vector": v})
+		b.Write(append(line, '\n'))
+	}
+	if err := os.WriteFile(path, b.Bytes(), 0o644); err != nil {
+		t.Fatal(err)
+	}
+}
+
+// TestScoresAndVectors picks by scores brought in and by vectors (made elsewhere, and static word
+// vectors averaged here): the runs verify, every score is explained again to the bit, a declared
+// cost is marked so, and a selector as large as the trained model run forward and backward (3
+// passes) costs exactly one training epoch over the pool (common practice: 6 FLOPs per parameter
+// per token for training, 2 per forward pass).
+func TestScoresAndVectors(t *testing.T) {
+	dir, idx, target := demoIndex(t)
+	var poolIDs, targetIDs []string
+	for _, line := range strings.Split(strings.TrimSpace(string(demodata.Pool())), "\n") {
+		var r struct{ ID string }
+		json.Unmarshal([]byte(line), &r)
+		poolIDs = append(poolIDs, r.ID)
+	}
+	for i := range strings.Split(strings.TrimSpace(string(demodata.Target())), "\n") {
+		targetIDs = append(targetIDs, fmt.Sprintf("t%d", i))
+	}
+	var sb bytes.Buffer
+	for i, id := range poolIDs {
+		fmt.Fprintf(&sb, "{\"id\":%q,\"score\":%d.5}\n", id, (i*7919)%1000)
+	}
+	scores := filepath.Join(dir, "scores.jsonl")
+	os.WriteFile(scores, sb.Bytes(), 0o644)
+	pv, tv := filepath.Join(dir, "pool.vec.jsonl"), filepath.Join(dir, "target.vec.jsonl")
+	writeVectors(t, pv, poolIDs, 16, 1)
+	writeVectors(t, tv, targetIDs, 16, 2)
+	words := map[string]bool{}
+	for _, w := range strings.Fields(strings.ToLower(string(demodata.Pool()) + string(demodata.Target()))) {
+		w = strings.Trim(w, `{}[]":,.?!'()`)
+		if w != "" && !strings.ContainsAny(w, `":,.?!'(){}`) {
+			words[w] = true
+		}
+	}
+	var ws []string
+	for w := range words {
+		ws = append(ws, w)
+	}
+	slices.Sort(ws)
+	wvJSON := filepath.Join(dir, "words.jsonl")
+	writeVectors(t, wvJSON, ws, 8, 3)
+	var wv bytes.Buffer
+	fmt.Fprintf(&wv, "%d 8\n", len(ws))
+	for _, line := range strings.Split(strings.TrimSpace(mustRead(t, wvJSON)), "\n") {
+		var r struct {
+			ID     string
+			Vector []float32
+		}
+		json.Unmarshal([]byte(line), &r)
+		fmt.Fprint(&wv, r.ID)
+		for _, x := range r.Vector {
+			fmt.Fprintf(&wv, " %v", x)
+		}
+		wv.WriteByte('\n')
+	}
+	wordVec := filepath.Join(dir, "words.vec")
+	os.WriteFile(wordVec, wv.Bytes(), 0o644)
+
+	runs := map[string][]string{
+		"scores":  {"--method", "scores", "--scores", scores, "--selector-params", "125M", "--passes", "3", "--budget", "2e14"},
+		"vectors": {"--method", "vectors", "--aggregate", "max", "--pool-vectors", pv, "--target-vectors", tv, "--selector-params", "22M", "--budget", "6e12"},
+		"words":   {"--method", "vectors", "--word-vectors", wordVec, "--idf", "--budget", "6e12"},
+		"cascade": {"--method", "vectors", "--word-vectors", wordVec, "--prefilter", "bm25:30%", "--budget", "6e12"},
+	}
+	for name, extra := range runs {
+		out := filepath.Join(dir, "run-"+name)
+		args := append([]string{"pick", "-q", "--index", idx, "--target", target, "--train-params", "125M", "--out", out}, extra...)
+		if code, _, stderr := sluice(t, args...); code != 0 {
+			t.Fatalf("%s: exit %d: %s", name, code, stderr)
+		}
+		if code, _, stderr := sluice(t, "verify", out); code != 0 {
+			t.Errorf("%s: verify: %s", name, stderr)
+		}
+		rows, err := audit.Explain(context.Background(), out, run.Inputs{}, poolIDs, 1)
+		if err != nil {
+			t.Fatalf("%s: %v", name, err)
+		}
+		if len(rows) != len(poolIDs) {
+			t.Errorf("%s: %d explanations", name, len(rows))
+		}
+	}
+	l, _ := run.ReadLedger(filepath.Join(dir, "run-scores"))
+	var declared, poolTokens float64
+	for _, line := range l.Lines {
+		if line.Declared {
+			declared += line.FLOPs
+		}
+	}
+	for _, s := range readScores(t, filepath.Join(dir, "run-scores", "scores.jsonl")) {
+		poolTokens += float64(s.Tokens)
+	}
+	if want := budget.TrainFLOPs(125e6, poolTokens, 1); declared != want {
+		t.Errorf("a 125M selector run 3 passes over the pool is charged %v, one epoch of training it costs %v", declared, want)
+	}
+	for _, tc := range []struct{ args, want string }{
+		{"--method scores --scores " + scores, "declare what making the scores"},
+		{"--method scores", "needs --scores"},
+		{"--method vectors --pool-vectors " + pv + " --selector-params 1M", "needs --pool-vectors and --target-vectors"},
+		{"--method bm25 --scores " + scores, "--scores is for --method scores"},
+	} {
+		args := append([]string{"pick", "--index", idx, "--target", target, "--budget", "6e12", "--train-params", "125M", "--out", filepath.Join(dir, "x")}, strings.Fields(tc.args)...)
+		if code, _, stderr := sluice(t, args...); code != 2 || !strings.Contains(stderr, tc.want) {
+			t.Errorf("%s: exit %d: %q lacks %q", tc.args, code, stderr, tc.want)
+		}
+	}
+}
+
+func mustRead(t *testing.T, path string) string {
+	t.Helper()
+	b, err := os.ReadFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return string(b)
 }

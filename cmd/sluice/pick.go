@@ -58,12 +58,23 @@ evaluation sets from the pool before picking, or the pick will find them.`,
 	fs.Bool("index-settings", false, "take the index's text spec and analyzer whatever --target-text and --analyzer say")
 	fs.String("target-id", "", "field holding each target row's id (default: the index's id field, else file:line)")
 	fs.String("analyzer", "", "refuse an index built with another analyzer ("+strings.Join(analysis.Names(), " or ")+"; default: take the index's)")
-	fs.String("method", "bm25", "scoring: bm25 or tfidf (lexical, from the index), or ngram (n-gram language models)")
+	fs.String("method", "bm25", "scoring: bm25 or tfidf (lexical, from the index), ngram (n-gram language models),\nvectors (cosine of embeddings) or scores (made elsewhere)")
 	fs.String("aggregate", "sum", "over target rows: sum (the set as one query) or max (nearest target row)")
 	fs.Bool("attribute", true, "name, for every row, the target row that contributed most; with --aggregate sum\nthis costs one pass per target row, and --attribute=false skips it")
 	fs.Int("order", run.DefaultNgramOrder, "ngram: n-gram order, 3 to 5")
 	fs.String("ngram-score", "difference", "ngram: difference (target model against a pool-sample model, per token) or target (target model alone)")
 	fs.Uint64("ngram-seed", 1, "ngram: seed of the pool sample the pool model is trained on")
+	fs.String("scores", "", "scores: JSONL {\"id\"|\"row\", \"score\"} or CSV (id or row, score) of scores made elsewhere")
+	fs.String("join", "auto", "scores: join the file to pool rows by id, row (0-based) or auto (by the key the file has)")
+	fs.String("missing", "error", "scores: a pool row without a score is an error, lowest (below every score) or skip (never kept)")
+	fs.String("pool-vectors", "", "vectors: .npy (float32/float16) or JSONL {\"id\",\"vector\"} of one vector per pool row, in input order")
+	fs.String("target-vectors", "", "vectors: the same for the target rows, in file order")
+	fs.String("word-vectors", "", "vectors: instead, a word-vector text file (\"count dim\", then \"word v1 ... vdim\") averaged over each row's words")
+	fs.Bool("idf", false, "vectors: weight words by their idf over the pool")
+	fs.String("selector-params", "", "scores, vectors: parameters of the model that made them, for the ledger (declared)")
+	fs.Float64("passes", 1, "scores: forward-pass equivalents per pool token: 1 forward, 3 forward and backward (declared)")
+	fs.Float64("target-passes", 0, "scores: the same per target token, when the method ran the target rows too (declared)")
+	fs.String("selection-flops", "", "scores, vectors: the whole cost of making them, instead of --selector-params (declared)")
 	fs.String("prefilter", "", "before a model-based method, keep only the best rows by a lexical method:\nMETHOD:SHARE% (bm25:20%) or METHOD:TOKENS (tfidf:50M); the rest are never scored")
 	fs.Float64("k1", 1.2, "BM25 term-frequency saturation")
 	fs.Float64("b", 0.75, "BM25 length normalisation")
@@ -175,7 +186,7 @@ func scoreParams(fs *pflag.FlagSet) (score.Params, error) {
 	str := func(n string) string { v, _ := fs.GetString(n); return v }
 	var err error
 	p := score.DefaultParams()
-	if m := str("method"); m != run.MethodNgram {
+	if m := str("method"); !slices.Contains([]string{run.MethodNgram, run.MethodVectors, run.MethodScores}, m) {
 		if p.Method, err = score.ParseMethod(m); err != nil {
 			return p, usagef("--method %q: give %s", m, strings.Join(run.Methods(), ", "))
 		}
@@ -225,6 +236,9 @@ func methodFlags(fs *pflag.FlagSet, opt *run.Options) error {
 		if fs.Changed(f) && opt.Method != run.MethodNgram {
 			return usagef("--%s is for --method ngram", f)
 		}
+	}
+	if err := broughtFlags(fs, opt); err != nil {
+		return err
 	}
 	pf, _ := fs.GetString("prefilter")
 	if pf == "" {

@@ -91,7 +91,7 @@ func printWhy(w *bufio.Writer, r audit.Row) {
 			fmt.Fprintf(tw, "\t%s\t%d\t%d\t%.4f\t%.4f\t%.4g\t%.6g\t\n", p.Term, p.TF, p.DF, p.IDF, p.TFPart, p.QueryWeight, p.Contribution)
 		}
 		tw.Flush()
-	case len(r.Words) == 0 && !math.IsNaN(r.Score):
+	case len(r.Words) == 0 && !math.IsNaN(r.Score) && (strings.HasPrefix(r.Method, "bm25") || strings.HasPrefix(r.Method, "tfidf")):
 		fmt.Fprintf(w, "  terms   none: this row shares no term with any target row, so its score is 0\n")
 	}
 	if len(r.Words) > 0 {

@@ -107,6 +107,8 @@ type Explainer struct {
 	qs      []score.Query
 	p       score.Params
 	nm      *run.NgramModels // for an n-gram run
+	scores  []float64        // for a run whose scores come from files, recomputed
+	best    []int32
 	ctx     context.Context
 }
 
@@ -150,6 +152,11 @@ func (x *Explainer) method() error {
 		}
 		var err error
 		x.nm, err = run.TrainNgram(x.ctx, x.ix, x.targets, *st.Ngram)
+		return err
+	}
+	if st.Method == run.MethodScores || st.Method == run.MethodVectors {
+		var err error
+		x.scores, x.best, err = run.Recompute(x.ctx, x.ix, x.targets, x.m)
 		return err
 	}
 	var err error
@@ -207,6 +214,12 @@ func (x *Explainer) Explain(s run.Score, top int) (Row, error) {
 		// Barred before the method scored it: nothing to recompute.
 		r.Why = fate(r, st, x.stop)
 		return r, nil
+	case x.scores != nil:
+		got = x.scores[s.Row]
+		if x.best != nil && x.best[s.Row] >= 0 {
+			b := x.best[s.Row]
+			r.Targets = []Target{{ID: x.targets[b].ID, Score: got}}
+		}
 	case x.nm != nil:
 		terms, err := run.RowTerms(x.ctx, x.ix, s.Row)
 		if err != nil {

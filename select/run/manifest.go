@@ -38,9 +38,10 @@ type Manifest struct {
 	Sluice   string            `json:"sluice"`
 	Command  []string          `json:"command"`
 	Settings Settings          `json:"settings"`
-	Index    FileRef           `json:"index"`  // the index folder and the SHA-256 of its meta.json
-	Target   FileRef           `json:"target"` // the target file and its SHA-256
-	Files    map[string]string `json:"files"`  // SHA-256 of every other file of the run
+	Index    FileRef           `json:"index"`            // the index folder and the SHA-256 of its meta.json
+	Target   FileRef           `json:"target"`           // the target file and its SHA-256
+	Inputs   []FileRef         `json:"inputs,omitempty"` // the method's other inputs: scores, vectors
+	Files    map[string]string `json:"files"`            // SHA-256 of every other file of the run
 }
 
 // FileRef names an input of a run and the SHA-256 it had. For the index, SHA256 is that of its
@@ -81,9 +82,13 @@ type Settings struct {
 	MinScore    float64 `json:"min_score"`
 	Kept        string  `json:"kept"` // the kept file's name
 	// NoScoreFloor says a model-based method's scores had no --min-score floor.
-	NoScoreFloor bool          `json:"no_score_floor,omitempty"`
-	Prefilter    string        `json:"prefilter,omitempty"` // a cascade's first stage, METHOD:SHARE% or METHOD:TOKENS
-	Ngram        *NgramOptions `json:"ngram,omitempty"`
+	NoScoreFloor bool            `json:"no_score_floor,omitempty"`
+	Prefilter    string          `json:"prefilter,omitempty"` // a cascade's first stage, METHOD:SHARE% or METHOD:TOKENS
+	Ngram        *NgramOptions   `json:"ngram,omitempty"`
+	Scores       *ScoresOptions  `json:"scores,omitempty"`
+	Join         string          `json:"join,omitempty"`    // how brought-in scores were joined: auto, id or row
+	Missing      string          `json:"missing,omitempty"` // what rows without a brought-in score got
+	Vectors      *VectorsOptions `json:"vectors,omitempty"`
 }
 
 // MethodName names the method as summaries and pages show it: bm25/sum, ngram-3, ngram-3 after
@@ -91,6 +96,10 @@ type Settings struct {
 func (s Settings) MethodName() string {
 	name := s.Method
 	switch {
+	case s.Method == MethodVectors && s.Aggregate == "max":
+		name += " (nearest target row)"
+	case s.Method == MethodVectors:
+		name += " (target centroid)"
 	case s.Aggregate != "":
 		name += "/" + s.Aggregate
 	case s.Ngram != nil:
@@ -191,6 +200,11 @@ func CheckInputs(what, dir string, m *Manifest) error {
 	if got != m.Target.SHA256 {
 		return fmt.Errorf("%s %s: target %s has changed since the run (run 'sluice verify %s')", what, dir, m.Target.Path, dir)
 	}
+	for _, in := range m.Inputs {
+		if got, err := sha256File(in.Path); err != nil || got != in.SHA256 {
+			return fmt.Errorf("%s %s: %s is not the file the run read (run 'sluice verify %s')", what, dir, in.Path, dir)
+		}
+	}
 	return nil
 }
 
@@ -221,6 +235,13 @@ func Verify(dir string, m *Manifest) []string {
 		bad = append(bad, fmt.Sprintf("target %s: %v", m.Target.Path, err))
 	} else if got != m.Target.SHA256 {
 		bad = append(bad, fmt.Sprintf("target %s: changed since the run", m.Target.Path))
+	}
+	for _, in := range m.Inputs {
+		if got, err := sha256File(in.Path); err != nil {
+			bad = append(bad, fmt.Sprintf("input %s: %v", in.Path, err))
+		} else if got != in.SHA256 {
+			bad = append(bad, fmt.Sprintf("input %s: changed since the run", in.Path))
+		}
 	}
 	return bad
 }

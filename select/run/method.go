@@ -20,7 +20,9 @@ const (
 )
 
 // Methods lists the methods a pick can run, for help and errors.
-func Methods() []string { return []string{MethodBM25, MethodTFIDF, MethodNgram} }
+func Methods() []string {
+	return []string{MethodBM25, MethodTFIDF, MethodNgram, MethodVectors, MethodScores}
+}
 
 // lexical reports whether method scores from the index's postings.
 func lexical(method string) bool { return method == MethodBM25 || method == MethodTFIDF }
@@ -97,8 +99,23 @@ func (p *picked) score(ctx context.Context) error {
 		if p.scores, err = ngramScores(ctx, p.ix, nm, rows, p.led); err != nil {
 			return err
 		}
+	case MethodScores:
+		if err := p.broughtScores(rows); err != nil {
+			return err
+		}
+	case MethodVectors:
+		if err := p.vectorScores(ctx, rows); err != nil {
+			return err
+		}
 	default:
 		return fmt.Errorf("method %q: give one of %v", method, Methods())
+	}
+	if rows != nil {
+		for r := range p.scores {
+			if p.barred[r] != selection.Kept {
+				p.scores[r] = math.NaN() // fell at the prefilter: the method's score does not count
+			}
+		}
 	}
 	return checkFinite(p.scores, p.barred)
 }

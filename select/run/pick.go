@@ -29,10 +29,12 @@ type Options struct {
 	Analyzer   string // "" takes the index's; else the index must have been built with it
 	OtherText  bool   // a TargetText unlike the index's spec is meant
 
-	Method    string       // one of Methods(); "" takes Params.Method
-	Params    score.Params // the lexical methods' parameters
-	Ngram     NgramOptions // for MethodNgram
-	Prefilter Prefilter    // a cheap first stage before a model-based method; zero for none
+	Method    string         // one of Methods(); "" takes Params.Method
+	Params    score.Params   // the lexical methods' parameters
+	Ngram     NgramOptions   // for MethodNgram
+	Scores    ScoresOptions  // for MethodScores
+	Vectors   VectorsOptions // for MethodVectors
+	Prefilter Prefilter      // a cheap first stage before a model-based method; zero for none
 	// MinScoreSet says Select.MinScore was given. Model-based scores can be below zero, so
 	// without it they have no floor; lexical scores always keep theirs (0 by default).
 	MinScoreSet bool
@@ -318,8 +320,17 @@ func (p *picked) settings() Settings {
 		st.Aggregate, st.K1, st.B, st.Attribute = "", 0, 0, false
 		st.NoScoreFloor = !o.MinScoreSet
 	}
-	if st.Method == MethodNgram {
+	switch st.Method {
+	case MethodNgram:
 		st.Ngram = &o.Ngram
+	case MethodScores:
+		sc := o.Scores
+		st.Scores = &sc
+		st.Join, st.Missing = o.Scores.Join.String(), o.Scores.Missing.String()
+	case MethodVectors:
+		v := o.Vectors
+		st.Vectors = &v
+		st.Aggregate = o.Params.Aggregate.String()
 	}
 	return st
 }
@@ -384,5 +395,5 @@ func Folder() atomicdir.Kind {
 // nothing, an empty folder or an earlier run folder holding nothing else, and to replace or hold
 // any input of the pick. A run folder may not be made inside an index or another run either.
 func CheckOut(opt Options) error {
-	return atomicdir.CheckOut(opt.Out, Folder(), []string{opt.Index, opt.Target}, index.Folder(), Folder())
+	return atomicdir.CheckOut(opt.Out, Folder(), append([]string{opt.Index, opt.Target}, opt.inputs()...), index.Folder(), Folder())
 }

@@ -19,6 +19,22 @@ const rowChunk = 1 << 16
 // with the index's text spec and analyzer, so that a model-based method sees the tokens the
 // lexical methods see. The terms are only valid during the call.
 func eachRowTerms(ctx context.Context, ix *index.Index, rows []int, fn func(row int, terms []string) error) error {
+	an, err := analysis.New(ix.Meta().Analyzer)
+	if err != nil {
+		return err
+	}
+	var terms []string
+	return eachRowText(ctx, ix, rows, func(row int, text []byte) error {
+		terms = terms[:0]
+		an.Each(text, func(t []byte) { terms = append(terms, string(t)) })
+		return fn(row, terms)
+	})
+}
+
+// eachRowText reads the given rows (ascending; nil for every row) from the pool's files again,
+// checked against the index's checksums, and calls fn with each row's text fields, extracted with
+// the index's text spec and joined by newlines. The text is only valid during the call.
+func eachRowText(ctx context.Context, ix *index.Index, rows []int, fn func(row int, text []byte) error) error {
 	m := ix.Meta()
 	sp, err := jsonl.ParseSpec(m.Text)
 	if err != nil {
@@ -28,20 +44,19 @@ func eachRowTerms(ctx context.Context, ix *index.Index, rows []int, fn func(row 
 	if err != nil {
 		return fmt.Errorf("read pool rows: %w", err)
 	}
-	an, err := analysis.New(m.Analyzer)
-	if err != nil {
-		return err
-	}
-	var terms []string
+	var text []byte
 	lw := &lineWriter{fn: func(row int, line []byte) error {
-		terms = terms[:0]
+		text = text[:0]
 		if _, err := ex.Extract(line, func(part []byte) {
-			an.Each(part, func(t []byte) { terms = append(terms, string(t)) })
+			if len(text) > 0 {
+				text = append(text, '\n')
+			}
+			text = append(text, part...)
 		}); err != nil {
 			loc := ix.RowLocation(row)
 			return fmt.Errorf("read %s:%d again: %w", loc.File, loc.Line, err)
 		}
-		return fn(row, terms)
+		return fn(row, text)
 	}}
 	n := ix.NumRows()
 	next := func(i int) int { return i }

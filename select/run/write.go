@@ -96,6 +96,10 @@ func (p *picked) manifest() *Manifest {
 		Index: FileRef{Path: opt.Index}, Target: FileRef{Path: opt.Target}, Settings: p.out.Settings}
 	m.Index.SHA256, _ = sha256File(filepath.Join(opt.Index, "meta.json"))
 	m.Index.Identity, _ = index.Identity(opt.Index)
+	for _, in := range opt.inputs() {
+		sum, _ := sha256File(in)
+		m.Inputs = append(m.Inputs, FileRef{Path: in, SHA256: sum})
+	}
 	m.Target.SHA256, _ = sha256File(p.target)
 	if p.target != opt.Target {
 		// Read once from a pipe: the run keeps what was read, and names its own copy.
