@@ -4,6 +4,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"strings"
 
 	"sluice/budget"
 )
@@ -201,7 +202,15 @@ func Make(curves []Curve, cfg Config) (*Plan, error) {
 		}
 	}
 	if len(p.Curves) == 0 {
-		return nil, fmt.Errorf("plan: no pilots on a %g-parameter model: %w", cfg.TrainParams, ErrBadConfig)
+		var sizes []string
+		seen := map[float64]bool{}
+		for _, c := range curves {
+			if !seen[c.TrainedParams] {
+				seen[c.TrainedParams] = true
+				sizes = append(sizes, fmt.Sprintf("%g", c.TrainedParams))
+			}
+		}
+		return nil, fmt.Errorf("plan: no pilots on a %g-parameter model; the pilots trained %s parameters: %w", cfg.TrainParams, strings.Join(sizes, ", "), ErrBadConfig)
 	}
 	if cfg.Lo == 0 && cfg.Hi == 0 {
 		lo, hi := math.Inf(1), 0.0

@@ -16,6 +16,7 @@ import (
 
 	"sluice/budget"
 	"sluice/cmd/sluice/demodata"
+	"sluice/index"
 	"sluice/select/audit"
 	"sluice/select/run"
 )
@@ -361,4 +362,51 @@ func mustRead(t *testing.T, path string) string {
 		t.Fatal(err)
 	}
 	return string(b)
+}
+
+// TestPlanAsPeopleAsk: plan reads the pool's tokens from an index, takes the budget as GPU time,
+// names the pilots' model sizes when it has none at the size asked, and prints a pick command with
+// the flags the recommended method needs.
+func TestPlanAsPeopleAsk(t *testing.T) {
+	dir, idx, _ := demoIndex(t)
+	pilots := "../../testdata/plan/pilots.csv"
+	code, stdout, stderr := sluice(t, "plan", "--pilots", pilots, "--index", idx, "--train-params", "1B",
+		"--gpu-hours", "2000", "--gpu-flops", "a100", "--mfu", "0.4", "--out", filepath.Join(dir, "plan"))
+	if code != 0 {
+		t.Fatalf("plan: exit %d: %s", code, stderr)
+	}
+	if !strings.Contains(stdout, "sluice pick --index POOL.idx --target TARGET.jsonl --method") {
+		t.Errorf("no pick command: %s", stdout)
+	}
+	var p struct{ Config struct{ PoolTokens float64 `json:"pool_tokens"` } }
+	json.Unmarshal([]byte(mustRead(t, filepath.Join(dir, "plan", "plan.json"))), &p)
+	ix, err := index.Open(idx)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var want int64
+	for r := 0; r < ix.NumRows(); r++ {
+		_, _, tb := ix.RowTokens(r)
+		want += int64(budget.EstimateTokens(int(tb))) // the demo pool has no token field
+	}
+	ix.Close()
+	if p.Config.PoolTokens != float64(want) {
+		t.Errorf("pool tokens from the index: %v, the pool holds %d", p.Config.PoolTokens, want)
+	}
+	code, _, stderr = sluice(t, "plan", "--pilots", pilots, "--pool-tokens", "4B", "--train-params", "7B", "--out", filepath.Join(dir, "plan7"))
+	if code != 1 || !strings.Contains(stderr, "the pilots trained 1e+09 parameters") {
+		t.Errorf("plan for a size without pilots: exit %d: %s", code, stderr)
+	}
+	var cmd string
+	for _, budget := range []string{"1e16", "1e18", "1e20", "1e21"} {
+		_, stdout, _ := sluice(t, "plan", "--pilots", pilots, "--pool-tokens", "4B", "--train-params", "1B", "--budget", budget, "--out", filepath.Join(dir, "plan-"+budget))
+		for _, line := range strings.Split(stdout, "\n") {
+			if strings.Contains(line, "--method scores") {
+				cmd = line
+			}
+		}
+	}
+	if cmd != "" && !strings.Contains(cmd, "--selector-params") {
+		t.Errorf("a model-based method's pick command lacks its declared cost: %s", cmd)
+	}
 }

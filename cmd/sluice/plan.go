@@ -57,12 +57,14 @@ Predictions beyond the largest pilot are extrapolations of the curve.`,
   sluice plan --simulate bm25=lexical,0,0.547,10.2 --simulate grad=forward+backward,100M,0.657,4.0 \
       --p0 0.421 --pool-tokens 4B --train-params 1B --out what-if`)
 	fs.String("pilots", "", "CSV or JSONL file of pilot runs (required unless --simulate)")
-	fs.String("pool-tokens", "", "tokens in the whole pool, e.g. 4B (required)")
+	fs.String("pool-tokens", "", "tokens in the whole pool, e.g. 4B (required unless --index)")
+	fs.String("index", "", "an index of the pool, to count its tokens as a pick would")
 	fs.String("train-params", "", "parameters of the model to be trained, e.g. 1B (required)")
 	fs.Float64("epochs", 1, "passes over the kept tokens")
 	fs.String("budgets", "", "budget grid LO:HI in FLOPs, e.g. 1e18:1e21 (default: from the pilots and pool)")
 	fs.Int("points", 25, "budgets in the grid, log-spaced")
-	fs.String("budget", "", "the budget you have, in FLOPs: also plan for exactly it and print a pick command")
+	addBudgetFlags(fs)
+	fs.Lookup("budget").Usage = "the budget you have, in FLOPs (or as GPU time below): also plan for exactly it and print a pick command"
 	fs.Bool("free-p0", false, "fit a base score P0 per method instead of one per base model")
 	fs.StringArray("simulate", nil, "instead of --pilots, a curve METHOD=COST,SELECTOR,PBAR,LAMBDA (λ per 1B tokens); repeatable")
 	fs.String("p0", "", "the base model's score P0 for --simulate")
@@ -82,10 +84,17 @@ func (c *planCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 	case get("pilots") != "" && len(sims) > 0:
 		return usagef("give --pilots or --simulate, not both")
 	}
-	for _, n := range []string{"pool-tokens", "train-params", "out"} {
+	var missing []string
+	for _, n := range []string{"train-params", "out"} {
 		if get(n) == "" {
-			return usagef("--%s is required", n)
+			missing = append(missing, "--"+n)
 		}
+	}
+	if (get("pool-tokens") == "") == (get("index") == "") {
+		missing = append(missing, "one of --pool-tokens and --index")
+	}
+	if len(missing) > 0 {
+		return usagef("required: %s", strings.Join(missing, ", "))
 	}
 	cfg, err := planConfig(fs)
 	if err != nil {
@@ -104,10 +113,10 @@ func (c *planCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 	if err != nil {
 		return err
 	}
-	if bs := get("budget"); bs != "" {
-		f, err := budget.ParseFLOPs(bs)
+	if budgetGiven(fs) {
+		f, _, err := budgetFlags(fs)
 		if err != nil {
-			return usagef("--budget: %v", err)
+			return err
 		}
 		s := p.StepAt(f)
 		p.Asked = &s
@@ -120,7 +129,11 @@ func planConfig(fs *pflag.FlagSet) (plan.Config, error) {
 	get := func(n string) string { s, _ := fs.GetString(n); return s }
 	var cfg plan.Config
 	var err error
-	if cfg.PoolTokens, err = budget.ParseCount(get("pool-tokens")); err != nil {
+	if get("index") != "" {
+		if cfg.PoolTokens, err = poolTokens(get("index")); err != nil {
+			return cfg, err
+		}
+	} else if cfg.PoolTokens, err = budget.ParseCount(get("pool-tokens")); err != nil {
 		return cfg, usagef("--pool-tokens: %v", err)
 	}
 	if cfg.TrainParams, err = budget.ParseCount(get("train-params")); err != nil {
@@ -206,17 +219,54 @@ func writePlan(e *env, out string, p *plan.Plan, residuals bool) error {
 	return w.Flush()
 }
 
-// pickCommand is the pick that carries out the plan at the asked budget,
-// for the methods sluice has itself; "" otherwise.
+// pickCommand is the pick that carries out the plan at the asked budget, with the flags its best
+// method needs: lexical methods and n-gram models run in sluice, model-based methods bring their
+// scores, charged at the selector's declared size and passes.
 func pickCommand(p *plan.Plan) string {
 	s := p.Asked
-	if s == nil {
+	if s == nil || s.Best == "" {
 		return ""
 	}
-	m := strings.ToLower(s.Best)
-	if m != "bm25" && m != "tfidf" {
+	var c *plan.Curve
+	for i := range p.Curves {
+		if p.Curves[i].Method == s.Best {
+			c = &p.Curves[i]
+		}
+	}
+	if c == nil {
 		return ""
 	}
-	return fmt.Sprintf("  sluice pick --index POOL.idx --target TARGET.jsonl --method %s --budget %s --train-params %s --epochs %g --out RUN\n",
-		m, strconv.FormatFloat(s.Budget, 'g', -1, 64), strconv.FormatFloat(p.Config.TrainParams, 'g', -1, 64), p.Config.Epochs)
+	var method string
+	switch m := strings.ToLower(c.Method); {
+	case m == "bm25" || m == "tfidf" || m == "ngram":
+		method = "--method " + m
+	case c.SelectorParams == 0:
+		method = "--method bm25  # " + c.Method + " is lexical; bm25 is sluice's nearest"
+	default:
+		method = fmt.Sprintf("--method scores --scores %s-SCORES.jsonl --selector-params %s --passes %g",
+			strings.ToUpper(c.Method), strconv.FormatFloat(c.SelectorParams, 'g', -1, 64), c.Passes)
+	}
+	return fmt.Sprintf("  sluice pick --index POOL.idx --target TARGET.jsonl %s --budget %s --train-params %s --epochs %g --out RUN\n",
+		method, strconv.FormatFloat(s.Budget, 'g', -1, 64), strconv.FormatFloat(p.Config.TrainParams, 'g', -1, 64), p.Config.Epochs)
+}
+
+// poolTokens counts an index's tokens as a pick charges them.
+func poolTokens(dir string) (float64, error) {
+	ix, err := index.Open(dir)
+	if err != nil {
+		return 0, err
+	}
+	defer ix.Close()
+	var t int64
+	for r := 0; r < ix.NumRows(); r++ {
+		n, ok, tb := ix.RowTokens(r)
+		if !ok {
+			n = int64(budget.EstimateTokens(int(tb)))
+		}
+		t += n
+	}
+	if t == 0 {
+		return 0, fmt.Errorf("index %s holds no tokens", dir)
+	}
+	return float64(t), nil
 }
