@@ -378,7 +378,11 @@ func TestPlanAsPeopleAsk(t *testing.T) {
 	if !strings.Contains(stdout, "sluice pick --index POOL.idx --target TARGET.jsonl --method") {
 		t.Errorf("no pick command: %s", stdout)
 	}
-	var p struct{ Config struct{ PoolTokens float64 `json:"pool_tokens"` } }
+	var p struct {
+		Config struct {
+			PoolTokens float64 `json:"pool_tokens"`
+		}
+	}
 	json.Unmarshal([]byte(mustRead(t, filepath.Join(dir, "plan", "plan.json"))), &p)
 	ix, err := index.Open(idx)
 	if err != nil {
