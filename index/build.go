@@ -18,7 +18,9 @@ import (
 	"strconv"
 	"strings"
 	"sync"
+	"syscall"
 	"unicode/utf8"
+	"unsafe"
 
 	"sluice/index/analysis"
 	"sluice/index/atomicdir"
@@ -32,7 +34,7 @@ type Options struct {
 	ID          string // field holding the row id; "" uses file:line
 	Tokens      string // field holding a token count for the ledger; "" estimates from text bytes
 	Analyzer    string // analysis.Names(); "" is "english"
-	Mem         int64  // bytes of postings held in memory before a sorted run is spilled to disk
+	Mem         int64  // bytes of dictionaries (terms, postings, tables) held in memory before sorted runs are spilled to disk
 	Workers     int    // goroutines analysing rows; 0 is GOMAXPROCS
 	MaxRowBytes int    // longer lines are quarantined without being loaded; 0 is DefaultMaxRowBytes
 	Strict      bool   // stop at the first bad row instead of quarantining it
@@ -242,13 +244,14 @@ func Build(ctx context.Context, dir string, sources []string, opt Options) (*Sta
 	published := false
 	defer func() {
 		if !published {
-			os.RemoveAll(tmp)
+			atomicdir.Discard(tmp)
 		}
 	}()
 	b := &builder{
 		dir:   dir,
 		opt:   opt,
 		tmp:   tmp,
+		wd:    workDir{tmp: tmp, dir: dir},
 		spec:  spec,
 		meta:  Meta{Format: Format, Version: Version, Analyzer: probe.Name(), AnalyzerChain: probe.Describe(), IDField: opt.ID, TokensField: opt.Tokens, MaxRowBytes: opt.MaxRowBytes, Command: opt.Command},
 		paths: sources,
@@ -271,6 +274,7 @@ type builder struct {
 	dir   string // where the index is published
 	opt   Options
 	tmp   string
+	wd    workDir
 	spec  jsonl.Spec
 	meta  Meta
 	paths []string
@@ -293,9 +297,9 @@ func (b *builder) run(ctx context.Context) (*Stats, error) {
 
 	batches := make(chan *batch, b.opt.Workers*2)
 	outs := make(chan *batchOut, b.opt.Workers*2)
-	runDir := filepath.Join(b.tmp, "runs")
+	runDir := b.wd.path("runs")
 	if err := os.Mkdir(runDir, 0o755); err != nil {
-		return nil, fmt.Errorf("build index: %w", err)
+		return nil, b.wd.err("build index: make", err)
 	}
 	memPer := b.opt.Mem / int64(b.opt.Workers)
 	// Enough batches for every worker to hold one and the channel to it two each, and one for the
@@ -313,7 +317,7 @@ func (b *builder) run(ctx context.Context) (*Stats, error) {
 			case b.freeBatches <- bt:
 			default:
 			}
-		}, id: i, an: a, dict: newTermTable(), memLimit: memPer, runDir: runDir, strict: b.opt.Strict, dry: b.opt.DryRun, needIDs: b.opt.ID != "", idField: b.opt.ID}
+		}, id: i, an: a, dict: newTermTable(), memLimit: memPer, wd: b.wd, strict: b.opt.Strict, dry: b.opt.DryRun, needIDs: b.opt.ID != "", idField: b.opt.ID, tokField: b.opt.Tokens}
 		b.workers = append(b.workers, w)
 	}
 
@@ -372,7 +376,7 @@ func (b *builder) run(ctx context.Context) (*Stats, error) {
 		r := b.firstReject
 		return nil, fmt.Errorf("build index: %w: read %d = indexed 0 + quarantined %d; the first, %s:%d: %s", ErrNoRows, b.meta.RowsRead, b.meta.RowsRejected, r.File, r.Line, r.Reason)
 	}
-	if err := b.findDuplicates(); err != nil {
+	if err := b.findDuplicates(ctx); err != nil {
 		return nil, err
 	}
 	if b.opt.DryRun {
@@ -389,9 +393,9 @@ func (b *builder) run(ctx context.Context) (*Stats, error) {
 		return nil, err
 	}
 	if err := os.RemoveAll(runDir); err != nil {
-		return nil, fmt.Errorf("build index: %w", err)
+		return nil, b.wd.err("build index: remove", err)
 	}
-	if err := b.writeMeta(); err != nil {
+	if err := b.writeMeta(ctx); err != nil {
 		return nil, err
 	}
 	st.Meta = b.meta
@@ -494,7 +498,7 @@ func (b *builder) read(ctx context.Context, out chan<- *batch, specReady chan<- 
 	}
 	sampled := 0
 	for si, path := range b.paths {
-		src, err := b.openSource(path)
+		src, err := b.openSource(ctx, si, path)
 		if err != nil {
 			return err
 		}
@@ -595,39 +599,66 @@ func (b *builder) read(ctx context.Context, out chan<- *batch, specReady chan<- 
 }
 
 // locate returns how an index at dir finds the pool file path later: path itself when absolute,
-// else path relative to dir.
+// else path relative to dir. Both are first made absolute with their links resolved, so that the
+// relative path holds from the folder itself however it is named later: through a link, by its
+// real path, or as "." from inside it.
 func locate(dir, path string) (string, error) {
 	if filepath.IsAbs(path) {
 		return path, nil
 	}
-	ad, err := filepath.Abs(dir)
+	// dir may not exist yet, and a link at dir itself would be replaced by the index, not followed:
+	// only its parent is resolved.
+	clean := filepath.Clean(dir)
+	parent, err := realPath(filepath.Dir(clean))
 	if err != nil {
 		return "", fmt.Errorf("build index: %w", err)
 	}
-	ap, err := filepath.Abs(path)
+	ap, err := realPath(path)
 	if err != nil {
-		return "", fmt.Errorf("build index: %w", err)
+		// The file was read a moment ago; if it has gone since, its path is still the best guess.
+		if ap, err = filepath.Abs(path); err != nil {
+			return "", fmt.Errorf("build index: %w", err)
+		}
 	}
-	rel, err := filepath.Rel(ad, ap)
+	rel, err := filepath.Rel(filepath.Join(parent, filepath.Base(clean)), ap)
 	if err != nil {
 		return ap, nil
 	}
 	return rel, nil
 }
 
-// source is one pool file being read: its raw bytes are hashed on the way in, and stdin is also
-// stored in the index folder so kept rows can later be copied from it.
+// realPath returns path made absolute with its links resolved. The working folder is taken from the
+// system, not from $PWD (which os.Getwd prefers), since $PWD may name it through a link.
+func realPath(path string) (string, error) {
+	p, err := filepath.EvalSymlinks(path)
+	if err != nil {
+		return "", err
+	}
+	if filepath.IsAbs(p) {
+		return p, nil
+	}
+	wd, err := syscall.Getwd()
+	if err != nil {
+		return "", err
+	}
+	return filepath.Join(wd, p), nil
+}
+
+// source is one pool file being read: its raw bytes are hashed on the way in, and a stream (stdin,
+// a pipe, a device) is also stored in the index folder so kept rows can later be copied from it:
+// opening it again would wait forever or read other bytes.
 type source struct {
-	path   string
-	f      *os.File
-	store  *os.File
-	stored string
-	h      hash.Hash
-	size   int64
-	comp   jsonl.Compression
-	r      io.Reader
-	rc     io.Closer
-	prog   func(int64)
+	path       string
+	f          *os.File
+	store      *os.File
+	stored     string // the copy's name in the index, for a stream
+	storeShown string // the copy's path once the index is published, for errors
+	h          hash.Hash
+	size       int64
+	comp       jsonl.Compression
+	r          io.Reader
+	rc         io.Closer
+	prog       func(int64)
 }
 
 type countingReader struct {
@@ -645,29 +676,48 @@ func (c countingReader) Read(p []byte) (int, error) {
 	return n, err
 }
 
-func (b *builder) openSource(path string) (*source, error) {
-	s := &source{path: path, h: sha256.New(), prog: b.opt.Progress}
-	var raw io.Reader
+// storedName is the name in the index folder of the copy of source si, read from a stream: stdin
+// for "-", stdin-N for the source N (from 0) when it is a pipe or another file that is not regular.
+func storedName(si int, path string) string {
 	if path == "-" {
-		s.f = os.Stdin
-		s.stored = stdinPrefix
-		st, err := os.Create(filepath.Join(b.tmp, s.stored))
-		if err != nil {
-			return nil, fmt.Errorf("build index: %w", err)
-		}
-		s.store = st
-		raw = io.TeeReader(os.Stdin, st)
+		return stdinPrefix
+	}
+	return fmt.Sprintf("%s-%d", stdinPrefix, si)
+}
+
+func (b *builder) openSource(ctx context.Context, si int, path string) (*source, error) {
+	s := &source{path: path, h: sha256.New(), prog: b.opt.Progress}
+	if path == "-" {
+		s.f, s.stored = os.Stdin, storedName(si, path)
 	} else {
 		f, err := os.Open(path)
 		if err != nil {
 			return nil, pathErr("read", err)
 		}
-		if fi, err := f.Stat(); err == nil && fi.IsDir() {
-			f.Close()
+		s.f = f
+		fi, err := f.Stat()
+		if err != nil {
+			s.close()
+			return nil, pathErr("read", err)
+		}
+		if fi.IsDir() {
+			s.close()
 			return nil, fmt.Errorf("read %s: is a folder, not a JSONL file", path)
 		}
-		s.f = f
-		raw = f
+		if !fi.Mode().IsRegular() {
+			s.stored = storedName(si, path)
+		}
+	}
+	var raw io.Reader = s.f
+	if s.stored != "" {
+		st, err := os.Create(b.wd.path(s.stored))
+		if err != nil {
+			s.close()
+			return nil, b.wd.err("write", err)
+		}
+		s.store = st
+		s.storeShown = filepath.Join(b.dir, s.stored)
+		raw = io.TeeReader(raw, storeWriter{f: st, shown: s.storeShown})
 	}
 	raw = io.TeeReader(countingReader{r: raw, n: &s.size, prog: s.prog}, s.h)
 	r, comp, err := jsonl.NewReader(bufio.NewReaderSize(raw, 1<<20))
@@ -675,11 +725,27 @@ func (b *builder) openSource(path string) (*source, error) {
 		s.close()
 		return nil, fmt.Errorf("read %s: %w", path, err)
 	}
-	s.r, s.comp = r, comp
-	if c, ok := r.(io.Closer); ok {
-		s.rc = c
-	}
+	s.comp = comp
+	s.rc = r
+	// The scanner reads through ctx: a line with no end (a file of zeros, a stream that never ends)
+	// would otherwise keep the reader spinning after a cancellation.
+	s.r = jsonl.WithContext(ctx, r)
 	return s, nil
+}
+
+// storeWriter writes the copy of a stream, wording its errors by the name the copy will have in
+// the published index rather than in the working folder.
+type storeWriter struct {
+	f     *os.File
+	shown string
+}
+
+func (w storeWriter) Write(p []byte) (int, error) {
+	n, err := w.f.Write(p)
+	if err != nil {
+		err = fmt.Errorf("write %s: %w", w.shown, bareErr(err))
+	}
+	return n, err
 }
 
 func (s *source) close() error {
@@ -698,7 +764,7 @@ func (s *source) close() error {
 		}
 		s.store = nil
 		if err != nil {
-			return fmt.Errorf("store stdin: %w", err)
+			return fmt.Errorf("write %s: %w", s.storeShown, bareErr(err))
 		}
 	}
 	return nil
@@ -710,19 +776,19 @@ func (s *source) meta() Source {
 
 // collect receives batch results in any order and writes rows, ids and rejects in input order.
 func (b *builder) collect(ctx context.Context, outs <-chan *batchOut) error {
-	rowsW, err := newFileWriter(filepath.Join(b.tmp, rowsFile))
+	rowsW, err := b.wd.create(b.wd.path(rowsFile))
 	if err != nil {
 		return err
 	}
 	defer rowsW.abort()
 	var idsW *fileWriter
 	if b.opt.ID != "" {
-		if idsW, err = newFileWriter(filepath.Join(b.tmp, idsFile)); err != nil {
+		if idsW, err = b.wd.create(b.wd.path(idsFile)); err != nil {
 			return err
 		}
 		defer idsW.abort()
 	}
-	rejW, err := newFileWriter(filepath.Join(b.tmp, rejectedFile))
+	rejW, err := b.wd.create(b.wd.path(rejectedFile))
 	if err != nil {
 		return err
 	}
@@ -824,13 +890,15 @@ type worker struct {
 	touched  []int32
 	mem      int64
 	memLimit int64
-	runDir   string
+	wd       workDir // runs go in its runs folder
 	runs     []runFile
 	memRun   *memRun // the last dictionary, sorted, once the worker is done
 	strict   bool
 	dry      bool
 	needIDs  bool
 	idField  string
+	tokField string
+	cut      []byte // text with long runs cut, see cutLongRuns
 }
 
 func (w *worker) work(ctx context.Context, in <-chan *batch, out chan<- *batchOut, paths []string) error {
@@ -845,13 +913,25 @@ func (w *worker) work(ctx context.Context, in <-chan *batch, out chan<- *batchOu
 		case <-ctx.Done():
 			return ctx.Err()
 		}
-		if w.mem+w.dict.bytes() >= w.memLimit {
+		if !w.dry && w.dictBytes() >= w.memLimit {
 			if err := w.spill(); err != nil {
 				return err
 			}
 		}
 	}
 	return nil
+}
+
+// midBatchSpill is the least a worker's dictionary holds before it spills in the middle of a batch.
+// Past its share of Options.Mem a worker spills at the end of each batch; a batch of many distinct
+// terms can add far more than a share, so it also spills between rows, but not below this, so that
+// a tiny share does not make a run of every row.
+const midBatchSpill = 1 << 20
+
+// dictBytes is the memory the worker's dictionary holds: term bytes and postings, the arrays by
+// their capacity, and the hash table.
+func (w *worker) dictBytes() int64 {
+	return w.mem + int64(cap(w.terms))*int64(unsafe.Sizeof("")) + int64(cap(w.st))*int64(unsafe.Sizeof(termState{})) + w.dict.bytes()
 }
 
 // do analyses one batch. Postings go into the worker's own dictionary; row records, ids and
@@ -886,7 +966,11 @@ func (w *worker) do(bt *batch, paths []string) (*batchOut, error) {
 		alen := 0
 		w.touched = w.touched[:0]
 		row, err := w.ex.Extract(line, func(part []byte) {
+			part, w.cut = cutLongRuns(part, w.cut)
 			w.an.EachTagged(part, func(term []byte, tag *uint64) {
+				if len(term) > MaxTermBytes {
+					return
+				}
 				alen++
 				if w.dry {
 					return
@@ -906,7 +990,8 @@ func (w *worker) do(bt *batch, paths []string) (*batchOut, error) {
 					t := string(term)
 					w.terms = append(w.terms, t)
 					w.st = append(w.st, termState{})
-					w.mem += int64(len(t)) + 96
+					// Go allocates a string's bytes in size classes of 16 bytes or so.
+					w.mem += int64(len(t)+15) &^ 15
 					return id
 				})
 				*tag = w.gen<<32 | uint64(uint32(id))
@@ -943,7 +1028,8 @@ func (w *worker) do(bt *batch, paths []string) (*batchOut, error) {
 			for _, id := range w.touched {
 				w.st[id].count = 0
 			}
-			if err := reject("token count too large", jsonl.ErrBadTokens); err != nil {
+			reason := fmt.Sprintf("token count %d in field %q is too large: the limit is %d", row.Tokens, w.tokField, noTokens-1)
+			if err := reject(reason, jsonl.ErrBadTokens); err != nil {
 				return nil, err
 			}
 			continue
@@ -969,6 +1055,11 @@ func (w *worker) do(bt *batch, paths []string) (*batchOut, error) {
 			o.ids = append(o.ids, append([]byte(nil), row.ID...))
 		}
 		local++
+		if !w.dry && w.dictBytes() >= max(w.memLimit, midBatchSpill) {
+			if err := w.spill(); err != nil {
+				return nil, err
+			}
+		}
 	}
 	return o, nil
 }

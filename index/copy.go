@@ -2,12 +2,16 @@ package index
 
 import (
 	"bufio"
+	"bytes"
+	"errors"
 	"fmt"
 	"hash/crc32"
 	"io"
+	"io/fs"
 	"os"
 	"path/filepath"
 	"slices"
+	"syscall"
 
 	"sluice/index/jsonl"
 )
@@ -33,30 +37,81 @@ func (ix *Index) CopyRows(w io.Writer, rows []int) error {
 	return nil
 }
 
-func (ix *Index) sourcePath(s Source) string {
+// sourcePaths returns where to look for a pool file that is not stored in the index, in order: a
+// relative locate is taken from the index folder with its links resolved, as the build recorded it,
+// and then, for an index built before locate was recorded that way, from the folder as named.
+func (ix *Index) sourcePaths(s Source) []string {
 	switch {
-	case s.Stored != "":
-		return filepath.Join(ix.dir, s.Stored)
 	case s.Locate == "":
-		return s.Path
+		return []string{s.Path}
 	case filepath.IsAbs(s.Locate):
-		return s.Locate
+		return []string{s.Locate}
 	}
-	return filepath.Join(ix.dir, s.Locate)
+	paths := []string{filepath.Join(ix.real, s.Locate)}
+	if p := filepath.Join(ix.dir, s.Locate); p != paths[0] {
+		paths = append(paths, p)
+	}
+	return paths
 }
+
+// sourceFile is a pool file open to copy rows from.
+type sourceFile interface {
+	io.Reader
+	io.ReaderAt
+	io.Closer
+}
+
+// openSource opens a pool file to copy rows from and returns its size. A source read from a stream
+// was stored in the index and is read from the mapping Open made, so it is the copy made by the
+// same build as the rows.
+func (ix *Index) openSource(s Source) (sourceFile, int64, error) {
+	if s.Stored != "" {
+		b, ok := ix.stored[s.Stored]
+		if !ok {
+			return nil, 0, fmt.Errorf("copy rows from %s: the index is closed or lacks %s", s.Path, s.Stored)
+		}
+		return nopCloser{bytes.NewReader(b)}, int64(len(b)), nil
+	}
+	var missing error // the first place's, when none has the file
+	for _, path := range ix.sourcePaths(s) {
+		// O_NONBLOCK, so that a FIFO (in an index built before streams were stored) is refused
+		// below rather than waited on forever.
+		f, err := os.OpenFile(path, os.O_RDONLY|syscall.O_NONBLOCK, 0)
+		if errors.Is(err, fs.ErrNotExist) {
+			if missing == nil {
+				missing = err
+			}
+			continue
+		}
+		if err != nil {
+			return nil, 0, fmt.Errorf("copy rows from %s: %w", s.Path, err)
+		}
+		fi, err := f.Stat()
+		if err == nil && !fi.Mode().IsRegular() {
+			err = fmt.Errorf("%s is not a regular file, and the index holds no copy of it: rebuild the index", path)
+		}
+		if err != nil {
+			f.Close()
+			return nil, 0, fmt.Errorf("copy rows from %s: %w", s.Path, err)
+		}
+		return f, fi.Size(), nil
+	}
+	return nil, 0, fmt.Errorf("copy rows from %s: %w", s.Path, missing)
+}
+
+type nopCloser struct{ *bytes.Reader }
+
+func (nopCloser) Close() error { return nil }
 
 func (ix *Index) copyFrom(w io.Writer, si int, rows []int) error {
 	s := ix.meta.Sources[si]
-	path := ix.sourcePath(s)
-	f, err := os.Open(path)
+	f, size, err := ix.openSource(s)
 	if err != nil {
-		return fmt.Errorf("copy rows from %s: %w", s.Path, err)
+		return err
 	}
 	defer f.Close()
-	if fi, err := f.Stat(); err != nil {
-		return fmt.Errorf("copy rows from %s: %w", s.Path, err)
-	} else if fi.Size() != s.Size {
-		return fmt.Errorf("copy rows from %s: %d bytes now, %d when indexed: %w", s.Path, fi.Size(), s.Size, ErrSourceChanged)
+	if size != s.Size {
+		return fmt.Errorf("copy rows from %s: %d bytes now, %d when indexed: %w", s.Path, size, s.Size, ErrSourceChanged)
 	}
 	var r io.Reader = f
 	plain := s.Compression == jsonl.None.String()

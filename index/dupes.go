@@ -2,11 +2,11 @@ package index
 
 import (
 	"bufio"
+	"context"
 	"encoding/binary"
 	"fmt"
 	"io"
 	"os"
-	"path/filepath"
 	"slices"
 )
 
@@ -32,7 +32,7 @@ func hashID(id []byte) uint64 {
 // concatenated pools number their rows each from zero, but they are counted and the first is
 // named, since a reader of scores.jsonl must then tell rows apart by position. Only 8 bytes per row
 // are held; ids whose hashes collide are compared from the ids file, so the count is exact.
-func (b *builder) findDuplicates() error {
+func (b *builder) findDuplicates(ctx context.Context) error {
 	if len(b.idHashes) == 0 {
 		return nil
 	}
@@ -47,9 +47,9 @@ func (b *builder) findDuplicates() error {
 	if len(repeated) == 0 {
 		return nil
 	}
-	f, err := os.Open(filepath.Join(b.tmp, idsFile))
+	f, err := os.Open(b.wd.path(idsFile))
 	if err != nil {
-		return fmt.Errorf("build index: %w", err)
+		return b.wd.err("build index: read back", err)
 	}
 	defer f.Close()
 	r := bufio.NewReader(f)
@@ -57,13 +57,18 @@ func (b *builder) findDuplicates() error {
 	var buf []byte
 	var firstRow, firstOf int64 = -1, -1
 	for row, h := range b.idHashes {
+		if row%(1<<20) == 0 {
+			if err := ctx.Err(); err != nil {
+				return err
+			}
+		}
 		n, err := binary.ReadUvarint(r)
 		if err != nil {
-			return fmt.Errorf("build index: read back ids: %w", err)
+			return fmt.Errorf("build index: read back %s: %w", b.wd.shown(f.Name()), bareErr(err))
 		}
 		buf = slices.Grow(buf[:0], int(n))[:n]
 		if _, err := io.ReadFull(r, buf); err != nil {
-			return fmt.Errorf("build index: read back ids: %w", err)
+			return fmt.Errorf("build index: read back %s: %w", b.wd.shown(f.Name()), bareErr(err))
 		}
 		if !repeated[h] {
 			continue
@@ -83,14 +88,14 @@ func (b *builder) findDuplicates() error {
 	locs := [2]Location{}
 	for i, row := range []int64{firstOf, firstRow} {
 		var rec [rowRecSize]byte
-		rf, err := os.Open(filepath.Join(b.tmp, rowsFile))
+		rf, err := os.Open(b.wd.path(rowsFile))
 		if err != nil {
-			return fmt.Errorf("build index: %w", err)
+			return b.wd.err("build index: read back", err)
 		}
 		_, err = rf.ReadAt(rec[:], row*rowRecSize)
 		rf.Close()
 		if err != nil {
-			return fmt.Errorf("build index: read back rows: %w", err)
+			return fmt.Errorf("build index: read back %s: %w", b.wd.shown(rf.Name()), bareErr(err))
 		}
 		rr := getRowRec(rec[:])
 		locs[i] = Location{Source: int(rr.src), File: b.paths[rr.src], Line: int64(rr.line), Offset: int64(rr.off), Length: int64(rr.n)}

@@ -1,6 +1,7 @@
 package index
 
 import (
+	"context"
 	"encoding/json"
 	"errors"
 	"fmt"
@@ -8,7 +9,8 @@ import (
 	"io"
 	"io/fs"
 	"os"
-	"path/filepath"
+
+	"sluice/index/jsonl"
 )
 
 // Format and Version name the on-disk layout. Version changes whenever a file's encoding changes, so an
@@ -69,11 +71,14 @@ type Meta struct {
 
 // Source is one pool file as it was when indexed.
 type Source struct {
-	Path   string `json:"path"`
-	Stored string `json:"stored,omitempty"` // file inside the index folder holding the bytes, for stdin
+	Path string `json:"path"`
+	// Stored is the file inside the index folder holding the bytes read, for a source that could not
+	// be read again: stdin ("stdin") or another stream, such as a pipe ("stdin-N" for source N).
+	Stored string `json:"stored,omitempty"`
 	// Locate is where to open the file to copy rows from it: the path as given when it was absolute,
 	// else relative to the index folder, so a pick run from any folder finds it and the index bytes do
-	// not depend on where the build ran.
+	// not depend on where the build ran. The relative path is taken between the two with their links
+	// resolved, so it also holds from the folder named through a link, by its real path, or as ".".
 	Locate      string `json:"locate,omitempty"`
 	Size        int64  `json:"size"`
 	SHA256      string `json:"sha256"`
@@ -96,31 +101,43 @@ func pathErr(verb string, err error) error {
 	return fmt.Errorf("%s: %w", verb, err)
 }
 
-func checksumFile(path string) (File, error) {
+func checksumFile(ctx context.Context, path string) (File, error) {
 	f, err := os.Open(path)
 	if err != nil {
 		return File{}, err
 	}
 	defer f.Close()
 	h := crc32.New(castagnoli)
-	n, err := io.Copy(h, f)
+	n, err := io.Copy(h, jsonl.WithContext(ctx, f))
 	if err != nil {
-		return File{}, fmt.Errorf("read %s: %w", path, err)
+		return File{}, err
 	}
 	return File{Size: n, CRC32C: fmt.Sprintf("%08x", h.Sum32())}, nil
 }
 
-// readMeta reads and checks meta.json without looking at the other files.
-func readMeta(dir string) (*Meta, error) {
-	b, err := os.ReadFile(filepath.Join(dir, metaFile))
+// maxMetaBytes bounds the meta.json that Open reads: an index's is a few kilobytes, plus a line for
+// each pool file.
+const maxMetaBytes = 64 << 20
+
+// readMetaAt reads and checks meta.json in the folder open as d, without looking at the other files.
+func readMetaAt(d *os.File, dir string) (*Meta, error) {
+	f, err := openAt(d, dir, metaFile)
 	if err != nil {
 		if errors.Is(err, os.ErrNotExist) {
-			if _, serr := os.Stat(dir); serr != nil {
-				return nil, pathErr("open index", serr)
-			}
 			return nil, fmt.Errorf("open index %s: no %s: %w", dir, metaFile, ErrNotIndex)
 		}
 		return nil, fmt.Errorf("open index %s: %w", dir, err)
+	}
+	defer f.Close()
+	if fi, err := f.Stat(); err != nil || !fi.Mode().IsRegular() {
+		return nil, fmt.Errorf("open index %s: %s is not a regular file: %w", dir, metaFile, ErrNotIndex)
+	}
+	b, err := io.ReadAll(io.LimitReader(f, maxMetaBytes+1))
+	if err != nil {
+		return nil, fmt.Errorf("open index %s: %w", dir, err)
+	}
+	if len(b) > maxMetaBytes {
+		return nil, fmt.Errorf("open index %s: %s is over %d bytes: %w", dir, metaFile, maxMetaBytes, ErrDamaged)
 	}
 	var m Meta
 	if err := json.Unmarshal(b, &m); err != nil {

@@ -8,6 +8,7 @@ import (
 	"errors"
 	"fmt"
 	"io"
+	"io/fs"
 	"math"
 	"os"
 	"path/filepath"
@@ -24,8 +25,8 @@ func (w *worker) spill() error {
 		return nil
 	}
 	order := w.sortedTerms()
-	path := filepath.Join(w.runDir, fmt.Sprintf("run-%d-%04d", w.id, len(w.runs)))
-	fw, err := newFileWriter(path)
+	path := w.wd.path("runs", fmt.Sprintf("run-%d-%04d", w.id, len(w.runs)))
+	fw, err := w.wd.create(path)
 	if err != nil {
 		return err
 	}
@@ -58,7 +59,7 @@ func (w *worker) spill() error {
 	if err := fw.closeNoSync(); err != nil {
 		return err
 	}
-	w.runs = append(w.runs, runFile{path: path, split: split, size: off})
+	w.runs = append(w.runs, runFile{path: path, shown: w.wd.shown(path), split: split, size: off})
 	w.dict = newTermTable()
 	w.gen++
 	w.terms, w.st = nil, nil
@@ -95,7 +96,7 @@ type memRun struct {
 
 // runFile is a run spilled to disk; split is the offset of its first term at or past mergeSplit.
 type runFile struct {
-	path        string
+	path, shown string // shown names it in errors
 	split, size int64
 }
 
@@ -120,13 +121,14 @@ type runCursor struct {
 	done bool
 }
 
-// openRun opens the bytes [from, to) of a run file, which hold whole terms.
-func openRun(rf runFile, from, to int64) (*runCursor, error) {
+// openRun opens the bytes [from, to) of a run file, which hold whole terms, read through a buffer of
+// bufSize bytes.
+func openRun(rf runFile, from, to int64, bufSize int) (*runCursor, error) {
 	f, err := os.Open(rf.path)
 	if err != nil {
-		return nil, err
+		return nil, fmt.Errorf("build index: read run %s: %w", rf.shown, bareErr(err))
 	}
-	c := &runCursor{f: f, r: bufio.NewReaderSize(io.NewSectionReader(f, from, to-from), 1<<20), path: rf.path}
+	c := &runCursor{f: f, r: bufio.NewReaderSize(io.NewSectionReader(f, from, to-from), bufSize), path: rf.shown}
 	return c, c.next()
 }
 
@@ -218,7 +220,7 @@ func (c *runCursor) bad(err error) error {
 	if err == io.EOF {
 		err = io.ErrUnexpectedEOF
 	}
-	return fmt.Errorf("build index: read run %s: %w", c.path, err)
+	return fmt.Errorf("build index: read run %s: %w", c.path, bareErr(err))
 }
 
 // merge k-way merges every worker's runs into the lexicon and postings, translating batch-local
@@ -236,8 +238,8 @@ func (b *builder) merge(ctx context.Context) (*Stats, error) {
 	for i := range parts {
 		p := &parts[i]
 		p.lo, p.hi = bounds[i][0], bounds[i][1]
-		p.lex = filepath.Join(b.tmp, fmt.Sprintf("%s.part%d", lexiconFile, i))
-		p.post = filepath.Join(b.tmp, fmt.Sprintf("%s.part%d", postingsFile, i))
+		p.lex = b.wd.path(fmt.Sprintf("%s.part%d", lexiconFile, i))
+		p.post = b.wd.path(fmt.Sprintf("%s.part%d", postingsFile, i))
 		wg.Go(func() { p.err = b.mergePart(ctx, p) })
 	}
 	wg.Wait()
@@ -252,17 +254,22 @@ func (b *builder) merge(ctx context.Context) (*Stats, error) {
 		{lexiconFile, parts[0].lex, parts[1].lex},
 		{postingsFile, parts[0].post, parts[1].post},
 	} {
-		if err := joinFiles(filepath.Join(b.tmp, f.name), f.a, f.b); err != nil {
+		if err := b.wd.join(b.wd.path(f.name), f.a, f.b); err != nil {
 			return nil, err
 		}
 	}
-	nw, err := newFileWriter(filepath.Join(b.tmp, normsFile))
+	nw, err := b.wd.create(b.wd.path(normsFile))
 	if err != nil {
 		return nil, err
 	}
 	defer nw.abort()
 	var fb [8]byte
 	for r, v := range parts[0].norm2 {
+		if r%(1<<20) == 0 {
+			if err := ctx.Err(); err != nil {
+				return nil, err
+			}
+		}
 		v += parts[1].norm2[r]
 		binary.LittleEndian.PutUint64(fb[:], math.Float64bits(math.Sqrt(v)))
 		if err := nw.write(fb[:]); err != nil {
@@ -296,15 +303,25 @@ func (b *builder) mergePart(ctx context.Context, p *mergePart) error {
 			}
 		}
 	}()
+	// Each part reads every run through a buffer of its own; with many runs the buffers share
+	// what --mem allows rather than take 1 MiB each. Their size does not change the bytes written.
+	runs := 0
+	for _, w := range b.workers {
+		runs += len(w.runs)
+	}
+	bufSize := 1 << 20
+	if runs > 0 {
+		bufSize = int(min(max(b.opt.Mem/int64(2*runs), 4<<10), 1<<20))
+	}
 	for _, w := range b.workers {
 		for _, rf := range w.runs {
 			from, to := int64(0), rf.split
 			if p.lo != "" {
 				from, to = rf.split, rf.size
 			}
-			c, err := openRun(rf, from, to)
+			c, err := openRun(rf, from, to, bufSize)
 			if err != nil {
-				return fmt.Errorf("build index: %w", err)
+				return err
 			}
 			cursors = append(cursors, c)
 		}
@@ -316,12 +333,12 @@ func (b *builder) mergePart(ctx context.Context, p *mergePart) error {
 			cursors = append(cursors, c)
 		}
 	}
-	lex, err := newFileWriter(p.lex)
+	lex, err := b.wd.create(p.lex)
 	if err != nil {
 		return err
 	}
 	defer lex.abort()
-	post, err := newFileWriter(p.post)
+	post, err := b.wd.create(p.post)
 	if err != nil {
 		return err
 	}
@@ -374,7 +391,13 @@ func (b *builder) mergePart(ctx context.Context, p *mergePart) error {
 		idf := math.Log(float64(1+n)/float64(1+int64(df))) + 1
 		start := post.n
 		prev := int64(-1)
-		for {
+		for postings := 1; ; postings++ {
+			// A term held by most rows has as many postings: look at ctx within it too.
+			if postings%(1<<20) == 0 {
+				if err := ctx.Err(); err != nil {
+					return err
+				}
+			}
 			var best *runCursor
 			for _, c := range same {
 				if c.tf == 0 {
@@ -447,9 +470,9 @@ func (b *builder) mergePart(ctx context.Context, p *mergePart) error {
 	return post.closeNoSync()
 }
 
-// joinFiles writes the concatenation of a and b to dst, synced, and removes a and b.
-func joinFiles(dst, a, b string) error {
-	w, err := newFileWriter(dst)
+// join writes the concatenation of a and b to dst, synced, and removes a and b.
+func (d workDir) join(dst, a, b string) error {
+	w, err := d.create(dst)
 	if err != nil {
 		return err
 	}
@@ -457,7 +480,7 @@ func joinFiles(dst, a, b string) error {
 	for _, p := range []string{a, b} {
 		f, err := os.Open(p)
 		if err != nil {
-			return fmt.Errorf("build index: %w", err)
+			return d.err("build index: read", err)
 		}
 		_, err = io.Copy(w.w, f)
 		f.Close()
@@ -469,19 +492,19 @@ func joinFiles(dst, a, b string) error {
 	return w.close()
 }
 
-func (b *builder) writeMeta() error {
+func (b *builder) writeMeta(ctx context.Context) error {
 	entries, err := os.ReadDir(b.tmp)
 	if err != nil {
-		return fmt.Errorf("build index: %w", err)
+		return b.wd.err("build index: list", err)
 	}
 	b.meta.Files = map[string]File{}
 	for _, e := range entries {
 		if e.Name() == metaFile || e.IsDir() {
 			continue
 		}
-		f, err := checksumFile(filepath.Join(b.tmp, e.Name()))
+		f, err := checksumFile(ctx, b.wd.path(e.Name()))
 		if err != nil {
-			return fmt.Errorf("build index: %w", err)
+			return b.wd.err("build index: read", err)
 		}
 		b.meta.Files[e.Name()] = f
 	}
@@ -489,7 +512,7 @@ func (b *builder) writeMeta() error {
 	if err != nil {
 		return err
 	}
-	w, err := newFileWriter(filepath.Join(b.tmp, metaFile))
+	w, err := b.wd.create(b.wd.path(metaFile))
 	if err != nil {
 		return err
 	}
@@ -500,21 +523,67 @@ func (b *builder) writeMeta() error {
 	return w.close()
 }
 
+// workDir is the working folder of a build and the folder it is published as. Errors name files by
+// the names they take once published, since the working folder (.idx.tmp-…) is gone by the time
+// anyone reads the message.
+type workDir struct {
+	tmp, dir string
+}
+
+// path returns the path of name in the working folder.
+func (d workDir) path(name ...string) string {
+	return filepath.Join(append([]string{d.tmp}, name...)...)
+}
+
+// shown returns the name path takes once the folder is published; a path outside the working
+// folder is its own name.
+func (d workDir) shown(path string) string {
+	rel, err := filepath.Rel(d.tmp, path)
+	if err != nil || rel == ".." || strings.HasPrefix(rel, ".."+string(filepath.Separator)) {
+		return path
+	}
+	return filepath.Join(d.dir, rel)
+}
+
+// err words a file system error as "verb file: cause", the file named as shown gives it.
+func (d workDir) err(verb string, err error) error {
+	var pe *fs.PathError
+	if errors.As(err, &pe) {
+		return fmt.Errorf("%s %s: %w", verb, d.shown(pe.Path), pe.Err)
+	}
+	var le *os.LinkError
+	if errors.As(err, &le) {
+		return fmt.Errorf("%s %s: %w", verb, d.shown(le.New), le.Err)
+	}
+	return fmt.Errorf("%s %s: %w", verb, d.dir, err)
+}
+
+// bareErr strips the path from a file system error, for a message that names the file itself.
+func bareErr(err error) error {
+	var pe *fs.PathError
+	if errors.As(err, &pe) {
+		return pe.Err
+	}
+	return err
+}
+
 // fileWriter is a buffered file that is flushed and fsynced on close, and removed by abort.
 type fileWriter struct {
 	path   string
+	shown  string // the name errors give the file
 	f      *os.File
 	w      *bufio.Writer
 	n      int64
 	closed bool
 }
 
-func newFileWriter(path string) (*fileWriter, error) {
+// create starts the file at path in the working folder.
+func (d workDir) create(path string) (*fileWriter, error) {
 	f, err := os.Create(path)
 	if err != nil {
-		return nil, pathErr("write", err)
+		return nil, d.err("write", err)
 	}
-	return &fileWriter{path: path, f: f, w: bufio.NewWriterSize(f, 1<<20)}, nil
+	return &fileWriter{path: path, shown: d.shown(path), f: f, w: bufio.NewWriterSize(f, 1<<20)}, nil
 }
 
 func (w *fileWriter) write(p []byte) error {
@@ -527,11 +596,7 @@ func (w *fileWriter) write(p []byte) error {
 }
 
 func (w *fileWriter) fail(err error) error {
-	var pe *os.PathError
-	if errors.As(err, &pe) {
-		return pathErr("write", err) // it names the file already
-	}
-	return fmt.Errorf("write %s: %w", w.path, err)
+	return fmt.Errorf("write %s: %w", w.shown, bareErr(err))
 }
 
 func (w *fileWriter) close() error { return w.finish(true) }

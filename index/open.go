@@ -5,6 +5,7 @@ import (
 	"encoding/binary"
 	"fmt"
 	"hash/crc32"
+	"io/fs"
 	"math"
 	"os"
 	"path/filepath"
@@ -13,12 +14,16 @@ import (
 	"strconv"
 	"syscall"
 
+	"golang.org/x/sys/unix"
+
 	"sluice/index/analysis"
+	"sluice/index/jsonl"
 )
 
 // Index is an opened index folder. Its methods are safe for concurrent use except where noted.
 type Index struct {
 	dir  string
+	real string // dir made absolute with links resolved when opened, where relative sources are found
 	meta Meta
 
 	terms   []byte   // lexicon terms, concatenated in byte order
@@ -31,26 +36,91 @@ type Index struct {
 	norms    []float64
 	idOff    []uint64 // where row i's length-prefixed id starts in ids, when the index has an id field
 	ids      []byte
+	stored   map[string][]byte // mapped copies of sources read from a stream, by file name
 
 	maps [][]byte
 }
 
+// openAttempts bounds how often Open starts again when a rebuild replaced the folder while it read.
+const openAttempts = 3
+
 // Open reads an index folder, checking its format version and the checksum of every file.
+//
+// Every file is read through one handle on the folder, so one Open sees one version of the index
+// even while a rebuild publishes another over it: the rebuild renames the new folder into place and
+// leaves the old one whole until it removes it. If the old one is removed before Open has read it
+// all, Open starts again on the new one.
 func Open(dir string) (*Index, error) {
-	m, err := readMeta(dir)
-	if err != nil {
-		return nil, err
+	for attempt := 1; ; attempt++ {
+		ix, replaced, err := openOnce(dir)
+		if err == nil || !replaced || attempt == openAttempts {
+			return ix, err
+		}
 	}
-	ix := &Index{dir: dir, meta: *m}
-	ok := false
+}
+
+// openOnce opens the folder at dir and reads the index in it. When that fails it also reports
+// whether dir has meanwhile come to name another folder, which is worth a second try.
+func openOnce(dir string) (ix *Index, replaced bool, err error) {
+	d, err := os.Open(dir)
+	if err != nil {
+		return nil, false, pathErr("open index", err)
+	}
+	defer d.Close()
 	defer func() {
-		if !ok {
-			ix.Close()
+		if err != nil {
+			replaced = !sameFile(d, dir)
 		}
 	}()
+	fi, err := d.Stat()
+	if err != nil {
+		return nil, false, fmt.Errorf("open index %s: %w", dir, err)
+	}
+	if !fi.IsDir() {
+		return nil, false, fmt.Errorf("open index %s: not a folder: %w", dir, ErrNotIndex)
+	}
+	m, err := readMetaAt(d, dir)
+	if err != nil {
+		return nil, false, err
+	}
+	ix = &Index{dir: dir, real: dir, meta: *m}
+	if r, err := realPath(dir); err == nil {
+		ix.real = r
+	}
+	if err := ix.load(d); err != nil {
+		ix.Close()
+		return nil, false, err
+	}
+	return ix, false, nil
+}
+
+// sameFile reports whether the folder open as d is still the one at path.
+func sameFile(d *os.File, path string) bool {
+	a, err := d.Stat()
+	if err != nil {
+		return false
+	}
+	b, err := os.Stat(path)
+	return err == nil && os.SameFile(a, b)
+}
+
+// openAt opens the file name in the folder open as d.
+func openAt(d *os.File, dir, name string) (*os.File, error) {
+	// O_NONBLOCK keeps a FIFO put in place of a file from blocking the open; the caller refuses it.
+	fd, err := unix.Openat(int(d.Fd()), name, unix.O_RDONLY|unix.O_CLOEXEC|unix.O_NONBLOCK, 0)
+	if err != nil {
+		return nil, &fs.PathError{Op: "open", Path: filepath.Join(dir, name), Err: err}
+	}
+	return os.NewFile(uintptr(fd), filepath.Join(dir, name)), nil
+}
+
+// load maps and checks the files that meta.json lists. Counts and sizes in meta.json are checked
+// against the files before they size or index anything: a damaged meta.json may say anything.
+func (ix *Index) load(d *os.File) error {
+	dir, m := ix.dir, &ix.meta
 	for _, name := range []string{lexiconFile, postingsFile, rowsFile, normsFile, rejectedFile} {
 		if _, listed := m.Files[name]; !listed {
-			return nil, fmt.Errorf("open index %s: meta.json lists no %s: %w", dir, name, ErrDamaged)
+			return fmt.Errorf("open index %s: meta.json lists no %s: %w", dir, name, ErrDamaged)
 		}
 	}
 	names := make([]string, 0, len(m.Files))
@@ -61,56 +131,73 @@ func Open(dir string) (*Index, error) {
 	data := map[string][]byte{}
 	for _, name := range names {
 		want := m.Files[name]
-		if filepath.Base(name) != name {
-			return nil, fmt.Errorf("open index %s: file name %q: %w", dir, name, ErrDamaged)
+		if filepath.Base(name) != name || name == "." || name == ".." {
+			return fmt.Errorf("open index %s: file name %q: %w", dir, name, ErrDamaged)
 		}
-		b, err := ix.mapFile(name)
+		b, err := ix.mapFile(d, name)
 		if err != nil {
-			return nil, err
+			return err
 		}
 		if int64(len(b)) != want.Size {
-			return nil, fmt.Errorf("open index %s: %s is %d bytes, meta.json says %d: %w", dir, name, len(b), want.Size, ErrDamaged)
+			return fmt.Errorf("open index %s: %s is %d bytes, meta.json says %d: %w", dir, name, len(b), want.Size, ErrDamaged)
 		}
 		if got := fmt.Sprintf("%08x", crc32.Checksum(b, castagnoli)); got != want.CRC32C {
-			return nil, fmt.Errorf("open index %s: %s checksum %s, meta.json says %s: %w", dir, name, got, want.CRC32C, ErrDamaged)
+			return fmt.Errorf("open index %s: %s checksum %s, meta.json says %s: %w", dir, name, got, want.CRC32C, ErrDamaged)
 		}
 		data[name] = b
 	}
 	ix.postings = data[postingsFile]
 	ix.rows = data[rowsFile]
 	n := m.Rows
-	if n < 0 || int64(len(ix.rows)) != n*rowRecSize {
-		return nil, fmt.Errorf("open index %s: rows holds %d bytes for %d rows: %w", dir, len(ix.rows), n, ErrDamaged)
+	// n is compared by division: n*rowRecSize overflows for a count as large as meta.json may say.
+	if n < 0 || n > int64(len(ix.rows))/rowRecSize || int64(len(ix.rows)) != n*rowRecSize {
+		return fmt.Errorf("open index %s: rows holds %d bytes for %d rows: %w", dir, len(ix.rows), n, ErrDamaged)
 	}
-	// Every row must name a source the index has: rows are trusted from here on.
+	ix.stored = map[string][]byte{}
+	for i, s := range m.Sources {
+		if s.Stored == "" {
+			continue
+		}
+		b := data[s.Stored]
+		if _, listed := m.Files[s.Stored]; !listed || int64(len(b)) != s.Size {
+			return fmt.Errorf("open index %s: source %d is stored as %q, which meta.json does not list at %d bytes: %w", dir, i, s.Stored, s.Size, ErrDamaged)
+		}
+		ix.stored[s.Stored] = b
+	}
+	// Every row must name a source the index has, and lie where a source can hold it: rows are
+	// trusted from here on.
 	for i := int64(0); i < n; i++ {
-		if src := getRowRec(ix.rows[i*rowRecSize:]).src; int(src) >= len(m.Sources) {
-			return nil, fmt.Errorf("open index %s: row %d names source %d of %d: %w", dir, i, src, len(m.Sources), ErrDamaged)
+		r := getRowRec(ix.rows[i*rowRecSize:])
+		if int(r.src) >= len(m.Sources) {
+			return fmt.Errorf("open index %s: row %d names source %d of %d: %w", dir, i, r.src, len(m.Sources), ErrDamaged)
+		}
+		s := &m.Sources[r.src]
+		end := r.off + uint64(r.n)
+		if r.off > math.MaxInt64-uint64(r.n) || s.Compression == jsonl.None.String() && (s.Size < 0 || end > uint64(s.Size)) {
+			return fmt.Errorf("open index %s: row %d lies at bytes %d to %d of a source of %d: %w", dir, i, r.off, end, s.Size, ErrDamaged)
 		}
 	}
 	nb := data[normsFile]
 	if int64(len(nb)) != n*8 {
-		return nil, fmt.Errorf("open index %s: norms holds %d bytes for %d rows: %w", dir, len(nb), n, ErrDamaged)
+		return fmt.Errorf("open index %s: norms holds %d bytes for %d rows: %w", dir, len(nb), n, ErrDamaged)
 	}
 	ix.norms = make([]float64, n)
 	for i := range ix.norms {
 		ix.norms[i] = math.Float64frombits(binary.LittleEndian.Uint64(nb[8*i:]))
 	}
 	if err := ix.loadLexicon(data[lexiconFile]); err != nil {
-		return nil, err
+		return err
 	}
 	if m.IDField != "" {
 		if err := ix.loadIDs(data[idsFile]); err != nil {
-			return nil, err
+			return err
 		}
 	}
-	ok = true
-	return ix, nil
+	return nil
 }
 
-func (ix *Index) mapFile(name string) ([]byte, error) {
-	path := filepath.Join(ix.dir, name)
-	f, err := os.Open(path)
+func (ix *Index) mapFile(d *os.File, name string) ([]byte, error) {
+	f, err := openAt(d, ix.dir, name)
 	if err != nil {
 		return nil, fmt.Errorf("open index %s: %w: %w", ix.dir, err, ErrDamaged)
 	}
@@ -118,6 +205,9 @@ func (ix *Index) mapFile(name string) ([]byte, error) {
 	fi, err := f.Stat()
 	if err != nil {
 		return nil, fmt.Errorf("open index %s: %w", ix.dir, err)
+	}
+	if !fi.Mode().IsRegular() {
+		return nil, fmt.Errorf("open index %s: %s is not a regular file: %w", ix.dir, name, ErrDamaged)
 	}
 	if fi.Size() == 0 {
 		return nil, nil
@@ -162,16 +252,27 @@ func (ix *Index) loadLexicon(b []byte) error {
 		if k <= 0 {
 			return bad("truncated df")
 		}
+		if df == 0 || df > uint64(ix.meta.Rows) {
+			return bad(fmt.Sprintf("term %q in %d rows of %d", t, df, ix.meta.Rows))
+		}
 		b = b[k:]
 		pl, k := binary.Uvarint(b)
 		if k <= 0 {
 			return bad("truncated postings length")
 		}
 		b = b[k:]
+		// Compared by subtraction, since an offset plus a damaged length may overflow.
+		off := ix.postOff[len(ix.postOff)-1]
+		if pl > uint64(len(ix.postings))-off {
+			return bad(fmt.Sprintf("postings of %q end past the %d bytes of postings", t, len(ix.postings)))
+		}
+		if len(ix.terms)+len(t) > math.MaxUint32 {
+			return fmt.Errorf("open index %s: lexicon: more than 4 GiB of terms", ix.dir)
+		}
 		ix.terms = append(ix.terms, t...)
 		ix.termEnd = append(ix.termEnd, uint32(len(ix.terms)))
 		ix.df = append(ix.df, uint32(df))
-		ix.postOff = append(ix.postOff, ix.postOff[len(ix.postOff)-1]+pl)
+		ix.postOff = append(ix.postOff, off+pl)
 	}
 	if int64(len(ix.df)) != nt || ix.postOff[len(ix.postOff)-1] != uint64(len(ix.postings)) {
 		return bad("counts disagree with meta.json")
@@ -204,6 +305,7 @@ func (ix *Index) Close() error {
 		}
 	}
 	ix.maps = nil
+	ix.stored = nil
 	return err
 }
 
@@ -366,7 +468,9 @@ func (c *Cursor) Next(end int, rows, tfs []uint32) ([]uint32, []uint32, error) {
 			b = b[k:]
 		}
 		row += int64(v >> 1)
-		if row >= n {
+		// A damaged gap can carry row past the largest int64 to a negative number, which unsigned
+		// is as large as any: one comparison catches both.
+		if uint64(row) >= uint64(n) {
 			return rows, tfs, fmt.Errorf("index %s: postings of %q: row %d of %d: %w", c.ix.dir, c.term, row, n, ErrDamaged)
 		}
 		if row >= int64(end) {

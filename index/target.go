@@ -21,7 +21,8 @@ type Target struct {
 }
 
 // ReadTargets reads a target set with the given text spec and analyzer. Rows that cannot be read are
-// returned as rejects, not errors; an unreadable file is an error. Rows are analysed on all cores
+// returned as rejects, not errors; an unreadable file is an error. Terms longer than MaxTermBytes
+// are dropped, as an index drops them. Rows are analysed on all cores
 // (each worker with its own analyzer of an's kind); the result is in file order all the same.
 func ReadTargets(path, spec, idField string, an *analysis.Analyzer, maxRowBytes int) ([]Target, []Reject, error) {
 	sp, err := jsonl.ParseSpec(spec)
@@ -81,8 +82,9 @@ func ReadTargets(path, spec, idField string, an *analysis.Analyzer, maxRowBytes 
 				}
 			}
 			ex, _ := jsonl.NewExtractor(sp, idField, "") // checked above
+			var cut []byte
 			for j := i * len(lines) / nw; j < (i+1)*len(lines)/nw; j++ {
-				lines[j].analyse(path, ex, wan)
+				cut = lines[j].analyse(path, ex, wan, cut)
 			}
 		})
 	}
@@ -115,24 +117,32 @@ type targetLine struct {
 	t      Target
 }
 
-func (tl *targetLine) analyse(path string, ex *jsonl.Extractor, an *analysis.Analyzer) {
+// analyse makes the line's Target, or its reject. Terms longer than MaxTermBytes are dropped, as
+// the index drops them. cut is scratch space for cutLongRuns, returned for the next line.
+func (tl *targetLine) analyse(path string, ex *jsonl.Extractor, an *analysis.Analyzer, cut []byte) []byte {
 	if tl.reject != "" {
-		return
+		return cut
 	}
 	var terms []string
 	row, err := ex.Extract(tl.raw, func(part []byte) {
-		an.Each(part, func(t []byte) { terms = append(terms, string(t)) })
+		part, cut = cutLongRuns(part, cut)
+		an.Each(part, func(t []byte) {
+			if len(t) <= MaxTermBytes {
+				terms = append(terms, string(t))
+			}
+		})
 	})
 	if err != nil {
 		tl.reject = reasonOf(err)
 		if tl.n == len(tl.raw) && errors.Is(err, jsonl.ErrNotJSON) {
 			tl.reject += "; it is the last line and has no newline: the file may have been cut short"
 		}
-		return
+		return cut
 	}
 	id := path + ":" + strconv.FormatInt(tl.line, 10)
 	if row.HasID {
 		id = string(row.ID)
 	}
 	tl.t = Target{ID: id, Line: tl.line, Terms: terms, TextBytes: row.TextBytes}
+	return cut
 }

@@ -7,25 +7,107 @@ import (
 	"path/filepath"
 	"strconv"
 	"strings"
+	"time"
 
 	"golang.org/x/sys/unix"
 )
 
 // Temp makes an empty working folder beside dir, on the same file system so it can be renamed into
-// place. Its name starts with a dot, says it is temporary and holds the process id, so that working
-// folders left by a killed process are removed by the next one, while those of a live one stay.
+// place. Its name starts with a dot and says it is temporary. The folder itself is locked (flock)
+// for as long as it is being worked on: until Publish or Discard, or the end of the process, which
+// a crash or a kill also brings. Working folders whose lock is free were left by a process that
+// died, and the next Temp for the same dir removes them. A lock, unlike a process id, says the same
+// thing to every process that can see the folder, in another PID namespace or on another host of a
+// shared file system; and locking the folder, not a file in it, leaves the folder holding only
+// what the caller writes.
 func Temp(dir string) (string, error) {
 	clean := filepath.Clean(dir)
 	parent, prefix := filepath.Dir(clean), "."+filepath.Base(clean)+".tmp-"
 	removeStale(parent, prefix)
-	tmp, err := os.MkdirTemp(parent, prefix+strconv.Itoa(os.Getpid())+"-")
-	if err != nil {
-		return "", fmt.Errorf("make working folder for %s: %w", dir, err)
+	// Another process's clean-up may take a folder in the moment between its making and its lock;
+	// it then removes it, and another is made.
+	for range 3 {
+		made, err := os.MkdirTemp(parent, prefix+strconv.Itoa(os.Getpid())+"-")
+		if err != nil {
+			return "", fmt.Errorf("make a working folder beside %s: %w", dir, pathless(err))
+		}
+		tmp, taken, err := lockWorking(made)
+		if err != nil {
+			os.RemoveAll(made)
+			return "", fmt.Errorf("make a working folder beside %s: %w", dir, pathless(err))
+		}
+		if !taken {
+			return tmp, nil
+		}
 	}
-	return tmp, nil
+	return "", fmt.Errorf("make a working folder beside %s: other processes' clean-ups keep removing it", dir)
 }
 
-// removeStale removes the working folders beside dir whose process is gone.
+// lockWorking locks the working folder made and renames it to its final name, which adds the number
+// of the descriptor holding the lock: "pid-random-descriptor". Publish and Discard, given only the
+// folder's path, find the descriptor there to release the lock; a folder named "pid-random" is one
+// not yet locked, or made by a sluice from before the locks. taken reports that another process's
+// clean-up took made for a dead process's folder before it could be locked; the caller makes
+// another.
+func lockWorking(made string) (tmp string, taken bool, err error) {
+	fd, err := unix.Open(made, unix.O_RDONLY|unix.O_DIRECTORY|unix.O_CLOEXEC, 0)
+	if err != nil {
+		return "", false, &os.PathError{Op: "open", Path: made, Err: err}
+	}
+	// A file system that cannot lock a folder (one emulating flock with record locks, as NFS does,
+	// locks only files open for writing) cannot say who lives: no lock is held then, and
+	// removeStale, which cannot take one either, removes nothing.
+	err = unix.Flock(fd, unix.LOCK_EX|unix.LOCK_NB)
+	// Another process's clean-up holds the lock for as long as it takes to judge the folder.
+	for try := 0; errors.Is(err, unix.EWOULDBLOCK) && try < 10; try++ {
+		time.Sleep(10 * time.Millisecond)
+		err = unix.Flock(fd, unix.LOCK_EX|unix.LOCK_NB)
+	}
+	switch {
+	case errors.Is(err, unix.EWOULDBLOCK):
+		unix.Close(fd)
+		return "", true, nil
+	case err != nil && !errors.Is(err, unix.ENOLCK) && !errors.Is(err, unix.EOPNOTSUPP) && !errors.Is(err, unix.EINVAL) && !errors.Is(err, unix.EBADF):
+		unix.Close(fd)
+		return "", false, &os.PathError{Op: "lock", Path: made, Err: err}
+	}
+	if !isOpenAs(fd, made) {
+		unix.Close(fd)
+		return "", true, nil
+	}
+	tmp = made + "-" + strconv.Itoa(fd)
+	if err := unix.Rename(made, tmp); err != nil {
+		unix.Close(fd)
+		if errors.Is(err, unix.ENOENT) {
+			return "", true, nil
+		}
+		return "", false, &os.PathError{Op: "rename", Path: made, Err: err}
+	}
+	return tmp, false, nil
+}
+
+// isOpenAs reports whether the descriptor fd is open on the folder at path.
+func isOpenAs(fd int, path string) bool {
+	var held, named unix.Stat_t
+	return unix.Fstat(fd, &held) == nil && unix.Lstat(path, &named) == nil && held.Dev == named.Dev && held.Ino == named.Ino
+}
+
+// heldLock returns the descriptor by which this process holds the lock of the working folder tmp,
+// or -1: the one its name ends with, if that is open on this very folder.
+func heldLock(tmp string) int {
+	name := filepath.Base(filepath.Clean(tmp))
+	i := strings.LastIndexByte(name, '-')
+	fd, err := strconv.Atoi(name[i+1:])
+	if i < 0 || err != nil || fd < 0 || !isOpenAs(fd, tmp) {
+		return -1
+	}
+	return fd
+}
+
+// removeStale removes the working folders beside dir that no live process holds: those whose lock
+// this process can take. A folder named without a descriptor was made by a sluice from before the
+// locks, or is about to be locked; it is removed, as before the locks, only when the process its
+// name holds is gone too, and should that be a live one elsewhere, it makes another.
 func removeStale(parent, prefix string) {
 	entries, err := os.ReadDir(parent)
 	if err != nil {
@@ -36,51 +118,104 @@ func removeStale(parent, prefix string) {
 		if !ok || !e.IsDir() {
 			continue
 		}
-		pidText, _, _ := strings.Cut(rest, "-")
-		pid, err := strconv.Atoi(pidText)
-		if err != nil || pid <= 0 || pid == os.Getpid() {
+		path := filepath.Join(parent, e.Name())
+		nums, ok := numbers(rest)
+		if !ok {
+			continue // not a name Temp gives
+		}
+		fd, err := unix.Open(path, unix.O_RDONLY|unix.O_DIRECTORY|unix.O_NOFOLLOW|unix.O_CLOEXEC, 0)
+		if err != nil {
 			continue
 		}
-		if err := unix.Kill(pid, 0); errors.Is(err, unix.ESRCH) {
-			os.RemoveAll(filepath.Join(parent, e.Name()))
+		// The lock is kept while removing, so that no other process takes the folder meanwhile.
+		if unix.Flock(fd, unix.LOCK_EX|unix.LOCK_NB) == nil && (len(nums) == 3 || nums[0] > 0 && errors.Is(unix.Kill(nums[0], 0), unix.ESRCH)) {
+			os.RemoveAll(path)
 		}
+		unix.Close(fd)
 	}
+}
+
+// numbers parses "pid-random" or "pid-random-descriptor", the end of a name Temp gives.
+func numbers(rest string) ([]int, bool) {
+	parts := strings.Split(rest, "-")
+	if len(parts) != 2 && len(parts) != 3 {
+		return nil, false
+	}
+	nums := make([]int, len(parts))
+	for i, p := range parts {
+		n, err := strconv.Atoi(p)
+		if err != nil || n < 0 {
+			return nil, false
+		}
+		nums[i] = n
+	}
+	return nums, true
+}
+
+// Discard removes the working folder tmp, made by Temp and not to be published, and releases its
+// lock. A caller that removes it otherwise leaves the lock held by an open descriptor until the
+// process ends.
+func Discard(tmp string) error {
+	fd := heldLock(tmp)
+	err := os.RemoveAll(tmp)
+	if fd >= 0 {
+		unix.Close(fd)
+	}
+	return err
 }
 
 // Publish makes tmp appear at dir. Every file in tmp must already be synced. If dir exists it is
 // swapped out in one step where the system allows (renameat2 RENAME_EXCHANGE) and then removed.
+// The lock that Temp took goes with the folder and is released at the end.
 func Publish(tmp, dir string) error {
+	if fd := heldLock(tmp); fd >= 0 {
+		defer unix.Close(fd)
+	}
 	if err := syncDir(tmp); err != nil {
-		return fmt.Errorf("publish %s: %w", dir, err)
+		return fmt.Errorf("publish %s: %w", dir, pathless(err))
 	}
 	parent := filepath.Dir(filepath.Clean(dir))
 	err := os.Rename(tmp, dir)
 	if err != nil {
 		var le *os.LinkError
 		if !errors.As(err, &le) || !(errors.Is(err, unix.ENOTEMPTY) || errors.Is(err, unix.EEXIST)) {
-			return fmt.Errorf("publish %s: %w", dir, err)
+			return fmt.Errorf("publish %s: %w", dir, pathless(err))
 		}
 		if xerr := unix.Renameat2(unix.AT_FDCWD, tmp, unix.AT_FDCWD, dir, unix.RENAME_EXCHANGE); xerr != nil {
 			// Without an exchange, move the old folder aside first: a crash between the two renames
 			// leaves no folder at dir, which is "none", never a partial one.
 			old := tmp + ".old"
 			if rerr := os.Rename(dir, old); rerr != nil {
-				return fmt.Errorf("publish %s: %w", dir, rerr)
+				return fmt.Errorf("publish %s: move the previous one aside: %w", dir, pathless(rerr))
 			}
 			if rerr := os.Rename(tmp, dir); rerr != nil {
-				return fmt.Errorf("publish %s: %w", dir, rerr)
+				return fmt.Errorf("publish %s: %w", dir, pathless(rerr))
 			}
 			tmp = old
 		}
 		// tmp now holds the old folder.
 		if err := os.RemoveAll(tmp); err != nil {
-			return fmt.Errorf("publish %s: remove previous: %w", dir, err)
+			return fmt.Errorf("publish %s: remove the previous one: %w", dir, pathless(err))
 		}
 	}
 	if err := syncDir(parent); err != nil {
-		return fmt.Errorf("publish %s: %w", dir, err)
+		return fmt.Errorf("publish %s: %w", dir, pathless(err))
 	}
 	return nil
+}
+
+// pathless strips the path from a file system error: the paths here are of working folders, which
+// mean nothing to the reader of a message, who is told the destination instead.
+func pathless(err error) error {
+	var pe *os.PathError
+	if errors.As(err, &pe) {
+		return fmt.Errorf("%s: %w", pe.Op, pe.Err)
+	}
+	var le *os.LinkError
+	if errors.As(err, &le) {
+		return fmt.Errorf("%s: %w", le.Op, le.Err)
+	}
+	return err
 }
 
 func syncDir(dir string) error {
