@@ -20,7 +20,8 @@ type Axis struct {
 	Scale Scale  // New places it on the plot area
 	Title string // written along the axis
 	// Tick labels a tick's value; nil writes powers of ten as 1e18 on a
-	// log scale and the shortest exact decimal otherwise.
+	// log scale, whole counts in full on a log-count scale and the shortest
+	// exact decimal otherwise.
 	Tick func(v float64) string
 }
 
@@ -66,6 +67,8 @@ func (a Axis) label(v float64) string {
 		return a.Tick(v)
 	case a.Scale.log:
 		return "1e" + strconv.Itoa(int(math.Round(math.Log10(v))))
+	case a.Scale.count:
+		return strconv.FormatFloat(v, 'f', -1, 64)
 	}
 	return strconv.FormatFloat(v, 'g', -1, 64)
 }

@@ -112,3 +112,12 @@ func TestLegend(t *testing.T) {
 		}
 	}
 }
+
+func TestLogCountLabels(t *testing.T) {
+	s := string(New(testBox, "", Axis{Scale: Linear(0, 1)}, Axis{Scale: LogCount(2e6)}).SVG())
+	for _, want := range []string{">0</text>", ">1</text>", ">1000</text>", ">1000000</text>"} {
+		if !strings.Contains(s, want) {
+			t.Errorf("log-count labels lack %s\n%s", want, s)
+		}
+	}
+}

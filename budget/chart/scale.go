@@ -8,6 +8,7 @@ type Scale struct {
 	lo, hi float64 // the domain, as log10 of the data on a log scale
 	p0, p1 float64 // the pixels lo and hi land on
 	log    bool
+	count  bool // log10(1+v): see LogCount
 }
 
 // Linear is the scale of data lo..hi, placed on pixels 0..1 until Onto
@@ -21,6 +22,16 @@ func Log10(lo, hi float64) Scale {
 	return Scale{lo: math.Log10(lo), hi: math.Log10(hi), p1: 1, log: true}
 }
 
+// LogCount is the scale of counts 0..hi by log10(1+v). Zero keeps its place at the start, which a
+// log scale has not, and past the first few every power of ten gets about the same length, so a
+// count of one stays visible beside one of thousands, as it would not on a linear scale.
+func LogCount(hi float64) Scale {
+	return Scale{hi: log1p10(hi), p1: 1, count: true}
+}
+
+// log1p10 is log10(1+v), precise for small v.
+func log1p10(v float64) float64 { return math.Log1p(v) / math.Ln10 }
+
 // Onto places s on pixels p0 (where the domain starts) to p1 (where it ends).
 // A y axis gives p0 > p1, since SVG counts y downward and larger values go up.
 func (s Scale) Onto(p0, p1 float64) Scale {
@@ -30,8 +41,11 @@ func (s Scale) Onto(p0, p1 float64) Scale {
 
 // At is the pixel of data value v.
 func (s Scale) At(v float64) float64 {
-	if s.log {
+	switch {
+	case s.log:
 		v = math.Log10(v)
+	case s.count:
+		v = log1p10(v)
 	}
 	return s.at(v)
 }
@@ -49,13 +63,18 @@ type Tick struct {
 }
 
 // Ticks are the places to grid and label: on a linear scale about n of them at
-// a step from TickStep, on a log scale every power of ten inside the domain.
+// a step from TickStep, on a log scale every power of ten inside the domain, on
+// a log-count scale zero and every power of ten up to its end (with 2 and 5
+// times them while that is below 100, where decades are few and far apart).
 // A domain that is empty, reversed or not finite has none.
 func (s Scale) Ticks(n int) []Tick {
 	if !finite(s.lo) || !finite(s.hi) || !(s.hi > s.lo) {
 		return nil
 	}
 	var ts []Tick
+	if s.count {
+		return s.countTicks()
+	}
 	if s.log {
 		for d := math.Ceil(s.lo); d <= s.hi; d++ {
 			ts = append(ts, Tick{V: math.Pow10(int(d)), Pos: s.at(d)})
@@ -73,6 +92,24 @@ func (s Scale) Ticks(n int) []Tick {
 		ts = append(ts, Tick{V: v, Pos: s.at(v)})
 		if v+step == v { // a step below the precision of v would never end
 			break
+		}
+	}
+	return ts
+}
+
+// countTicks are the ticks of a LogCount scale. Its domain is log10(1+v), so
+// the ticks' values are whole counts and their places are computed from them.
+func (s Scale) countTicks() []Tick {
+	ts := []Tick{{V: 0, Pos: s.at(0)}}
+	mults := []float64{1}
+	if s.hi < log1p10(100) {
+		mults = []float64{1, 2, 5}
+	}
+	for p := 1.0; log1p10(p) <= s.hi && finite(p); p *= 10 {
+		for _, m := range mults {
+			if v := m * p; log1p10(v) <= s.hi {
+				ts = append(ts, Tick{V: v, Pos: s.at(log1p10(v))})
+			}
 		}
 	}
 	return ts

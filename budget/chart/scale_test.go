@@ -105,3 +105,45 @@ func TestTicksEnd(t *testing.T) {
 		t.Errorf("%d ticks, want the one before the step vanishes", len(ts))
 	}
 }
+
+func TestLogCount(t *testing.T) {
+	s := LogCount(999).Onto(200, 0)
+	for _, tt := range []struct{ v, want float64 }{
+		{0, 200},                                           // zero where the axis starts
+		{999, 0},                                           // the end of the domain
+		{9, 200 - 200.0/3},                                 // log10(10) is a third of log10(1000)
+		{1, 200 - 200*math.Log10(2)/3},                     // one row is a tenth of the way up
+		{1e-12, 200 - 200*1e-12/math.Ln10/3},               // log1p keeps small counts exact
+		{99, 200 - 200*2.0/3}, {math.Inf(1), math.Inf(-1)}, // no panic past the end
+	} {
+		if got := s.At(tt.v); math.Abs(got-tt.want) > 1e-9 && got != tt.want {
+			t.Errorf("At(%v) = %v, want %v", tt.v, got, tt.want)
+		}
+	}
+	tests := []struct {
+		hi   float64
+		want []float64
+	}{
+		{1000, []float64{0, 1, 10, 100, 1000}},
+		{999, []float64{0, 1, 10, 100}},
+		{30, []float64{0, 1, 2, 5, 10, 20}},
+		{99, []float64{0, 1, 2, 5, 10, 20, 50}},
+		{1, []float64{0, 1}},
+		{0, nil},
+		{-3, nil},
+		{math.NaN(), nil},
+	}
+	for _, tt := range tests {
+		s := LogCount(tt.hi).Onto(0, 1)
+		got := s.Ticks(6)
+		if len(got) != len(tt.want) {
+			t.Errorf("LogCount(%v) ticks %v, want values %v", tt.hi, got, tt.want)
+			continue
+		}
+		for i, tk := range got {
+			if tk.V != tt.want[i] || tk.Pos != s.At(tk.V) {
+				t.Errorf("LogCount(%v) tick %d is %v, want %v at %v", tt.hi, i, tk, tt.want[i], s.At(tt.want[i]))
+			}
+		}
+	}
+}

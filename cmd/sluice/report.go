@@ -18,16 +18,19 @@ func (*reportCmd) flags() *pflag.FlagSet {
 	fs := newFlags("report", "sluice report RUN --out FILE.html [flags]",
 		`Writes one HTML file that shows a run made by 'sluice pick': the distribution of scores with the
 cut marked, the FLOP ledger as one bar (selection, training, what is left), the kept tokens by
-pool file, the terms that weigh most in the target set, and a sample of the rows kept just above
-the cut and of the best rows not kept, each with the terms that made its score and why it was or
-was not kept. The page needs no network and runs no script: charts are inline SVG, and every figure
-in them is also written as a data- attribute for tools. It streams scores.jsonl, keeping only the
-histogram, per-file sums and the sample (and reads it once more to explain the sample rows), so
-runs of millions of rows are fine.`,
+pool file, the terms that weigh most in the target set, and samples of rows: the top of the
+ranking, the rows kept just above the cut, the best rows not kept, and kept rows drawn at random
+(with a fixed seed, so the page is the same each time). Each sample row shows its text fields, why
+it was or was not kept, and the terms (or, for n-gram runs, the tokens) that made its score. Rows
+are counted on a log scale, log10(1 + rows), so a few kept rows stay in sight beside many dropped
+ones; rows without a score (a cascade's prefilter left them out) are counted apart by reason. The
+page needs no network and runs no script: charts are inline SVG, and every figure in them is also
+written as a data- attribute for tools. It streams scores.jsonl once, keeping only the histogram,
+per-file sums and the samples, so runs of millions of rows are fine.`,
 		`  sluice report run1 --out run1.html
   sluice report run1 --out run1.html --sample 10 --terms 30`)
 	fs.String("out", "", "HTML file to write (required)")
-	fs.Int("sample", 5, "rows to show on each side of the cut")
+	fs.Int("sample", 5, "rows to show in each of the four samples")
 	fs.Int("terms", 20, "target terms to show")
 	fs.Int("files", 12, "pool files to show by name; the rest are summed in one line")
 	fs.BoolP("quiet", "q", false, "print nothing but errors")
@@ -66,7 +69,7 @@ func (c *reportCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 		return err
 	}
 	if !quiet {
-		fmt.Fprintf(e.stderr, "wrote %s: %d rows, %d kept, %d sample rows\n", out, rep.Rows, rep.KeptRows, len(rep.Above)+len(rep.Below))
+		fmt.Fprintf(e.stderr, "wrote %s: %d rows, %d kept, %d sample rows\n", out, rep.Rows, rep.KeptRows, rep.SampleRows())
 	}
 	return nil
 }

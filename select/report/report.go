@@ -3,13 +3,12 @@ package report
 import (
 	"bytes"
 	"context"
-	"encoding/json"
+	"errors"
 	"fmt"
 	"html/template"
 	"math"
 	"os"
 	"path/filepath"
-	"slices"
 	"sort"
 	"strconv"
 	"strings"
@@ -19,7 +18,6 @@ import (
 	"github.com/valyala/fastjson"
 
 	"sluice/budget"
-	"sluice/budget/chart"
 	"sluice/index"
 	"sluice/index/atomicdir"
 	"sluice/select/audit"
@@ -28,113 +26,10 @@ import (
 
 // Options say how much the page shows and where the run's inputs are.
 type Options struct {
-	Sample int        // rows shown on each side of the cut
+	Sample int        // rows shown in each sample: the top, either side of the cut, at random
 	Terms  int        // target terms shown
 	Files  int        // pool files shown by name; the rest are summed in one line
 	Inputs run.Inputs // where the run's index and target are, if they have moved
-}
-
-// histBins is the most bins the score histogram uses; after the last doubling it uses between half
-// of them and all. It must be even.
-const histBins = 48
-
-// scoreHist is a histogram of positive scores built in one pass without knowing the range first:
-// bins start at zero and have a power-of-two width, which doubles (merging pairs of bins) whenever
-// a score falls past the last bin. Rows scoring 0 share no term with the target and are counted
-// apart, since they would swamp the first bin.
-type scoreHist struct {
-	width         float64
-	kept, dropped [histBins]int64
-	zero          int64
-	max           float64
-}
-
-func (h *scoreHist) add(s float64, kept bool) {
-	if s <= 0 {
-		h.zero++
-		return
-	}
-	if h.width == 0 {
-		// The first score lands in the lower half; width*histBins >= 2s > s.
-		h.width = math.Exp2(math.Ceil(math.Log2(2 * s / histBins)))
-	}
-	for s >= h.width*histBins {
-		for i := 0; i < histBins/2; i++ {
-			h.kept[i] = h.kept[2*i] + h.kept[2*i+1]
-			h.dropped[i] = h.dropped[2*i] + h.dropped[2*i+1]
-		}
-		for i := histBins / 2; i < histBins; i++ {
-			h.kept[i], h.dropped[i] = 0, 0
-		}
-		h.width *= 2
-	}
-	i := int(s / h.width)
-	if kept {
-		h.kept[i]++
-	} else {
-		h.dropped[i]++
-	}
-	h.max = max(h.max, s)
-}
-
-// used is the number of bins up to the last non-empty one.
-func (h *scoreHist) used() int {
-	for i := histBins - 1; i >= 0; i-- {
-		if h.kept[i]+h.dropped[i] > 0 {
-			return i + 1
-		}
-	}
-	return 0
-}
-
-// sampleRow is a row of scores.jsonl held for the sample.
-type sampleRow struct {
-	rank  int
-	score run.Score
-}
-
-// rankSample keeps the k rows with the smallest (or largest) rank numbers seen so far.
-type rankSample struct {
-	k       int
-	largest bool
-	rows    []sampleRow
-}
-
-// offer considers the row of scores.jsonl line, ranked rank, for the sample. The line is decoded
-// only when the row is taken, which after the first few is rare.
-func (s *rankSample) offer(row, rank int, line []byte) error {
-	if s.k == 0 {
-		return nil
-	}
-	at := len(s.rows)
-	if at == s.k {
-		// k is small (at most 100): a scan for the worst is cheaper to read than a heap.
-		worst := 0
-		for i, r := range s.rows {
-			if (s.largest && r.rank < s.rows[worst].rank) || (!s.largest && r.rank > s.rows[worst].rank) {
-				worst = i
-			}
-		}
-		if (s.largest && rank <= s.rows[worst].rank) || (!s.largest && rank >= s.rows[worst].rank) {
-			return nil
-		}
-		at = worst
-	}
-	sr := sampleRow{rank: rank, score: run.Score{Row: row}}
-	if err := json.Unmarshal(line, &sr.score); err != nil {
-		return err
-	}
-	if at == len(s.rows) {
-		s.rows = append(s.rows, sr)
-	} else {
-		s.rows[at] = sr
-	}
-	return nil
-}
-
-func (s *rankSample) sorted() []sampleRow {
-	sort.Slice(s.rows, func(i, j int) bool { return s.rows[i].rank < s.rows[j].rank })
-	return s.rows
 }
 
 // Page is everything the page shows, worked out before the template runs.
@@ -158,8 +53,13 @@ type Page struct {
 	TermsNote  string
 	CutRank    int
 	CutScore   float64
+	TermsTFIDF bool // the terms' idf is TF-IDF's, not BM25's
+	ByModel    bool // the run's method scores rows by models, not by the terms the terms chart weighs
+	Top        []sampleView
 	Above      []sampleView
 	Below      []sampleView
+	Random     []sampleView
+	Seed       int
 }
 
 // Build reads the run folder dir once (and its sample rows' explanations) and works out everything
@@ -184,7 +84,7 @@ func Build(ctx context.Context, dir string, o Options) (*Page, error) {
 	defer x.Close()
 	ix := x.Index()
 	rep := &Page{Run: dir, Sluice: m.Sluice, Command: strings.Join(m.Command, " "), Settings: m.Settings,
-		Method: m.Settings.MethodName(), Ledger: *led, CutRank: -1}
+		Method: m.Settings.MethodName(), Ledger: *led, CutRank: -1, CutScore: math.NaN(), Seed: sampleSeed}
 	t, err := tallyScores(ctx, dir, ix, rep, o.Sample)
 	if err != nil {
 		return nil, err
@@ -192,29 +92,41 @@ func Build(ctx context.Context, dir string, o Options) (*Page, error) {
 	rep.Hist = newHistChart(&t.hist, rep)
 	rep.LedgerBar = newLedgerBar(*led)
 	rep.Files, rep.FilesOther = fileChart(ix, t.keptTok, t.poolTok, t.keptRows, o.Files)
-	rep.Terms, rep.TermsNote, rep.Targets = termChart(ix, m, x.Targets(), o.Terms)
-	if rep.Above, err = explainSample(x, t.above.sorted()); err != nil {
-		return nil, err
-	}
-	if rep.Below, err = explainSample(x, t.below.sorted()); err != nil {
-		return nil, err
+	rep.TermsTFIDF, rep.ByModel = termsIDF(m.Settings)
+	rep.Terms, rep.TermsNote, rep.Targets = termChart(ix, rep.TermsTFIDF, x.Targets(), o.Terms)
+	tx, txErr := newRowTexter(ix.Meta().Text)
+	top, above, below := t.top.sorted(), t.above.sorted(), t.below.sorted()
+	for _, s := range []struct {
+		name string
+		rows []sampleRow
+		to   *[]sampleView
+	}{
+		{"top", top, &rep.Top}, {"above", above, &rep.Above}, {"below", below, &rep.Below},
+		{"random", t.random.pick(o.Sample, top, above), &rep.Random},
+	} {
+		if *s.to, err = explainSample(x, tx, txErr, s.name, s.rows); err != nil {
+			return nil, err
+		}
 	}
 	return rep, nil
 }
 
 // tally is what one pass over scores.jsonl gathers: the histogram, per-file sums and the samples.
 type tally struct {
-	hist             scoreHist
-	keptTok, poolTok []int64
-	keptRows         []int
-	above, below     rankSample
+	hist              scoreHist
+	keptTok, poolTok  []int64
+	keptRows          []int
+	top, above, below rankSample
+	random            reservoir
 }
 
 // tallyScores streams the run's scores.jsonl, keeping only the tally and the totals of rep.
 func tallyScores(ctx context.Context, dir string, ix *index.Index, rep *Page, sample int) (*tally, error) {
 	nsrc := len(ix.Meta().Sources)
+	lexical := rep.Settings.Method != run.MethodNgram
 	t := &tally{keptTok: make([]int64, nsrc), poolTok: make([]int64, nsrc), keptRows: make([]int, nsrc),
-		above: rankSample{k: sample, largest: true}, below: rankSample{k: sample}}
+		hist: scoreHist{zeroApart: lexical}, top: rankSample{k: sample}, above: rankSample{k: sample, largest: true},
+		below: rankSample{k: sample}, random: newReservoir(3*sample, sampleSeed)}
 	var p fastjson.Parser
 	row := 0
 	err := run.EachScoreLine(dir, func(r int, line []byte) error {
@@ -231,14 +143,35 @@ func tallyScores(ctx context.Context, dir string, ix *index.Index, rep *Page, sa
 		if err != nil {
 			return err
 		}
-		s, tok, rank, kept := v.GetFloat64("score"), v.GetInt64("tokens"), v.GetInt("rank"), v.GetBool("kept")
+		tok, rank, kept := v.GetInt64("tokens"), v.GetInt("rank"), v.GetBool("kept")
+		src := ix.RowLocation(r).Source
+		t.poolTok[src] += tok
+		rep.PoolTokens += tok
+		sv := v.Get("score")
+		if sv == nil || sv.Type() == fastjson.TypeNull {
+			// Not scored by the run's method (a cascade's first stage left it out): it has no place
+			// on the score axis and cannot have been kept.
+			if kept {
+				return errors.New("a kept row has no score")
+			}
+			t.hist.unscored(string(v.GetStringBytes("reason")))
+			return nil
+		}
+		s, err := sv.Float64()
+		if err != nil {
+			return fmt.Errorf("score: %w", err)
+		}
 		if math.IsNaN(s) || math.IsInf(s, 0) {
 			return fmt.Errorf("score %v", s)
 		}
 		t.hist.add(s, kept)
-		src := ix.RowLocation(r).Source
-		t.poolTok[src] += tok
-		rep.PoolTokens += tok
+		// A lexical score of 0 shares no term with the target: nothing to explain.
+		matched := s > 0 || !lexical
+		if matched {
+			if err := t.top.offer(r, rank, line); err != nil {
+				return err
+			}
+		}
 		if kept {
 			t.keptTok[src] += tok
 			t.keptRows[src]++
@@ -247,8 +180,11 @@ func tallyScores(ctx context.Context, dir string, ix *index.Index, rep *Page, sa
 			if rank > rep.CutRank {
 				rep.CutRank, rep.CutScore = rank, s
 			}
+			if err := t.random.offer(r, rank, line); err != nil {
+				return err
+			}
 			return t.above.offer(r, rank, line)
-		} else if s > 0 {
+		} else if matched {
 			return t.below.offer(r, rank, line)
 		}
 		return nil
@@ -266,95 +202,12 @@ func tallyScores(ctx context.Context, dir string, ix *index.Index, rep *Page, sa
 // Chart geometry, in SVG user units; the charts scale to the page's width.
 const (
 	chartW   = 960
-	histH    = 300
-	histL    = 64 // left margin, for the count labels
-	histR    = 16
-	histT    = 28
-	histB    = 48
 	barRowH  = 26
 	barLabel = 250 // width of the label column of bar lists
-	barText  = 300 // width of the value column
+	// barLabelRunes is the most runes of a bar's label that fit in its column at 13 px.
+	barLabelRunes = 34
+	barText       = 300 // width of the value column
 )
-
-type histBar struct {
-	Lo, Hi          string // bin edges, exact, for data attributes
-	Kept, Dropped   int64
-	X, W            float64
-	KeptY, KeptH    float64
-	DropY, DropH    float64
-	Label           string // for the tooltip
-	HasKept, HasDro bool
-}
-
-type tick struct {
-	Pos   float64
-	Label string
-}
-
-type histChart struct {
-	W, H           int
-	PlotL, PlotR   float64
-	PlotT, PlotB   float64
-	TickB          float64
-	Bars           []histBar
-	XTicks, YTicks []tick
-	BinWidth       string
-	Zero           int64
-	Max            string
-	HasCut         bool
-	CutX           float64
-	CutLabel       string
-	CutAnchor      string
-	CutScore       string
-	Empty          bool
-}
-
-func newHistChart(h *scoreHist, rep *Page) histChart {
-	c := histChart{W: chartW, H: histH, PlotL: histL, PlotR: chartW - histR, PlotT: histT, PlotB: histH - histB,
-		TickB: histH - histB + 5, BinWidth: exact(h.width), Zero: h.zero, Max: exact(h.max)}
-	n := h.used()
-	if n == 0 {
-		c.Empty = true
-		return c
-	}
-	var top int64
-	for i := 0; i < n; i++ {
-		top = max(top, h.kept[i]+h.dropped[i])
-	}
-	step := chart.NiceStep(float64(top) / 4)
-	ymax := math.Ceil(float64(top)/step) * step
-	plotW := c.PlotR - c.PlotL
-	bw := plotW / float64(n)
-	y := chart.Linear(0, ymax).Onto(c.PlotB, c.PlotT).At
-	for i := 0; i < n; i++ {
-		k, d := h.kept[i], h.dropped[i]
-		lo, hi := float64(i)*h.width, float64(i+1)*h.width
-		b := histBar{Lo: exact(lo), Hi: exact(hi), Kept: k, Dropped: d, X: c.PlotL + float64(i)*bw + 0.5, W: max(bw-1, 0.5),
-			HasKept: k > 0, HasDro: d > 0,
-			Label: fmt.Sprintf("scores %s to %s: %d kept, %d not kept", short(lo), short(hi), k, d)}
-		b.KeptY, b.KeptH = y(float64(k)), c.PlotB-y(float64(k))
-		b.DropY, b.DropH = y(float64(k+d)), y(float64(k))-y(float64(k+d))
-		c.Bars = append(c.Bars, b)
-	}
-	for v := 0.0; v <= ymax+step/2; v += step {
-		c.YTicks = append(c.YTicks, tick{y(v), strconv.FormatFloat(v, 'f', -1, 64)})
-	}
-	every := max(1, (n+7)/8)
-	for i := 0; i <= n; i += every {
-		c.XTicks = append(c.XTicks, tick{c.PlotL + float64(i)*bw, short(float64(i) * h.width)})
-	}
-	if rep.CutRank > 0 && rep.CutScore > 0 {
-		c.HasCut = true
-		c.CutScore = exact(rep.CutScore)
-		c.CutX = c.PlotL + rep.CutScore/(float64(n)*h.width)*plotW
-		c.CutLabel = fmt.Sprintf("cut: score %s, rank %d", short(rep.CutScore), rep.CutRank)
-		c.CutAnchor = "start"
-		if c.CutX > c.PlotL+plotW*0.6 {
-			c.CutAnchor = "end"
-		}
-	}
-	return c
-}
 
 type ledgerSeg struct {
 	Kind, Name string
@@ -460,16 +313,27 @@ func fileChart(ix *index.Index, keptTok, poolTok []int64, keptRows []int, show i
 			w = float64(keptTok[i]) / float64(top) * c.MaxW
 		}
 		name := clean(srcs[i].Path)
-		c.Items = append(c.Items, barItem{Label: shortenLeft(name, 34), Full: name, Y: float64(n * barRowH), W: w,
+		c.Items = append(c.Items, barItem{Label: shortenMiddle(name, barLabelRunes), Full: name, Y: float64(n * barRowH), W: w,
 			Text: fmt.Sprintf("%s of %s tokens (%s), %d rows", groupDigits(keptTok[i]), groupDigits(poolTok[i]), pct(float64(keptTok[i]), float64(poolTok[i])), keptRows[i]),
 			Key:  name, A: strconv.FormatInt(keptTok[i], 10), B: strconv.FormatInt(poolTok[i], 10), C: strconv.Itoa(keptRows[i])})
 	}
 	return c, other
 }
 
+// termsIDF says which idf the terms chart uses: the run's method's, or in a cascade its lexical
+// first stage's; notLexical says the run's own method weighs no terms.
+func termsIDF(st run.Settings) (tfidf, notLexical bool) {
+	method := st.Method
+	if method == run.MethodNgram {
+		notLexical = true
+		method, _, _ = strings.Cut(st.Prefilter, ":")
+	}
+	return method == run.MethodTFIDF, notLexical
+}
+
 // termChart weighs each target term as the summed query does: the number of target rows holding
-// it times its idf over the pool, with the idf of the run's method.
-func termChart(ix *index.Index, m *run.Manifest, targets []index.Target, show int) (barChart, string, int) {
+// it times its idf over the pool, TF-IDF's smooth idf or BM25's.
+func termChart(ix *index.Index, tfidf bool, targets []index.Target, show int) (barChart, string, int) {
 	rows := map[string]int{}
 	for _, t := range targets {
 		seen := map[string]bool{}
@@ -495,7 +359,7 @@ func termChart(ix *index.Index, m *run.Manifest, targets []index.Target, show in
 			continue
 		}
 		idf := math.Log1p((float64(n-df) + 0.5) / (float64(df) + 0.5)) // BM25, Robertson and Zaragoza (2009)
-		if m.Settings.Method == "tfidf" {
+		if tfidf {
 			idf = math.Log(float64(1+n)/float64(1+df)) + 1 // smooth idf, as scikit-learn's TfidfVectorizer
 		}
 		all = append(all, tw{term, r, df, float64(r) * idf})
@@ -514,90 +378,24 @@ func termChart(ix *index.Index, m *run.Manifest, targets []index.Target, show in
 	c := newBarChart(len(all))
 	for i, t := range all {
 		name := clean(t.term)
-		c.Items = append(c.Items, barItem{Label: shortenLeft(name, 34), Full: name, Y: float64(i * barRowH), W: t.w / all[0].w * c.MaxW,
+		c.Items = append(c.Items, barItem{Label: shortenMiddle(name, barLabelRunes), Full: name, Y: float64(i * barRowH), W: t.w / all[0].w * c.MaxW,
 			Text: fmt.Sprintf("weight %.4g · in %d of %d target rows · df %s", t.w, t.rows, len(targets), groupDigits(int64(t.df))),
 			Key:  name, A: exact(t.w), B: strconv.Itoa(t.rows), C: strconv.Itoa(t.df)})
 	}
 	return c, note, len(targets)
 }
 
-type partView struct {
-	Term, TF, DF, IDF, TFPart, Weight, Contribution string
-	BarW                                            float64
-}
-
-type sampleView struct {
-	ID, Source, Score, Rank, Fate, Tokens, Ledger string
-	Kept                                          bool
-	Text                                          string
-	TextCut                                       bool
-	Parts                                         []partView
-	MoreParts                                     string
-	Targets                                       []audit.Target
-}
-
-// sampleParts is how many of a sample row's terms are listed, largest contribution first.
-const sampleParts = 8
-
-// sampleTextBytes caps the row text shown for a sample row.
-const sampleTextBytes = 700
-
-// explainSample explains each sample row for the page, with its text.
-func explainSample(x *audit.Explainer, rows []sampleRow) ([]sampleView, error) {
-	var out []sampleView
-	for _, sr := range rows {
-		r := sr.score
-		w, err := x.Explain(r, 3)
-		if err != nil {
-			return nil, err
-		}
-		v := sampleView{ID: clean(w.ID), Source: clean(w.Source), Score: strconv.FormatFloat(w.Score, 'g', 6, 64), Rank: strconv.Itoa(w.Rank),
-			Fate: clean(w.Why), Kept: w.Kept, Tokens: strconv.FormatInt(w.Tokens, 10), Ledger: budget.FormatFLOPs(w.Ledger)}
-		parts := slices.Clone(w.Parts)
-		sort.SliceStable(parts, func(i, j int) bool { return parts[i].Contribution > parts[j].Contribution })
-		var rest, top float64
-		if len(parts) > 0 {
-			top = parts[0].Contribution
-		}
-		for i, p := range parts {
-			if i >= sampleParts {
-				rest += p.Contribution
-				continue
-			}
-			bw := 0.0
-			if top > 0 {
-				bw = p.Contribution / top * 80
-			}
-			v.Parts = append(v.Parts, partView{Term: clean(p.Term), TF: strconv.Itoa(p.TF), DF: strconv.Itoa(p.DF), IDF: fmt.Sprintf("%.3f", p.IDF),
-				TFPart: fmt.Sprintf("%.3f", p.TFPart), Weight: fmt.Sprintf("%.4g", p.QueryWeight), Contribution: fmt.Sprintf("%.4g", p.Contribution), BarW: bw})
-		}
-		if len(parts) > sampleParts {
-			v.MoreParts = fmt.Sprintf("%d more terms add %.4g", len(parts)-sampleParts, rest)
-		}
-		for _, t := range w.Targets {
-			t.ID = clean(t.ID)
-			for i := range t.Shared {
-				t.Shared[i] = clean(t.Shared[i])
-			}
-			v.Targets = append(v.Targets, t)
-		}
-		var buf bytes.Buffer
-		if err := x.Index().CopyRows(&buf, []int{r.Row}); err != nil {
-			v.Text = "(the row's text could not be read: " + clean(err.Error()) + ")"
-		} else {
-			t := bytes.TrimRight(buf.Bytes(), "\r\n")
-			if len(t) > sampleTextBytes {
-				cut := sampleTextBytes
-				for cut > 0 && !utf8.RuneStart(t[cut]) {
-					cut--
-				}
-				t, v.TextCut = t[:cut], true
-			}
-			v.Text = clean(string(t))
-		}
-		out = append(out, v)
+// unscoredWhy says in words why rows of a run have no score, by the reason scores.jsonl gives.
+func unscoredWhy(reason string, st run.Settings) string {
+	switch reason {
+	case "prefilter":
+		pre := st.Prefilter
+		st.Prefilter = ""
+		return fmt.Sprintf("fell at the prefilter (%s), so %s never scored them", pre, st.MethodName())
+	case "no-score":
+		return "the scores brought in have none for them"
 	}
-	return out, nil
+	return "reason " + reason
 }
 
 // exact formats v so that it reads back to the same float64: data attributes are for checking.
@@ -654,13 +452,15 @@ func clean(s string) string {
 	}, strings.ToValidUTF8(s, "\uFFFD"))
 }
 
-// shortenLeft keeps the end of s, where file names differ most, within n runes.
-func shortenLeft(s string, n int) string {
+// shortenMiddle fits s in n runes by cutting its middle: a file's name is told by its folder at
+// the start and its base name at the end, and a term by both ends too. The end keeps the odd rune.
+func shortenMiddle(s string, n int) string {
 	r := []rune(s)
-	if len(r) <= n {
+	if len(r) <= n || n < 1 {
 		return s
 	}
-	return "…" + string(r[len(r)-n+1:])
+	head := (n - 1) / 2
+	return string(r[:head]) + "…" + string(r[len(r)-(n-1-head):])
 }
 
 // generator is the mark every page carries near its start, by which a later report knows the file
@@ -714,14 +514,15 @@ func (rep *Page) WriteFile(out string) error {
 }
 
 var reportPage = template.Must(template.New("report").Funcs(template.FuncMap{
-	"flops":  budget.FormatFLOPs,
-	"digits": groupDigits,
-	"int":    func(v int) string { return groupDigits(int64(v)) },
-	"pct":    pct,
-	"exact":  exact,
-	"short":  short,
-	"count":  budget.FormatCount,
-	"float":  func(v int64) float64 { return float64(v) },
+	"flops":       budget.FormatFLOPs,
+	"digits":      groupDigits,
+	"int":         func(v int) string { return groupDigits(int64(v)) },
+	"pct":         pct,
+	"exact":       exact,
+	"short":       short,
+	"count":       budget.FormatCount,
+	"unscoredWhy": unscoredWhy,
+	"float":       func(v int64) float64 { return float64(v) },
 	"amount": func(v float64) string {
 		if v == math.Trunc(v) && math.Abs(v) < 1e15 {
 			return groupDigits(int64(v))
@@ -765,6 +566,8 @@ svg .strong { font-weight: 700; }
 .kept { fill: var(--kept); } .drop { fill: var(--drop); } .sel { fill: var(--sel); } .train { fill: var(--kept); }
 .left { fill: var(--left); } .axis { stroke: var(--ink); stroke-width: 1; } .grid { stroke: var(--rule); stroke-width: 1; }
 .cut { stroke: var(--ink); stroke-width: 2; stroke-dasharray: 6 4; }
+.zero { stroke: var(--muted); stroke-width: 1; }
+.pos { fill: var(--kept); } .neg { fill: var(--sel); }
 .legend { display: flex; gap: 20px; flex-wrap: wrap; margin: 6px 0; font-size: 14px; }
 .sw { display: inline-block; width: 14px; height: 14px; vertical-align: -2px; margin-right: 6px; border: 1px solid rgba(0,0,0,0.25); }
 .sw.kept { background: var(--kept); } .sw.drop { background: var(--drop); }
@@ -781,7 +584,13 @@ td.num, th.num { text-align: right; font-variant-numeric: tabular-nums; white-sp
 .badge { font-size: 12px; font-weight: 700; padding: 1px 8px; border-radius: 10px; background: var(--kept); color: #ffffff; }
 .dropped .badge { background: var(--drop); color: var(--ink); }
 .fate { margin: 6px 0 8px; }
-pre.row { white-space: pre-wrap; overflow-wrap: anywhere; background: var(--panel); padding: 8px 10px; margin: 8px 0; max-height: 9.5em; overflow: auto; }
+pre.row { white-space: pre-wrap; overflow-wrap: anywhere; background: var(--panel); padding: 6px 10px; margin: 0 0 8px; }
+pre.raw { max-height: 9.5em; overflow: auto; }
+.field .label { font-size: 12px; font-weight: 600; color: var(--muted); letter-spacing: 0.03em; margin-top: 6px; }
+.field pre.row { font: 14px/1.45 system-ui, -apple-system, "Segoe UI", Roboto, "Noto Sans", "DejaVu Sans", Arial, sans-serif; }
+.field .more { color: var(--muted); font-size: 12.5px; }
+table.words { width: auto; min-width: 50%; }
+ul.unscored { margin: 0 0 8px; padding-left: 18px; color: var(--muted); }
 .why { display: grid; grid-template-columns: minmax(0, 3fr) minmax(0, 2fr); gap: 18px; }
 @media (max-width: 760px) { .why { grid-template-columns: 1fr; } main { padding: 16px; } }
 .targets ul { margin: 0; padding-left: 18px; } .targets li { margin-bottom: 4px; }
@@ -805,23 +614,25 @@ footer ul { padding-left: 18px; }
 
 <section id="scores">
 <h2>Scores and the cut</h2>
-<p class="lead">How many pool rows scored how much against the target set. Bars stack the rows kept (blue, below) on the rows not kept (orange, above); the dashed line is the score of the last row kept.</p>
+<p class="lead">How many pool rows scored how much against the target set{{if .ByModel}} (higher is more like the target){{end}}. Each bin has two bars, both from zero and not stacked: the rows kept (blue) and the rows not kept (orange); where a bin has both, the smaller is drawn narrower, in front. Rows are counted on a log scale, log10(1 + rows), so that a bin of one row stays in sight beside one of hundreds. The dashed line is the score of the last row kept.</p>
 <div class="legend"><span><span class="sw kept"></span>kept</span><span><span class="sw drop"></span>not kept</span></div>
 {{with .Hist}}<figure>
-<svg id="histogram" viewBox="0 0 {{.W}} {{.H}}" role="img" aria-labelledby="hist-title" data-rows="{{$.Rows}}" data-kept-rows="{{$.KeptRows}}" data-zero-rows="{{.Zero}}" data-bin-width="{{.BinWidth}}" data-max-score="{{.Max}}"{{if .HasCut}} data-cut-score="{{.CutScore}}" data-cut-rank="{{$.CutRank}}"{{end}}>
+<svg id="histogram" viewBox="0 0 {{.W}} {{.H}}" role="img" aria-labelledby="hist-title" data-rows="{{$.Rows}}" data-kept-rows="{{$.KeptRows}}" data-scored-rows="{{.Rows}}" data-zero-rows="{{.Zero}}" data-unscored-rows="{{.UnscoredRows}}" data-bin-width="{{.BinWidth}}" data-min-score="{{.Min}}" data-max-score="{{.Max}}" data-count-scale="log10(1+count)"{{if .HasCut}} data-cut-score="{{.CutScore}}" data-cut-rank="{{$.CutRank}}"{{end}}>
 <title id="hist-title">Histogram of scores: {{$.Rows}} rows, {{$.KeptRows}} kept{{if .HasCut}}, cut at score {{.CutScore}}{{end}}</title>
 {{range .YTicks}}<line class="grid" x1="{{$.Hist.PlotL}}" x2="{{$.Hist.PlotR}}" y1="{{.Pos}}" y2="{{.Pos}}"></line>
 <text class="small" x="{{$.Hist.PlotL}}" dx="-8" y="{{.Pos}}" dy="4" text-anchor="end">{{.Label}}</text>
-{{end}}{{range .Bars}}<g class="bin" data-lo="{{.Lo}}" data-hi="{{.Hi}}" data-kept="{{.Kept}}" data-dropped="{{.Dropped}}"><title>{{.Label}}</title>{{if .HasKept}}<rect class="kept" x="{{.X}}" y="{{.KeptY}}" width="{{.W}}" height="{{.KeptH}}"></rect>{{end}}{{if .HasDro}}<rect class="drop" x="{{.X}}" y="{{.DropY}}" width="{{.W}}" height="{{.DropH}}"></rect>{{end}}</g>
+{{end}}{{if .HasZeroLine}}<line class="zero" x1="{{.ZeroX}}" x2="{{.ZeroX}}" y1="{{.PlotT}}" y2="{{.PlotB}}"></line>
+{{end}}{{range .Bars}}<g class="bin" data-lo="{{.Lo}}" data-hi="{{.Hi}}" data-kept="{{.Kept}}" data-dropped="{{.Dropped}}"><title>{{.Label}}</title>{{range .Bars}}<rect class="{{.Class}}" x="{{.X}}" y="{{.Y}}" width="{{.W}}" height="{{.H}}"></rect>{{end}}</g>
 {{end}}<line class="axis" x1="{{.PlotL}}" x2="{{.PlotR}}" y1="{{.PlotB}}" y2="{{.PlotB}}"></line>
 {{range .XTicks}}<line class="axis" x1="{{.Pos}}" x2="{{.Pos}}" y1="{{$.Hist.PlotB}}" y2="{{$.Hist.TickB}}"></line><text class="small" x="{{.Pos}}" y="{{$.Hist.PlotB}}" dy="17" text-anchor="middle">{{.Label}}</text>
-{{end}}<text class="small" x="{{.PlotR}}" y="{{.H}}" dy="-4" text-anchor="end">score ({{$.Method}})</text>
-<text class="small" x="0" y="14">rows</text>
-{{if .HasCut}}<line class="cut" x1="{{.CutX}}" x2="{{.CutX}}" y1="{{.PlotT}}" y2="{{.PlotB}}"></line>
-<text class="strong" x="{{.CutX}}" dx="{{if eq .CutAnchor "end"}}-6{{else}}6{{end}}" y="{{.PlotT}}" dy="4" text-anchor="{{.CutAnchor}}">{{.CutLabel}}</text>{{end}}
-{{if .Empty}}<text x="{{.PlotL}}" y="120">No row shares a term with the target set.</text>{{end}}
+{{end}}<text class="small" x="{{.PlotR}}" y="{{.H}}" dy="-4" text-anchor="end">{{.XTitle}}</text>
+<text class="small" x="0" y="14">rows (log scale)</text>
+{{if .HasCut}}<line class="cut" x1="{{.CutX}}" x2="{{.CutX}}" y1="{{.CutTop}}" y2="{{.PlotB}}"></line>
+<text class="strong" x="{{.CutX}}" dx="{{if eq .CutAnchor "end"}}-6{{else}}6{{end}}" y="{{.CutTop}}" dy="9" text-anchor="{{.CutAnchor}}">{{.CutLabel}}</text>{{end}}
+{{if .Empty}}<text x="{{.PlotL}}" y="120">{{if .ZeroApart}}No row shares a term with the target set.{{else}}No row has a score.{{end}}</text>{{end}}
 </svg>
-<figcaption>{{int $.Rows}} rows in {{len .Bars}} bins of width {{.BinWidth}}; {{digits .Zero}} rows scoring 0 (no term shared with the target set) are not drawn.</figcaption>
+<figcaption>{{digits .Rows}} rows with a score{{if not .Empty}}, in {{len .Bars}} bins of width {{.BinWidth}} from {{.MinText}} to {{.MaxText}}{{end}}{{if .Zero}}; {{digits .Zero}} rows scoring 0 (no term shared with the target set) are not drawn{{end}}.{{if .Unscored}} {{digits .UnscoredRows}} rows have no score and are not drawn:{{end}}</figcaption>
+{{if .Unscored}}<ul class="unscored" id="unscored">{{range .Unscored}}<li data-reason="{{.Reason}}" data-rows="{{.Rows}}">{{digits .Rows}} rows: {{unscoredWhy .Reason $.Settings}}</li>{{end}}</ul>{{end}}
 </figure>{{end}}
 </section>
 
@@ -864,7 +675,7 @@ footer ul { padding-left: 18px; }
 
 <section id="terms">
 <h2>Top terms of the target set</h2>
-<p class="lead">The analysed terms that weigh most when the target set is read as one query: the number of target rows holding a term times its idf over the pool ({{if eq .Settings.Method "tfidf"}}ln((1+N)/(1+df)) + 1{{else}}ln(1 + (N − df + 0.5)/(df + 0.5)){{end}}, N = {{int .Rows}} rows).</p>
+<p class="lead">The analysed terms that weigh most when the target set is read as one query: the number of target rows holding a term times its idf over the pool ({{if .TermsTFIDF}}ln((1+N)/(1+df)) + 1{{else}}ln(1 + (N − df + 0.5)/(df + 0.5)){{end}}, N = {{int .Rows}} rows).{{if .ByModel}} The run's n-gram models weigh no terms; this is the target set as {{if .Settings.Prefilter}}its lexical first stage{{else}}a lexical method{{end}} reads it.{{end}}</p>
 {{with .Terms}}<figure>
 <svg id="terms-chart" viewBox="0 0 {{.W}} {{.H}}" role="img" aria-label="Top terms of the target set">
 {{range .Items}}<g class="term" data-term="{{.Key}}" data-weight="{{.A}}" data-target-rows="{{.B}}" data-df="{{.C}}"><title>{{.Full}}</title>
@@ -877,12 +688,17 @@ footer ul { padding-left: 18px; }
 </section>
 
 <section id="sample">
-<h2>Rows at the cut</h2>
-<p class="lead">The lowest-ranked rows that were kept, and the best-ranked rows that were not, each with the terms that made its score (largest part first; all parts add up to the score) and the target rows it matched best.</p>
+<h2>Sample rows</h2>
+<p class="lead">Rows from four places in the ranking, each with why it was or was not kept and {{if .ByModel}}the tokens that moved its score most, either way (a token's part is its log-probability under the target model{{if .Settings.Ngram}}{{if not .Settings.Ngram.TargetOnly}}, less that under the pool model,{{end}}{{end}} divided by the row's tokens + 1; all parts add up to the score){{else}}the terms that made its score (largest part first; all parts add up to the score) and the target rows it matched best{{end}}.</p>
+<h3>Top of the ranking</h3>
+<div class="cards" id="sample-top">{{range .Top}}{{template "card" .}}{{else}}<p class="note">No row has a score.</p>{{end}}</div>
 <h3>Kept, just above the cut</h3>
 <div class="cards" id="sample-kept">{{range .Above}}{{template "card" .}}{{else}}<p class="note">No row was kept.</p>{{end}}</div>
 <h3>Not kept, just below the cut</h3>
 <div class="cards" id="sample-dropped">{{range .Below}}{{template "card" .}}{{else}}<p class="note">Every row with a score was kept.</p>{{end}}</div>
+<h3>Kept, at random</h3>
+<p class="note">A uniform random sample of the kept rows not shown above (reservoir sampling over scores.jsonl with the fixed seed {{.Seed}}, so the same run gives the same page).</p>
+<div class="cards" id="sample-random">{{range .Random}}{{template "card" .}}{{else}}<p class="note">No other row was kept.</p>{{end}}</div>
 </section>
 
 <footer>
@@ -893,11 +709,12 @@ footer ul { padding-left: 18px; }
 </main>
 </body>
 </html>
-{{define "card"}}<article class="card{{if not .Kept}} dropped{{end}}" data-id="{{.ID}}" data-rank="{{.Rank}}" data-kept="{{.Kept}}">
+{{define "card"}}<article class="card{{if not .Kept}} dropped{{end}}" data-sample="{{.Sample}}" data-id="{{.ID}}" data-rank="{{.Rank}}" data-kept="{{.Kept}}" data-score="{{.Score}}">
 <header><span class="id">{{.ID}}</span><span class="badge">{{if .Kept}}kept{{else}}not kept{{end}}</span><span class="meta">rank {{.Rank}} · score {{.Score}} · {{.Tokens}} tokens · {{.Source}}</span></header>
 <p class="fate">{{.Fate}}.</p>
-<pre class="row">{{.Text}}{{if .TextCut}} …{{end}}</pre>
-<div class="why">
+{{if .Blocks}}<div class="text">{{range .Blocks}}<div class="field"><div class="label">{{.Label}}</div><pre class="row">{{.Text}}{{if .More}}<span class="more"> … {{.More}}</span>{{end}}</pre></div>{{end}}{{if .MoreBlocks}}<p class="note">{{.MoreBlocks}} not shown.</p>{{end}}</div>
+{{else}}{{if .RawNote}}<p class="note">{{.RawNote}}.</p>{{end}}{{if .Raw}}<pre class="row raw">{{.Raw}}{{if .RawCut}} …{{end}}</pre>{{end}}
+{{end}}{{if .Parts}}<div class="why">
 <div><table>
 <thead><tr><th>term</th><th class="num">tf</th><th class="num">df</th><th class="num">idf</th><th class="num">tf part</th><th class="num">query weight</th><th class="num">part</th><th></th></tr></thead>
 <tbody>{{range .Parts}}<tr><td>{{.Term}}</td><td class="num">{{.TF}}</td><td class="num">{{.DF}}</td><td class="num">{{.IDF}}</td><td class="num">{{.TFPart}}</td><td class="num">{{.Weight}}</td><td class="num">{{.Contribution}}</td><td><svg class="part" viewBox="0 0 80 10" aria-hidden="true"><rect class="left" x="0" y="0" width="80" height="10"></rect><rect class="{{if $.Kept}}kept{{else}}drop{{end}}" x="0" y="0" width="{{.BarW}}" height="10"></rect></svg></td></tr>
@@ -905,5 +722,9 @@ footer ul { padding-left: 18px; }
 {{if .MoreParts}}<p class="note">{{.MoreParts}}.</p>{{end}}</div>
 <div class="targets"><strong>Best target rows</strong>{{if .Targets}}<ul>{{range .Targets}}<li><span class="mono">{{.ID}}</span> ({{short .Score}}): {{range $i, $t := .Shared}}{{if $i}}, {{end}}{{$t}}{{end}}</li>{{end}}</ul>{{else}}<p class="note">none shares a term</p>{{end}}</div>
 </div>
-</article>
+{{else if .Words}}<table class="words">
+<thead><tr><th>token</th><th class="num">at</th><th class="num">ln p, target model</th>{{if not .TargetOnly}}<th class="num">ln p, pool model</th>{{end}}<th class="num">part</th><th></th></tr></thead>
+<tbody>{{range .Words}}<tr><td>{{.Token}}</td><td class="num">{{.At}}</td><td class="num">{{.Target}}</td>{{if not $.TargetOnly}}<td class="num">{{.Pool}}</td>{{end}}<td class="num">{{.Part}}</td><td><svg class="part" viewBox="0 0 80 10" aria-hidden="true"><rect class="left" x="0" y="0" width="80" height="10"></rect><rect class="{{if .Neg}}neg{{else}}pos{{end}}" x="0" y="0" width="{{.BarW}}" height="10"></rect></svg></td></tr>
+{{end}}</tbody></table>
+{{end}}</article>
 {{end}}`

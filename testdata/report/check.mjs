@@ -41,8 +41,13 @@ try {
     const num = (el, name) => Number(el.getAttribute(name));
     const ledger = document.querySelector('#ledger-bar');
     const hist = document.querySelector('#histogram');
+    // The bars as laid out on screen, each with the count it stands for.
     const bins = [...hist.querySelectorAll('g.bin')].map((g) => ({
       lo: num(g, 'data-lo'), hi: num(g, 'data-hi'), kept: num(g, 'data-kept'), dropped: num(g, 'data-dropped'),
+      bars: [...g.querySelectorAll('rect')].map((r) => ({
+        count: num(g, r.classList.contains('kept') ? 'data-kept' : 'data-dropped'),
+        height: r.getBoundingClientRect().height,
+      })),
     }));
     // What is drawn, not only what is stated: the parts of the ledger bar as laid out on screen.
     const parts = [...ledger.querySelectorAll('rect[data-part]')].map((r) => ({
@@ -57,12 +62,16 @@ try {
       },
       histogram: {
         rows: num(hist, 'data-rows'), keptRows: num(hist, 'data-kept-rows'), zeroRows: num(hist, 'data-zero-rows'),
+        unscoredRows: num(hist, 'data-unscored-rows'), countScale: hist.getAttribute('data-count-scale'),
+        unscored: [...document.querySelectorAll('#unscored li')].map((li) => ({
+          reason: li.getAttribute('data-reason'), rows: num(li, 'data-rows'), text: li.textContent,
+        })),
         cutScore: hist.hasAttribute('data-cut-score') ? num(hist, 'data-cut-score') : null,
         cutRank: hist.hasAttribute('data-cut-rank') ? num(hist, 'data-cut-rank') : null,
         binWidth: num(hist, 'data-bin-width'), bins,
       },
       files: [...document.querySelectorAll('#files-chart g.file')].map((g) => ({
-        file: g.getAttribute('data-file'), keptTokens: num(g, 'data-kept-tokens'),
+        file: g.getAttribute('data-file'), label: g.querySelector('text').textContent, keptTokens: num(g, 'data-kept-tokens'),
         poolTokens: num(g, 'data-pool-tokens'), keptRows: num(g, 'data-kept-rows'),
       })),
       terms: [...document.querySelectorAll('#terms-chart g.term')].map((g) => ({
@@ -70,8 +79,15 @@ try {
         targetRows: num(g, 'data-target-rows'), df: num(g, 'data-df'),
       })),
       sample: [...document.querySelectorAll('article.card')].map((a) => ({
-        id: a.getAttribute('data-id'), rank: num(a, 'data-rank'), kept: a.getAttribute('data-kept') === 'true',
+        sample: a.getAttribute('data-sample'), id: a.getAttribute('data-id'), rank: num(a, 'data-rank'),
+        kept: a.getAttribute('data-kept') === 'true',
+        raw: a.querySelector('pre.raw') !== null,
+        fields: [...a.querySelectorAll('.field .label')].map((l) => l.textContent),
+        explained: a.querySelectorAll('tbody tr').length,
+        // Text fields keep their line breaks and runs of spaces.
+        whiteSpace: [...a.querySelectorAll('.field pre')].map((p) => getComputedStyle(p).whiteSpace),
       })),
+      method: document.querySelector('p.lead').textContent.replace(/\s+/g, ' '),
       // Text that overflows its box would be cut off on screen.
       pageWidth: document.documentElement.scrollWidth,
       viewWidth: document.documentElement.clientWidth,
