@@ -28,6 +28,12 @@ type Options struct {
 	// row is ranked like any other, stops nothing and costs nothing; its score may be NaN, and a
 	// NaN ranks after every number.
 	Barred []Reason
+	// Group and Caps, when not nil, cap what each group of rows (a source file, say) may cost:
+	// Group[i] is row i's group and Caps[g] the most group g's kept rows may cost together (in
+	// costs' units). A row that would pass its group's cap is not kept, reason GroupCap, and the
+	// walk goes on.
+	Group []int32
+	Caps  []float64
 }
 
 // A Reason says why a row was not kept.
@@ -35,19 +41,23 @@ type Reason uint8
 
 // Reasons, in the words String gives them in output files.
 const (
-	Kept      Reason = iota // ""
-	BelowCut                // "below-cut": ranked after the stop, not considered
-	Budget                  // "budget": considered, but its cost did not fit
-	MaxRows                 // "max-rows": considered after MaxRows rows were kept
-	MinScore                // "min-score": scored below Options.MinScore
-	NoMatch                 // "no-match": scored <= 0 and Options.KeepUnmatched is false
-	Prefilter               // "prefilter": fell at the cheap first stage of a cascade
-	Unscored                // "no-score": the scores brought in have none for it
+	Kept         Reason = iota // ""
+	BelowCut                   // "below-cut": ranked after the stop, not considered
+	Budget                     // "budget": considered, but its cost did not fit
+	MaxRows                    // "max-rows": considered after MaxRows rows were kept
+	MinScore                   // "min-score": scored below Options.MinScore
+	NoMatch                    // "no-match": scored <= 0 and Options.KeepUnmatched is false
+	Prefilter                  // "prefilter": fell at the cheap first stage of a cascade
+	Unscored                   // "no-score": the scores brought in have none for it
+	Duplicate                  // "duplicate": a better-scored row of its duplicate cluster is kept instead
+	Contaminated               // "contaminated": it shares an n-gram with an evaluation row
+	GroupCap                   // "source-cap": its source had reached its share of the budget
 )
 
 var reasonNames = [...]string{
 	Kept: "", BelowCut: "below-cut", Budget: "budget", MaxRows: "max-rows",
 	MinScore: "min-score", NoMatch: "no-match", Prefilter: "prefilter", Unscored: "no-score",
+	Duplicate: "duplicate", Contaminated: "contaminated", GroupCap: "source-cap",
 }
 
 // String returns the stable lower-case word used for r in output files; it
@@ -162,6 +172,10 @@ func Pick(scores []float64, costs []float64, opt Options) ([]Decision, Summary, 
 	dec := make([]Decision, len(scores))
 	total := opt.Fixed
 	var count float64 // with Unit, the kept counts so far
+	var spent []float64
+	if opt.Caps != nil {
+		spent = make([]float64, len(opt.Caps))
+	}
 	fits := func(c float64) (float64, bool) {
 		if opt.Unit > 0 {
 			t := opt.Fixed + opt.Unit*(count+c)
@@ -195,9 +209,14 @@ func Pick(scores []float64, costs []float64, opt Options) ([]Decision, Summary, 
 			if d.Reason == MinScore {
 				sum.Stop = StopMinScore
 			}
+		case spent != nil && spent[opt.Group[i]]+costs[i] > opt.Caps[opt.Group[i]]:
+			d.Reason = GroupCap
 		case fit:
 			total = next
 			count += costs[i]
+			if spent != nil {
+				spent[opt.Group[i]] += costs[i]
+			}
 			d.Kept = true
 			sum.Kept++
 			sum.KeptCost += costs[i]
@@ -246,6 +265,14 @@ func check(scores, costs []float64, opt Options) error {
 	}
 	if math.IsNaN(opt.MinScore) {
 		return fmt.Errorf("pick: min score is NaN: %w", ErrBadInput)
+	}
+	if (opt.Group == nil) != (opt.Caps == nil) || (opt.Group != nil && len(opt.Group) != len(scores)) {
+		return fmt.Errorf("pick: groups and caps go together, a group per row: %w", ErrBadInput)
+	}
+	for i, g := range opt.Group {
+		if g < 0 || int(g) >= len(opt.Caps) {
+			return fmt.Errorf("pick: row %d: group %d has no cap: %w", i, g, ErrBadInput)
+		}
 	}
 	if opt.Barred != nil && len(opt.Barred) != len(scores) {
 		return fmt.Errorf("pick: %d scores but %d barred reasons: %w", len(scores), len(opt.Barred), ErrBadInput)

@@ -519,3 +519,27 @@ func TestBarred(t *testing.T) {
 		t.Errorf("reason words %q %q", Prefilter, Unscored)
 	}
 }
+
+// TestGroupCaps: a group at its cap keeps no more rows, reason source-cap, and the walk goes on to
+// rows of other groups.
+func TestGroupCaps(t *testing.T) {
+	scores := []float64{9, 8, 7, 6, 5}
+	costs := []float64{2, 2, 2, 2, 2}
+	group := []int32{0, 0, 0, 1, 1}
+	dec, sum, err := Pick(scores, costs, Options{Budget: 100, Group: group, Caps: []float64{4, 100}})
+	if err != nil {
+		t.Fatal(err)
+	}
+	want := []Reason{Kept, Kept, GroupCap, Kept, Kept}
+	for i, d := range dec {
+		if d.Reason != want[i] || d.Kept != (want[i] == Kept) {
+			t.Errorf("row %d: %+v, want %v", i, d, want[i])
+		}
+	}
+	if sum.Kept != 4 || sum.Stop != StopExhausted {
+		t.Errorf("summary %+v", sum)
+	}
+	if _, _, err := Pick(scores, costs, Options{Budget: 100, Group: group}); !errors.Is(err, ErrBadInput) {
+		t.Errorf("groups without caps: %v", err)
+	}
+}

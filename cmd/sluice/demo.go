@@ -76,11 +76,12 @@ func (c *demoCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 	say("indexed %d rows (%s; %d terms; rows read %d = indexed %d + quarantined %d)\n\n", st.Rows, st.Text, st.Terms, st.RowsRead, st.Rows, st.RowsRejected)
 
 	runDir := filepath.Join(out, "run")
-	say("$ sluice pick --index %s --target %s --method %s --aggregate %s --budget %s --train-params 125M --out %s\n",
-		idx, target, p.Method, p.Aggregate, demoBudget, runDir)
+	eval := filepath.Join(out, "eval.jsonl")
+	say("$ sluice pick --index %s --target %s --exclude %s --method %s --aggregate %s --budget %s --train-params 125M --out %s\n",
+		idx, target, eval, p.Method, p.Aggregate, demoBudget, runDir)
 	opt := run.Options{Index: idx, Target: target, Params: p, TrainParams: demoTrainParams, Epochs: 1,
-		Out: runDir, BudgetHow: "--budget " + demoBudget}
-	opt.Command = []string{"sluice", "pick", "--index", idx, "--target", target, "--method", p.Method.String(),
+		Out: runDir, BudgetHow: "--budget " + demoBudget, Guards: run.Guards{Exclude: []string{eval}}}
+	opt.Command = []string{"sluice", "pick", "--index", idx, "--target", target, "--exclude", eval, "--method", p.Method.String(),
 		"--aggregate", p.Aggregate.String(), "--budget", demoBudget, "--train-params", "125M", "--out", runDir}
 	if _, err := fmt.Sscanf(demoBudget, "%g", &opt.Budget); err != nil {
 		return err
@@ -100,7 +101,7 @@ func demoFolder() atomicdir.Kind {
 	return atomicdir.Kind{Name: "demo", Mark: "pool.jsonl",
 		IsOur: func(b []byte) bool { return bytes.Equal(b, demodata.Pool()) },
 		Holds: func(name string) bool {
-			return name == "pool.jsonl" || name == "target.jsonl" || name == "index" || name == "run"
+			return name == "pool.jsonl" || name == "target.jsonl" || name == "eval.jsonl" || name == "index" || name == "run"
 		}}
 }
 
@@ -119,7 +120,7 @@ func writeDemoData(out string) (pool, target string, err error) {
 	for _, f := range []struct {
 		path string
 		data []byte
-	}{{pool, demodata.Pool()}, {target, demodata.Target()}} {
+	}{{pool, demodata.Pool()}, {target, demodata.Target()}, {filepath.Join(out, "eval.jsonl"), demodata.Eval()}} {
 		if err := os.WriteFile(f.path, f.data, 0o644); err != nil {
 			return "", "", fmt.Errorf("demo: %w", err)
 		}

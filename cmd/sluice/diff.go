@@ -5,6 +5,7 @@ import (
 	"context"
 	"encoding/json"
 	"fmt"
+	"strings"
 
 	"github.com/spf13/pflag"
 
@@ -66,6 +67,18 @@ func (c *diffCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 	fmt.Fprintf(w, "B %s: %d rows kept, %d tokens, %s of %s FLOPs used (%s)\n", d.B.Run, d.B.Kept, d.B.KeptTokens, budget.FormatFLOPs(d.B.Used), budget.FormatFLOPs(d.B.Budget), pct(d.B.Used, d.B.Budget))
 	fmt.Fprintf(w, "kept in both %d (%d tokens), only in A %d (%d tokens), only in B %d (%d tokens); Jaccard %.4f\n",
 		d.Both, d.BothTokens, d.OnlyA, d.OnlyATokens, d.OnlyB, d.OnlyBTokens, d.Jaccard)
+	for _, side := range []struct {
+		name string
+		s    audit.Side
+	}{{"A", d.A}, {"B", d.B}} {
+		var parts []string
+		for _, why := range []string{"duplicate", "contaminated", "source-cap", "prefilter", "no-score", "no-match", "min-score", "max-rows", "budget", "below-cut"} {
+			if n := side.s.Dropped[why]; n > 0 {
+				parts = append(parts, fmt.Sprintf("%d %s", n, why))
+			}
+		}
+		fmt.Fprintf(w, "%s not kept: %s\n", side.name, strings.Join(parts, ", "))
+	}
 	if d.SpearmanNote != "" {
 		fmt.Fprintf(w, "rank correlation: %s\n", d.SpearmanNote)
 	} else {

@@ -75,6 +75,11 @@ evaluation sets from the pool before picking, or the pick will find them.`,
 	fs.Float64("passes", 1, "scores: forward-pass equivalents per pool token: 1 forward, 3 forward and backward (declared)")
 	fs.Float64("target-passes", 0, "scores: the same per target token, when the method ran the target rows too (declared)")
 	fs.String("selection-flops", "", "scores, vectors: the whole cost of making them, instead of --selector-params (declared)")
+	fs.Bool("keep-duplicates", false, "keep every copy; by default only the best-scored row of each cluster of exact or near duplicates is kept")
+	fs.Float64("near-dup", run.DefaultNearDup, "Jaccard similarity of word 5-gram shingles at which rows are near duplicates, in (0,1]")
+	fs.StringArray("exclude", nil, "an evaluation file (JSONL or text): pool rows sharing a word n-gram with any of its rows are never kept; repeatable")
+	fs.Int("exclude-ngram", run.DefaultExcludeN, "words in the n-grams --exclude compares (13 is common practice for benchmark decontamination)")
+	fs.StringArray("max-share", nil, "cap a pool file's kept rows at a share of the training budget: FILE=0.3 (the file as indexed), or 0.3 for every file; repeatable")
 	fs.String("prefilter", "", "before a model-based method, keep only the best rows by a lexical method:\nMETHOD:SHARE% (bm25:20%) or METHOD:TOKENS (tfidf:50M); the rest are never scored")
 	fs.Float64("k1", 1.2, "BM25 term-frequency saturation")
 	fs.Float64("b", 0.75, "BM25 length normalisation")
@@ -240,6 +245,9 @@ func methodFlags(fs *pflag.FlagSet, opt *run.Options) error {
 	if err := broughtFlags(fs, opt); err != nil {
 		return err
 	}
+	if err := guardFlags(fs, &opt.Guards); err != nil {
+		return err
+	}
 	pf, _ := fs.GetString("prefilter")
 	if pf == "" {
 		return nil
@@ -318,6 +326,20 @@ func printPickSummary(w io.Writer, opt run.Options, res *run.Result, took time.D
 		fmt.Fprintf(&sb, "  note       the budget buys more than the pool holds worth keeping: %s of it is left; every row that matches at all was kept\n", pct(l.Left()))
 	}
 	fmt.Fprintf(&sb, "  %s\n", strings.Replace(res.Reconciliation(), "rows: ", "rows       ", 1))
+	var guarded []string
+	for _, why := range []string{"duplicate", "contaminated", "source-cap", "prefilter", "no-score"} {
+		if n := res.Dropped[why]; n > 0 {
+			guarded = append(guarded, fmt.Sprintf("%d %s", n, why))
+		}
+	}
+	if len(guarded) > 0 {
+		fmt.Fprintf(&sb, "  dropped    %s (see the reason in scores.jsonl, or sluice why)\n", strings.Join(guarded, ", "))
+	}
+	for _, n := range res.Notes {
+		if strings.HasPrefix(n, "target rows in the pool") {
+			fmt.Fprintf(&sb, "  warning    %s: the pick may learn the target set itself\n", n)
+		}
+	}
 	printSources(&sb, res)
 	if res.Meta.RowsRejected > 0 {
 		fmt.Fprintf(&sb, "  quarantine %s/rejected.jsonl (pool rows)\n", opt.Index)

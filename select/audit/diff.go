@@ -12,12 +12,13 @@ import (
 
 // Side is one run of a comparison: what it kept and what it spent.
 type Side struct {
-	Run        string  `json:"run"`
-	Kept       int     `json:"kept"`
-	KeptTokens int64   `json:"kept_tokens"`
-	Budget     float64 `json:"budget_flops"`
-	Used       float64 `json:"used_flops"`
-	Index      string  `json:"index"` // the index the run was made on, by its identity
+	Run        string         `json:"run"`
+	Kept       int            `json:"kept"`
+	KeptTokens int64          `json:"kept_tokens"`
+	Budget     float64        `json:"budget_flops"`
+	Used       float64        `json:"used_flops"`
+	Index      string         `json:"index"`   // the index the run was made on, by its identity
+	Dropped    map[string]int `json:"dropped"` // rows not kept, by reason
 	rows       map[rowKey]sideRow
 }
 
@@ -66,7 +67,7 @@ type Diff struct {
 // readSide reads the scores, ledger and manifest of the run folder dir. Rows are keyed by id and
 // occurrence.
 func readSide(dir string) (Side, error) {
-	s := Side{Run: dir, rows: map[rowKey]sideRow{}}
+	s := Side{Run: dir, rows: map[rowKey]sideRow{}, Dropped: map[string]int{}}
 	m, err := run.ReadManifest(dir)
 	if err != nil {
 		return s, err
@@ -82,6 +83,7 @@ func readSide(dir string) (Side, error) {
 			Rank   int    `json:"rank"`
 			Kept   bool   `json:"kept"`
 			Tokens int64  `json:"tokens"`
+			Reason string `json:"reason"`
 		}
 		if err := json.Unmarshal(line, &r); err != nil {
 			return err
@@ -92,6 +94,8 @@ func readSide(dir string) (Side, error) {
 		if r.Kept {
 			s.Kept++
 			s.KeptTokens += r.Tokens
+		} else {
+			s.Dropped[r.Reason]++
 		}
 		return nil
 	})

@@ -7,6 +7,7 @@ import (
 	"fmt"
 	"math"
 	"sort"
+	"strings"
 	"unicode/utf8"
 
 	"sluice/budget"
@@ -19,23 +20,28 @@ import (
 // Row is what is known of one row of a run: its score, rank and fate, the terms that made its
 // score, and the target rows that matched it best.
 type Row struct {
-	ID      string       `json:"id"`
-	Row     int          `json:"row"`
-	Source  string       `json:"source"`
-	Score   float64      `json:"score"`
-	Rank    int          `json:"rank"`
-	Rows    int          `json:"rows"`
-	Kept    bool         `json:"kept"`
-	Reason  string       `json:"reason,omitempty"`
-	Why     string       `json:"why"`
-	Tokens  int64        `json:"tokens"`
-	Ledger  float64      `json:"ledger"`
-	Budget  float64      `json:"budget"`
-	Method  string       `json:"method"`
-	Text    string       `json:"text"`            // the row as it stands in its file, cut at textBytes
-	Parts   []score.Part `json:"parts"`           // lexical methods: the terms that made the score
-	Words   []Word       `json:"words,omitempty"` // n-gram: the tokens that moved the score most
-	Targets []Target     `json:"targets"`
+	ID     string  `json:"id"`
+	Row    int     `json:"row"`
+	Source string  `json:"source"`
+	Score  float64 `json:"score"`
+	Rank   int     `json:"rank"`
+	Rows   int     `json:"rows"`
+	Kept   bool    `json:"kept"`
+	Reason string  `json:"reason,omitempty"`
+	Why    string  `json:"why"`
+	// DuplicateOf, Contaminated and NGram are as in scores.jsonl: the row kept instead of a
+	// duplicate; the evaluation row (file:line) and n-gram a contaminated row shares.
+	DuplicateOf  string       `json:"duplicate_of,omitempty"`
+	Contaminated string       `json:"contaminated,omitempty"`
+	NGram        string       `json:"ngram,omitempty"`
+	Tokens       int64        `json:"tokens"`
+	Ledger       float64      `json:"ledger"`
+	Budget       float64      `json:"budget"`
+	Method       string       `json:"method"`
+	Text         string       `json:"text"`            // the row as it stands in its file, cut at textBytes
+	Parts        []score.Part `json:"parts"`           // lexical methods: the terms that made the score
+	Words        []Word       `json:"words,omitempty"` // n-gram: the tokens that moved the score most
+	Targets      []Target     `json:"targets"`
 }
 
 // MarshalJSON writes the row; a row barred before its method scored it has "score": null, as in
@@ -207,7 +213,8 @@ func (x *Explainer) Explain(s run.Score, top int) (Row, error) {
 	loc := x.ix.RowLocation(s.Row)
 	r := Row{ID: s.ID, Row: s.Row, Source: fmt.Sprintf("%s:%d", loc.File, loc.Line), Score: s.Score, Rank: s.Rank,
 		Rows: x.ix.NumRows(), Kept: s.Kept, Reason: s.Reason, Tokens: s.Tokens, Ledger: s.Ledger,
-		Budget: st.Budget, Method: st.MethodName(), Text: x.rowText(s.Row)}
+		Budget: st.Budget, Method: st.MethodName(), Text: x.rowText(s.Row),
+		DuplicateOf: s.DuplicateOf, Contaminated: s.Contaminated, NGram: s.NGram}
 	var got float64
 	switch {
 	case math.IsNaN(s.Score):
@@ -310,6 +317,12 @@ func fate(r Row, st run.Settings, stop string) string {
 		return fmt.Sprintf("fell at the prefilter (%s): the cheap first stage did not rank it high enough to be scored by %s", st.Prefilter, st.Method)
 	case "no-score":
 		return "no score: the scores brought in have none for it"
+	case "duplicate":
+		return fmt.Sprintf("duplicate: it is an exact or near duplicate of %s, which scored higher (or as high, and comes first) and stands for their cluster", r.DuplicateOf)
+	case "contaminated":
+		return fmt.Sprintf("contaminated: it shares the %d-word run \"%s\" with the evaluation row %s, so it is never kept", len(strings.Fields(r.NGram)), r.NGram, r.Contaminated)
+	case "source-cap":
+		return "source cap: its pool file had reached its --max-share of the training budget"
 	}
 	return r.Reason
 }

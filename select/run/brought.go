@@ -58,6 +58,10 @@ type VectorsOptions struct {
 
 // inputs are the files a method reads besides the index and the target, for the manifest.
 func (o *Options) inputs() []string {
+	return append(o.methodInputs(), o.Guards.Exclude...)
+}
+
+func (o *Options) methodInputs() []string {
 	switch o.method() {
 	case MethodScores:
 		return []string{o.Scores.File}

@@ -89,6 +89,7 @@ type Settings struct {
 	Join         string          `json:"join,omitempty"`    // how brought-in scores were joined: auto, id or row
 	Missing      string          `json:"missing,omitempty"` // what rows without a brought-in score got
 	Vectors      *VectorsOptions `json:"vectors,omitempty"`
+	Guards       Guards          `json:"guards"`
 }
 
 // MethodName names the method as summaries and pages show it: bm25/sum, ngram-3, ngram-3 after

@@ -34,6 +34,7 @@ type Options struct {
 	Ngram     NgramOptions   // for MethodNgram
 	Scores    ScoresOptions  // for MethodScores
 	Vectors   VectorsOptions // for MethodVectors
+	Guards    Guards         // duplicates, evaluation rows, source shares
 	Prefilter Prefilter      // a cheap first stage before a model-based method; zero for none
 	// MinScoreSet says Select.MinScore was given. Model-based scores can be below zero, so
 	// without it they have no floor; lexical scores always keep theirs (0 by default).
@@ -63,8 +64,10 @@ type Result struct {
 	KeptTokens      int64
 	Ledger          *budget.Ledger
 	Summary         selection.Summary
-	Sources         []SourceTally // per pool file, in the index's order
-	Files           []string      // the files written into the run folder, manifest last
+	Sources         []SourceTally  // per pool file, in the index's order
+	Dropped         map[string]int // rows not kept, by reason ("budget", "duplicate", ...)
+	Notes           []string       // what the guards found, as the ledger notes it
+	Files           []string       // the files written into the run folder, manifest last
 }
 
 // SourceTally is what a pick kept of one pool file.
@@ -100,8 +103,10 @@ type picked struct {
 	survivors int                // rows that passed the prefilter
 	dec       []selection.Decision
 	out       Result
-	tmp       string // the run's working folder, once made
-	target    string // where the target is read from: opt.Target, or its copy in tmp
+	guards    *guarded    // what the guards found; nil when none ran
+	dupOf     map[int]int // a dropped duplicate's row -> the row kept instead
+	tmp       string      // the run's working folder, once made
+	target    string      // where the target is read from: opt.Target, or its copy in tmp
 }
 
 // TargetCopy is the name a target that could be read only once (stdin, a pipe) is kept under in
@@ -165,6 +170,12 @@ func Pick(ctx context.Context, opt Options) (*Result, error) {
 	}
 	p.rowTokens()
 	if err := p.score(ctx); err != nil {
+		return nil, err
+	}
+	if err := p.guard(ctx); err != nil {
+		return nil, err
+	}
+	if err := p.applyGuards(); err != nil {
 		return nil, err
 	}
 	if err := p.keep(); err != nil {
@@ -253,6 +264,10 @@ func (p *picked) keep() error {
 	}
 	so := opt.Select
 	so.Budget, so.Fixed, so.Barred, so.Unit = opt.Budget, led.Selection(), p.barred, unit
+	var err error
+	if so.Group, so.Caps, err = p.groupCaps(unit, so.Fixed); err != nil {
+		return err
+	}
 	if !lexical(opt.method()) {
 		so.KeepUnmatched = true
 		if !opt.MinScoreSet {
@@ -269,7 +284,11 @@ func (p *picked) keep() error {
 	for i, src := range m.Sources {
 		r.Sources[i].File = src.Path
 	}
+	r.Dropped = map[string]int{}
 	for row, d := range dec {
+		if !d.Kept {
+			r.Dropped[d.Reason.String()]++
+		}
 		st := &r.Sources[p.ix.RowLocation(row).Source]
 		st.Rows++
 		st.Tokens += p.tokens[row]
@@ -293,6 +312,8 @@ func (p *picked) keep() error {
 		"selection cost is charged over the whole pool before any row is kept",
 		reconciliation(m, len(p.targets), len(p.trej)),
 	)
+	r.Notes = p.guardNotes()
+	led.Notes = append(led.Notes, r.Notes...)
 	if opt.Prefilter.active() {
 		led.Notes = append(led.Notes, fmt.Sprintf("cascade: %d of %d rows passed the prefilter %s; the others have reason prefilter and no score", p.survivors, n, opt.Prefilter))
 	}
@@ -314,7 +335,7 @@ func (p *picked) settings() Settings {
 		K1: o.Params.K1, B: o.Params.B, Attribute: !o.Params.SkipBest,
 		Budget: o.Budget, BudgetHow: o.BudgetHow, TrainParams: o.TrainParams, Epochs: o.Epochs,
 		Fill: o.Select.Fill, MaxRows: o.Select.MaxRows, MinScore: o.Select.MinScore, Kept: KeptName(o.Compress),
-		Prefilter: o.Prefilter.String(),
+		Prefilter: o.Prefilter.String(), Guards: o.Guards,
 	}
 	if !lexical(st.Method) {
 		st.Aggregate, st.K1, st.B, st.Attribute = "", 0, 0, false

@@ -49,6 +49,12 @@ type Score struct {
 	Tokens int64   `json:"tokens"`
 	Target *string `json:"target"` // the target row that contributed most; nil when none or not asked
 	Ledger float64 `json:"ledger"`
+	// DuplicateOf is, for a row dropped as a duplicate, the id of the row of its cluster kept
+	// instead; Contaminated and NGram are, for a row that shares an n-gram with an evaluation
+	// file, that file's row (file:line) and the n-gram.
+	DuplicateOf  string `json:"duplicate_of,omitempty"`
+	Contaminated string `json:"contaminated,omitempty"`
+	NGram        string `json:"ngram,omitempty"`
 }
 
 // UnmarshalJSON reads a line of scores.jsonl; a row the method did not score (it fell at an

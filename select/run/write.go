@@ -11,6 +11,7 @@ import (
 	"os"
 	"path/filepath"
 	"strconv"
+	"strings"
 	"sync"
 
 	"github.com/klauspost/compress/gzip"
@@ -199,6 +200,7 @@ func (p *picked) writeScores(w *bufio.Writer) error {
 			}
 			b = append(b, `,"reason":`...)
 			b = append(b, q...)
+			b = p.appendGuard(b, r, d.Reason, &plain)
 		}
 		b = append(b, `,"tokens":`...)
 		b = strconv.AppendInt(b, p.tokens[r], 10)
@@ -255,4 +257,21 @@ func AppendJSONString(b []byte, s string) []byte {
 	b = append(b, '"')
 	b = append(b, s...)
 	return append(b, '"')
+}
+
+// appendGuard appends what a guard found of row r: the row kept instead of a duplicate, or the
+// evaluation row and n-gram a contaminated row shares.
+func (p *picked) appendGuard(b []byte, r int, why selection.Reason, plain *[256]bool) []byte {
+	switch why {
+	case selection.Duplicate:
+		b = append(b, `,"duplicate_of":`...)
+		return appendJSONID(b, p.ix, p.dupOf[r], plain)
+	case selection.Contaminated:
+		hit := p.guards.contam[r]
+		b = append(b, `,"contaminated":`...)
+		b = AppendJSONString(b, fmt.Sprintf("%s:%d", p.guards.evalFiles[hit.File], hit.Line))
+		b = append(b, `,"ngram":`...)
+		return AppendJSONString(b, strings.Join(hit.Words, " "))
+	}
+	return b
 }

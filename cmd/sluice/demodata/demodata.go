@@ -9,6 +9,8 @@ var (
 	pool string
 	//go:embed target.jsonl
 	target string
+	//go:embed eval.jsonl
+	eval string
 )
 
 // Scenario describes the invented setting of the demo data.
@@ -24,6 +26,11 @@ const TargetTopic = "dispatch"
 // Pool returns a fresh copy of pool.jsonl: one JSON object per line with the
 // fields id ("pool-0001"...), instruction, input, output and topic.
 func Pool() []byte { return []byte(pool) }
+
+// Eval returns a fresh copy of eval.jsonl, the cooperative's small evaluation set (fields id,
+// question, answer and sometimes input). Written by hand for the demo; one of its rows was pasted
+// into the pool too (the leak the demo's pick refuses).
+func Eval() []byte { return []byte(eval) }
 
 // Target returns a fresh copy of target.jsonl, the rows of the task to
 // select for, with ids "target-01"... and the same fields as Pool.

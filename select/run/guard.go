@@ -1,0 +1,403 @@
+package run
+
+import (
+	"context"
+	"fmt"
+	"math"
+	"sort"
+	"strings"
+
+	"github.com/valyala/fastjson"
+
+	"sluice/budget"
+	"sluice/index"
+	"sluice/index/decontam"
+	"sluice/index/dedup"
+	"sluice/index/jsonl"
+	selection "sluice/select"
+)
+
+// Guards protect a pick from what a pool holds besides good rows: copies of one row, rows that
+// leak an evaluation set, and one source taking the whole budget.
+type Guards struct {
+	// KeepDuplicates keeps every copy; by default a pick keeps at most one row of each cluster of
+	// exact and near duplicates, the best-scored (ties by input order).
+	KeepDuplicates bool `json:"keep_duplicates,omitempty"`
+	// NearDup is the Jaccard similarity of word 5-gram shingles at or above which two rows are
+	// near duplicates, in (0, 1]; 0 takes DefaultNearDup.
+	NearDup float64 `json:"near_dup,omitempty"`
+	// Exclude lists evaluation files: a pool row sharing a word n-gram of ExcludeN words with any
+	// of their rows is never kept.
+	Exclude  []string `json:"exclude,omitempty"`
+	ExcludeN int      `json:"exclude_ngram,omitempty"`
+	// MaxShare caps the share of the training budget one pool file's kept rows may take, by the
+	// file's path as indexed; "" applies to every file without a cap of its own.
+	MaxShare map[string]float64 `json:"max_share,omitempty"`
+}
+
+// DefaultNearDup is the near-duplicate threshold unless told otherwise.
+const DefaultNearDup = 0.8
+
+// DefaultExcludeN is the n-gram length for decontamination: 13 words is common practice for
+// checking training data against benchmarks.
+const DefaultExcludeN = 13
+
+// minhashes is the signature length K; the bands are chosen from it and the threshold by
+// chooseBands.
+const minhashes = 128
+
+// chooseBands picks the LSH bands for threshold t: the most rows per band (the fewest chance
+// candidates) that still make a pair at exactly t a candidate with probability 0.9 or more, by the
+// S-curve 1 − (1 − t^r)^b (Leskovec, Rajaraman and Ullman, Mining of Massive Datasets, ch. 3).
+// Candidates are then confirmed by their signatures' estimate, so a looser band costs only
+// comparisons. For t = 0.8 and K = 128 it is 16 bands of 8 rows (0.947 at 0.8).
+func chooseBands(t float64) int {
+	best := minhashes
+	for r := 1; r <= minhashes; r++ {
+		if minhashes%r != 0 {
+			continue
+		}
+		b := minhashes / r
+		if 1-math.Pow(1-math.Pow(t, float64(r)), float64(b)) >= 0.9 {
+			best = b
+		}
+	}
+	return best
+}
+
+// guarded is what the guards found in one pass over the pool.
+type guarded struct {
+	clusters  *dedup.Clusters
+	exactDups int                  // rows whose normalised text an earlier row has
+	contam    map[int]decontam.Hit // by row
+	evalFiles []string
+	bands     int
+	work      dedup.Work
+	evalWork  int64    // words checked against the evaluation set
+	inPool    []string // ids of pool rows that are also target rows
+}
+
+// active reports whether the guards need a pass over the pool.
+func (g Guards) active() bool { return !g.KeepDuplicates || len(g.Exclude) > 0 }
+
+// guard reads the pool once more, finding exact and near duplicates and rows that share an n-gram
+// with an evaluation file, and charges the work.
+func (p *picked) guard(ctx context.Context) error {
+	g := p.opt.Guards
+	if !g.active() {
+		return nil
+	}
+	gd := &guarded{contam: map[int]decontam.Hit{}}
+	var set *decontam.Set
+	if len(g.Exclude) > 0 {
+		var err error
+		if set, err = evalSet(g.Exclude, g.ExcludeN); err != nil {
+			return err
+		}
+		gd.evalFiles = g.Exclude
+	}
+	var det *dedup.Detector
+	var signer *dedup.Signer
+	var hasher dedup.Hasher
+	var exact dedup.Exact
+	if !g.KeepDuplicates {
+		t := g.NearDup
+		if t == 0 {
+			t = DefaultNearDup
+		}
+		gd.bands = chooseBands(t)
+		prm := dedup.Params{Hashes: minhashes, Threshold: t, Bands: gd.bands}
+		var err error
+		if det, err = dedup.NewDetector(prm); err != nil {
+			return err
+		}
+		if signer, err = dedup.NewSigner(prm); err != nil {
+			return err
+		}
+	}
+	var sig dedup.Signature
+	var pairs []dedup.Pair
+	var words []string
+	targetKeys := p.targetKeys()
+	err := eachRowText(ctx, p.ix, nil, func(row int, text []byte) error {
+		if set != nil {
+			words = decontam.Words(words[:0], string(text))
+			gd.evalWork += int64(len(words))
+			if hit, ok := set.Check(words); ok {
+				hit.Words = append([]string(nil), hit.Words...)
+				gd.contam[row] = hit
+			}
+		}
+		if det == nil {
+			return nil
+		}
+		hasher.Write(text)
+		key := hasher.Sum()
+		if targetKeys[key] {
+			gd.inPool = append(gd.inPool, p.ix.RowID(row))
+		}
+		first, err := exact.Add(row, key)
+		if err != nil {
+			return err
+		}
+		signer.Write(text)
+		sig = signer.Sum(sig[:0])
+		if pairs, err = det.Add(pairs[:0], row, sig); err != nil {
+			return err
+		}
+		if first != row {
+			gd.exactDups++
+			return det.Clusters().Union(first, row)
+		}
+		return nil
+	})
+	if err != nil {
+		return fmt.Errorf("look for duplicates and evaluation rows: %w", err)
+	}
+	if det != nil {
+		gd.clusters = det.Clusters()
+		gd.work = hasher.Work().Plus(signer.Work()).Plus(det.Work())
+	}
+	p.guards = gd
+	p.chargeGuards()
+	return nil
+}
+
+// targetKeys are the exact-duplicate keys of the target rows, so that target rows that also sit in
+// the pool can be named.
+func (p *picked) targetKeys() map[dedup.Key]bool {
+	texts, err := targetTexts(p.target, p.spec)
+	if err != nil {
+		return nil
+	}
+	keys := map[dedup.Key]bool{}
+	var h dedup.Hasher
+	for _, t := range p.targets {
+		h.Write([]byte(texts[t.Line]))
+		keys[h.Sum()] = true
+	}
+	return keys
+}
+
+// jsonText is the text of an evaluation row: the string values of a JSON object, at any depth,
+// joined by newlines, or the line itself when it is not one.
+func jsonText(line string) string {
+	v, err := fastjson.Parse(line)
+	if err != nil || v.Type() != fastjson.TypeObject {
+		return line
+	}
+	var b strings.Builder
+	var walk func(v *fastjson.Value)
+	walk = func(v *fastjson.Value) {
+		switch v.Type() {
+		case fastjson.TypeString:
+			if b.Len() > 0 {
+				b.WriteByte('\n')
+			}
+			b.Write(v.GetStringBytes())
+		case fastjson.TypeArray:
+			for _, e := range v.GetArray() {
+				walk(e)
+			}
+		case fastjson.TypeObject:
+			v.GetObject().Visit(func(_ []byte, e *fastjson.Value) { walk(e) })
+		}
+	}
+	walk(v)
+	return b.String()
+}
+
+// evalSet reads the evaluation files' rows (every string field of each JSON object, or the whole
+// line when it is not one) into a set of their word n-grams.
+func evalSet(files []string, n int) (*decontam.Set, error) {
+	if n == 0 {
+		n = DefaultExcludeN
+	}
+	b, err := decontam.NewBuilder(n)
+	if err != nil {
+		return nil, err
+	}
+	for i, f := range files {
+		rows, err := readEvalRows(f, func(line int64, text string) error {
+			return b.Add(i, line, decontam.Words(nil, text))
+		})
+		if err != nil {
+			return nil, err
+		}
+		if rows == 0 {
+			return nil, fmt.Errorf("read evaluation file %s: it holds no rows: nothing to exclude; nothing was written", f)
+		}
+	}
+	return b.Set(), nil
+}
+
+// readEvalRows calls fn with the text of every non-blank line of an evaluation file: the string
+// values of a JSON object's fields, in any depth, or the line itself.
+func readEvalRows(path string, fn func(line int64, text string) error) (int, error) {
+	rc, _, err := jsonl.Open(path)
+	if err != nil {
+		return 0, fmt.Errorf("read evaluation file %s: %w", path, err)
+	}
+	defer rc.Close()
+	sc := jsonl.NewScanner(rc, index.DefaultMaxRowBytes)
+	rows := 0
+	for sc.Scan() {
+		line := strings.TrimSpace(string(sc.Bytes()))
+		if line == "" {
+			continue
+		}
+		rows++
+		if err := fn(sc.Line(), jsonText(line)); err != nil {
+			return rows, fmt.Errorf("read evaluation file %s:%d: %w", path, sc.Line(), err)
+		}
+	}
+	if err := sc.Err(); err != nil {
+		return rows, fmt.Errorf("read evaluation file %s: %w", path, err)
+	}
+	return rows, nil
+}
+
+// chargeGuards enters the guards' work in the ledger.
+func (p *picked) chargeGuards() {
+	gd := p.guards
+	if gd.clusters != nil {
+		p.led.AddSelection(fmt.Sprintf("find duplicates: exact keys and MinHash signatures (%d hashes, %d bands)", minhashes, gd.bands), "FLOP", gd.work.FLOPs(), 1,
+			"the hashing work counted as index/dedup states it: bytes read and hashed, shingles, MinHash evaluations, band probes, sketches compared")
+	}
+	if gd.evalFiles != nil {
+		per := float64(2 * budget.FLOPsPerToken) // each word hashed twice, one set look-up per n-gram
+		p.led.AddSelection("check pool rows against the evaluation files' n-grams", "word", float64(gd.evalWork), per,
+			fmt.Sprintf("%g FLOPs x %d words", per, gd.evalWork))
+	}
+}
+
+// bars bars duplicates, contaminated rows and, through the group caps, rows past their source's
+// share; it runs once the scores are known, since a cluster keeps its best-scored row.
+func (p *picked) applyGuards() error {
+	gd := p.guards
+	if gd == nil {
+		return nil
+	}
+	n := p.ix.NumRows()
+	bar := func(r int, why selection.Reason) {
+		if p.barred == nil {
+			p.barred = make([]selection.Reason, n)
+		}
+		if p.barred[r] == selection.Kept {
+			p.barred[r] = why
+		}
+	}
+	for r := range gd.contam {
+		bar(r, selection.Contaminated)
+	}
+	if gd.clusters == nil {
+		return nil
+	}
+	// A contaminated row is never kept, so it must not stand for its cluster either.
+	s := make([]float64, n)
+	for r, v := range p.scores {
+		s[r] = v
+		if p.barred != nil && p.barred[r] != selection.Kept {
+			s[r] = math.NaN()
+		}
+	}
+	kept, err := gd.clusters.Keep(s)
+	if err != nil {
+		return err
+	}
+	for r, k := range kept {
+		if k != r {
+			if p.dupOf == nil {
+				p.dupOf = map[int]int{}
+			}
+			p.dupOf[r] = k
+			bar(r, selection.Duplicate)
+		}
+	}
+	return nil
+}
+
+// groupCaps turns MaxShare into token caps per source for the selection, from the training budget
+// left once selection is paid.
+func (p *picked) groupCaps(unit, fixed float64) ([]int32, []float64, error) {
+	shares := p.opt.Guards.MaxShare
+	if len(shares) == 0 {
+		return nil, nil, nil
+	}
+	srcs := p.ix.Meta().Sources
+	byPath := map[string]int{}
+	for i, s := range srcs {
+		byPath[s.Path] = i
+	}
+	var unknown []string
+	for path := range shares {
+		if _, ok := byPath[path]; path != "" && !ok {
+			unknown = append(unknown, path)
+		}
+	}
+	if len(unknown) > 0 {
+		sort.Strings(unknown)
+		var have []string
+		for _, s := range srcs {
+			have = append(have, s.Path)
+		}
+		return nil, nil, fmt.Errorf("--max-share names %s, which the index does not hold; its files are %s", strings.Join(unknown, ", "), strings.Join(have, ", "))
+	}
+	tokens := (p.opt.Budget - fixed) / unit
+	caps := make([]float64, len(srcs))
+	for i, s := range srcs {
+		share, ok := shares[s.Path]
+		if !ok {
+			share, ok = shares[""]
+		}
+		if !ok {
+			share = 1
+		}
+		caps[i] = math.Floor(share * tokens)
+	}
+	group := make([]int32, p.ix.NumRows())
+	for r := range group {
+		group[r] = int32(p.ix.RowLocation(r).Source)
+	}
+	return group, caps, nil
+}
+
+// guardNotes say in the ledger what the guards found.
+func (p *picked) guardNotes() []string {
+	gd := p.guards
+	if gd == nil {
+		return nil
+	}
+	var notes []string
+	if gd.clusters != nil {
+		groups := 0
+		for _, grp := range gd.clusters.Groups() {
+			if len(grp) > 1 {
+				groups++
+			}
+		}
+		notes = append(notes, fmt.Sprintf("duplicates: %d rows have an exact duplicate earlier in the pool; %d clusters of exact or near duplicates (Jaccard of word 5-gram shingles >= %g, %d MinHash values in %d bands); %d rows dropped for a better-scored row of their cluster",
+			gd.exactDups, groups, orDefault(p.opt.Guards.NearDup, DefaultNearDup), minhashes, gd.bands, len(p.dupOf)))
+	}
+	if gd.evalFiles != nil {
+		notes = append(notes, fmt.Sprintf("evaluation rows: %d pool rows share a %d-word n-gram with %s and are never kept", len(gd.contam), orDefaultInt(p.opt.Guards.ExcludeN, DefaultExcludeN), strings.Join(gd.evalFiles, ", ")))
+	}
+	if len(gd.inPool) > 0 {
+		notes = append(notes, fmt.Sprintf("target rows in the pool: %d pool rows are target rows, the first %s", len(gd.inPool), gd.inPool[0]))
+	}
+	return notes
+}
+
+func orDefault(v, d float64) float64 {
+	if v == 0 {
+		return d
+	}
+	return v
+}
+
+func orDefaultInt(v, d int) int {
+	if v == 0 {
+		return d
+	}
+	return v
+}
