@@ -59,13 +59,13 @@ func (p *Plan) WriteFolder(dir string, residuals bool) ([]string, error) {
 	var names []string
 	for _, f := range files {
 		if err := writeSynced(filepath.Join(tmp, f.name), f.b); err != nil {
-			os.RemoveAll(tmp)
+			atomicdir.Discard(tmp)
 			return nil, fmt.Errorf("write %s: %w", filepath.Join(dir, f.name), err)
 		}
 		names = append(names, f.name)
 	}
 	if err := atomicdir.Publish(tmp, dir); err != nil {
-		os.RemoveAll(tmp)
+		atomicdir.Discard(tmp)
 		return nil, err
 	}
 	return names, nil

@@ -184,7 +184,7 @@ func tallyScores(ctx context.Context, dir string, ix *index.Index, rep *Page, sa
 				return err
 			}
 			return t.above.offer(r, rank, line)
-		} else if matched {
+		} else if matched && walkReason(string(v.GetStringBytes("reason"))) {
 			return t.below.offer(r, rank, line)
 		}
 		return nil
@@ -728,3 +728,14 @@ footer ul { padding-left: 18px; }
 {{end}}</tbody></table>
 {{end}}</article>
 {{end}}`
+
+// walkReason reports whether a row was not kept because the walk down the ranking stopped before
+// it or it did not fit, rather than for a guard (a duplicate, a leaked evaluation row, a source's
+// cap) or an earlier stage: only the former stand "below the cut".
+func walkReason(reason string) bool {
+	switch reason {
+	case "budget", "below-cut", "min-score", "max-rows", "no-match":
+		return true
+	}
+	return false
+}

@@ -130,7 +130,7 @@ func ReadManifest(dir string) (*Manifest, error) {
 
 // writeManifest records the hash of every file already in the working folder tmp, taking those
 // known from writing them and reading the rest, and writes the manifest there.
-func writeManifest(tmp string, m *Manifest, known map[string]string) error {
+func writeManifest(tmp, out string, m *Manifest, known map[string]string) error {
 	entries, err := os.ReadDir(tmp)
 	if err != nil {
 		return fmt.Errorf("write manifest: %w", err)
@@ -152,7 +152,7 @@ func writeManifest(tmp string, m *Manifest, known map[string]string) error {
 	if err != nil {
 		return err
 	}
-	return writeFileBytes(filepath.Join(tmp, ManifestFile), append(b, '\n'))
+	return writeFileBytes(filepath.Join(tmp, ManifestFile), filepath.Join(out, ManifestFile), append(b, '\n'))
 }
 
 func sha256File(path string) (string, error) {

@@ -138,7 +138,7 @@ func (p *picked) keepPipedTarget() error {
 		return err
 	}
 	p.tmp, p.target = tmp, filepath.Join(tmp, TargetCopy)
-	if _, err := writeHashed(p.target, func(w *bufio.Writer) error { _, err := io.Copy(w, src); return err }); err != nil {
+	if _, err := writeHashed(p.target, filepath.Join(p.opt.Out, TargetCopy), func(w *bufio.Writer) error { _, err := io.Copy(w, src); return err }); err != nil {
 		return fmt.Errorf("read target %s: %w", p.opt.Target, err)
 	}
 	return nil
@@ -159,7 +159,7 @@ func Pick(ctx context.Context, opt Options) (*Result, error) {
 	p := &picked{opt: &opt, ix: ix}
 	defer func() {
 		if p.tmp != "" {
-			os.RemoveAll(p.tmp) // published by now if all went well, so gone already
+			atomicdir.Discard(p.tmp) // published by now if all went well, so gone already
 		}
 	}()
 	if err := p.keepPipedTarget(); err != nil {

@@ -5,6 +5,7 @@ import (
 	"crypto/sha256"
 	"encoding/hex"
 	"encoding/json"
+	"errors"
 	"fmt"
 	"io"
 	"math"
@@ -62,7 +63,9 @@ func (p *picked) write() error {
 	errs := make([]error, len(outs))
 	var wg sync.WaitGroup
 	for i, o := range outs {
-		wg.Go(func() { sums[i], errs[i] = writeHashed(filepath.Join(tmp, o.name), o.fill) })
+		wg.Go(func() {
+			sums[i], errs[i] = writeHashed(filepath.Join(tmp, o.name), filepath.Join(opt.Out, o.name), o.fill)
+		})
 	}
 	wg.Wait()
 	hashes := map[string]string{}
@@ -72,7 +75,7 @@ func (p *picked) write() error {
 		}
 		hashes[o.name] = sums[i]
 	}
-	if err := writeManifest(tmp, p.manifest(), hashes); err != nil {
+	if err := writeManifest(tmp, opt.Out, p.manifest(), hashes); err != nil {
 		return err
 	}
 	for _, o := range outs {
@@ -133,18 +136,18 @@ func (p *picked) copyKept(w *bufio.Writer) error {
 	return p.ix.CopyRows(w, kept)
 }
 
-// writeFileBytes writes b to path and fsyncs it.
-func writeFileBytes(path string, b []byte) error {
-	_, err := writeHashed(path, func(w *bufio.Writer) error { _, err := w.Write(b); return err })
+// writeFileBytes writes b to path and fsyncs it; errors name it as shown.
+func writeFileBytes(path, shown string, b []byte) error {
+	_, err := writeHashed(path, shown, func(w *bufio.Writer) error { _, err := w.Write(b); return err })
 	return err
 }
 
 // writeHashed creates path, lets fill write it through a buffer, then flushes and fsyncs it, and
 // returns the SHA-256 of what was written, in hex, so that a manifest need not read the file again.
-func writeHashed(path string, fill func(w *bufio.Writer) error) (string, error) {
+func writeHashed(path, shown string, fill func(w *bufio.Writer) error) (string, error) {
 	f, err := os.Create(path)
 	if err != nil {
-		return "", fmt.Errorf("write %w", err)
+		return "", fmt.Errorf("write %s: %w", shown, errors.Unwrap(err))
 	}
 	h := sha256.New()
 	w := bufio.NewWriterSize(io.MultiWriter(f, h), 1<<20)
@@ -159,7 +162,7 @@ func writeHashed(path string, fill func(w *bufio.Writer) error) (string, error) 
 		err = cerr
 	}
 	if err != nil {
-		return "", fmt.Errorf("write %s: %w", path, err)
+		return "", fmt.Errorf("write %s: %w", shown, err)
 	}
 	return hex.EncodeToString(h.Sum(nil)), nil
 }
