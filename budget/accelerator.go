@@ -47,3 +47,51 @@ func LookupAccelerator(name string) (Accelerator, error) {
 	}
 	return Accelerator{}, fmt.Errorf("no accelerator named %q: give one of %s, or its peak FLOP/s as a number: %w", name, strings.Join(names, ", "), ErrBadNumber)
 }
+
+// GPUTime is a budget given as time on accelerators: GPU-hours in total over all GPUs, or GPUs
+// running for Hours of wall-clock time, at a peak Rate per GPU (a FLOP/s figure such as "989T",
+// or an accelerator's name) and the fraction of it training reaches (MFU).
+type GPUTime struct {
+	GPUHours float64
+	GPUs     int
+	Hours    float64
+	Rate     string
+	MFU      float64
+}
+
+// FLOPs works out the budget and says how it was given, for the ledger.
+func (g GPUTime) FLOPs() (float64, string, error) {
+	hours, how := g.GPUHours, fmt.Sprintf("%g GPU-hours", g.GPUHours)
+	if g.GPUs != 0 || g.Hours != 0 {
+		if g.GPUs < 1 || g.GPUs > 1_000_000 || !positive(g.Hours) {
+			return 0, "", fmt.Errorf("gpu time: %d GPUs for %v hours: give 1 to 1000000 GPUs and hours above 0: %w", g.GPUs, g.Hours, ErrBadNumber)
+		}
+		hours, how = float64(g.GPUs)*g.Hours, fmt.Sprintf("%d GPUs x %g hours", g.GPUs, g.Hours)
+	}
+	peak, rate, err := ParseRate(g.Rate)
+	if err != nil {
+		return 0, "", err
+	}
+	v, err := FromGPUHours(hours, peak, g.MFU)
+	if err != nil {
+		return 0, "", err
+	}
+	return v, fmt.Sprintf("%s x %s x MFU %g", how, rate, g.MFU), nil
+}
+
+// ParseRate reads a GPU's peak rate, or the name of an accelerator whose data-sheet peak is taken.
+func ParseRate(s string) (float64, string, error) {
+	peak, perr := ParseFLOPs(s)
+	if perr == nil {
+		return peak, s + " FLOP/s", nil
+	}
+	a, err := LookupAccelerator(s)
+	if err != nil {
+		var names []string
+		for _, a := range Accelerators() {
+			names = append(names, a.Name)
+		}
+		return 0, "", fmt.Errorf("%w; or name an accelerator: %s", perr, strings.Join(names, ", "))
+	}
+	return a.PeakFLOPs, fmt.Sprintf("%s (%s peak %s FLOP/s, data sheet)", a.Name, a.Precision, FormatFLOPs(a.PeakFLOPs)), nil
+}

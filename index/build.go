@@ -1110,3 +1110,26 @@ func quoteRaw(b []byte) (raw string, escaped bool) {
 	q := strconv.Quote(string(b))
 	return q[1 : len(q)-1], true
 }
+
+// WriteSummary writes what a build read and made, for people: rows, text fields, analyzer,
+// terms, repeated ids and the quarantine, with out the folder it was published as.
+func (st *Stats) WriteSummary(w io.Writer, out string) {
+	m := &st.Meta
+	how := "given"
+	if m.TextDetected {
+		how = "detected; pass --text to choose"
+	}
+	fmt.Fprintf(w, "indexed %d rows from %d file(s) into %s\n", m.Rows, len(m.Sources), out)
+	fmt.Fprintf(w, "  text fields   %s (%s)\n", m.Text, how)
+	fmt.Fprintf(w, "  analyzer      %s\n", m.Analyzer)
+	fmt.Fprintf(w, "  rows          read %d = indexed %d + quarantined %d (blank lines skipped: %d)\n", m.RowsRead, m.Rows, m.RowsRejected, m.BlankLines)
+	fmt.Fprintf(w, "  terms         %d distinct, %d postings, mean row length %.1f terms\n", m.Terms, m.Postings, m.AvgLen)
+	if d := st.FirstDuplicate; d != nil {
+		// Allowed, not quarantined: the rows are good, only their names clash.
+		fmt.Fprintf(w, "  ids           %d rows repeat an earlier row's id (kept; scores.jsonl is in input order), the first %s at %s:%d and %s:%d\n",
+			m.DuplicateIDs, strconv.Quote(d.ID), d.First.File, d.First.Line, d.Second.File, d.Second.Line)
+	}
+	if m.RowsRejected > 0 {
+		fmt.Fprintf(w, "  quarantine    %s/rejected.jsonl\n", out)
+	}
+}

@@ -138,3 +138,34 @@ func writeAsked(b *strings.Builder, s *Step) {
 // metric writes a predicted metric to four places, enough to tell methods
 // apart that differ in the third.
 func metric(v float64) string { return strconv.FormatFloat(v, 'f', 4, 64) }
+
+// PickCommand is the pick that carries out the plan at the asked budget, with the flags its best
+// method needs: lexical methods and n-gram models run in sluice, model-based methods bring their
+// scores, charged at the selector's declared size and passes.
+func (p *Plan) PickCommand() string {
+	s := p.Asked
+	if s == nil || s.Best == "" {
+		return ""
+	}
+	var c *Curve
+	for i := range p.Curves {
+		if p.Curves[i].Method == s.Best {
+			c = &p.Curves[i]
+		}
+	}
+	if c == nil {
+		return ""
+	}
+	var method string
+	switch m := strings.ToLower(c.Method); {
+	case m == "bm25" || m == "tfidf" || m == "ngram":
+		method = "--method " + m
+	case c.SelectorParams == 0:
+		method = "--method bm25  # " + c.Method + " is lexical; bm25 is sluice's nearest"
+	default:
+		method = fmt.Sprintf("--method scores --scores %s-SCORES.jsonl --selector-params %s --passes %g",
+			strings.ToUpper(c.Method), strconv.FormatFloat(c.SelectorParams, 'g', -1, 64), c.Passes)
+	}
+	return fmt.Sprintf("  sluice pick --index POOL.idx --target TARGET.jsonl %s --budget %s --train-params %s --epochs %g --out RUN\n",
+		method, strconv.FormatFloat(s.Budget, 'g', -1, 64), strconv.FormatFloat(p.Config.TrainParams, 'g', -1, 64), p.Config.Epochs)
+}

@@ -56,18 +56,12 @@ func scoresFlags(fs *pflag.FlagSet, opt *run.Options) error {
 	if s.File == "" {
 		return usagef("--method scores needs --scores FILE")
 	}
-	switch j, _ := fs.GetString("join"); j {
-	case "auto":
-		s.Join = external.JoinAuto
-	case "id":
-		s.Join = external.ByID
-	case "row":
-		s.Join = external.ByRow
-	default:
+	j, _ := fs.GetString("join")
+	var err error
+	if s.Join, err = run.ParseJoin(j); err != nil {
 		return usagef("--join %q: give auto, id or row", j)
 	}
 	m, _ := fs.GetString("missing")
-	var err error
 	if s.Missing, err = external.ParseMissing(m); err != nil {
 		return usagef("--missing %q: give error, lowest or skip", m)
 	}

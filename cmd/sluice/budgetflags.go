@@ -1,7 +1,6 @@
 package main
 
 import (
-	"fmt"
 	"math"
 	"strings"
 
@@ -59,69 +58,33 @@ func budgetFlags(fs *pflag.FlagSet) (float64, string, error) {
 	if !budgetGiven(fs) {
 		return 0, "", usagef("a budget is required: --budget FLOPS, or --gpu-hours with --gpu-flops and --mfu")
 	}
-	hours, how, err := gpuHours(fs)
-	if err != nil {
-		return 0, "", err
-	}
-	mfu, _ := fs.GetFloat64("mfu")
-	gf, _ := fs.GetString("gpu-flops")
+	var g budget.GPUTime
+	g.GPUHours, _ = fs.GetFloat64("gpu-hours")
+	g.GPUs, _ = fs.GetInt("gpus")
+	g.Hours, _ = fs.GetFloat64("hours")
+	g.Rate, _ = fs.GetString("gpu-flops")
+	g.MFU, _ = fs.GetFloat64("mfu")
 	// Changed, not the values, says what was given: --mfu 0 is a bad MFU, not a missing one.
-	switch {
-	case !fs.Changed("gpu-flops") || !fs.Changed("mfu"):
-		return 0, "", usagef("GPU time needs --gpu-flops and --mfu too (there are no defaults for them)")
-	case !(mfu > 0 && mfu <= 1):
-		return 0, "", usagef("--mfu %v: must be a fraction above 0 and at most 1", mfu)
-	}
-	peak, rate, err := gpuRate(gf)
-	if err != nil {
-		return 0, "", err
-	}
-	v, err := budget.FromGPUHours(hours, peak, mfu)
-	if err != nil {
-		return 0, "", usagef("%v", err)
-	}
-	return v, fmt.Sprintf("%s x %s x MFU %g", how, rate, mfu), nil
-}
-
-// gpuHours reads the GPU-hours in total: --gpu-hours, or --gpus times --hours.
-func gpuHours(fs *pflag.FlagSet) (float64, string, error) {
-	gh, _ := fs.GetFloat64("gpu-hours")
-	n, _ := fs.GetInt("gpus")
-	h, _ := fs.GetFloat64("hours")
 	switch {
 	case fs.Changed("gpu-hours") && (fs.Changed("gpus") || fs.Changed("hours")):
 		return 0, "", usagef("give --gpu-hours (in total) or --gpus with --hours (wall-clock), not both")
-	case fs.Changed("gpu-hours"):
-		if !(gh > 0 && !math.IsInf(gh, 0)) {
-			return 0, "", usagef("--gpu-hours %v: must be a finite number above 0", gh)
-		}
-		return gh, fmt.Sprintf("%g GPU-hours", gh), nil
 	case fs.Changed("gpus") != fs.Changed("hours"):
 		return 0, "", usagef("--gpus and --hours go together: the wall-clock hours on that many GPUs")
-	case !fs.Changed("gpus"):
+	case !fs.Changed("gpu-hours") && !fs.Changed("gpus"):
 		return 0, "", usagef("GPU time needs --gpu-hours, or --gpus with --hours")
-	case n < 1 || n > 1_000_000:
-		return 0, "", usagef("--gpus %d: give 1 to 1000000", n)
-	case !(h > 0 && !math.IsInf(h, 0)):
-		return 0, "", usagef("--hours %v: must be a finite number above 0", h)
+	case !fs.Changed("gpu-flops") || !fs.Changed("mfu"):
+		return 0, "", usagef("GPU time needs --gpu-flops and --mfu too (there are no defaults for them)")
+	case !(g.MFU > 0 && g.MFU <= 1):
+		return 0, "", usagef("--mfu %v: must be a fraction above 0 and at most 1", g.MFU)
+	case fs.Changed("gpu-hours") && !(g.GPUHours > 0 && !math.IsInf(g.GPUHours, 0)):
+		return 0, "", usagef("--gpu-hours %v: must be a finite number above 0", g.GPUHours)
 	}
-	return float64(n) * h, fmt.Sprintf("%d GPUs x %g hours", n, h), nil
-}
-
-// gpuRate reads --gpu-flops: a peak rate, or the name of an accelerator whose data-sheet peak is
-// taken.
-func gpuRate(s string) (float64, string, error) {
-	peak, perr := budget.ParseFLOPs(s)
-	if perr == nil {
-		return peak, s + " FLOP/s", nil
+	if _, _, err := budget.ParseRate(g.Rate); err != nil {
+		return 0, "", usagef("--gpu-flops: %v", err)
 	}
-	a, err := budget.LookupAccelerator(s)
+	v, how, err := g.FLOPs()
 	if err != nil {
-		var names []string
-		for _, a := range budget.Accelerators() {
-			names = append(names, a.Name)
-		}
-		return 0, "", usagef("--gpu-flops: %v; or name an accelerator: %s", perr, strings.Join(names, ", "))
+		return 0, "", usagef("%v", err)
 	}
-	return a.PeakFLOPs, fmt.Sprintf("%s (%s peak %s FLOP/s, data sheet)", a.Name, a.Precision, budget.FormatFLOPs(a.PeakFLOPs)), nil
+	return v, how, nil
 }

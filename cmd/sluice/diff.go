@@ -4,12 +4,9 @@ import (
 	"bufio"
 	"context"
 	"encoding/json"
-	"fmt"
-	"strings"
 
 	"github.com/spf13/pflag"
 
-	"sluice/budget"
 	"sluice/select/audit"
 )
 
@@ -56,50 +53,6 @@ func (c *diffCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 		return err
 	}
 	w := bufio.NewWriter(e.stdout)
-	defer w.Flush()
-	pct := func(a, b float64) string {
-		if b == 0 {
-			return "-"
-		}
-		return fmt.Sprintf("%.1f%%", 100*a/b)
-	}
-	fmt.Fprintf(w, "A %s: %d rows kept, %d tokens, %s of %s FLOPs used (%s)\n", d.A.Run, d.A.Kept, d.A.KeptTokens, budget.FormatFLOPs(d.A.Used), budget.FormatFLOPs(d.A.Budget), pct(d.A.Used, d.A.Budget))
-	fmt.Fprintf(w, "B %s: %d rows kept, %d tokens, %s of %s FLOPs used (%s)\n", d.B.Run, d.B.Kept, d.B.KeptTokens, budget.FormatFLOPs(d.B.Used), budget.FormatFLOPs(d.B.Budget), pct(d.B.Used, d.B.Budget))
-	fmt.Fprintf(w, "kept in both %d (%d tokens), only in A %d (%d tokens), only in B %d (%d tokens); Jaccard %.4f\n",
-		d.Both, d.BothTokens, d.OnlyA, d.OnlyATokens, d.OnlyB, d.OnlyBTokens, d.Jaccard)
-	for _, side := range []struct {
-		name string
-		s    audit.Side
-	}{{"A", d.A}, {"B", d.B}} {
-		var parts []string
-		for _, why := range []string{"duplicate", "contaminated", "source-cap", "prefilter", "no-score", "no-match", "min-score", "max-rows", "budget", "below-cut"} {
-			if n := side.s.Dropped[why]; n > 0 {
-				parts = append(parts, fmt.Sprintf("%d %s", n, why))
-			}
-		}
-		fmt.Fprintf(w, "%s not kept: %s\n", side.name, strings.Join(parts, ", "))
-	}
-	if d.SpearmanNote != "" {
-		fmt.Fprintf(w, "rank correlation: %s\n", d.SpearmanNote)
-	} else {
-		fmt.Fprintf(w, "rank correlation over the %d rows both scored: Spearman's rho %.4f\n", d.Common, d.Spearman)
-	}
-	if len(d.Moved) > 0 {
-		fmt.Fprintf(w, "rows that moved most:\n")
-		for _, m := range d.Moved {
-			id := m.ID
-			if m.Occurrence > 1 {
-				id = fmt.Sprintf("%s (occurrence %d)", m.ID, m.Occurrence)
-			}
-			fmt.Fprintf(w, "  %-28s rank %7d -> %-7d  kept %s -> %s\n", id, m.RankA, m.RankB, yesNo(m.KeptA), yesNo(m.KeptB))
-		}
-	}
-	return nil
-}
-
-func yesNo(b bool) string {
-	if b {
-		return "yes"
-	}
-	return "no"
+	d.WriteText(w)
+	return w.Flush()
 }

@@ -1,9 +1,6 @@
 package main
 
 import (
-	"strconv"
-	"strings"
-
 	"github.com/spf13/pflag"
 
 	"sluice/select/run"
@@ -26,22 +23,9 @@ func guardFlags(fs *pflag.FlagSet, g *run.Guards) error {
 		return usagef("--exclude-ngram %d: give 1 to 1000 words", g.ExcludeN)
 	}
 	shares, _ := fs.GetStringArray("max-share")
-	for _, s := range shares {
-		file, v, ok := strings.Cut(s, "=")
-		if !ok {
-			file, v = "", s
-		}
-		f, err := strconv.ParseFloat(v, 64)
-		if err != nil || !(f > 0 && f <= 1) {
-			return usagef("--max-share %q: give FILE=SHARE or SHARE, a share above 0 and at most 1", s)
-		}
-		if g.MaxShare == nil {
-			g.MaxShare = map[string]float64{}
-		}
-		if _, dup := g.MaxShare[file]; dup {
-			return usagef("--max-share %q: that file has a share already", s)
-		}
-		g.MaxShare[file] = f
+	var err error
+	if g.MaxShare, err = run.ParseShares(shares); err != nil {
+		return usagef("--max-share %v", err)
 	}
 	return nil
 }

@@ -2,10 +2,7 @@ package main
 
 import (
 	"context"
-	"errors"
 	"fmt"
-	"os"
-	"strconv"
 	"strings"
 
 	"github.com/spf13/pflag"
@@ -70,7 +67,7 @@ func (c *indexCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 		return err
 	}
 	opt.Command = append([]string{"sluice"}, e.args...)
-	total, err := poolBytes(pools)
+	pools, total, err := index.Sources(pools)
 	if err != nil {
 		return err
 	}
@@ -87,7 +84,7 @@ func (c *indexCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 		out = "nothing (--dry-run)"
 	}
 	if !quiet {
-		printIndexSummary(e, out, st)
+		st.WriteSummary(e.stdout, out)
 	}
 	if after, _ := index.Identity(out); before != "" && after != before {
 		// Every run made on the replaced index names its identity: they no longer verify.
@@ -139,49 +136,4 @@ func indexOptions(fs *pflag.FlagSet) (index.Options, error) {
 		return opt, usagef("--workers %d: give 0 (one per core) to %d", opt.Workers, maxWorkers)
 	}
 	return opt, nil
-}
-
-// poolBytes is the size of the pool files, for the progress bar; it refuses a missing file or a
-// folder before any work starts.
-func poolBytes(pools []string) (int64, error) {
-	var total int64
-	for _, p := range pools {
-		if p == "-" {
-			continue
-		}
-		fi, err := os.Stat(p)
-		if err != nil {
-			var pe *os.PathError
-			if errors.As(err, &pe) {
-				err = pe.Err
-			}
-			return 0, fmt.Errorf("read %s: %w", p, err)
-		}
-		if fi.IsDir() {
-			return 0, fmt.Errorf("read %s: is a folder, not a JSONL file", p)
-		}
-		total += fi.Size()
-	}
-	return total, nil
-}
-
-func printIndexSummary(e *env, out string, st *index.Stats) {
-	m := &st.Meta
-	how := "given"
-	if m.TextDetected {
-		how = "detected; pass --text to choose"
-	}
-	fmt.Fprintf(e.stdout, "indexed %d rows from %d file(s) into %s\n", m.Rows, len(m.Sources), out)
-	fmt.Fprintf(e.stdout, "  text fields   %s (%s)\n", m.Text, how)
-	fmt.Fprintf(e.stdout, "  analyzer      %s\n", m.Analyzer)
-	fmt.Fprintf(e.stdout, "  rows          read %d = indexed %d + quarantined %d (blank lines skipped: %d)\n", m.RowsRead, m.Rows, m.RowsRejected, m.BlankLines)
-	fmt.Fprintf(e.stdout, "  terms         %d distinct, %d postings, mean row length %.1f terms\n", m.Terms, m.Postings, m.AvgLen)
-	if d := st.FirstDuplicate; d != nil {
-		// Allowed, not quarantined: the rows are good, only their names clash.
-		fmt.Fprintf(e.stdout, "  ids           %d rows repeat an earlier row's id (kept; scores.jsonl is in input order), the first %s at %s:%d and %s:%d\n",
-			m.DuplicateIDs, strconv.Quote(d.ID), d.First.File, d.First.Line, d.Second.File, d.Second.Line)
-	}
-	if m.RowsRejected > 0 {
-		fmt.Fprintf(e.stdout, "  quarantine    %s/rejected.jsonl\n", out)
-	}
 }

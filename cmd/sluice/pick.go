@@ -1,13 +1,9 @@
 package main
 
 import (
-	"cmp"
 	"context"
-	"fmt"
-	"io"
 	"math"
 	"slices"
-	"strconv"
 	"strings"
 	"time"
 
@@ -17,7 +13,6 @@ import (
 	"sluice/index/analysis"
 	"sluice/index/jsonl"
 	"sluice/score"
-	selection "sluice/select"
 	"sluice/select/run"
 )
 
@@ -30,27 +25,59 @@ func (*pickCmd) summary() string {
 
 func (*pickCmd) flags() *pflag.FlagSet {
 	fs := newFlags("pick", "sluice pick --index DIR --target FILE --budget FLOPS --train-params N --out RUN [flags]",
-		`Scores every indexed row against the target rows (BM25 or TF-IDF cosine, with the pool's
-statistics), ranks the rows by score (ties in input order) and keeps them from the top while the
-ledger - selection cost over the whole pool, charged first, plus 6 x parameters x tokens x epochs for
-each kept row - stays within the budget. The pool is not read again except to copy the kept rows.
+		`Scores every indexed row against the target rows (BM25 or TF-IDF from the index; n-gram models,
+vectors or brought-in scores reading more), drops duplicates and rows that leak an --exclude'd
+evaluation set, ranks the rest (ties in input order) and keeps them from the top while the ledger -
+selection cost, charged first (work done elsewhere at its declared cost), plus 6 x parameters x
+tokens x epochs per kept row - stays within the budget: --budget FLOPS (2.5e18, 400P), or GPU time
+(--gpu-hours, or --gpus and --hours) with --gpu-flops (a peak rate or an accelerator's name) and
+--mfu (0.3-0.5 is common for dense training; no defaults).
 
-Writes, into RUN (published only when complete):
-  kept.jsonl    the kept rows, byte for byte as in the pool, in input order
-  scores.jsonl  one object per indexed row: id, score, rank, kept, reason, tokens, target, ledger
-  ledger.json   every cost line with its count, unit cost and formula; totals, budget, stop reason
-  rejected.jsonl  target rows that could not be read: file, line, offset, length, reason, raw bytes
-
-The budget is --budget FLOPS (2.5e18, 400P, 3E) or --gpu-hours with --gpu-flops (the GPU's peak
-FLOP/s for your precision) and --mfu (the fraction of peak your training reaches; 0.3-0.5 is common
-practice for dense transformer training). There are no defaults for --gpu-flops and --mfu.
+Writes RUN (published only when complete): kept.jsonl (the kept rows byte for byte), scores.jsonl
+(every row: id, score, rank, kept, reason, tokens, target, ledger), ledger.json, rejected.jsonl
+(target rows that could not be read), manifest.json (settings and hashes; 'sluice verify').
 
 Selection narrows what the model sees: rows unlike the target rows are dropped, with whatever they
-taught. Lexical scores measure word overlap with the target rows, not quality or safety. Remove your
-evaluation sets from the pool before picking, or the pick will find them.`,
+taught. Scores measure likeness to the target rows, not quality, safety or licence. An evaluation
+set left in the pool will be found and flatter the model: pass it with --exclude.`,
 		`  sluice pick --index pool.idx --target support.jsonl --budget 2.5e18 --train-params 1.3B --out run1
   sluice pick --index pool.idx --target support.jsonl --method tfidf --aggregate max \
       --gpu-hours 64 --gpu-flops 312T --mfu 0.4 --train-params 7B --epochs 2 --fill --out run2`)
+	addPickInputFlags(fs)
+	addMethodFlags(fs)
+	addBudgetFlags(fs)
+	addPickStopFlags(fs)
+	return fs
+}
+
+func (c *pickCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
+	if fs.NArg() > 0 {
+		return usagef("unexpected argument %q", fs.Arg(0))
+	}
+	opt, err := pickOptions(fs)
+	if err != nil {
+		return err
+	}
+	opt.Command = append([]string{"sluice"}, e.args...)
+	opt.Stdin = e.stdin
+	quiet, _ := fs.GetBool("quiet")
+	_, err = pick(ctx, e, opt, quiet)
+	return err
+}
+
+// pick runs a pick and prints its summary on stderr unless quiet.
+func pick(ctx context.Context, e *env, opt run.Options, quiet bool) (*run.Result, error) {
+	opt.Version = version()
+	started := time.Now()
+	res, err := run.Pick(ctx, opt)
+	if err == nil && !quiet {
+		err = res.WriteSummary(e.stdout, time.Since(started))
+	}
+	return res, err
+}
+
+// addPickInputFlags declares where a pick reads its index and target, and how.
+func addPickInputFlags(fs *pflag.FlagSet) {
 	fs.String("index", "", "index folder made by 'sluice index' (required)")
 	fs.String("target", "", "JSONL file of target-task rows (required)")
 	fs.String("target-text", "", "JSON paths of the target's text fields (default: the index's; another spec needs --other-target-text)")
@@ -58,6 +85,10 @@ evaluation sets from the pool before picking, or the pick will find them.`,
 	fs.Bool("index-settings", false, "take the index's text spec and analyzer whatever --target-text and --analyzer say")
 	fs.String("target-id", "", "field holding each target row's id (default: the index's id field, else file:line)")
 	fs.String("analyzer", "", "refuse an index built with another analyzer ("+strings.Join(analysis.Names(), " or ")+"; default: take the index's)")
+}
+
+// addMethodFlags declares how rows are scored, guarded and charged.
+func addMethodFlags(fs *pflag.FlagSet) {
 	fs.String("method", "bm25", "scoring: bm25 or tfidf (lexical, from the index), ngram (n-gram language models),\nvectors (cosine of embeddings) or scores (made elsewhere)")
 	fs.String("aggregate", "sum", "over target rows: sum (the set as one query) or max (nearest target row)")
 	fs.Bool("attribute", true, "name, for every row, the target row that contributed most; with --aggregate sum\nthis costs one pass per target row, and --attribute=false skips it")
@@ -83,7 +114,10 @@ evaluation sets from the pool before picking, or the pick will find them.`,
 	fs.String("prefilter", "", "before a model-based method, keep only the best rows by a lexical method:\nMETHOD:SHARE% (bm25:20%) or METHOD:TOKENS (tfidf:50M); the rest are never scored")
 	fs.Float64("k1", 1.2, "BM25 term-frequency saturation")
 	fs.Float64("b", 0.75, "BM25 length normalisation")
-	addBudgetFlags(fs)
+}
+
+// addPickStopFlags declares the trained model, the stops and the output.
+func addPickStopFlags(fs *pflag.FlagSet) {
 	fs.String("train-params", "", "parameters of the model to be trained, e.g. 7B or 1.3e9 (required)")
 	fs.Float64("epochs", 1, "training epochs over the kept rows")
 	fs.Bool("fill", false, "after the first row that does not fit, keep scanning for rows that do")
@@ -93,33 +127,6 @@ evaluation sets from the pool before picking, or the pick will find them.`,
 	fs.String("compress", "none", "write the kept rows as kept.jsonl (none), kept.jsonl.gz (gzip) or kept.jsonl.zst (zstd)")
 	fs.String("mem", "64MiB", "memory for the postings of one span of pool rows; lists are read a span at a time")
 	fs.BoolP("quiet", "q", false, "print nothing but errors")
-	return fs
-}
-
-func (c *pickCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
-	if fs.NArg() > 0 {
-		return usagef("unexpected argument %q", fs.Arg(0))
-	}
-	opt, err := pickOptions(fs)
-	if err != nil {
-		return err
-	}
-	opt.Command = append([]string{"sluice"}, e.args...)
-	opt.Stdin = e.stdin
-	quiet, _ := fs.GetBool("quiet")
-	_, err = pick(ctx, e, opt, quiet)
-	return err
-}
-
-// pick runs a pick and prints its summary on stderr unless quiet.
-func pick(ctx context.Context, e *env, opt run.Options, quiet bool) (*run.Result, error) {
-	opt.Version = version()
-	started := time.Now()
-	res, err := run.Pick(ctx, opt)
-	if err == nil && !quiet {
-		printPickSummary(e.stdout, opt, res, time.Since(started))
-	}
-	return res, err
 }
 
 // pickOptions resolves a pick's flags, refusing any mistake before work starts.
@@ -255,24 +262,10 @@ func methodFlags(fs *pflag.FlagSet, opt *run.Options) error {
 	if opt.Method == run.MethodBM25 || opt.Method == run.MethodTFIDF {
 		return usagef("--prefilter goes before a model-based method (--method ngram), not before %s", opt.Method)
 	}
-	m, amount, ok := strings.Cut(pf, ":")
 	var err error
-	if opt.Prefilter.Method, err = score.ParseMethod(m); !ok || err != nil {
-		return usagef("--prefilter %q: give METHOD:SHARE%% or METHOD:TOKENS, METHOD bm25 or tfidf", pf)
+	if opt.Prefilter, err = run.ParsePrefilter(pf); err != nil {
+		return usagef("--prefilter %v", err)
 	}
-	if share, isShare := strings.CutSuffix(amount, "%"); isShare {
-		v, err := strconv.ParseFloat(share, 64)
-		if err != nil || !(v > 0 && v <= 100) {
-			return usagef("--prefilter %q: the share must be above 0%% and at most 100%%", pf)
-		}
-		opt.Prefilter.Share = v / 100
-		return nil
-	}
-	v, err := budget.ParseCount(amount)
-	if err != nil || v < 1 || v > math.MaxInt64/2 {
-		return usagef("--prefilter %q: give a share (20%%) or a token count (50M)", pf)
-	}
-	opt.Prefilter.Tokens = int64(v)
 	return nil
 }
 
@@ -301,85 +294,4 @@ func trainingFlags(fs *pflag.FlagSet, opt *run.Options) error {
 		return usagef("--min-score %v: must be finite", opt.Select.MinScore)
 	}
 	return nil
-}
-
-// printPickSummary prints what a pick kept and spent.
-func printPickSummary(w io.Writer, opt run.Options, res *run.Result, took time.Duration) {
-	l := res.Ledger
-	pct := func(v float64) string {
-		if l.Budget == 0 {
-			return "-"
-		}
-		return fmt.Sprintf("%.1f%%", 100*v/l.Budget)
-	}
-	var sb strings.Builder
-	fmt.Fprintf(&sb, "picked %d of %d rows (%d tokens) with %s against %s in %s\n",
-		len(res.Kept), res.Rows, res.KeptTokens, res.Settings.MethodName(), plural(res.Targets, "target row"), took.Round(time.Millisecond))
-	fmt.Fprintf(&sb, "  budget     %s FLOPs (%s)\n", budget.FormatFLOPs(l.Budget), opt.BudgetHow)
-	fmt.Fprintf(&sb, "  selection  %s FLOPs (%s)\n", budget.FormatFLOPs(l.Selection()), pct(l.Selection()))
-	fmt.Fprintf(&sb, "  training   %s FLOPs (%s)\n", budget.FormatFLOPs(l.Training()), pct(l.Training()))
-	fmt.Fprintf(&sb, "  left       %s FLOPs (%s)\n", budget.FormatFLOPs(l.Left()), pct(l.Left()))
-	fmt.Fprintf(&sb, "  stopped    %s\n", l.Stop)
-	if res.Summary.Stop == selection.StopNoMatch && res.Summary.StopRank == 1 {
-		fmt.Fprintf(&sb, "  warning    no pool row shares a term with the target rows: check --target-text and that the target is the task you meant\n")
-	} else if res.Summary.Stop == selection.StopNoMatch || res.Summary.Stop == selection.StopExhausted {
-		fmt.Fprintf(&sb, "  note       the budget buys more than the pool holds worth keeping: %s of it is left; every row that matches at all was kept\n", pct(l.Left()))
-	}
-	fmt.Fprintf(&sb, "  %s\n", strings.Replace(res.Reconciliation(), "rows: ", "rows       ", 1))
-	var guarded []string
-	for _, why := range []string{"duplicate", "contaminated", "source-cap", "prefilter", "no-score"} {
-		if n := res.Dropped[why]; n > 0 {
-			guarded = append(guarded, fmt.Sprintf("%d %s", n, why))
-		}
-	}
-	if len(guarded) > 0 {
-		fmt.Fprintf(&sb, "  dropped    %s (see the reason in scores.jsonl, or sluice why)\n", strings.Join(guarded, ", "))
-	}
-	for _, n := range res.Notes {
-		if strings.HasPrefix(n, "target rows in the pool") {
-			fmt.Fprintf(&sb, "  warning    %s: the pick may learn the target set itself\n", n)
-		}
-	}
-	printSources(&sb, res)
-	if res.Meta.RowsRejected > 0 {
-		fmt.Fprintf(&sb, "  quarantine %s/rejected.jsonl (pool rows)\n", opt.Index)
-	}
-	if res.TargetsRejected > 0 {
-		fmt.Fprintf(&sb, "  quarantine %s/rejected.jsonl (target rows)\n", opt.Out)
-	}
-	fmt.Fprintf(&sb, "  wrote      %s/{%s}\n", opt.Out, strings.Join(res.Files, ","))
-	fmt.Fprint(w, sb.String())
-}
-
-// summarySources is how many pool files the pick summary names; the rest share one line.
-const summarySources = 8
-
-// printSources lists the pool files that gave the most kept tokens.
-func printSources(sb *strings.Builder, res *run.Result) {
-	if len(res.Sources) < 2 {
-		return
-	}
-	src := slices.Clone(res.Sources)
-	slices.SortStableFunc(src, func(a, b run.SourceTally) int { return cmp.Compare(b.KeptTokens, a.KeptTokens) })
-	fmt.Fprintf(sb, "  by file    kept rows of rows, kept tokens\n")
-	for i, s := range src {
-		if i == summarySources {
-			var rows, kept int
-			var tok int64
-			for _, r := range src[i:] {
-				rows, kept, tok = rows+r.Rows, kept+r.KeptRows, tok+r.KeptTokens
-			}
-			fmt.Fprintf(sb, "             %d more files: %d of %d rows, %d tokens\n", len(src)-i, kept, rows, tok)
-			break
-		}
-		fmt.Fprintf(sb, "             %s: %d of %d rows, %d tokens\n", s.File, s.KeptRows, s.Rows, s.KeptTokens)
-	}
-}
-
-// plural writes n with a noun, adding an s when n is not 1.
-func plural(n int, noun string) string {
-	if n == 1 {
-		return "1 " + noun
-	}
-	return fmt.Sprintf("%d %ss", n, noun)
 }

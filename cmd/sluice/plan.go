@@ -130,7 +130,7 @@ func planConfig(fs *pflag.FlagSet) (plan.Config, error) {
 	var cfg plan.Config
 	var err error
 	if get("index") != "" {
-		if cfg.PoolTokens, err = poolTokens(get("index")); err != nil {
+		if cfg.PoolTokens, err = run.PoolTokens(get("index")); err != nil {
 			return cfg, err
 		}
 	} else if cfg.PoolTokens, err = budget.ParseCount(get("pool-tokens")); err != nil {
@@ -211,62 +211,10 @@ func writePlan(e *env, out string, p *plan.Plan, residuals bool) error {
 	if err := p.WriteText(w); err != nil {
 		return err
 	}
-	fmt.Fprint(w, pickCommand(p))
+	fmt.Fprint(w, p.PickCommand())
 	for _, n := range p.Notes {
 		fmt.Fprintf(w, "note: %s\n", n)
 	}
 	fmt.Fprintf(w, "wrote %s to %s\n", wrote, out)
 	return w.Flush()
-}
-
-// pickCommand is the pick that carries out the plan at the asked budget, with the flags its best
-// method needs: lexical methods and n-gram models run in sluice, model-based methods bring their
-// scores, charged at the selector's declared size and passes.
-func pickCommand(p *plan.Plan) string {
-	s := p.Asked
-	if s == nil || s.Best == "" {
-		return ""
-	}
-	var c *plan.Curve
-	for i := range p.Curves {
-		if p.Curves[i].Method == s.Best {
-			c = &p.Curves[i]
-		}
-	}
-	if c == nil {
-		return ""
-	}
-	var method string
-	switch m := strings.ToLower(c.Method); {
-	case m == "bm25" || m == "tfidf" || m == "ngram":
-		method = "--method " + m
-	case c.SelectorParams == 0:
-		method = "--method bm25  # " + c.Method + " is lexical; bm25 is sluice's nearest"
-	default:
-		method = fmt.Sprintf("--method scores --scores %s-SCORES.jsonl --selector-params %s --passes %g",
-			strings.ToUpper(c.Method), strconv.FormatFloat(c.SelectorParams, 'g', -1, 64), c.Passes)
-	}
-	return fmt.Sprintf("  sluice pick --index POOL.idx --target TARGET.jsonl %s --budget %s --train-params %s --epochs %g --out RUN\n",
-		method, strconv.FormatFloat(s.Budget, 'g', -1, 64), strconv.FormatFloat(p.Config.TrainParams, 'g', -1, 64), p.Config.Epochs)
-}
-
-// poolTokens counts an index's tokens as a pick charges them.
-func poolTokens(dir string) (float64, error) {
-	ix, err := index.Open(dir)
-	if err != nil {
-		return 0, err
-	}
-	defer ix.Close()
-	var t int64
-	for r := 0; r < ix.NumRows(); r++ {
-		n, ok, tb := ix.RowTokens(r)
-		if !ok {
-			n = int64(budget.EstimateTokens(int(tb)))
-		}
-		t += n
-	}
-	if t == 0 {
-		return 0, fmt.Errorf("index %s holds no tokens", dir)
-	}
-	return float64(t), nil
 }

@@ -2,12 +2,16 @@ package audit
 
 import (
 	"bytes"
+	"cmp"
 	"context"
 	"encoding/json"
 	"fmt"
+	"io"
 	"math"
+	"slices"
 	"sort"
 	"strings"
+	"text/tabwriter"
 	"unicode/utf8"
 
 	"sluice/budget"
@@ -325,4 +329,44 @@ func fate(r Row, st run.Settings, stop string) string {
 		return "source cap: its pool file had reached its --max-share of the training budget"
 	}
 	return r.Reason
+}
+
+// WriteText writes the explanation for people: score, fate, ledger, the row's text, and the
+// terms or tokens that made its score, largest first, and the target rows it matched best.
+func (r Row) WriteText(w io.Writer) {
+	fmt.Fprintf(w, "row %s (%s)\n", r.ID, r.Source)
+	fmt.Fprintf(w, "  score   %v (%s), rank %d of %d\n", r.Score, r.Method, r.Rank, r.Rows)
+	fmt.Fprintf(w, "  fate    %s\n", r.Why)
+	fmt.Fprintf(w, "  ledger  %s of %s FLOPs after it; its %d tokens\n", budget.FormatFLOPs(r.Ledger), budget.FormatFLOPs(r.Budget), r.Tokens)
+	fmt.Fprintf(w, "  text    %s\n", r.Text)
+	switch {
+	case len(r.Parts) > 0:
+		fmt.Fprintf(w, "  terms   largest contribution first (they add up to the score)\n")
+		tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
+		fmt.Fprintf(tw, "\tterm\ttf\tdf\tidf\ttf part\tweight\tcontribution\t\n")
+		parts := slices.Clone(r.Parts)
+		slices.SortStableFunc(parts, func(a, b score.Part) int { return cmp.Compare(b.Contribution, a.Contribution) })
+		for _, p := range parts {
+			fmt.Fprintf(tw, "\t%s\t%d\t%d\t%.4f\t%.4f\t%.4g\t%.6g\t\n", p.Term, p.TF, p.DF, p.IDF, p.TFPart, p.QueryWeight, p.Contribution)
+		}
+		tw.Flush()
+	case len(r.Words) == 0 && !math.IsNaN(r.Score) && (strings.HasPrefix(r.Method, "bm25") || strings.HasPrefix(r.Method, "tfidf")):
+		fmt.Fprintf(w, "  terms   none: this row shares no term with any target row, so its score is 0\n")
+	}
+	if len(r.Words) > 0 {
+		fmt.Fprintf(w, "  tokens  that moved the score most (part = (target - pool log-probability) / symbols)\n")
+		tw := tabwriter.NewWriter(w, 0, 0, 2, ' ', tabwriter.AlignRight)
+		fmt.Fprintf(tw, "\ttoken\tat\ttarget ln p\tn\tpool ln p\tn\tpart\t\n")
+		for _, x := range r.Words {
+			fmt.Fprintf(tw, "\t%s\t%d\t%.4f\t%d\t%.4f\t%d\t%+.5g\t\n", x.Token, x.Pos, x.Target, x.TargetOrder, x.Pool, x.PoolOrder, x.Part)
+		}
+		tw.Flush()
+	}
+	if len(r.Targets) > 0 {
+		fmt.Fprintf(w, "  best target rows\n")
+		for _, t := range r.Targets {
+			fmt.Fprintf(w, "    %-20s %.6g  shares: %s\n", t.ID, t.Score, strings.Join(t.Shared, ", "))
+		}
+	}
+	fmt.Fprintln(w)
 }

@@ -404,7 +404,7 @@ func Recompute(ctx context.Context, ix *index.Index, targets []index.Target, m *
 			return nil, nil, fmt.Errorf("the manifest names the scores method without its options")
 		}
 		opt.Scores = *st.Scores
-		if opt.Scores.Join, err = parseJoin(st.Join); err == nil {
+		if opt.Scores.Join, err = ParseJoin(st.Join); err == nil {
 			opt.Scores.Missing, err = external.ParseMissing(st.Missing)
 		}
 		if err == nil {
@@ -422,8 +422,8 @@ func Recompute(ctx context.Context, ix *index.Index, targets []index.Target, m *
 	return p.scores, p.best, err
 }
 
-// parseJoin reads a join as the manifest records it.
-func parseJoin(s string) (external.Join, error) {
+// ParseJoin reads how brought-in scores join the pool: auto, id or row.
+func ParseJoin(s string) (external.Join, error) {
 	for _, j := range []external.Join{external.JoinAuto, external.ByID, external.ByRow} {
 		if j.String() == s {
 			return j, nil

@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"math"
 	"sort"
+	"strconv"
 	"strings"
 
 	"github.com/valyala/fastjson"
@@ -400,4 +401,28 @@ func orDefaultInt(v, d int) int {
 		return d
 	}
 	return v
+}
+
+// ParseShares reads source caps as FILE=SHARE, or SHARE for every file without one of its own; a
+// share is above 0 and at most 1.
+func ParseShares(specs []string) (map[string]float64, error) {
+	var out map[string]float64
+	for _, s := range specs {
+		file, v, ok := strings.Cut(s, "=")
+		if !ok {
+			file, v = "", s
+		}
+		f, err := strconv.ParseFloat(v, 64)
+		if err != nil || !(f > 0 && f <= 1) {
+			return nil, fmt.Errorf("%q: give FILE=SHARE or SHARE, a share above 0 and at most 1", s)
+		}
+		if out == nil {
+			out = map[string]float64{}
+		}
+		if _, dup := out[file]; dup {
+			return nil, fmt.Errorf("%q: that file has a share already", s)
+		}
+		out[file] = f
+	}
+	return out, nil
 }

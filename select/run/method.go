@@ -5,6 +5,8 @@ import (
 	"fmt"
 	"math"
 	"slices"
+	"strconv"
+	"strings"
 
 	"sluice/budget"
 	"sluice/score"
@@ -179,4 +181,28 @@ func checkFinite(scores []float64, barred []selection.Reason) error {
 		}
 	}
 	return nil
+}
+
+// ParsePrefilter reads a prefilter as METHOD:SHARE% (bm25:20%) or METHOD:TOKENS (tfidf:50M).
+func ParsePrefilter(s string) (Prefilter, error) {
+	var f Prefilter
+	m, amount, ok := strings.Cut(s, ":")
+	var err error
+	if f.Method, err = score.ParseMethod(m); !ok || err != nil {
+		return f, fmt.Errorf("%q: give METHOD:SHARE%% or METHOD:TOKENS, METHOD bm25 or tfidf", s)
+	}
+	if share, isShare := strings.CutSuffix(amount, "%"); isShare {
+		v, err := strconv.ParseFloat(share, 64)
+		if err != nil || !(v > 0 && v <= 100) {
+			return f, fmt.Errorf("%q: the share must be above 0%% and at most 100%%", s)
+		}
+		f.Share = v / 100
+		return f, nil
+	}
+	v, err := budget.ParseCount(amount)
+	if err != nil || v < 1 || v > math.MaxInt64/2 {
+		return f, fmt.Errorf("%q: give a share (20%%) or a token count (50M)", s)
+	}
+	f.Tokens = int64(v)
+	return f, nil
 }

@@ -67,6 +67,7 @@ type Result struct {
 	Sources         []SourceTally  // per pool file, in the index's order
 	Dropped         map[string]int // rows not kept, by reason ("budget", "duplicate", ...)
 	Notes           []string       // what the guards found, as the ledger notes it
+	Index, Out      string         // the index read and the run folder written
 	Files           []string       // the files written into the run folder, manifest last
 }
 
@@ -321,6 +322,7 @@ func (p *picked) keep() error {
 		led.Notes = append(led.Notes, fmt.Sprintf("ids: %d rows repeat an earlier row's id; scores.jsonl is in input order, so its n-th line is the n-th indexed row", m.DuplicateIDs))
 	}
 	r.Settings = p.settings()
+	r.Index, r.Out = opt.Index, opt.Out
 	r.Meta, r.Rows, r.Targets, r.TargetsRejected = m, n, len(p.targets), len(p.trej)
 	r.Ledger, r.Summary = led, sum
 	return nil
@@ -417,4 +419,25 @@ func Folder() atomicdir.Kind {
 // any input of the pick. A run folder may not be made inside an index or another run either.
 func CheckOut(opt Options) error {
 	return atomicdir.CheckOut(opt.Out, Folder(), append([]string{opt.Index, opt.Target}, opt.inputs()...), index.Folder(), Folder())
+}
+
+// PoolTokens counts the tokens of an index's rows as a pick charges them for training.
+func PoolTokens(dir string) (float64, error) {
+	ix, err := index.Open(dir)
+	if err != nil {
+		return 0, err
+	}
+	defer ix.Close()
+	var t int64
+	for r := 0; r < ix.NumRows(); r++ {
+		n, ok, tb := ix.RowTokens(r)
+		if !ok {
+			n = int64(budget.EstimateTokens(int(tb)))
+		}
+		t += n
+	}
+	if t == 0 {
+		return 0, fmt.Errorf("index %s holds no tokens", dir)
+	}
+	return float64(t), nil
 }
