@@ -25,14 +25,18 @@ import (
 	"sluice/index/analysis"
 	"sluice/index/atomicdir"
 	"sluice/index/jsonl"
+	"sluice/index/tokens"
 )
 
 // Options control a build. The zero value is usable: the text shape is detected, ids are file:line,
 // the analyzer is english and memory is bounded at DefaultMem.
 type Options struct {
-	Text        string // field spec, e.g. "prompt,completion"; "" detects a known shape
-	ID          string // field holding the row id; "" uses file:line
-	Tokens      string // field holding a token count for the ledger; "" estimates from text bytes
+	Text   string // field spec, e.g. "prompt,completion"; "" detects a known shape
+	ID     string // field holding the row id; "" uses file:line
+	Tokens string // field holding a token count for the ledger; "" estimates from text bytes
+	// Tokenizer names a tokenizer file (see package tokens) that counts each row's tokens for the
+	// ledger: the text fields each counted alone, added. It and Tokens exclude each other.
+	Tokenizer   string
 	Analyzer    string // analysis.Names(); "" is "english"
 	Mem         int64  // bytes of dictionaries (terms, postings, tables) held in memory before sorted runs are spilled to disk
 	Workers     int    // goroutines analysing rows; 0 is GOMAXPROCS
@@ -44,6 +48,9 @@ type Options struct {
 	// Progress, when set, is called from one goroutine with the number of pool bytes read since
 	// the previous call.
 	Progress func(n int64)
+	// Within lists kinds of folder the index may not be made inside, besides an index (a run, say,
+	// whose owner would find a stranger in it).
+	Within []atomicdir.Kind
 	// Command, when set, is recorded in meta.json as the command line that made the index, so a
 	// run's manifest (which hashes meta.json) says how its index was built.
 	Command []string
@@ -234,8 +241,17 @@ func Build(ctx context.Context, dir string, sources []string, opt Options) (*Sta
 	}
 	if opt.DryRun && dir == "" {
 		dir = filepath.Join(os.TempDir(), "sluice-dry-run")
-	} else if err := atomicdir.CheckReplaceable(dir, isIndex); err != nil {
+	} else if err := atomicdir.CheckOut(dir, Folder(), sources, append(opt.Within, Folder())...); err != nil {
 		return nil, fmt.Errorf("build index: %w", err)
+	}
+	var tok *tokens.Tokenizer
+	if opt.Tokenizer != "" {
+		if opt.Tokens != "" {
+			return nil, errors.New("build index: a token field and a tokenizer both count tokens: give one")
+		}
+		if tok, err = tokens.Load(opt.Tokenizer); err != nil {
+			return nil, fmt.Errorf("build index: %w", err)
+		}
 	}
 	tmp, err := atomicdir.Temp(dir)
 	if err != nil {
@@ -255,6 +271,13 @@ func Build(ctx context.Context, dir string, sources []string, opt Options) (*Sta
 		spec:  spec,
 		meta:  Meta{Format: Format, Version: Version, Analyzer: probe.Name(), AnalyzerChain: probe.Describe(), IDField: opt.ID, TokensField: opt.Tokens, MaxRowBytes: opt.MaxRowBytes, Command: opt.Command},
 		paths: sources,
+		tok:   tok,
+	}
+	if tok != nil {
+		b.meta.Tokenizer = opt.Tokenizer
+		if b.meta.TokenizerSHA256, err = fileSHA256(opt.Tokenizer); err != nil {
+			return nil, fmt.Errorf("build index: %w", err)
+		}
 	}
 	st, err := b.run(ctx)
 	if err != nil {
@@ -277,6 +300,7 @@ type builder struct {
 	wd    workDir
 	spec  jsonl.Spec
 	meta  Meta
+	tok   *tokens.Tokenizer // counts rows' tokens; nil without Options.Tokenizer
 	paths []string
 
 	workers     []*worker
@@ -318,6 +342,9 @@ func (b *builder) run(ctx context.Context) (*Stats, error) {
 			default:
 			}
 		}, id: i, an: a, dict: newTermTable(), memLimit: memPer, wd: b.wd, strict: b.opt.Strict, dry: b.opt.DryRun, needIDs: b.opt.ID != "", idField: b.opt.ID, tokField: b.opt.Tokens}
+		if b.tok != nil {
+			w.tok = b.tok.Clone()
+		}
 		b.workers = append(b.workers, w)
 	}
 
@@ -898,7 +925,8 @@ type worker struct {
 	needIDs  bool
 	idField  string
 	tokField string
-	cut      []byte // text with long runs cut, see cutLongRuns
+	tok      *tokens.Tokenizer // counts the tokens of each row's text fields; nil to take tokField
+	cut      []byte            // text with long runs cut, see cutLongRuns
 }
 
 func (w *worker) work(ctx context.Context, in <-chan *batch, out chan<- *batchOut, paths []string) error {
@@ -965,7 +993,11 @@ func (w *worker) do(bt *batch, paths []string) (*batchOut, error) {
 		key := uint64(bt.seq)<<localBits | local
 		alen := 0
 		w.touched = w.touched[:0]
+		ntok := 0
 		row, err := w.ex.Extract(line, func(part []byte) {
+			if w.tok != nil {
+				ntok += w.tok.Count(part)
+			}
 			part, w.cut = cutLongRuns(part, w.cut)
 			w.an.EachTagged(part, func(term []byte, tag *uint64) {
 				if len(term) > MaxTermBytes {
@@ -1047,6 +1079,9 @@ func (w *worker) do(bt *batch, paths []string) (*batchOut, error) {
 		rec := rowRec{off: uint64(l.off), n: uint32(l.n), line: uint32(l.line), src: uint32(bt.src), alen: uint32(alen), textBytes: uint32(min(row.TextBytes, int(^uint32(0)))), tokens: noTokens}
 		if row.HasTokens {
 			rec.tokens = uint32(row.Tokens)
+		}
+		if w.tok != nil {
+			rec.tokens = uint32(min(ntok, int(noTokens)-1))
 		}
 		// The crc covers the line as copied, newline included, so a copy can be checked.
 		rec.crc = crcLine(line, l.n)
@@ -1132,4 +1167,18 @@ func (st *Stats) WriteSummary(w io.Writer, out string) {
 	if m.RowsRejected > 0 {
 		fmt.Fprintf(w, "  quarantine    %s/rejected.jsonl\n", out)
 	}
+}
+
+// fileSHA256 is the SHA-256 of a file, in hex, so the index says which tokenizer counted its tokens.
+func fileSHA256(path string) (string, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return "", err
+	}
+	defer f.Close()
+	h := sha256.New()
+	if _, err := io.Copy(h, f); err != nil {
+		return "", fmt.Errorf("read %s: %w", path, err)
+	}
+	return hex.EncodeToString(h.Sum(nil)), nil
 }

@@ -53,6 +53,9 @@ type Meta struct {
 	TextDetected  bool            `json:"text_detected"`
 	IDField       string          `json:"id_field,omitempty"`
 	TokensField   string          `json:"tokens_field,omitempty"`
+	// Tokenizer is the tokenizer file that counted each row's tokens, and its SHA-256.
+	Tokenizer       string `json:"tokenizer,omitempty"`
+	TokenizerSHA256 string `json:"tokenizer_sha256,omitempty"`
 	MaxRowBytes   int             `json:"max_row_bytes"`
 	Rows          int64           `json:"rows"`
 	RowsRead      int64           `json:"rows_read"`

@@ -8,8 +8,10 @@ import (
 	"strings"
 	"testing"
 
+	"sluice/budget"
 	"sluice/cmd/sluice/demodata"
 	"sluice/index/decontam"
+	"sluice/index/tokens"
 	"sluice/select/run"
 )
 
@@ -143,3 +145,79 @@ func jsonStrings(t *testing.T, line string) string {
 }
 
 func jsonUnmarshal(s string, v any) error { return json.Unmarshal([]byte(s), v) }
+
+// TestIndexOutputs: rebuilding an index replaces only an index holding nothing else, never one of
+// its own pools, and no index is made inside a run; before, a rebuild deleted whatever the folder
+// held, the pool it had just read among it.
+func TestIndexOutputs(t *testing.T) {
+	dir, idx, target := demoIndex(t)
+	mine := filepath.Join(idx, "mypool.jsonl")
+	os.WriteFile(mine, demodata.Pool(), 0o644)
+	run1 := filepath.Join(dir, "run")
+	if code, _, stderr := sluice(t, "pick", "-q", "--index", idx, "--target", target, "--budget", "6e12", "--train-params", "125M", "--out", run1); code != 0 {
+		t.Fatal(stderr)
+	}
+	for _, tc := range []struct {
+		args []string
+		want string
+	}{
+		{[]string{"index", "-q", "--out", idx, mine}, "input"},
+		{[]string{"index", "-q", "--out", idx, filepath.Join(dir, "pool.jsonl")}, "mypool.jsonl, which sluice did not write as an index"},
+		{[]string{"index", "-q", "--out", filepath.Join(run1, "idx"), filepath.Join(dir, "pool.jsonl")}, "a run folder"},
+		{[]string{"index", "-q", "--out", run1, filepath.Join(dir, "pool.jsonl")}, "a run made by sluice, not an index"},
+	} {
+		before := snapshot(t, dir)
+		if code, _, stderr := sluice(t, tc.args...); code == 0 || !strings.Contains(stderr, tc.want) {
+			t.Errorf("%v: exit %d: %q lacks %q", tc.args, code, stderr, tc.want)
+		}
+		after := snapshot(t, dir)
+		if len(after) != len(before) {
+			t.Errorf("%v: %d files before, %d after", tc.args, len(before), len(after))
+		}
+	}
+}
+
+// TestTokenizerCounts: an index built with a tokenizer file charges each row the tokens that
+// tokenizer counts in its text fields (index/tokens checks the counts against reference
+// implementations), and the ledger says so.
+func TestTokenizerCounts(t *testing.T) {
+	dir, _, target := demoIndex(t)
+	tokfile := "../../index/tokens/testdata/gpt2-small.json"
+	idx := filepath.Join(dir, "tok-idx")
+	if code, _, stderr := sluice(t, "index", "-q", "--id", "id", "--tokenizer", tokfile, "--out", idx, filepath.Join(dir, "pool.jsonl")); code != 0 {
+		t.Fatal(stderr)
+	}
+	out := filepath.Join(dir, "run")
+	if code, _, stderr := sluice(t, "pick", "-q", "--index", idx, "--target", target, "--keep-duplicates", "--budget", "6e12", "--train-params", "125M", "--out", out); code != 0 {
+		t.Fatal(stderr)
+	}
+	tk, err := tokens.Load(tokfile)
+	if err != nil {
+		t.Fatal(err)
+	}
+	pool := strings.Split(strings.TrimSpace(string(demodata.Pool())), "\n")
+	var estimate, counted int64
+	if err := run.EachScore(out, func(s run.Score) error {
+		var r struct{ Instruction, Input, Output string }
+		json.Unmarshal([]byte(pool[s.Row]), &r)
+		want := 0
+		for _, f := range []string{r.Instruction, r.Input, r.Output} {
+			want += tk.Count([]byte(f))
+			estimate += int64(budget.EstimateTokens(len(f)))
+		}
+		if s.Tokens != int64(want) {
+			t.Errorf("row %s: %d tokens charged, the tokenizer counts %d", s.ID, s.Tokens, want)
+		}
+		counted += s.Tokens
+		return nil
+	}); err != nil {
+		t.Fatal(err)
+	}
+	if counted == estimate {
+		t.Errorf("the counts equal the bytes/4 estimate (%d): the tokenizer was not used", counted)
+	}
+	l, _ := run.ReadLedger(out)
+	if !slices.ContainsFunc(l.Notes, func(n string) bool { return strings.Contains(n, "tokenizer") }) {
+		t.Errorf("the ledger does not say how tokens were counted: %q", l.Notes)
+	}
+}

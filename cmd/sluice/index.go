@@ -10,7 +10,9 @@ import (
 	"sluice/budget"
 	"sluice/index"
 	"sluice/index/analysis"
+	"sluice/index/atomicdir"
 	"sluice/index/jsonl"
+	"sluice/select/run"
 )
 
 type indexCmd struct{}
@@ -38,6 +40,7 @@ before you index and train on it.`,
 	fs.String("text", "", "JSON paths of the text fields, comma-separated; [] walks an array (default: detect)")
 	fs.String("id", "", "field holding each row's id (default: file:line)")
 	fs.String("tokens", "", "field holding each row's token count for the ledger (default: UTF-8 bytes / 4)")
+	fs.String("tokenizer", "", "count each row's tokens for the ledger with this tokenizer file (a tokenizer.json of byte-level\nBPE, or GPT-2's vocab.json/merges.txt), as the model to be trained will; default: UTF-8 bytes / 4")
 	fs.String("analyzer", index.DefaultAnalyzer, "text analysis: "+strings.Join(analysis.Names(), " or "))
 	fs.String("mem", "512MiB", "memory for postings before sorted runs spill to disk")
 	fs.String("max-row-bytes", "64MiB", "longer rows are quarantined without being loaded")
@@ -99,6 +102,11 @@ func indexOptions(fs *pflag.FlagSet) (index.Options, error) {
 	opt.Text, _ = fs.GetString("text")
 	opt.ID, _ = fs.GetString("id")
 	opt.Tokens, _ = fs.GetString("tokens")
+	opt.Tokenizer, _ = fs.GetString("tokenizer")
+	if opt.Tokens != "" && opt.Tokenizer != "" {
+		return opt, usagef("give --tokens (a field) or --tokenizer (a file), not both")
+	}
+	opt.Within = []atomicdir.Kind{run.Folder()}
 	opt.Analyzer, _ = fs.GetString("analyzer")
 	opt.Workers, _ = fs.GetInt("workers")
 	opt.Strict, _ = fs.GetBool("strict")

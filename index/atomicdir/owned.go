@@ -35,11 +35,11 @@ func (k Kind) isOurs(dir string, entries []os.DirEntry) error {
 			more = fmt.Sprintf(" and %d more", len(strange)-3)
 			strange = strange[:3]
 		}
-		return fmt.Errorf("it holds %s%s, which sluice did not write as a %s", strings.Join(strange, ", "), more, k.Name)
+		return fmt.Errorf("it holds %s%s, which sluice did not write as %s", strings.Join(strange, ", "), more, article(k.Name))
 	}
 	b, err := os.ReadFile(filepath.Join(dir, k.Mark))
 	if err != nil || !k.IsOur(b) {
-		return fmt.Errorf("it has no %s of a %s made by sluice", k.Mark, k.Name)
+		return fmt.Errorf("it has no %s of %s made by sluice", k.Mark, article(k.Name))
 	}
 	return nil
 }

@@ -9,6 +9,7 @@ import (
 	"strings"
 
 	"sluice/budget"
+	"sluice/index/tokens"
 	"sluice/score"
 	selection "sluice/select"
 )
@@ -68,6 +69,10 @@ func (p *picked) score(ctx context.Context) error {
 	p.led = &budget.Ledger{Budget: opt.Budget}
 	p.led.AddSelection("analyse pool rows (index build)", "term", float64(m.TotalLen), budget.FLOPsPerToken,
 		fmt.Sprintf("%d FLOPs x %d pool terms", budget.FLOPsPerToken, m.TotalLen))
+	if m.Tokenizer != "" {
+		p.led.AddSelection("count pool tokens with the tokenizer (index build)", "byte", float64(m.TextBytes), tokens.FLOPsPerByte,
+			fmt.Sprintf("%d FLOPs x %d text bytes", tokens.FLOPsPerByte, m.TextBytes))
+	}
 	var targetTerms int64
 	for _, t := range p.targets {
 		targetTerms += int64(len(t.Terms))

@@ -304,8 +304,11 @@ func (p *picked) keep() error {
 		fmt.Sprintf("6 x %g parameters x %d tokens x %g epochs", opt.TrainParams, r.KeptTokens, opt.Epochs))
 	led.Stop = stopText(sum, so)
 	tokSrc := "UTF-8 bytes of the text fields / 4, rounded up (rule of thumb for English, common practice)"
-	if m.TokensField != "" {
+	switch {
+	case m.TokensField != "":
 		tokSrc = fmt.Sprintf("field %q of each row", m.TokensField)
+	case m.Tokenizer != "":
+		tokSrc = fmt.Sprintf("counted at index time with the tokenizer %s (SHA-256 %.12s), each text field alone", m.Tokenizer, m.TokenizerSHA256)
 	}
 	led.Notes = append(led.Notes,
 		"budget: "+opt.BudgetHow,
