@@ -45,31 +45,31 @@ var castagnoli = crc32.MakeTable(crc32.Castagnoli)
 
 // Meta is the content of meta.json: everything needed to trust, reuse and explain an index.
 type Meta struct {
-	Format        string          `json:"format"`
-	Version       int             `json:"version"`
-	Analyzer      string          `json:"analyzer"`
-	AnalyzerChain string          `json:"analyzer_chain"`
-	Text          string          `json:"text"`
-	TextDetected  bool            `json:"text_detected"`
-	IDField       string          `json:"id_field,omitempty"`
-	TokensField   string          `json:"tokens_field,omitempty"`
+	Format        string `json:"format"`
+	Version       int    `json:"version"`
+	Analyzer      string `json:"analyzer"`
+	AnalyzerChain string `json:"analyzer_chain"`
+	Text          string `json:"text"`
+	TextDetected  bool   `json:"text_detected"`
+	IDField       string `json:"id_field,omitempty"`
+	TokensField   string `json:"tokens_field,omitempty"`
 	// Tokenizer is the tokenizer file that counted each row's tokens, and its SHA-256.
-	Tokenizer       string `json:"tokenizer,omitempty"`
-	TokenizerSHA256 string `json:"tokenizer_sha256,omitempty"`
-	MaxRowBytes   int             `json:"max_row_bytes"`
-	Rows          int64           `json:"rows"`
-	RowsRead      int64           `json:"rows_read"`
-	RowsRejected  int64           `json:"rows_rejected"`
-	BlankLines    int64           `json:"blank_lines"`
-	DuplicateIDs  int64           `json:"duplicate_ids,omitempty"` // rows whose id an earlier row already had
-	TotalLen      int64           `json:"total_len"`
-	AvgLen        float64         `json:"avg_len"`
-	Terms         int64           `json:"terms"`
-	Postings      int64           `json:"postings"`
-	TextBytes     int64           `json:"text_bytes"`
-	Sources       []Source        `json:"sources"`
-	Files         map[string]File `json:"files"`
-	Command       []string        `json:"command,omitempty"` // the command line that built it, when given
+	Tokenizer       string          `json:"tokenizer,omitempty"`
+	TokenizerSHA256 string          `json:"tokenizer_sha256,omitempty"`
+	MaxRowBytes     int             `json:"max_row_bytes"`
+	Rows            int64           `json:"rows"`
+	RowsRead        int64           `json:"rows_read"`
+	RowsRejected    int64           `json:"rows_rejected"`
+	BlankLines      int64           `json:"blank_lines"`
+	DuplicateIDs    int64           `json:"duplicate_ids,omitempty"` // rows whose id an earlier row already had
+	TotalLen        int64           `json:"total_len"`
+	AvgLen          float64         `json:"avg_len"`
+	Terms           int64           `json:"terms"`
+	Postings        int64           `json:"postings"`
+	TextBytes       int64           `json:"text_bytes"`
+	Sources         []Source        `json:"sources"`
+	Files           map[string]File `json:"files"`
+	Command         []string        `json:"command,omitempty"` // the command line that built it, when given
 }
 
 // Source is one pool file as it was when indexed.
