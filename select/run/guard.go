@@ -97,58 +97,43 @@ func (p *picked) guard(ctx context.Context) error {
 		}
 		gd.evalFiles = g.Exclude
 	}
+	var prm *dedup.Params
 	var det *dedup.Detector
-	var signer *dedup.Signer
-	var hasher dedup.Hasher
 	var exact dedup.Exact
 	if !g.KeepDuplicates {
-		t := g.NearDup
-		if t == 0 {
-			t = DefaultNearDup
-		}
+		t := orDefault(g.NearDup, DefaultNearDup)
 		gd.bands = chooseBands(t)
-		prm := dedup.Params{Hashes: minhashes, Threshold: t, Bands: gd.bands}
+		prm = &dedup.Params{Hashes: minhashes, Threshold: t, Bands: gd.bands}
 		var err error
-		if det, err = dedup.NewDetector(prm); err != nil {
-			return err
-		}
-		if signer, err = dedup.NewSigner(prm); err != nil {
+		if det, err = dedup.NewDetector(*prm); err != nil {
 			return err
 		}
 	}
-	var sig dedup.Signature
-	var pairs []dedup.Pair
-	var words []string
 	targetKeys := p.targetKeys()
-	err := eachRowText(ctx, p.ix, nil, func(row int, text []byte) error {
-		if set != nil {
-			words = decontam.Words(words[:0], string(text))
-			gd.evalWork += int64(len(words))
-			if hit, ok := set.Check(words); ok {
-				hit.Words = append([]string(nil), hit.Words...)
-				gd.contam[row] = hit
-			}
+	var pairs []dedup.Pair
+	// Hashing, signing and checking words are per row and run on every core; the detector and the
+	// exact groups take the rows in order, as they must.
+	work, err := eachRowHashed(ctx, p.ix, prm, set, func(h *rowHashes) error {
+		if h.contaminated {
+			gd.contam[h.row] = h.hit
 		}
+		gd.evalWork += h.words
 		if det == nil {
 			return nil
 		}
-		hasher.Write(text)
-		key := hasher.Sum()
-		if targetKeys[key] {
-			gd.inPool = append(gd.inPool, p.ix.RowID(row))
+		if targetKeys[h.key] {
+			gd.inPool = append(gd.inPool, p.ix.RowID(h.row))
 		}
-		first, err := exact.Add(row, key)
+		first, err := exact.Add(h.row, h.key)
 		if err != nil {
 			return err
 		}
-		signer.Write(text)
-		sig = signer.Sum(sig[:0])
-		if pairs, err = det.Add(pairs[:0], row, sig); err != nil {
+		if pairs, err = det.Add(pairs[:0], h.row, h.sig); err != nil {
 			return err
 		}
-		if first != row {
+		if first != h.row {
 			gd.exactDups++
-			return det.Clusters().Union(first, row)
+			return det.Clusters().Union(first, h.row)
 		}
 		return nil
 	})
@@ -157,7 +142,7 @@ func (p *picked) guard(ctx context.Context) error {
 	}
 	if det != nil {
 		gd.clusters = det.Clusters()
-		gd.work = hasher.Work().Plus(signer.Work()).Plus(det.Work())
+		gd.work = work.Plus(det.Work())
 	}
 	p.guards = gd
 	p.chargeGuards()
