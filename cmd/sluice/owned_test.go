@@ -90,3 +90,21 @@ func TestOutputsNeverReplaceWhatTheUserOwns(t *testing.T) {
 		}
 	}
 }
+
+// TestMissingParentsMade: a pick's --out under folders that do not exist yet makes them, as a user
+// naming runs/2026-12/support expects; under a file it is refused before any work.
+func TestMissingParentsMade(t *testing.T) {
+	dir, idx, target := demoIndex(t)
+	out := filepath.Join(dir, "runs", "2026-12", "support")
+	if code, _, stderr := sluice(t, "pick", "-q", "--index", idx, "--target", target, "--budget", "6e12", "--train-params", "125M", "--out", out); code != 0 {
+		t.Fatalf("exit %d: %s", code, stderr)
+	}
+	if _, err := os.Stat(filepath.Join(out, "manifest.json")); err != nil {
+		t.Error(err)
+	}
+	file := filepath.Join(dir, "a-file")
+	os.WriteFile(file, nil, 0o644)
+	if code, _, stderr := sluice(t, "pick", "-q", "--index", idx, "--target", target, "--budget", "6e12", "--train-params", "125M", "--out", filepath.Join(file, "run")); code != 1 || !strings.Contains(stderr, "is not a folder") {
+		t.Errorf("under a file: exit %d: %s", code, stderr)
+	}
+}

@@ -23,6 +23,11 @@ import (
 func Temp(dir string) (string, error) {
 	clean := filepath.Clean(dir)
 	parent, prefix := filepath.Dir(clean), "."+filepath.Base(clean)+".tmp-"
+	// A missing parent is made, as a user naming run/2026-12/support expects; CheckOut has made
+	// sure the nearest one that exists is a plain folder.
+	if err := os.MkdirAll(parent, 0o755); err != nil {
+		return "", fmt.Errorf("make a working folder beside %s: %w", dir, pathless(err))
+	}
 	removeStale(parent, prefix)
 	// Another process's clean-up may take a folder in the moment between its making and its lock;
 	// it then removes it, and another is made.

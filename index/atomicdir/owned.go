@@ -7,6 +7,7 @@ import (
 	"path/filepath"
 	"sort"
 	"strings"
+	"syscall"
 )
 
 // Kind is a kind of folder that sluice publishes: the names it may hold and the file whose content
@@ -79,11 +80,8 @@ func CheckOut(dir string, k Kind, inputs []string, within ...Kind) error {
 		}
 	}
 	fi, err := os.Lstat(dir)
-	if errors.Is(err, os.ErrNotExist) {
-		if pfi, perr := os.Stat(parent); perr != nil || !pfi.IsDir() {
-			return fmt.Errorf("write %s: parent folder %s does not exist", dir, parent)
-		}
-		return nil
+	if errors.Is(err, os.ErrNotExist) || errors.Is(err, syscall.ENOTDIR) {
+		return checkAncestor(dir, parent)
 	}
 	switch {
 	case err != nil:
@@ -110,6 +108,24 @@ func CheckOut(dir string, k Kind, inputs []string, within ...Kind) error {
 		}
 	}
 	return fmt.Errorf("write %s: %w: %v", dir, ErrNotOurs, why)
+}
+
+// checkAncestor allows a missing parent, made when the output is published, when the nearest
+// ancestor that exists is a folder.
+func checkAncestor(out, parent string) error {
+	for p := parent; ; p = filepath.Dir(p) {
+		fi, err := os.Stat(p)
+		switch {
+		case err == nil && fi.IsDir():
+			return nil
+		case err == nil:
+			return fmt.Errorf("write %s: %s is not a folder", out, p)
+		case !errors.Is(err, os.ErrNotExist):
+			return fmt.Errorf("write %s: %w", out, err)
+		case filepath.Dir(p) == p:
+			return fmt.Errorf("write %s: no folder above it exists", out)
+		}
+	}
 }
 
 // checkInputs refuses an output path that is one of inputs or holds one and, when holdsOut is set,
