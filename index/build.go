@@ -275,7 +275,7 @@ func Build(ctx context.Context, dir string, sources []string, opt Options) (*Sta
 	}
 	if tok != nil {
 		b.meta.Tokenizer = opt.Tokenizer
-		if b.meta.TokenizerSHA256, err = fileSHA256(opt.Tokenizer); err != nil {
+		if b.meta.TokenizerSHA256, err = FileSHA256(opt.Tokenizer); err != nil {
 			return nil, fmt.Errorf("build index: %w", err)
 		}
 	}
@@ -1169,8 +1169,9 @@ func (st *Stats) WriteSummary(w io.Writer, out string) {
 	}
 }
 
-// fileSHA256 is the SHA-256 of a file, in hex, so the index says which tokenizer counted its tokens.
-func fileSHA256(path string) (string, error) {
+// FileSHA256 is the SHA-256 of a file, in hex: how indexes and runs name the exact files they read
+// (a tokenizer, a target, vectors).
+func FileSHA256(path string) (string, error) {
 	f, err := os.Open(path)
 	if err != nil {
 		return "", err

@@ -342,7 +342,7 @@ func (e *Extractor) getID(v *fastjson.Value, row *Row) error {
 		row.ID = s
 	case fastjson.TypeNumber:
 		e.idBuf = c.MarshalTo(e.idBuf[:0])
-		if !isJSONNumber(e.idBuf) {
+		if !IsNumber(e.idBuf) {
 			return &RowError{Kind: ErrBadID, Path: e.id.String(), Detail: fmt.Sprintf("%q is not a JSON number", e.idBuf)}
 		}
 		row.ID = e.idBuf
@@ -373,7 +373,7 @@ func (e *Extractor) getTokens(v *fastjson.Value, row *Row) error {
 	fail := func() error {
 		return &RowError{Kind: ErrBadTokens, Path: e.tokens.String(), Detail: fmt.Sprintf("%s, want a non-negative integer", raw)}
 	}
-	if !isJSONNumber(raw) {
+	if !IsNumber(raw) {
 		return fail()
 	}
 	if n, err := strconv.ParseInt(string(raw), 10, 64); err == nil {
@@ -392,9 +392,9 @@ func (e *Extractor) getTokens(v *fastjson.Value, row *Row) error {
 	return nil
 }
 
-// isJSONNumber reports whether b follows the number grammar of RFC 8259
-// section 6, which the parser does not enforce.
-func isJSONNumber(b []byte) bool {
+// IsNumber reports whether b follows the number grammar of RFC 8259, section 6, which the
+// parser does not enforce; every reader of numbers from JSONL checks with it.
+func IsNumber(b []byte) bool {
 	i := 0
 	if i < len(b) && b[i] == '-' {
 		i++

@@ -202,13 +202,13 @@ func TestNewExtractorErrors(t *testing.T) {
 func TestIsJSONNumber(t *testing.T) {
 	// The grammar of RFC 8259 section 6.
 	for _, s := range []string{"0", "-0", "7", "-12", "1.5", "0.25", "1e3", "1E+3", "2.5e-07", "123456789012345678901234567890"} {
-		if !isJSONNumber([]byte(s)) {
-			t.Errorf("isJSONNumber(%q) = false", s)
+		if !IsNumber([]byte(s)) {
+			t.Errorf("IsNumber(%q) = false", s)
 		}
 	}
 	for _, s := range []string{"", "-", "+1", "01", "1.", ".5", "1e", "1e+", "NaN", "inf", "1.2.3", "0x10", "--1"} {
-		if isJSONNumber([]byte(s)) {
-			t.Errorf("isJSONNumber(%q) = true", s)
+		if IsNumber([]byte(s)) {
+			t.Errorf("IsNumber(%q) = true", s)
 		}
 	}
 }

@@ -87,7 +87,7 @@ func jsonID(v *fastjson.Value, buf *[]byte) (string, error) {
 		return string(s), nil
 	case fastjson.TypeNumber:
 		*buf = v.MarshalTo((*buf)[:0])
-		if !isJSONNumber(*buf) {
+		if !jsonl.IsNumber(*buf) {
 			return "", fmt.Errorf("%q is not a JSON number: %w", *buf, ErrFormat)
 		}
 		return string(*buf), nil
@@ -122,7 +122,7 @@ func jsonScore(v *fastjson.Value, buf *[]byte) (float64, error) {
 		return 0, fmt.Errorf("%s, want a number: %w", v.Type(), ErrFormat)
 	}
 	*buf = v.MarshalTo((*buf)[:0])
-	if !isJSONNumber(*buf) {
+	if !jsonl.IsNumber(*buf) {
 		// The parser lets NaN and Inf through as numbers.
 		if bytes.ContainsAny(*buf, "nNiI") {
 			return 0, fmt.Errorf("%s: %w", *buf, ErrNotFinite)
@@ -137,49 +137,6 @@ func jsonScore(v *fastjson.Value, buf *[]byte) (float64, error) {
 		return 0, fmt.Errorf("%s is beyond float64's range: %w", *buf, ErrNotFinite)
 	}
 	return f, nil
-}
-
-// isJSONNumber reports whether b follows the number grammar of RFC 8259,
-// section 6, which the parser does not enforce.
-func isJSONNumber(b []byte) bool {
-	i := 0
-	if i < len(b) && b[i] == '-' {
-		i++
-	}
-	switch {
-	case i < len(b) && b[i] == '0':
-		i++
-	case i < len(b) && b[i] >= '1' && b[i] <= '9':
-		for i < len(b) && b[i] >= '0' && b[i] <= '9' {
-			i++
-		}
-	default:
-		return false
-	}
-	if i < len(b) && b[i] == '.' {
-		i++
-		d := i
-		for i < len(b) && b[i] >= '0' && b[i] <= '9' {
-			i++
-		}
-		if i == d {
-			return false
-		}
-	}
-	if i < len(b) && (b[i] == 'e' || b[i] == 'E') {
-		i++
-		if i < len(b) && (b[i] == '+' || b[i] == '-') {
-			i++
-		}
-		d := i
-		for i < len(b) && b[i] >= '0' && b[i] <= '9' {
-			i++
-		}
-		if i == d {
-			return false
-		}
-	}
-	return i == len(b)
 }
 
 // clip shortens s for an error message.

@@ -1,11 +1,8 @@
 package run
 
 import (
-	"crypto/sha256"
-	"encoding/hex"
 	"encoding/json"
 	"fmt"
-	"io"
 	"os"
 	"path/filepath"
 	"sort"
@@ -155,18 +152,7 @@ func writeManifest(tmp, out string, m *Manifest, known map[string]string) error 
 	return writeFileBytes(filepath.Join(tmp, ManifestFile), filepath.Join(out, ManifestFile), append(b, '\n'))
 }
 
-func sha256File(path string) (string, error) {
-	f, err := os.Open(path)
-	if err != nil {
-		return "", err
-	}
-	defer f.Close()
-	h := sha256.New()
-	if _, err := io.Copy(h, f); err != nil {
-		return "", fmt.Errorf("read %s: %w", path, err)
-	}
-	return hex.EncodeToString(h.Sum(nil)), nil
-}
+func sha256File(path string) (string, error) { return index.FileSHA256(path) }
 
 // Inputs says where a run's index and target are now, when they are no longer where its manifest
 // says (the run was copied to another machine, or made from another folder); an empty field keeps
