@@ -22,6 +22,8 @@ import (
 	"unicode/utf8"
 	"unsafe"
 
+	"github.com/valyala/fastjson"
+
 	"sluice/index/analysis"
 	"sluice/index/atomicdir"
 	"sluice/index/jsonl"
@@ -71,6 +73,14 @@ type Stats struct {
 	Runs int // sorted runs spilled to disk before the merge
 	// FirstDuplicate is the first row whose id an earlier row already had, or nil.
 	FirstDuplicate *Duplicate
+	// Quarantined counts, per source, the rows set aside, with the first of them.
+	Quarantined []SourceQuarantine
+}
+
+// SourceQuarantine is what one pool file lost to the quarantine.
+type SourceQuarantine struct {
+	Rows  int64
+	First *Reject
 }
 
 // RowError is a bad row met with Options.Strict.
@@ -309,8 +319,9 @@ type builder struct {
 	maxBatches  int
 	base        []int64 // first row number of each batch
 	srcRows     map[int]int64
-	anyRow      bool     // the reader met a line that is not blank
-	firstReject *Reject  // the collector's first quarantined row
+	anyRow      bool    // the reader met a line that is not blank
+	firstReject *Reject // the collector's first quarantined row
+	quarantined []SourceQuarantine
 	idHashes    []uint64 // by row, to find repeated ids
 	firstDup    *Duplicate
 }
@@ -407,7 +418,7 @@ func (b *builder) run(ctx context.Context) (*Stats, error) {
 		return nil, err
 	}
 	if b.opt.DryRun {
-		st := &Stats{Meta: b.meta, FirstDuplicate: b.firstDup}
+		st := &Stats{Meta: b.meta, FirstDuplicate: b.firstDup, Quarantined: b.quarantined}
 		return st, nil
 	}
 	var fw sync.WaitGroup
@@ -419,6 +430,7 @@ func (b *builder) run(ctx context.Context) (*Stats, error) {
 	if err != nil {
 		return nil, err
 	}
+	st.Quarantined = b.quarantined
 	if err := os.RemoveAll(runDir); err != nil {
 		return nil, b.wd.err("build index: remove", err)
 	}
@@ -865,6 +877,16 @@ func (b *builder) collect(ctx context.Context, outs <-chan *batchOut) error {
 			if b.firstReject == nil && len(o.rejects) > 0 {
 				b.firstReject = &o.rejects[0]
 			}
+			if len(o.rejects) > 0 {
+				for len(b.quarantined) <= o.src {
+					b.quarantined = append(b.quarantined, SourceQuarantine{})
+				}
+				q := &b.quarantined[o.src]
+				if q.First == nil {
+					q.First = &o.rejects[0]
+				}
+				q.Rows += int64(len(o.rejects))
+			}
 			n := int64(len(o.rows))
 			b.meta.Rows += n
 			srcRows[o.src] += n
@@ -1182,4 +1204,44 @@ func FileSHA256(path string) (string, error) {
 		return "", fmt.Errorf("read %s: %w", path, err)
 	}
 	return hex.EncodeToString(h.Sum(nil)), nil
+}
+
+// quarantineWarnShare is the share of a file's rows set aside past which the summary warns: a few
+// bad rows are the norm in scraped pools, a tenth of a file is most often fields named otherwise.
+const quarantineWarnShare = 0.05
+
+// WriteWarnings says loudly which files lost more than a few rows to the quarantine, with the
+// first one and the text fields its rows do hold, so that a pool mixing field names is not indexed
+// by halves without a word.
+func (st *Stats) WriteWarnings(w io.Writer) {
+	for i, q := range st.Quarantined {
+		if q.First == nil || i >= len(st.Sources) {
+			continue
+		}
+		read := st.Sources[i].Rows + q.Rows
+		if float64(q.Rows) <= quarantineWarnShare*float64(read) {
+			continue
+		}
+		fmt.Fprintf(w, "warning: %s: %d of its %d rows (%.0f%%) were quarantined; the first, line %d: %s\n",
+			st.Sources[i].Path, q.Rows, read, 100*float64(q.Rows)/float64(read), q.First.Line, q.First.Reason)
+		if fields := stringFields(q.First.Raw); fields != "" {
+			fmt.Fprintf(w, "  its rows hold the text fields %s: an index reads one text spec, so index this file on its own with --text %s\n", fields, fields)
+		}
+	}
+}
+
+// stringFields names the top-level fields of a JSON row whose values are strings, for a --text
+// suggestion; "" when the row is not a JSON object.
+func stringFields(raw string) string {
+	v, err := fastjson.Parse(raw)
+	if err != nil || v.Type() != fastjson.TypeObject {
+		return ""
+	}
+	var names []string
+	v.GetObject().Visit(func(k []byte, e *fastjson.Value) {
+		if e.Type() == fastjson.TypeString && !strings.ContainsAny(string(k), ",[].") {
+			names = append(names, string(k))
+		}
+	})
+	return strings.Join(names, ",")
 }

@@ -89,6 +89,7 @@ func (c *indexCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 	if !quiet {
 		st.WriteSummary(e.stdout, out)
 	}
+	st.WriteWarnings(e.stderr)
 	if after, _ := index.Identity(out); before != "" && after != before {
 		// Every run made on the replaced index names its identity: they no longer verify.
 		fmt.Fprintf(e.stderr, "  replaced   an index of other content (identity %.12s, now %.12s): runs made on it no longer verify or explain\n", before, after)
