@@ -17,6 +17,7 @@ type Options struct {
 	Fixed         float64 // FLOPs already spent before any row is kept (the selection cost)
 	Fill          bool    // keep scanning past the first row that does not fit
 	MaxRows       int     // most rows to keep; 0 means no limit
+	MaxCount      float64 // with Unit, the most counts (tokens) to keep; 0 means no limit
 	MinScore      float64 // rows scoring below this are not kept
 	KeepUnmatched bool    // allow rows with score <= 0, which share nothing with the target
 	// Unit, when above zero, says costs are counts (tokens, say) of Unit FLOPs each: every sum is
@@ -52,12 +53,13 @@ const (
 	Duplicate                  // "duplicate": a better-scored row of its duplicate cluster is kept instead
 	Contaminated               // "contaminated": it shares an n-gram with an evaluation row
 	GroupCap                   // "source-cap": its source had reached its share of the budget
+	MaxCount                   // "max-tokens": its tokens would pass Options.MaxCount
 )
 
 var reasonNames = [...]string{
 	Kept: "", BelowCut: "below-cut", Budget: "budget", MaxRows: "max-rows",
 	MinScore: "min-score", NoMatch: "no-match", Prefilter: "prefilter", Unscored: "no-score",
-	Duplicate: "duplicate", Contaminated: "contaminated", GroupCap: "source-cap",
+	Duplicate: "duplicate", Contaminated: "contaminated", GroupCap: "source-cap", MaxCount: "max-tokens",
 }
 
 // String returns the stable lower-case word used for r in output files; it
@@ -80,11 +82,13 @@ const (
 	StopMinScore                    // "min-score": the rest scored below MinScore
 	StopNoMatch                     // "no-match": the rest scored <= 0
 	StopFixedOverBudget             // "fixed-over-budget": the selection cost alone exceeds the budget
+	StopMaxCount                    // "max-tokens": the first row whose tokens would pass MaxCount, without Fill
 )
 
 var stopNames = [...]string{
 	StopExhausted: "exhausted", StopBudget: "budget", StopMaxRows: "max-rows",
 	StopMinScore: "min-score", StopNoMatch: "no-match", StopFixedOverBudget: "fixed-over-budget",
+	StopMaxCount: "max-tokens",
 }
 
 // String returns the stable lower-case word used for s in output files.
@@ -211,6 +215,11 @@ func Pick(scores []float64, costs []float64, opt Options) ([]Decision, Summary, 
 			}
 		case spent != nil && spent[opt.Group[i]]+costs[i] > opt.Caps[opt.Group[i]]:
 			d.Reason = GroupCap
+		case opt.MaxCount > 0 && count+costs[i] > opt.MaxCount:
+			d.Reason = MaxCount
+			if !opt.Fill {
+				sum.Stop, sum.StopRank, stopped = StopMaxCount, d.Rank, true
+			}
 		case fit:
 			total = next
 			count += costs[i]
@@ -259,6 +268,9 @@ func check(scores, costs []float64, opt Options) error {
 	}
 	if opt.MaxRows < 0 {
 		return fmt.Errorf("pick: max rows %d: must be >= 0: %w", opt.MaxRows, ErrBadInput)
+	}
+	if !finiteNonNeg(opt.MaxCount) || (opt.MaxCount > 0 && opt.Unit == 0) {
+		return fmt.Errorf("pick: max count %v: must be finite and >= 0, and counted in Unit: %w", opt.MaxCount, ErrBadInput)
 	}
 	if !finiteNonNeg(opt.Unit) {
 		return fmt.Errorf("pick: unit cost %v: must be finite and >= 0: %w", opt.Unit, ErrBadInput)

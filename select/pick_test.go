@@ -543,3 +543,24 @@ func TestGroupCaps(t *testing.T) {
 		t.Errorf("groups without caps: %v", err)
 	}
 }
+
+// TestMaxCount: with costs in tokens, the pick stops at the first row whose tokens would pass the
+// cap (or with Fill goes on for rows that fit), whatever budget is left.
+func TestMaxCount(t *testing.T) {
+	scores := []float64{9, 8, 7, 6}
+	costs := []float64{3, 4, 2, 1}
+	dec, sum, err := Pick(scores, costs, Options{Budget: 1e9, Unit: 10, MaxCount: 6})
+	if err != nil {
+		t.Fatal(err)
+	}
+	if !dec[0].Kept || dec[1].Reason != MaxCount || dec[2].Reason != BelowCut || sum.Stop != StopMaxCount || sum.StopRank != 2 {
+		t.Errorf("%+v %+v", dec, sum)
+	}
+	dec, _, _ = Pick(scores, costs, Options{Budget: 1e9, Unit: 10, MaxCount: 6, Fill: true})
+	if !dec[0].Kept || dec[1].Kept || !dec[2].Kept || !dec[3].Kept {
+		t.Errorf("with Fill: %+v", dec)
+	}
+	if _, _, err := Pick(scores, costs, Options{Budget: 1e9, MaxCount: 6}); !errors.Is(err, ErrBadInput) {
+		t.Errorf("a count cap without a unit: %v", err)
+	}
+}

@@ -450,7 +450,7 @@ func TestBadPickInput(t *testing.T) {
 		{"--b", "NaN", "--b NaN: must be between 0 and 1"},
 		{"--b", "-1", "--b -1: must be between 0 and 1"},
 		{"--b", "Inf", "--b +Inf: must be between 0 and 1"},
-		{"--min-score", "NaN", "--min-score NaN: must be finite"},
+		{"--min-score", "NaN", "--min-score \"NaN\": give a finite score"},
 		{"--max-rows", "-1", "--max-rows -1: must be 0 or more"},
 	} {
 		cases = append(cases, struct {

@@ -414,3 +414,54 @@ func TestPlanAsPeopleAsk(t *testing.T) {
 		t.Errorf("a model-based method's pick command lacks its declared cost: %s", cmd)
 	}
 }
+
+// TestStopsAsPeopleStateThem: a floor as a share of the best score or a percentile, and a token
+// cap, stop the pick where they say, and the ledger says why.
+func TestStopsAsPeopleStateThem(t *testing.T) {
+	dir, idx, target := demoIndex(t)
+	pickWith := func(name string, flags ...string) []run.Score {
+		out := filepath.Join(dir, name)
+		args := append([]string{"pick", "-q", "--index", idx, "--target", target, "--budget", "1e15", "--train-params", "125M", "--keep-duplicates", "--out", out}, flags...)
+		if code, _, stderr := sluice(t, args...); code != 0 {
+			t.Fatalf("%v: %s", flags, stderr)
+		}
+		var s []run.Score
+		run.EachScore(out, func(x run.Score) error { s = append(s, x); return nil })
+		return s
+	}
+	all := pickWith("all")
+	best, matched := 0.0, 0
+	for _, s := range all {
+		best = max(best, s.Score)
+		if s.Score > 0 {
+			matched++
+		}
+	}
+	for _, s := range pickWith("half", "--min-score", "50%") {
+		if s.Kept != (s.Score >= best/2) {
+			t.Errorf("50%% of the best (%v): row %s scores %v, kept %v", best, s.ID, s.Score, s.Kept)
+		}
+	}
+	kept := 0
+	for _, s := range pickWith("p90", "--min-score", "p90") {
+		if s.Kept {
+			kept++
+		}
+	}
+	if want := matched / 10; kept < want-2 || kept > want+2 {
+		t.Errorf("p90 kept %d of %d matching rows, want about %d", kept, matched, want)
+	}
+	var tokens int64
+	capped := pickWith("cap", "--max-tokens", "2000")
+	for _, s := range capped {
+		if s.Kept {
+			tokens += s.Tokens
+		}
+	}
+	if tokens > 2000 || tokens < 1800 {
+		t.Errorf("--max-tokens 2000 kept %d tokens", tokens)
+	}
+	if l, _ := run.ReadLedger(filepath.Join(dir, "cap")); !strings.HasPrefix(l.Stop, "max-tokens") {
+		t.Errorf("stop %q", l.Stop)
+	}
+}

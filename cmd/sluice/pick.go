@@ -122,7 +122,8 @@ func addPickStopFlags(fs *pflag.FlagSet) {
 	fs.Float64("epochs", 1, "training epochs over the kept rows")
 	fs.Bool("fill", false, "after the first row that does not fit, keep scanning for rows that do")
 	fs.Int("max-rows", 0, "keep at most this many rows (0: no limit)")
-	fs.Float64("min-score", 0, "keep only rows scoring at least this; rows sharing no term are never kept")
+	fs.String("min-score", "", "keep only rows scoring at least this: a score, a share of the best score (50%),\nor a percentile of the scored rows (p90: the best tenth); lexical rows sharing no term are never kept")
+	fs.String("max-tokens", "", "keep rows only until they hold this many tokens (e.g. 50M), whatever budget is left")
 	fs.String("out", "", "run folder to write (required)")
 	fs.String("compress", "none", "write the kept rows as kept.jsonl (none), kept.jsonl.gz (gzip) or kept.jsonl.zst (zstd)")
 	fs.String("mem", "64MiB", "memory for the postings of one span of pool rows; lists are read a span at a time")
@@ -288,10 +289,18 @@ func trainingFlags(fs *pflag.FlagSet, opt *run.Options) error {
 	if opt.Select.MaxRows < 0 {
 		return usagef("--max-rows %d: must be 0 or more", opt.Select.MaxRows)
 	}
-	opt.Select.MinScore, _ = fs.GetFloat64("min-score")
+	ms, _ := fs.GetString("min-score")
 	opt.MinScoreSet = fs.Changed("min-score")
-	if math.IsNaN(opt.Select.MinScore) || math.IsInf(opt.Select.MinScore, 0) {
-		return usagef("--min-score %v: must be finite", opt.Select.MinScore)
+	if opt.MinScore, err = run.ParseMinScore(ms); err != nil {
+		return usagef("--min-score %v", err)
+	}
+	opt.Select.MinScore = opt.MinScore.Plain
+	if mt, _ := fs.GetString("max-tokens"); mt != "" {
+		v, err := budget.ParseCount(mt)
+		if err != nil || v < 1 {
+			return usagef("--max-tokens %q: give a token count such as 50M", mt)
+		}
+		opt.Select.MaxCount = v
 	}
 	return nil
 }

@@ -325,6 +325,8 @@ func fate(r Row, st run.Settings, stop string) string {
 		return fmt.Sprintf("duplicate: it is an exact or near duplicate of %s, which scored higher (or as high, and comes first) and stands for their cluster", r.DuplicateOf)
 	case "contaminated":
 		return fmt.Sprintf("contaminated: it shares the %d-word run \"%s\" with the evaluation row %s, so it is never kept", len(strings.Fields(r.NGram)), r.NGram, r.Contaminated)
+	case "max-tokens":
+		return "max-tokens: the rows kept before it held as many tokens as --max-tokens allows"
 	case "source-cap":
 		return "source cap: its pool file had reached its --max-share of the training budget"
 	}

@@ -9,6 +9,8 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"slices"
+	"strconv"
 	"strings"
 
 	"sluice/budget"
@@ -36,6 +38,9 @@ type Options struct {
 	Vectors   VectorsOptions // for MethodVectors
 	Guards    Guards         // duplicates, evaluation rows, source shares
 	Prefilter Prefilter      // a cheap first stage before a model-based method; zero for none
+	// MinScore, when not the zero value, sets Select.MinScore from the scores once they are known:
+	// a share of the best score or a percentile.
+	MinScore MinScore
 	// MinScoreSet says Select.MinScore was given. Model-based scores can be below zero, so
 	// without it they have no floor; lexical scores always keep theirs (0 by default).
 	MinScoreSet bool
@@ -275,6 +280,11 @@ func (p *picked) keep() error {
 			so.MinScore = math.Inf(-1)
 		}
 	}
+	if opt.MinScore.Kind != "" {
+		so.MinScore = opt.MinScore.resolve(p.scores, p.barred, lexical(opt.method()))
+		opt.Select.MinScore = so.MinScore
+		led.Notes = append(led.Notes, fmt.Sprintf("min-score: %s of the scored rows, %v", opt.MinScore, so.MinScore))
+	}
 	dec, sum, err := selection.Pick(p.scores, costs, so)
 	if err != nil {
 		return err
@@ -392,6 +402,8 @@ func stopText(s selection.Summary, o selection.Options) string {
 		return fmt.Sprintf("no-match: the rows from rank %d on share no term with the target rows", s.StopRank)
 	case selection.StopFixedOverBudget:
 		return "fixed-over-budget: the selection cost alone exceeds the budget"
+	case selection.StopMaxCount:
+		return fmt.Sprintf("max-tokens: the row ranked %d would pass %g kept tokens", s.StopRank, o.MaxCount)
 	}
 	return s.Stop.String()
 }
@@ -443,4 +455,70 @@ func PoolTokens(dir string) (float64, error) {
 		return 0, fmt.Errorf("index %s holds no tokens", dir)
 	}
 	return float64(t), nil
+}
+
+// MinScore is a score floor given relative to the scores: Kind "share" keeps rows scoring at least
+// Value times the best score; "percentile" keeps rows scoring at least the Value-th percentile of
+// the scored rows (p90 keeps about the best tenth). The zero value is a plain floor.
+type MinScore struct {
+	Kind  string  `json:"kind,omitempty"`
+	Value float64 `json:"value,omitempty"`
+	Plain float64 `json:"-"` // the floor when Kind is ""
+}
+
+func (m MinScore) String() string {
+	if m.Kind == "share" {
+		return fmt.Sprintf("%g%% of the best score", 100*m.Value)
+	}
+	return fmt.Sprintf("the %gth percentile", m.Value)
+}
+
+// ParseMinScore reads a floor: a number, a share of the best score ("50%"), or a percentile
+// ("p90").
+func ParseMinScore(s string) (MinScore, error) {
+	var m MinScore
+	switch {
+	case s == "":
+		return m, nil
+	case strings.HasSuffix(s, "%"):
+		v, err := strconv.ParseFloat(strings.TrimSuffix(s, "%"), 64)
+		if err != nil || !(v > 0 && v <= 100) {
+			return m, fmt.Errorf("%q: a share of the best score is above 0%% and at most 100%%", s)
+		}
+		return MinScore{Kind: "share", Value: v / 100}, nil
+	case strings.HasPrefix(s, "p"):
+		v, err := strconv.ParseFloat(s[1:], 64)
+		if err != nil || !(v >= 0 && v < 100) {
+			return m, fmt.Errorf("%q: a percentile is p0 to p99.9", s)
+		}
+		return MinScore{Kind: "percentile", Value: v}, nil
+	}
+	v, err := strconv.ParseFloat(s, 64)
+	if err != nil || math.IsNaN(v) || math.IsInf(v, 0) {
+		return m, fmt.Errorf("%q: give a finite score, a share of the best (50%%) or a percentile (p90)", s)
+	}
+	return MinScore{Plain: v}, nil
+}
+
+// resolve works out the floor from the rows that may be kept (for a lexical method, those sharing
+// a term with the target).
+func (m MinScore) resolve(scores []float64, barred []selection.Reason, lexical bool) float64 {
+	var s []float64
+	for r, v := range scores {
+		if (barred == nil || barred[r] == selection.Kept) && !math.IsNaN(v) && (!lexical || v > 0) {
+			s = append(s, v)
+		}
+	}
+	if len(s) == 0 {
+		return math.Inf(1)
+	}
+	slices.Sort(s)
+	if m.Kind == "share" {
+		best := s[len(s)-1]
+		if best < 0 {
+			return best / m.Value // a share of a negative best lies below it
+		}
+		return m.Value * best
+	}
+	return s[int(math.Floor(m.Value/100*float64(len(s)-1)))]
 }
