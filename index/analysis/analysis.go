@@ -23,12 +23,14 @@ var ErrUnknownAnalyzer = errors.New("unknown analyzer")
 const Default = "english"
 
 const (
-	english = "english"
-	plain   = "plain"
+	english       = "english"
+	plain         = "plain"
+	englishNoStem = "english-nostem"
+	sklearn       = "sklearn"
 )
 
 // Names returns the names accepted by New, the default first.
-func Names() []string { return []string{english, plain} }
+func Names() []string { return []string{english, plain, englishNoStem, sklearn} }
 
 // An Analyzer turns text into index terms. It keeps scratch buffers and a
 // stem cache, so it is not safe for concurrent use: use one per goroutine.
@@ -36,10 +38,12 @@ type Analyzer struct {
 	name     string
 	describe string
 	bleve    bleveanalysis.Analyzer
-	stem     bool // possessive, stop words and stemming (english)
+	english  bool // possessive, stop words and the word caches (english, english-nostem)
+	porter   bool // Porter stemming after the stop words (english)
+	sklearn  bool // scikit-learn's tokenisation instead of bleve's (see sklearn.go)
 
 	stop bleveanalysis.TokenMap
-	// hot and cache remember what the english chain makes of a word, in
+	// hot and cache remember what the english chains make of a word, in
 	// bounded memory (see cache.go): under 6 MB.
 	hot   []hotSet
 	cache *stemCache
@@ -60,12 +64,42 @@ func New(name string) (*Analyzer, error) {
 	switch name {
 	case english:
 		a.describe = "unicode words; possessive 's removed; lowercase; English stop words (bleve stop_en); Porter stemmer (bleve porter)"
-		a.stem = true
+		a.english, a.porter = true, true
 		if a.bleve, err = cache.AnalyzerNamed(en.AnalyzerName); err != nil {
 			return nil, fmt.Errorf("analyzer %s: %w", name, err)
 		}
 		if a.stop, err = cache.TokenMapNamed(en.StopName); err != nil {
 			return nil, fmt.Errorf("analyzer %s: %w", name, err)
+		}
+		a.cache = newStemCache()
+		a.hot = make([]hotSet, 1<<hotBits)
+	case englishNoStem:
+		// english without its last filter: stemming merges words that
+		// tell tasks apart ("classify", "classes", "class"), and
+		// measured selection quality is higher without it on some
+		// corpora (testdata/bench/quality.sh).
+		a.describe = "unicode words; possessive 's removed; lowercase; English stop words (bleve stop_en); no stemming"
+		a.english = true
+		a.bleve, err = cache.DefineAnalyzer(englishNoStem, map[string]interface{}{
+			"type":          custom.Name,
+			"tokenizer":     unicode.Name,
+			"token_filters": []string{en.PossessiveName, lowercase.Name, en.StopName},
+		})
+		if err != nil {
+			return nil, fmt.Errorf("analyzer %s: %w", name, err)
+		}
+		if a.stop, err = cache.TokenMapNamed(en.StopName); err != nil {
+			return nil, fmt.Errorf("analyzer %s: %w", name, err)
+		}
+		a.cache = newStemCache()
+		a.hot = make([]hotSet, 1<<hotBits)
+	case sklearn:
+		a.describe = "scikit-learn CountVectorizer default: Python str.lower(); tokens of 2+ word characters, " +
+			"token_pattern (?u)\\b\\w\\w+\\b; scikit-learn ENGLISH_STOP_WORDS; no stemming"
+		a.sklearn = true
+		a.stop = make(bleveanalysis.TokenMap, 320)
+		for _, w := range strings.Fields(sklearnStopWords) {
+			a.stop[w] = true
 		}
 		a.cache = newStemCache()
 		a.hot = make([]hotSet, 1<<hotBits)
@@ -120,6 +154,10 @@ func (a *Analyzer) EachTagged(text []byte, fn func(term []byte, tag *uint64)) {
 	if len(a.buf) < len(text)+pad {
 		a.buf = make([]byte, len(text)+pad)
 	}
+	if a.sklearn {
+		a.sklearnEach(text, fn)
+		return
+	}
 	pos := 0
 	for pos < len(text) {
 		n := copyLower(a.buf, text[pos:])
@@ -170,7 +208,7 @@ func (a *Analyzer) eachASCII(size int, fn func(term []byte, tag *uint64)) {
 		if !ok {
 			return
 		}
-		if !a.stem {
+		if !a.english {
 			a.noTag = 0
 			fn(b[start:end:end], &a.noTag)
 			continue
@@ -180,45 +218,53 @@ func (a *Analyzer) eachASCII(size int, fn func(term []byte, tag *uint64)) {
 		if n >= 2 && binary.LittleEndian.Uint16(b[end-2:]) == 's'<<8|'\'' {
 			n -= 2
 		}
-		if n > hotMax {
-			a.emitStemmed(b[start:start+n], hashLong(b[start:], n), nil, 0, 0, fn)
-			continue
-		}
-		// The hot level, on the way of most terms: the word is held
-		// zero-padded in two registers, hashed and compared without
-		// going through memory. b has pad bytes after the word.
-		p := (*[16]byte)(b[start:])
-		w0 := binary.LittleEndian.Uint64(p[:8]) & lowBytes(min(n, 8))
-		w1 := binary.LittleEndian.Uint64(p[8:]) & lowBytes(max(n-8, 0))
-		h := hash16(w0, w1)
-		set := &a.hot[h>>(64-hotBits)]
-		e := &set[0]
-		if e.k0 != w0 || e.k1 != w1 {
-			e = &set[1]
-		}
-		if e.k0 != w0 || e.k1 != w1 {
-			a.emitStemmed(b[start:start+n], h, set, w0, w1, fn)
-			continue
-		}
-		if e.stem == 0 { // a stop word
-			continue
-		}
-		t := a.term[:16]
-		var m int
-		if e.stem&longStem == 0 {
-			binary.LittleEndian.PutUint64(t, e.stem)
-			m = paddedLen(e.stem)
-		} else {
-			binary.LittleEndian.PutUint64(t, w0)
-			binary.LittleEndian.PutUint64(t[8:], e.stem&^longStem)
-			m = 8 + paddedLen(e.stem&^longStem)
-		}
-		fn(t[:m:m], &e.tag)
+		a.emitWord(b, start, n, fn)
 	}
 }
 
+// emitWord passes on what the chain makes of the lowercased ASCII word
+// b[start:start+n], looking it up in the caches first. b holds at least
+// 16 bytes from start.
+func (a *Analyzer) emitWord(b []byte, start, n int, fn func(term []byte, tag *uint64)) {
+	if n > hotMax {
+		a.emitStemmed(b[start:start+n], hashLong(b[start:], n), nil, 0, 0, fn)
+		return
+	}
+	// The hot level, on the way of most terms: the word is held
+	// zero-padded in two registers, hashed and compared without
+	// going through memory. b has pad bytes after the word.
+	p := (*[16]byte)(b[start:])
+	w0 := binary.LittleEndian.Uint64(p[:8]) & lowBytes(min(n, 8))
+	w1 := binary.LittleEndian.Uint64(p[8:]) & lowBytes(max(n-8, 0))
+	h := hash16(w0, w1)
+	set := &a.hot[h>>(64-hotBits)]
+	e := &set[0]
+	if e.k0 != w0 || e.k1 != w1 {
+		e = &set[1]
+	}
+	if e.k0 != w0 || e.k1 != w1 {
+		a.emitStemmed(b[start:start+n], h, set, w0, w1, fn)
+		return
+	}
+	if e.stem == 0 { // a stop word
+		return
+	}
+	t := a.term[:16]
+	var m int
+	if e.stem&longStem == 0 {
+		binary.LittleEndian.PutUint64(t, e.stem)
+		m = paddedLen(e.stem)
+	} else {
+		binary.LittleEndian.PutUint64(t, w0)
+		binary.LittleEndian.PutUint64(t[8:], e.stem&^longStem)
+		m = 8 + paddedLen(e.stem&^longStem)
+	}
+	fn(t[:m:m], &e.tag)
+}
+
 // emitStemmed runs the lowercased ASCII word w, with hash h, through
-// bleve's stop_en and porter filters, and passes on what is left. set is
+// the chain's stop list and, for english, bleve's porter filter, and
+// passes on what is left. set is
 // the hot set for w, which is not in it, held in w0, w1; nil if w is too
 // long for the hot level.
 func (a *Analyzer) emitStemmed(w []byte, h uint64, set *hotSet, w0, w1 uint64, fn func(term []byte, tag *uint64)) {
@@ -259,11 +305,15 @@ func (a *Analyzer) emitStemmed(w []byte, h uint64, set *hotSet, w0, w1 uint64, f
 	}
 }
 
-// analyzeWord applies bleve's stop_en and porter filters to a lowercased
-// ASCII word. The stem is only valid until the next call.
+// analyzeWord applies the chain's stop list and, for english, bleve's
+// porter filter to a lowercased ASCII word. The stem is only valid until
+// the next call.
 func (a *Analyzer) analyzeWord(w []byte) (stem []byte, stop bool) {
 	if _, stop := a.stop[string(w)]; stop {
 		return nil, true
+	}
+	if !a.porter {
+		return w, false
 	}
 	r := a.runes[:0]
 	for _, c := range w {
