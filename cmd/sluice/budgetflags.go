@@ -9,9 +9,6 @@ import (
 	"sluice/budget"
 )
 
-// hourFlags are the flags that give a budget as time on accelerators.
-var hourFlags = []string{"gpu-hours", "gpus", "hours", "gpu-flops", "mfu"}
-
 // addBudgetFlags declares the ways a budget can be given: FLOPs, or time on accelerators.
 func addBudgetFlags(fs *pflag.FlagSet) {
 	var names []string
@@ -26,27 +23,20 @@ func addBudgetFlags(fs *pflag.FlagSet) {
 	fs.Float64("mfu", 0, "model FLOPs utilisation, a fraction in (0,1]; 0.3-0.5 is common for dense training")
 }
 
-// budgetGiven reports whether any budget flag was given.
-func budgetGiven(fs *pflag.FlagSet) bool {
-	if fs.Changed("budget") {
-		return true
-	}
-	for _, f := range hourFlags {
-		if fs.Changed(f) {
-			return true
-		}
-	}
-	return false
+// hoursGiven reports whether any flag giving the budget as time on accelerators was given.
+func hoursGiven(fs *pflag.FlagSet) bool {
+	return fs.Changed("gpu-hours") || fs.Changed("gpus") || fs.Changed("hours") || fs.Changed("gpu-flops") || fs.Changed("mfu")
 }
+
+// budgetGiven reports whether any budget flag was given.
+func budgetGiven(fs *pflag.FlagSet) bool { return fs.Changed("budget") || hoursGiven(fs) }
 
 // budgetFlags resolves --budget, or time on accelerators (--gpu-hours, or --gpus with --hours)
 // with --gpu-flops and --mfu, to FLOPs, and says how the budget was given.
 func budgetFlags(fs *pflag.FlagSet) (float64, string, error) {
 	if fs.Changed("budget") {
-		for _, f := range hourFlags {
-			if fs.Changed(f) {
-				return 0, "", usagef("give either --budget or GPU time (--gpu-hours, or --gpus and --hours, with --gpu-flops and --mfu), not both")
-			}
+		if hoursGiven(fs) {
+			return 0, "", usagef("give either --budget or GPU time (--gpu-hours, or --gpus and --hours, with --gpu-flops and --mfu), not both")
 		}
 		b, _ := fs.GetString("budget")
 		v, err := budget.ParseFLOPs(b)

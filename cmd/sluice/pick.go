@@ -296,11 +296,9 @@ func trainingFlags(fs *pflag.FlagSet, opt *run.Options) error {
 	}
 	opt.Select.MinScore = opt.MinScore.Plain
 	if mt, _ := fs.GetString("max-tokens"); mt != "" {
-		v, err := budget.ParseCount(mt)
-		if err != nil || v < 1 {
-			return usagef("--max-tokens %q: give a token count such as 50M", mt)
+		if opt.Select.MaxCount, err = budget.ParseCount(mt); err != nil {
+			return usagef("--max-tokens: %v", err)
 		}
-		opt.Select.MaxCount = v
 	}
 	return nil
 }
