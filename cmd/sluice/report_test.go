@@ -362,6 +362,26 @@ func checkPage(t *testing.T, run string, page []byte, method string, lexical boo
 		}
 	}
 
+	// Every reason a row was not kept is counted on the page, as scores.jsonl counts it.
+	notKept := map[string]int{}
+	for _, s := range readScores(t, filepath.Join(run, "scores.jsonl")) {
+		if !s.Kept {
+			notKept[s.Reason]++
+		}
+	}
+	onPage := map[string]bool{}
+	for _, e := range all {
+		if e.Name == "li" && e.Attrs["data-not-kept"] != "" {
+			n, _ := strconv.Atoi(e.Attrs["data-not-kept-rows"])
+			onPage[e.Attrs["data-not-kept"]+"="+strconv.Itoa(n)] = true
+		}
+	}
+	for why, n := range notKept {
+		if !onPage[why+"="+strconv.Itoa(n)] {
+			t.Errorf("the page does not count the %d rows not kept for %q", n, why)
+		}
+	}
+
 	f := readFacts(t, run, lexical)
 	hist := byID["histogram"]
 	var unscored int

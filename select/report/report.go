@@ -60,6 +60,7 @@ type Page struct {
 	Below      []sampleView
 	Random     []sampleView
 	Seed       int
+	Dropped    []reasonCount // rows not kept, by reason, in the order a reader asks about them
 }
 
 // Build reads the run folder dir once (and its sample rows' explanations) and works out everything
@@ -113,6 +114,7 @@ func Build(ctx context.Context, dir string, o Options) (*Page, error) {
 
 // tally is what one pass over scores.jsonl gathers: the histogram, per-file sums and the samples.
 type tally struct {
+	dropped           map[string]int64 // rows not kept, by reason
 	hist              scoreHist
 	keptTok, poolTok  []int64
 	keptRows          []int
@@ -124,7 +126,7 @@ type tally struct {
 func tallyScores(ctx context.Context, dir string, ix *index.Index, rep *Page, sample int) (*tally, error) {
 	nsrc := len(ix.Meta().Sources)
 	lexical := rep.Settings.Method != run.MethodNgram
-	t := &tally{keptTok: make([]int64, nsrc), poolTok: make([]int64, nsrc), keptRows: make([]int, nsrc),
+	t := &tally{dropped: map[string]int64{}, keptTok: make([]int64, nsrc), poolTok: make([]int64, nsrc), keptRows: make([]int, nsrc),
 		hist: scoreHist{zeroApart: lexical}, top: rankSample{k: sample}, above: rankSample{k: sample, largest: true},
 		below: rankSample{k: sample}, random: newReservoir(3*sample, sampleSeed)}
 	var p fastjson.Parser
@@ -144,6 +146,9 @@ func tallyScores(ctx context.Context, dir string, ix *index.Index, rep *Page, sa
 			return err
 		}
 		tok, rank, kept := v.GetInt64("tokens"), v.GetInt("rank"), v.GetBool("kept")
+		if !kept {
+			t.dropped[string(v.GetStringBytes("reason"))]++
+		}
 		src := ix.RowLocation(r).Source
 		t.poolTok[src] += tok
 		rep.PoolTokens += tok
@@ -196,6 +201,11 @@ func tallyScores(ctx context.Context, dir string, ix *index.Index, rep *Page, sa
 		return nil, fmt.Errorf("read %s: %d lines for the index's %d rows", filepath.Join(dir, run.ScoresFile), row, ix.NumRows())
 	}
 	rep.Rows = row
+	for _, why := range []string{"duplicate", "contaminated", "source-cap", "prefilter", "no-score", "no-match", "min-score", "max-rows", "max-tokens", "budget", "below-cut"} {
+		if n := t.dropped[why]; n > 0 {
+			rep.Dropped = append(rep.Dropped, reasonCount{why, n})
+		}
+	}
 	return t, nil
 }
 
@@ -650,7 +660,10 @@ footer ul { padding-left: 18px; }
 {{end}}<text class="small" x="0" y="114">budget {{.BudgetText}} FLOPs ({{$.Settings.BudgetHow}})</text>
 </svg>
 </figure>{{end}}
-<h3>Ledger lines</h3>
+{{if .Dropped}}<h3>Rows not kept</h3>
+<ul id="dropped">{{range .Dropped}}<li data-not-kept="{{.Reason}}" data-not-kept-rows="{{.Rows}}">{{digits .Rows}} {{.Reason}}</li>{{end}}</ul>
+<p class="note">duplicate: a better-scored copy was kept instead; contaminated: it shares a run of words with an evaluation file; source-cap: its file had its share; below-cut and budget: the budget ran out before or at it. <code>sluice why</code> explains any row.</p>
+{{end}}<h3>Ledger lines</h3>
 <table>
 <thead><tr><th>what</th><th>kind</th><th class="num">count</th><th class="num">FLOPs each</th><th class="num">FLOPs</th><th>formula</th></tr></thead>
 <tbody>
