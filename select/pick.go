@@ -71,6 +71,32 @@ func (r Reason) String() string {
 	return fmt.Sprintf("reason(%d)", r)
 }
 
+// Reasons lists every reason a row may not be kept, in the order summaries list them: the bars
+// set before the walk first, then the walk's own.
+func Reasons() []Reason {
+	return []Reason{Duplicate, Contaminated, GroupCap, Prefilter, Unscored, NoMatch, MinScore, MaxRows, MaxCount, Budget, BelowCut}
+}
+
+// ParseReason reads a reason as String writes it.
+func ParseReason(s string) (Reason, bool) {
+	for r, name := range reasonNames {
+		if name == s {
+			return Reason(r), true
+		}
+	}
+	return 0, false
+}
+
+// Walk reports whether the walk down the ranking gave the reason (the row came after a stop, did
+// not fit, or scored too low), rather than a bar set before it (Options.Barred, a group's cap).
+func (r Reason) Walk() bool {
+	switch r {
+	case BelowCut, Budget, MaxRows, MinScore, NoMatch, MaxCount:
+		return true
+	}
+	return false
+}
+
 // A Stop says why the walk down the ranking ended.
 type Stop uint8
 

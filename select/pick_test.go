@@ -564,3 +564,21 @@ func TestMaxCount(t *testing.T) {
 		t.Errorf("a count cap without a unit: %v", err)
 	}
 }
+
+// TestReasonWords: every reason reads back from its word, Reasons lists each once, and the walk's
+// reasons are told from the bars set before it.
+func TestReasonWords(t *testing.T) {
+	seen := map[Reason]bool{}
+	for _, r := range Reasons() {
+		if got, ok := ParseReason(r.String()); !ok || got != r || seen[r] {
+			t.Errorf("%v reads back as %v, %v (seen %v)", r, got, ok, seen[r])
+		}
+		seen[r] = true
+	}
+	if len(seen) != len(reasonNames)-1 {
+		t.Errorf("Reasons lists %d of %d reasons", len(seen), len(reasonNames)-1)
+	}
+	if !MaxCount.Walk() || !BelowCut.Walk() || Duplicate.Walk() || GroupCap.Walk() || Prefilter.Walk() {
+		t.Error("Walk tells the walk's reasons wrongly")
+	}
+}

@@ -10,6 +10,7 @@ import (
 	"strings"
 
 	"sluice/budget"
+	selection "sluice/select"
 	"sluice/select/run"
 )
 
@@ -232,8 +233,8 @@ func (d *Diff) WriteText(w io.Writer) {
 		s    Side
 	}{{"A", d.A}, {"B", d.B}} {
 		var parts []string
-		for _, why := range []string{"duplicate", "contaminated", "source-cap", "prefilter", "no-score", "no-match", "min-score", "max-rows", "budget", "below-cut"} {
-			if n := side.s.Dropped[why]; n > 0 {
+		for _, why := range selection.Reasons() {
+			if n := side.s.Dropped[why.String()]; n > 0 {
 				parts = append(parts, fmt.Sprintf("%d %s", n, why))
 			}
 		}

@@ -20,6 +20,7 @@ import (
 	"sluice/budget"
 	"sluice/index"
 	"sluice/index/atomicdir"
+	selection "sluice/select"
 	"sluice/select/audit"
 	"sluice/select/run"
 )
@@ -201,9 +202,9 @@ func tallyScores(ctx context.Context, dir string, ix *index.Index, rep *Page, sa
 		return nil, fmt.Errorf("read %s: %d lines for the index's %d rows", filepath.Join(dir, run.ScoresFile), row, ix.NumRows())
 	}
 	rep.Rows = row
-	for _, why := range []string{"duplicate", "contaminated", "source-cap", "prefilter", "no-score", "no-match", "min-score", "max-rows", "max-tokens", "budget", "below-cut"} {
-		if n := t.dropped[why]; n > 0 {
-			rep.Dropped = append(rep.Dropped, reasonCount{why, n})
+	for _, why := range selection.Reasons() {
+		if n := t.dropped[why.String()]; n > 0 {
+			rep.Dropped = append(rep.Dropped, reasonCount{why.String(), n})
 		}
 	}
 	return t, nil
@@ -746,9 +747,6 @@ footer ul { padding-left: 18px; }
 // it or it did not fit, rather than for a guard (a duplicate, a leaked evaluation row, a source's
 // cap) or an earlier stage: only the former stand "below the cut".
 func walkReason(reason string) bool {
-	switch reason {
-	case "budget", "below-cut", "min-score", "max-rows", "no-match":
-		return true
-	}
-	return false
+	r, ok := selection.ParseReason(reason)
+	return ok && r.Walk()
 }

@@ -37,8 +37,8 @@ func (res *Result) WriteSummary(w io.Writer, took time.Duration) error {
 	}
 	fmt.Fprintf(&sb, "  %s\n", strings.Replace(res.Reconciliation(), "rows: ", "rows       ", 1))
 	var guarded []string
-	for _, why := range []string{"duplicate", "contaminated", "source-cap", "prefilter", "no-score"} {
-		if n := res.Dropped[why]; n > 0 {
+	for _, why := range selection.Reasons() {
+		if n := res.Dropped[why.String()]; n > 0 && !why.Walk() {
 			guarded = append(guarded, fmt.Sprintf("%d %s", n, why))
 		}
 	}
