@@ -136,6 +136,10 @@ func hashWorker(ctx context.Context, jobs <-chan *hashBatch, prm *dedup.Params, 
 			continue
 		}
 		b.out = make([]rowHashes, len(b.rows))
+		var sigs []uint32 // one backing array for the batch's signatures, not one per row
+		if prm != nil {
+			sigs = make([]uint32, len(b.rows)*prm.Hashes)
+		}
 		start := 0
 		for i, row := range b.rows {
 			text := b.text[start:b.ends[i]]
@@ -154,7 +158,7 @@ func hashWorker(ctx context.Context, jobs <-chan *hashBatch, prm *dedup.Params, 
 				hasher.Write(text)
 				h.key = hasher.Sum()
 				signer.Write(text)
-				h.sig = signer.Sum(nil)
+				h.sig = signer.Sum(sigs[i*prm.Hashes : i*prm.Hashes : (i+1)*prm.Hashes])
 			}
 		}
 		close(b.ready)

@@ -242,12 +242,18 @@ func (p *picked) rowTokens() {
 	n := p.ix.NumRows()
 	p.tokens = make([]int64, n)
 	for r := 0; r < n; r++ {
-		t, ok, tb := p.ix.RowTokens(r)
-		if !ok {
-			t = int64(budget.EstimateTokens(int(tb)))
-		}
-		p.tokens[r] = t
+		p.tokens[r] = rowTokens(p.ix, r)
 	}
+}
+
+// rowTokens is a row's tokens as the ledger charges them: as the index counted them (a field or a
+// tokenizer), else estimated from the text's bytes.
+func rowTokens(ix *index.Index, r int) int64 {
+	t, ok, tb := ix.RowTokens(r)
+	if !ok {
+		t = int64(budget.EstimateTokens(int(tb)))
+	}
+	return t
 }
 
 // keep prices every row's training, keeps rows from the top under the budget and completes the
@@ -445,11 +451,7 @@ func PoolTokens(dir string) (float64, error) {
 	defer ix.Close()
 	var t int64
 	for r := 0; r < ix.NumRows(); r++ {
-		n, ok, tb := ix.RowTokens(r)
-		if !ok {
-			n = int64(budget.EstimateTokens(int(tb)))
-		}
-		t += n
+		t += rowTokens(ix, r)
 	}
 	if t == 0 {
 		return 0, fmt.Errorf("index %s holds no tokens", dir)
