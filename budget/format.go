@@ -14,6 +14,9 @@ func FormatCount(v float64) string {
 		return strconv.FormatFloat(v/1e9, 'g', 4, 64) + "B"
 	case v >= 1e6:
 		return strconv.FormatFloat(v/1e6, 'g', 4, 64) + "M"
+	case v != float64(int64(v)):
+		// A fraction of a token or parameter means nothing: whole counts only.
+		return strconv.FormatFloat(float64(int64(v)), 'f', -1, 64)
 	}
 	return strconv.FormatFloat(v, 'g', -1, 64)
 }

@@ -83,6 +83,13 @@ func (c *Chart) Series(i int, pts []Point) {
 	c.polyline(pts, fmt.Sprintf(`stroke="%s" stroke-width="2" stroke-dasharray="%s"`, st.color, st.dash))
 }
 
+// Faded draws series i as Series does, but thin and pale: the same
+// quantity where it is less sure, such as a prediction past the data behind it.
+func (c *Chart) Faded(i int, pts []Point) {
+	st := styleOf(i)
+	c.polyline(pts, fmt.Sprintf(`stroke="%s" stroke-width="1.5" stroke-opacity="0.45" stroke-dasharray="%s"`, st.color, st.dash))
+}
+
 // Highlight draws a wide, pale line through pts under the series, to pick
 // out a path across them such as the best of several at each x.
 func (c *Chart) Highlight(pts []Point) {

@@ -47,3 +47,20 @@ func ParseCurve(spec string, p0, trainedParams float64) (Curve, error) {
 	c.Lambda = l / 1e9
 	return c, nil
 }
+
+// ParseCurves reads curves given as ParseCurve's specs, all with the base score p0, a number.
+func ParseCurves(specs []string, p0 string, trainParams float64) ([]Curve, error) {
+	base, err := strconv.ParseFloat(p0, 64)
+	if err != nil || math.IsNaN(base) || math.IsInf(base, 0) {
+		return nil, fmt.Errorf("simulated curves need the base model's score P0 as a finite number, not %q", p0)
+	}
+	var curves []Curve
+	for _, s := range specs {
+		c, err := ParseCurve(s, base, trainParams)
+		if err != nil {
+			return nil, fmt.Errorf("%q: %w", s, err)
+		}
+		curves = append(curves, c)
+	}
+	return curves, nil
+}

@@ -37,7 +37,14 @@ type Curve struct {
 	Cost           string  `json:"cost"`
 	Passes         float64 `json:"passes"`
 	SelectorParams float64 `json:"selector_params"`
-	TrainedParams  float64 `json:"trained_params"`
+	// FlopsPerPoolToken, when not 0, is the selection's cost per pool token as measured, in
+	// place of the cost class's.
+	FlopsPerPoolToken float64 `json:"flops_per_pool_token,omitempty"`
+	TrainedParams     float64 `json:"trained_params"`
+	// Trend is FromPilots for a curve fitted to pilots on its size, else Interpolated or
+	// Extrapolated from the pilots on FromSizes.
+	Trend     string    `json:"trend,omitempty"`
+	FromSizes []float64 `json:"from_sizes,omitempty"`
 
 	P0       float64 `json:"p0"`
 	Pbar     float64 `json:"pbar"`
@@ -95,10 +102,10 @@ func Fit(pilots []Pilot, opt FitOptions) ([]Curve, error) {
 		g, ok := idx[k]
 		if !ok {
 			g = &group{curve: Curve{Method: p.Method, Cost: p.Cost, Passes: p.Passes,
-				SelectorParams: p.SelectorParams, TrainedParams: p.TrainedParams}}
+				SelectorParams: p.SelectorParams, FlopsPerPoolToken: p.FlopsPerPoolToken, TrainedParams: p.TrainedParams}}
 			idx[k] = g
 			order = append(order, k)
-		} else if g.curve.Passes != p.Passes || g.curve.SelectorParams != p.SelectorParams {
+		} else if g.curve.Passes != p.Passes || g.curve.SelectorParams != p.SelectorParams || g.curve.FlopsPerPoolToken != p.FlopsPerPoolToken {
 			return nil, fmt.Errorf("fit %s: pilots disagree on cost or selector_params: %w", p.Method, ErrBadPilots)
 		}
 		g.pts = append(g.pts, point{p.Tokens, p.Metric})

@@ -9,6 +9,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"os"
 	"strconv"
 	"strings"
 
@@ -35,9 +36,12 @@ type Pilot struct {
 	Cost           string  `json:"cost"`   // a cost class or a number of forward-pass equivalents
 	Passes         float64 `json:"passes"` // Cost as forward-pass equivalents; 0 for lexical
 	SelectorParams float64 `json:"selector_params"`
-	TrainedParams  float64 `json:"trained_params"`
-	Tokens         float64 `json:"tokens"`
-	Metric         float64 `json:"metric"`
+	// FlopsPerPoolToken, when not 0, is what selection cost per pool token as measured (sluice's
+	// ledger divided by the pool's tokens); the plan charges it instead of the cost class's.
+	FlopsPerPoolToken float64 `json:"flops_per_pool_token,omitempty"`
+	TrainedParams     float64 `json:"trained_params"`
+	Tokens            float64 `json:"tokens"`
+	Metric            float64 `json:"metric"`
 }
 
 // ParseCost turns a cost class, or a stated number of forward-pass
@@ -103,6 +107,13 @@ func fields(get func(string) (string, bool)) (Pilot, error) {
 			return p, err
 		}
 	}
+	if s, ok := get("flops_per_pool_token"); ok && strings.TrimSpace(s) != "" {
+		v, err := strconv.ParseFloat(strings.TrimSpace(s), 64)
+		if err != nil || !(v > 0) || math.IsInf(v, 0) {
+			return p, fmt.Errorf("flops_per_pool_token %q: want a number greater than zero, or nothing: %w", s, ErrBadPilots)
+		}
+		p.FlopsPerPoolToken = v
+	}
 	if p.TrainedParams == 0 {
 		return p, fmt.Errorf("trained_params: must be greater than zero: %w", ErrBadPilots)
 	}
@@ -133,6 +144,9 @@ func fields(get func(string) (string, bool)) (Pilot, error) {
 	if !ok {
 		return p, fmt.Errorf("metric: missing: %w", ErrBadPilots)
 	}
+	if strings.TrimSpace(ms) == "" {
+		return p, fmt.Errorf("metric: empty: fill in what the model trained on this subset scored: %w", ErrBadPilots)
+	}
 	if p.Metric, err = strconv.ParseFloat(strings.TrimSpace(ms), 64); err != nil || math.IsInf(p.Metric, 0) || math.IsNaN(p.Metric) {
 		return p, fmt.Errorf("metric %q: want a finite number: %w", ms, ErrBadPilots)
 	}
@@ -142,7 +156,8 @@ func fields(get func(string) (string, bool)) (Pilot, error) {
 // ReadPilots reads pilot runs as CSV with a header row or as JSONL, one
 // object per line; the first non-blank byte decides which. Columns (or
 // keys) are method, cost, selector_params, trained_params, tokens (or rows
-// and tokens_per_row) and metric; name is used in error messages.
+// and tokens_per_row), metric and, optionally, flops_per_pool_token; others
+// are ignored; name is used in error messages.
 func ReadPilots(r io.Reader, name string) ([]Pilot, error) {
 	br := bufio.NewReader(r)
 	for {
@@ -243,4 +258,18 @@ func readJSONL(r io.Reader, name string) ([]Pilot, error) {
 		return nil, fmt.Errorf("read %s: no pilot rows: %w", name, ErrBadPilots)
 	}
 	return out, nil
+}
+
+// FitFile reads the pilot runs in the file at path and fits them.
+func FitFile(path string, opt FitOptions) ([]Curve, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		return nil, err
+	}
+	defer f.Close()
+	pilots, err := ReadPilots(f, path)
+	if err != nil {
+		return nil, err
+	}
+	return Fit(pilots, opt)
 }

@@ -4,6 +4,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"slices"
 	"strings"
 
 	"sluice/budget"
@@ -15,7 +16,8 @@ var ErrBadConfig = errors.New("bad plan settings")
 // Config is what a plan is made for.
 type Config struct {
 	PoolTokens  float64 `json:"pool_tokens"`
-	TrainParams float64 `json:"train_params"` // the base model to be trained; curves of other sizes are ignored
+	Index       string  `json:"index,omitempty"` // the index the pool's tokens were read from, if any
+	TrainParams float64 `json:"train_params"`    // the base model to be trained; curves of other sizes are ignored
 	Epochs      float64 `json:"epochs"`
 	Lo          float64 `json:"budget_lo"` // budget grid in FLOPs; both 0 picks a grid from the curves
 	Hi          float64 `json:"budget_hi"`
@@ -40,6 +42,10 @@ type Option struct {
 	// reaches the cheapest method's, its fitted curve held fixed; 0 when no
 	// selector size gets there, or for the cheapest method itself.
 	OvertakeRatio float64 `json:"overtake_ratio,omitempty"`
+	// OvertakeLow and OvertakeHigh bound OvertakeRatio by the fits' errors
+	// (OvertakeInterval); 0 where no selector size gets there.
+	OvertakeLow  float64 `json:"overtake_ratio_low,omitempty"`
+	OvertakeHigh float64 `json:"overtake_ratio_high,omitempty"`
 }
 
 // A Step is the plan at one budget.
@@ -59,8 +65,10 @@ type Change struct {
 
 // A Plan is the best method and data size over a grid of budgets.
 type Plan struct {
-	Config  Config   `json:"config"`
-	Curves  []Curve  `json:"curves"`
+	Config Config  `json:"config"`
+	Curves []Curve `json:"curves"`
+	// Trends are the methods' curves across trained sizes, where pilots cover two or more.
+	Trends  []Trend  `json:"trends,omitempty"`
 	Steps   []Step   `json:"steps"`
 	Changes []Change `json:"changes"`
 	Notes   []string `json:"notes"`
@@ -74,8 +82,12 @@ func (p *Plan) StepAt(flops float64) Step { return best(p.Curves, flops, p.Confi
 // SelectionFLOPs is the cost of scoring the whole pool with c's method.
 // Model-based methods cost passes·2·selector params·pool tokens
 // (budget.SelectorFLOPs); lexical ones are charged budget.FLOPsPerToken for
-// each pool token analysed once, the convention of sluice's ledger.
+// each pool token analysed once, the convention of sluice's ledger. A cost
+// measured per pool token (FlopsPerPoolToken) takes the place of either.
 func SelectionFLOPs(c *Curve, poolTokens float64) float64 {
+	if c.FlopsPerPoolToken > 0 {
+		return c.FlopsPerPoolToken * poolTokens
+	}
 	if c.Passes == 0 {
 		return budget.FLOPsPerToken * poolTokens
 	}
@@ -104,36 +116,55 @@ func At(c *Curve, flops float64, cfg Config) Option {
 // least what base predicts at budget flops. It is false when no selector
 // size gets there, when base affords no training, or when c is lexical.
 func OvertakeRatio(c, base *Curve, flops float64, cfg Config) (float64, bool) {
+	r := overtake(c, base, flops, cfg, 0)
+	return r, r > 0
+}
+
+// OvertakeInterval is the range of OvertakeRatio the fits' errors allow: lo
+// is the ratio at which c's prediction could match base's (their difference
+// plus two standard errors reaches zero), hi the ratio at which it surely
+// does (the difference less two standard errors). The two predictions' errors
+// are added as if independent; methods fitted with a shared P0 are in truth
+// positively correlated, so the interval is if anything too wide. Either is 0
+// when no selector size gets there.
+func OvertakeInterval(c, base *Curve, flops float64, cfg Config) (lo, hi float64) {
+	return overtake(c, base, flops, cfg, -2), overtake(c, base, flops, cfg, 2)
+}
+
+// overtake is the ratio at which c's prediction less z standard errors of
+// the difference reaches base's, or 0.
+func overtake(c, base *Curve, flops float64, cfg Config, z float64) float64 {
 	b := At(base, flops, cfg)
 	if c.Passes == 0 || !b.Affordable || c.Pbar < c.P0 {
-		return 0, false
+		return 0
 	}
-	sized := func(s float64) float64 {
+	ahead := func(s float64) bool {
 		d := *c
-		d.SelectorParams = s
-		return At(&d, flops, cfg).P
+		d.SelectorParams, d.FlopsPerPoolToken = s, 0
+		o := At(&d, flops, cfg)
+		return o.P-z*math.Hypot(o.SE, b.SE) >= b.P
 	}
-	if sized(0) < b.P {
-		return 0, false
+	if !ahead(0) {
+		return 0
 	}
 	// P falls as the selector grows and eats the training budget; a
 	// selector costing the whole budget leaves P0.
 	lo, hi := 0.0, flops/budget.SelectorFLOPs(c.Passes, 1, cfg.PoolTokens)
-	if sized(hi) >= b.P {
-		return cfg.TrainParams / hi, true
+	if ahead(hi) {
+		return cfg.TrainParams / hi
 	}
 	for range 200 {
 		mid := (lo + hi) / 2
-		if sized(mid) >= b.P {
+		if ahead(mid) {
 			lo = mid
 		} else {
 			hi = mid
 		}
 	}
 	if lo == 0 {
-		return 0, false
+		return 0
 	}
-	return cfg.TrainParams / lo, true
+	return cfg.TrainParams / lo
 }
 
 // cheapest is the index of the curve with the lowest selection cost.
@@ -156,6 +187,7 @@ func best(curves []Curve, flops float64, cfg Config, ratios bool) Step {
 		o := At(&curves[i], flops, cfg)
 		if ratios && i != base {
 			o.OvertakeRatio, _ = OvertakeRatio(&curves[i], &curves[base], flops, cfg)
+			o.OvertakeLow, o.OvertakeHigh = OvertakeInterval(&curves[i], &curves[base], flops, cfg)
 		}
 		s.Options = append(s.Options, o)
 		// Ties go to the earlier curve, so the answer is stable.
@@ -185,32 +217,16 @@ func Make(curves []Curve, cfg Config) (*Plan, error) {
 		return nil, fmt.Errorf("plan: %d grid points: need at least 2: %w", cfg.Points, ErrBadConfig)
 	}
 	p := &Plan{Config: cfg}
+	if err := p.useCurves(curves); err != nil {
+		return nil, err
+	}
 	minTok := math.Inf(1)
-	for _, c := range curves {
-		if c.TrainedParams != cfg.TrainParams {
-			p.Notes = append(p.Notes, fmt.Sprintf("%s: pilots on a %g-parameter model are not used for a %g-parameter plan", c.Method, c.TrainedParams, cfg.TrainParams))
-			continue
-		}
-		if c.Pbar < c.P0 {
-			p.Notes = append(p.Notes, fmt.Sprintf("%s: the fitted curve falls with more data (P̄ %.4g < P0 %.4g); it keeps no rows", c.Method, c.Pbar, c.P0))
-		}
-		p.Curves = append(p.Curves, c)
+	for _, c := range p.Curves {
 		for _, r := range c.Residuals {
 			if r.Tokens > 0 {
 				minTok = math.Min(minTok, r.Tokens)
 			}
 		}
-	}
-	if len(p.Curves) == 0 {
-		var sizes []string
-		seen := map[float64]bool{}
-		for _, c := range curves {
-			if !seen[c.TrainedParams] {
-				seen[c.TrainedParams] = true
-				sizes = append(sizes, fmt.Sprintf("%g", c.TrainedParams))
-			}
-		}
-		return nil, fmt.Errorf("plan: no pilots on a %g-parameter model; the pilots trained %s parameters: %w", cfg.TrainParams, strings.Join(sizes, ", "), ErrBadConfig)
 	}
 	if cfg.Lo == 0 && cfg.Hi == 0 {
 		lo, hi := math.Inf(1), 0.0
@@ -248,6 +264,72 @@ func Make(curves []Curve, cfg Config) (*Plan, error) {
 		p.Steps = append(p.Steps, s)
 	}
 	return p, nil
+}
+
+// useCurves sets p.Curves to a curve per method for the trained size: the one fitted to pilots on
+// that size, else the method's trend across two or more other sizes carried to it.
+func (p *Plan) useCurves(curves []Curve) error {
+	n := p.Config.TrainParams
+	trends, err := Trends(curves)
+	if err != nil {
+		return err
+	}
+	p.Trends = trends
+	var methods []string
+	of := map[string][]Curve{}
+	for _, c := range curves {
+		if _, ok := of[c.Method]; !ok {
+			methods = append(methods, c.Method)
+		}
+		of[c.Method] = append(of[c.Method], c)
+	}
+	for _, m := range methods {
+		var use *Curve
+		for i, c := range of[m] {
+			if c.TrainedParams == n {
+				use = &of[m][i]
+			}
+		}
+		if use == nil {
+			for i := range trends {
+				if t := &trends[i]; t.Method == m {
+					c := t.At(n, of[m][0])
+					use = &c
+					p.Notes = append(p.Notes, fmt.Sprintf("%s: no pilots on a %s-parameter model; its curve is %s from pilots on %s parameters (P0 and P̄ linear in ln N, λ a power law in N)",
+						m, budget.FormatCount(n), c.Trend, sizeList(t.Sizes)))
+				}
+			}
+		}
+		if use == nil {
+			p.Notes = append(p.Notes, fmt.Sprintf("%s: pilots on a %s-parameter model only; a %s-parameter plan needs pilots on that size, or on two or more sizes to carry the curve across",
+				m, budget.FormatCount(of[m][0].TrainedParams), budget.FormatCount(n)))
+			continue
+		}
+		if use.Pbar < use.P0 {
+			p.Notes = append(p.Notes, fmt.Sprintf("%s: the fitted curve falls with more data (P̄ %.4g < P0 %.4g); it keeps no rows", m, use.Pbar, use.P0))
+		}
+		p.Curves = append(p.Curves, *use)
+	}
+	if len(p.Curves) == 0 {
+		var sizes []float64
+		for _, c := range curves {
+			if !slices.Contains(sizes, c.TrainedParams) {
+				sizes = append(sizes, c.TrainedParams)
+			}
+		}
+		slices.Sort(sizes)
+		return fmt.Errorf("plan: no pilots on a %s-parameter model, and no method has pilots on two or more sizes to carry its curve there; the pilots trained %s parameters: %w",
+			budget.FormatCount(n), sizeList(sizes), ErrBadConfig)
+	}
+	return nil
+}
+
+func sizeList(sizes []float64) string {
+	var s []string
+	for _, v := range sizes {
+		s = append(s, budget.FormatCount(v))
+	}
+	return strings.Join(s, ", ")
 }
 
 // change finds, by bisection in log budget, where the best method stops

@@ -13,8 +13,12 @@ import (
 // bend of a curve looks smooth on a log axis 610 pixels wide.
 const svgSamples = 240
 
-// sample is one method's prediction at one budget, with its ±2 SE band.
-type sample struct{ x, p, lo, hi float64 }
+// sample is one method's prediction at one budget, with its ±2 SE band;
+// past says it lies beyond what the method's pilots measured.
+type sample struct {
+	x, p, lo, hi float64
+	past         bool
+}
 
 // SVG draws each method's predicted metric against the total budget, the
 // ±2 SE band, the best-method envelope, the pilots at what their data size
@@ -45,7 +49,11 @@ func (p *Plan) SVG() []byte {
 		pad = 0.01
 	}
 	// Both charts are sized for a page and keep a wide right margin for the legend.
-	c := chart.New(chart.Box{W: 860, H: 440, L: 60, R: 190, T: 34, B: 44}, "Predicted metric by budget, "+budget.FormatCount(cfg.TrainParams)+" model, "+budget.FormatCount(cfg.PoolTokens)+" pool tokens",
+	title := "Predicted metric by budget, " + budget.FormatCount(cfg.TrainParams) + " model, " + budget.FormatCount(cfg.PoolTokens) + " pool tokens"
+	if p.carried() {
+		title += " (curves carried from other model sizes)"
+	}
+	c := chart.New(chart.Box{W: 860, H: 440, L: 60, R: 190, T: 34, B: 44}, title,
 		chart.Axis{Scale: chart.Log10(cfg.Lo, cfg.Hi), Title: "total FLOPs (selection over the pool + training)"},
 		chart.Axis{Scale: chart.Linear(y0-pad, y1+pad), Title: "predicted metric", Tick: format("%.3g")})
 	for j, ln := range lines {
@@ -57,17 +65,28 @@ func (p *Plan) SVG() []byte {
 	}
 	c.Highlight(best)
 	for j, ln := range lines {
-		var mid []chart.Point
+		// The fitted stretch is drawn full, the stretch past the pilots faded; they share the
+		// sample where one turns into the other, so the line stays joined.
+		var fit, past []chart.Point
 		for _, q := range ln {
-			mid = append(mid, chart.Point{X: q.x, Y: q.p})
+			pt := chart.Point{X: q.x, Y: q.p}
+			if q.past {
+				if len(past) == 0 && len(fit) > 0 {
+					past = append(past, fit[len(fit)-1])
+				}
+				past = append(past, pt)
+			} else {
+				fit = append(fit, pt)
+			}
 		}
-		c.Series(j, mid)
+		c.Series(j, fit)
+		c.Faded(j, past)
 		for _, q := range pilots[j] {
 			c.Mark(j, q)
 		}
 	}
 	// Changes are numbered on the chart and spelled out beside it, so labels never cover the curves.
-	l := chart.Legend{Series: p.methods(), Highlight: "best", Notes: []string{"bands: ±2 SE", "markers: pilots"}}
+	l := chart.Legend{Series: p.methods(), Highlight: "best", Notes: []string{"bands: ±2 SE", "markers: pilots", "faded: past the pilots"}}
 	for i, ch := range p.Changes {
 		c.Rule(ch.Budget, strconv.Itoa(i+1))
 		l.Keys = append(l.Keys, chart.Key{Head: fmt.Sprintf("%d: %s → %s", i+1, orNone(ch.From), ch.To),
@@ -81,6 +100,13 @@ func (p *Plan) SVG() []byte {
 // to x1, where it affords training, and the best of them at each budget.
 func (p *Plan) sampleLines(x0, x1 float64) (lines [][]sample, best []chart.Point) {
 	lines = make([][]sample, len(p.Curves))
+	measured := make([]float64, len(p.Curves))
+	for j, c := range p.Curves {
+		// A curve carried from other sizes measured nothing on this one.
+		for _, r := range c.Residuals {
+			measured[j] = math.Max(measured[j], r.Tokens)
+		}
+	}
 	for i := range svgSamples + 1 {
 		f := math.Pow(10, x0+(x1-x0)*float64(i)/svgSamples)
 		bestP, any := math.Inf(-1), false
@@ -89,7 +115,7 @@ func (p *Plan) sampleLines(x0, x1 float64) (lines [][]sample, best []chart.Point
 			if !o.Affordable {
 				continue
 			}
-			lines[j] = append(lines[j], sample{f, o.P, o.Low, o.High})
+			lines[j] = append(lines[j], sample{f, o.P, o.Low, o.High, o.Tokens > measured[j]})
 			if o.P > bestP {
 				bestP, any = o.P, true
 			}
@@ -142,6 +168,16 @@ func (p *Plan) ResidualSVG() []byte {
 	}
 	c.Legend(chart.Legend{Series: p.methods()})
 	return c.SVG()
+}
+
+// carried says some curve of p was carried from other trained sizes.
+func (p *Plan) carried() bool {
+	for _, c := range p.Curves {
+		if c.Trend != FromPilots {
+			return true
+		}
+	}
+	return false
 }
 
 func (p *Plan) methods() []string {

@@ -16,6 +16,7 @@ import (
 func (p *Plan) WriteText(w io.Writer) error {
 	var b strings.Builder
 	p.writeFits(&b)
+	p.writeTrends(&b)
 	p.writeTable(&b)
 	if len(p.Changes) > 0 {
 		fmt.Fprintf(&b, "\nbest method changes:\n")
@@ -39,9 +40,32 @@ func (p *Plan) writeFits(b *strings.Builder) {
 	fmt.Fprintf(b, "fits (P(k) = P̄ - (P̄ - P0)·exp(-λ·k), k in tokens; ± one standard error):\n")
 	fmt.Fprintf(b, "  %-14s %-17s %8s  %-17s %-17s %-21s %6s\n", "method", "cost", "selector", "P0", "Pbar", "lambda per 1B tok", "R2")
 	for _, c := range p.Curves {
-		fmt.Fprintf(b, "  %-14s %-17s %8s  %-17s %-17s %-21s %6.4f\n", c.Method, c.Cost, budget.FormatCount(c.SelectorParams),
+		cost := c.Cost
+		if c.FlopsPerPoolToken > 0 {
+			cost = strconv.FormatFloat(c.FlopsPerPoolToken, 'g', 4, 64) + " FLOPs/tok"
+		}
+		r2 := fmt.Sprintf("%6.4f", c.R2)
+		if c.Trend != FromPilots {
+			r2 = c.Trend + " from " + sizeList(c.FromSizes)
+		}
+		fmt.Fprintf(b, "  %-14s %-17s %8s  %-17s %-17s %-21s %6s\n", c.Method, cost, budget.FormatCount(c.SelectorParams),
 			metric(c.P0)+" ± "+metric(c.P0SE), metric(c.Pbar)+" ± "+metric(c.PbarSE),
-			strconv.FormatFloat(c.Lambda*1e9, 'f', 3, 64)+" ± "+strconv.FormatFloat(c.LambdaSE*1e9, 'f', 3, 64), c.R2)
+			strconv.FormatFloat(c.Lambda*1e9, 'f', 3, 64)+" ± "+strconv.FormatFloat(c.LambdaSE*1e9, 'f', 3, 64), r2)
+	}
+}
+
+// writeTrends shows how each method's curve moves with the trained size, where pilots cover two
+// or more sizes.
+func (p *Plan) writeTrends(b *strings.Builder) {
+	if len(p.Trends) == 0 {
+		return
+	}
+	fmt.Fprintf(b, "\nacross trained sizes N (P0, P̄ + slope·ln N; λ ∝ N^exponent; ± one standard error):\n")
+	fmt.Fprintf(b, "  %-14s %-22s %-19s %-19s %-17s\n", "method", "sizes", "P0 per e-fold", "Pbar per e-fold", "lambda exponent")
+	for _, t := range p.Trends {
+		fmt.Fprintf(b, "  %-14s %-22s %-19s %-19s %-17s\n", t.Method, sizeList(t.Sizes),
+			metric(t.P0Slope)+" ± "+metric(t.P0SlopeSE), metric(t.PbarSlope)+" ± "+metric(t.PbarSlopeSE),
+			strconv.FormatFloat(t.LambdaExp, 'f', 3, 64)+" ± "+strconv.FormatFloat(t.LambdaExpSE, 'f', 3, 64))
 	}
 }
 
@@ -50,9 +74,16 @@ func (p *Plan) writeFits(b *strings.Builder) {
 func (p *Plan) writeTable(b *strings.Builder) {
 	fmt.Fprintf(b, "\nplan for a %s-parameter model, %s pool tokens, %g epoch(s); predicted metric per method\n",
 		budget.FormatCount(p.Config.TrainParams), budget.FormatCount(p.Config.PoolTokens), p.Config.Epochs)
+	if p.carried() {
+		fmt.Fprintf(b, "  (methods marked * have no pilots on this size: their curves are carried from other sizes)\n")
+	}
 	fmt.Fprintf(b, "  %-10s  %-14s %9s  %-13s", "budget", "best", "tokens", "P ±2 SE")
 	for _, c := range p.Curves {
-		fmt.Fprintf(b, " %10.10s", c.Method)
+		name := c.Method
+		if c.Trend != FromPilots {
+			name = "*" + name
+		}
+		fmt.Fprintf(b, " %10.10s", name)
 	}
 	b.WriteString("\n")
 	for _, s := range p.Steps {
@@ -96,11 +127,12 @@ func (p *Plan) writeRatios(b *strings.Builder) {
 		return
 	}
 	base := p.Curves[cheapest(p.Curves, p.Config)].Method
-	fmt.Fprintf(b, "\ntrained/selector size ratio at and above which a method matches %s (its curve held fixed):\n", base)
+	fmt.Fprintf(b, "\ntrained/selector size ratio at and above which a method matches %s (its curve held fixed;\n", base)
+	fmt.Fprintf(b, "in brackets, from where it could to where it surely does, by the fits' ±2 SE):\n")
 	fmt.Fprintf(b, "  %-10s ", "budget")
 	for _, i := range model {
 		if c := p.Curves[i]; c.Method != base {
-			fmt.Fprintf(b, " %20s", fmt.Sprintf("%.10s (now %.3g)", c.Method, p.Config.TrainParams/c.SelectorParams))
+			fmt.Fprintf(b, " %24s", fmt.Sprintf("%.10s (now %.3g)", c.Method, p.Config.TrainParams/c.SelectorParams))
 		}
 	}
 	b.WriteString("\n")
@@ -113,14 +145,26 @@ func (p *Plan) writeRatios(b *strings.Builder) {
 			if p.Curves[i].Method == base {
 				continue
 			}
+			o := s.Options[i]
 			v := "never"
-			if r := s.Options[i].OvertakeRatio; r > 0 {
-				v = strconv.FormatFloat(r, 'g', 3, 64)
+			if o.OvertakeRatio > 0 {
+				v = ratio(o.OvertakeRatio)
 			}
-			fmt.Fprintf(b, " %20s", v)
+			if o.OvertakeLow > 0 {
+				v += " (" + ratio(o.OvertakeLow) + "-" + ratio(o.OvertakeHigh) + ")"
+			}
+			fmt.Fprintf(b, " %24s", v)
 		}
 		b.WriteString("\n")
 	}
+}
+
+// ratio writes a size ratio to three figures; 0, no ratio at all, as "never".
+func ratio(r float64) string {
+	if r <= 0 {
+		return "never"
+	}
+	return strconv.FormatFloat(r, 'g', 3, 64)
 }
 
 // writeAsked says what to do with the budget asked about.
@@ -166,6 +210,10 @@ func (p *Plan) PickCommand() string {
 		method = fmt.Sprintf("--method scores --scores %s-SCORES.jsonl --selector-params %s --passes %g",
 			strings.ToUpper(c.Method), strconv.FormatFloat(c.SelectorParams, 'g', -1, 64), c.Passes)
 	}
-	return fmt.Sprintf("  sluice pick --index POOL.idx --target TARGET.jsonl %s --budget %s --train-params %s --epochs %g --out RUN\n",
-		method, strconv.FormatFloat(s.Budget, 'g', -1, 64), strconv.FormatFloat(p.Config.TrainParams, 'g', -1, 64), p.Config.Epochs)
+	idx := "POOL.idx"
+	if p.Config.Index != "" {
+		idx = p.Config.Index
+	}
+	return fmt.Sprintf("  sluice pick --index %s --target TARGET.jsonl %s --budget %s --train-params %s --epochs %g --out RUN\n",
+		idx, method, strconv.FormatFloat(s.Budget, 'g', -1, 64), strconv.FormatFloat(p.Config.TrainParams, 'g', -1, 64), p.Config.Epochs)
 }

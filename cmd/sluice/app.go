@@ -2,6 +2,7 @@ package main
 
 import (
 	"context"
+	"embed"
 	"errors"
 	"fmt"
 	"io"
@@ -41,8 +42,34 @@ func (u *usageError) Error() string { return u.msg }
 
 func usagef(format string, a ...any) error { return &usageError{fmt.Sprintf(format, a...)} }
 
+// required reports, all together, what a command line left out: each argument names one thing,
+// or is "" when it was given.
+func required(missing ...string) error {
+	var m []string
+	for _, s := range missing {
+		if s != "" {
+			m = append(m, s)
+		}
+	}
+	switch len(m) {
+	case 0:
+		return nil
+	case 1:
+		return usagef("%s is required", m[0])
+	}
+	return usagef("these are required: %s", strings.Join(m, ", "))
+}
+
+// unset is "--name" when the string flag name was left empty, else "".
+func unset(fs *pflag.FlagSet, name string) string {
+	if v, _ := fs.GetString(name); v == "" {
+		return "--" + name
+	}
+	return ""
+}
+
 func commands() []command {
-	return []command{&indexCmd{}, &pickCmd{}, &whyCmd{}, &diffCmd{}, &verifyCmd{}, &reportCmd{}, &demoCmd{}, &planCmd{}}
+	return []command{&indexCmd{}, &pickCmd{}, &whyCmd{}, &diffCmd{}, &verifyCmd{}, &reportCmd{}, &demoCmd{}, &pilotsCmd{}, &planCmd{}}
 }
 
 const intro = `sluice chooses the rows of a large JSONL instruction pool that are most like a small set of
@@ -158,11 +185,20 @@ func runCommand(ctx context.Context, c command, args []string, e *env) int {
 	}
 }
 
-// newFlags makes a GNU-style flag set whose usage shows the synopsis, the flags and examples.
-func newFlags(name, synopsis, about, examples string) *pflag.FlagSet {
+// helpFiles hold each command's help: its synopsis on the first line, then what it does, then
+// "Examples:" and the examples. Kept as text, they read and review as the prose they are.
+//
+//go:embed help/*.txt
+var helpFiles embed.FS
+
+// newFlags makes the flag set of command name, whose usage prints its help file around the flags.
+func newFlags(name string) *pflag.FlagSet {
 	fs := pflag.NewFlagSet(name, pflag.ContinueOnError)
 	fs.SortFlags = false
 	fs.Usage = func() {
+		b, _ := helpFiles.ReadFile("help/" + name + ".txt") // every command has one (TestHelpFiles)
+		synopsis, rest, _ := strings.Cut(string(b), "\n")
+		about, examples, _ := strings.Cut(rest, "\nExamples:\n")
 		w := fs.Output()
 		fmt.Fprintf(w, "Usage:\n  %s\n\n%s\n\nFlags:\n%s", synopsis, strings.TrimSpace(about), fs.FlagUsages())
 		if examples != "" {

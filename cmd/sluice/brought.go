@@ -18,14 +18,16 @@ func broughtFlags(fs *pflag.FlagSet, opt *run.Options) error {
 		{"pool-vectors", run.MethodVectors}, {"target-vectors", run.MethodVectors},
 		{"word-vectors", run.MethodVectors}, {"idf", run.MethodVectors},
 	} {
-		if fs.Changed(f.flag) && opt.Method != f.method {
+		if fs.Changed(f.flag) && !named(opt.Method, f.method) {
 			return usagef("--%s is for --method %s", f.flag, f.method)
 		}
 	}
-	switch opt.Method {
-	case run.MethodScores:
-		return scoresFlags(fs, opt)
-	case run.MethodVectors:
+	if named(opt.Method, run.MethodScores) {
+		if err := scoresFlags(fs, opt); err != nil || !named(opt.Method, run.MethodVectors) {
+			return err
+		}
+	}
+	if named(opt.Method, run.MethodVectors) {
 		v := &opt.Vectors
 		v.Pool, v.Target, v.Words = str("pool-vectors"), str("target-vectors"), str("word-vectors")
 		v.IDF, _ = fs.GetBool("idf")
@@ -41,6 +43,9 @@ func broughtFlags(fs *pflag.FlagSet, opt *run.Options) error {
 		}
 		v.Cost.Passes, v.Cost.TargetPasses = 1, 1 // one forward pass over each row embedded
 		return declaredFlags(fs, &v.Cost)
+	}
+	if named(opt.Method, run.MethodScores) {
+		return nil
 	}
 	for _, f := range []string{"selector-params", "selection-flops"} {
 		if fs.Changed(f) {

@@ -26,11 +26,7 @@ const (
 )
 
 func (*demoCmd) flags() *pflag.FlagSet {
-	fs := newFlags("demo", "sluice demo [--out DIR]",
-		`Writes the built-in demo pool and target rows to DIR, indexes the pool, picks rows for the target
-task under a small budget, and says what was kept and where the files are. The scenario is invented.`,
-		`  sluice demo
-  sluice demo --out /tmp/sluice-demo --method tfidf`)
+	fs := newFlags("demo")
 	fs.String("out", "sluice-demo", "folder for the demo's files: made, or an earlier demo's replaced")
 	fs.String("method", "bm25", "scoring: bm25 or tfidf")
 	fs.String("aggregate", "sum", "over target rows: sum or max")

@@ -16,14 +16,7 @@ func (*diffCmd) name() string    { return "diff" }
 func (*diffCmd) summary() string { return "compare the kept sets and rankings of two runs" }
 
 func (*diffCmd) flags() *pflag.FlagSet {
-	fs := newFlags("diff", "sluice diff [--json] [--top N] RUN_A RUN_B",
-		`Compares two runs, usually two target sets or two methods on the same index: the rows kept in
-both, only in A and only in B (counts, tokens, Jaccard index), the budget each used, the rank
-correlation of their scores over the rows both scored (Spearman's rho: the Pearson correlation of
-the ranks), and the rows whose rank moved most. Rows are matched by id; a repeated id is matched by
-its occurrence.`,
-		`  sluice diff run-support run-billing
-  sluice diff --json --top 50 run-bm25 run-tfidf | jq .moved`)
+	fs := newFlags("diff")
 	fs.Bool("json", false, "print one JSON object instead of text")
 	fs.Int("top", 10, "how many of the rows that moved most to list")
 	fs.Bool("across-indexes", false, "compare runs made on different indexes (rows are still matched by id)")

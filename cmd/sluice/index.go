@@ -21,21 +21,7 @@ func (*indexCmd) name() string    { return "index" }
 func (*indexCmd) summary() string { return "stream JSONL pool files into a persistent index" }
 
 func (*indexCmd) flags() *pflag.FlagSet {
-	fs := newFlags("index", "sluice index --out DIR [flags] POOL...",
-		`Reads every POOL file (JSONL; plain, gzip or zstd, found by magic bytes; "-" is stdin) once and
-writes an inverted index to DIR that any number of later picks reuse. Rows that cannot be read are
-counted and quarantined in DIR/rejected.jsonl with their file, line and reason; nothing is dropped
-silently. The index is published only when complete: a killed build leaves the previous index or none.
-
-The text of a row comes from --text, a comma-separated list of JSON paths where [] walks an array
-(prompt,completion  instruction,input,output  messages[].content). Without it, the first known shape
-found in the first rows is used, and the summary says which.
-
-Pools hold other people's text: check each source's licence and whether it carries personal data
-before you index and train on it.`,
-		`  sluice index --out pool.idx train-*.jsonl.zst
-  sluice index --out pool.idx --text 'messages[].content' --id uid chats.jsonl.gz
-  zcat dump.jsonl.gz | sluice index --out pool.idx --analyzer plain -`)
+	fs := newFlags("index")
 	fs.String("out", "", "index folder to write (required)")
 	fs.String("text", "", "JSON paths of the text fields, comma-separated; [] walks an array (default: detect)")
 	fs.String("id", "", "field holding each row's id (default: file:line)")

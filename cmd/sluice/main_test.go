@@ -481,3 +481,25 @@ func TestPickMemSameBytes(t *testing.T) {
 		}
 	}
 }
+
+// Every command has a help file whose first line is its synopsis, and every help file a command.
+func TestHelpFiles(t *testing.T) {
+	names := map[string]bool{}
+	for _, c := range commands() {
+		names[c.name()] = true
+		b, err := helpFiles.ReadFile("help/" + c.name() + ".txt")
+		if err != nil {
+			t.Errorf("%s: %v", c.name(), err)
+			continue
+		}
+		if first, _, _ := strings.Cut(string(b), "\n"); !strings.HasPrefix(first, "sluice "+c.name()) {
+			t.Errorf("help/%s.txt starts %q, want its synopsis", c.name(), first)
+		}
+	}
+	entries, _ := helpFiles.ReadDir("help")
+	for _, e := range entries {
+		if !names[strings.TrimSuffix(e.Name(), ".txt")] {
+			t.Errorf("help/%s belongs to no command", e.Name())
+		}
+	}
+}

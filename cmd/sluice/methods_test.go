@@ -375,7 +375,7 @@ func TestPlanAsPeopleAsk(t *testing.T) {
 	if code != 0 {
 		t.Fatalf("plan: exit %d: %s", code, stderr)
 	}
-	if !strings.Contains(stdout, "sluice pick --index POOL.idx --target TARGET.jsonl --method") {
+	if !strings.Contains(stdout, "sluice pick --index "+idx+" --target TARGET.jsonl --method") {
 		t.Errorf("no pick command: %s", stdout)
 	}
 	var p struct {
@@ -398,7 +398,7 @@ func TestPlanAsPeopleAsk(t *testing.T) {
 		t.Errorf("pool tokens from the index: %v, the pool holds %d", p.Config.PoolTokens, want)
 	}
 	code, _, stderr = sluice(t, "plan", "--pilots", pilots, "--pool-tokens", "4B", "--train-params", "7B", "--out", filepath.Join(dir, "plan7"))
-	if code != 1 || !strings.Contains(stderr, "the pilots trained 1e+09 parameters") {
+	if code != 1 || !strings.Contains(stderr, "the pilots trained 1B parameters") {
 		t.Errorf("plan for a size without pilots: exit %d: %s", code, stderr)
 	}
 	var cmd string

@@ -24,25 +24,7 @@ func (*pickCmd) summary() string {
 }
 
 func (*pickCmd) flags() *pflag.FlagSet {
-	fs := newFlags("pick", "sluice pick --index DIR --target FILE --budget FLOPS --train-params N --out RUN [flags]",
-		`Scores every indexed row against the target rows (BM25 or TF-IDF from the index; n-gram models,
-vectors or brought-in scores reading more), drops duplicates and rows that leak an --exclude'd
-evaluation set, ranks the rest (ties in input order) and keeps them from the top while the ledger -
-selection cost, charged first (work done elsewhere at its declared cost), plus 6 x parameters x
-tokens x epochs per kept row - stays within the budget: --budget FLOPS (2.5e18, 400P), or GPU time
-(--gpu-hours, or --gpus and --hours) with --gpu-flops (a peak rate or an accelerator's name) and
---mfu (0.3-0.5 is common for dense training; no defaults).
-
-Writes RUN (published only when complete): kept.jsonl (the kept rows byte for byte), scores.jsonl
-(every row: id, score, rank, kept, reason, tokens, target, ledger), ledger.json, rejected.jsonl
-(target rows that could not be read), manifest.json (settings and hashes; 'sluice verify').
-
-Selection narrows what the model sees: rows unlike the target rows are dropped, with whatever they
-taught. Scores measure likeness to the target rows, not quality, safety or licence. An evaluation
-set left in the pool will be found and flatter the model: pass it with --exclude.`,
-		`  sluice pick --index pool.idx --target support.jsonl --budget 2.5e18 --train-params 1.3B --out run1
-  sluice pick --index pool.idx --target support.jsonl --method tfidf --aggregate max \
-      --gpu-hours 64 --gpu-flops 312T --mfu 0.4 --train-params 7B --epochs 2 --fill --out run2`)
+	fs := newFlags("pick")
 	addPickInputFlags(fs)
 	addMethodFlags(fs)
 	addBudgetFlags(fs)
@@ -130,8 +112,29 @@ func addPickStopFlags(fs *pflag.FlagSet) {
 	fs.BoolP("quiet", "q", false, "print nothing but errors")
 }
 
-// pickOptions resolves a pick's flags, refusing any mistake before work starts.
+// pickOptions resolves a pick's flags, refusing any mistake before work starts. For pilots, which
+// have no budget, --method may name several methods, comma-separated.
 func pickOptions(fs *pflag.FlagSet) (run.Options, error) {
+	opt, err := pickInputs(fs)
+	if err != nil {
+		return opt, err
+	}
+	if opt.Params, err = scoreParams(fs); err != nil {
+		return opt, err
+	}
+	if err := methodFlags(fs, &opt); err != nil {
+		return opt, err
+	}
+	if !isPilots(fs) {
+		if opt.Budget, opt.BudgetHow, err = budgetFlags(fs); err != nil {
+			return opt, err
+		}
+	}
+	return opt, trainingFlags(fs, &opt)
+}
+
+// pickInputs resolves where a pick reads and writes, and how it reads the target.
+func pickInputs(fs *pflag.FlagSet) (run.Options, error) {
 	str := func(n string) string { v, _ := fs.GetString(n); return v }
 	opt := run.Options{Index: str("index"), Target: str("target"), TargetText: str("target-text"),
 		TargetID: str("target-id"), Analyzer: str("analyzer"), Out: str("out"), Compress: str("compress")}
@@ -144,24 +147,15 @@ func pickOptions(fs *pflag.FlagSet) (run.Options, error) {
 	default:
 		return opt, usagef("--compress %q: give none, gzip or zstd", opt.Compress)
 	}
-	var missing []string
-	for _, req := range []struct{ v, name string }{{opt.Index, "--index"}, {opt.Target, "--target"}, {opt.Out, "--out"}, {str("train-params"), "--train-params"}} {
-		if req.v == "" {
-			missing = append(missing, req.name)
-		}
+	noBudget := ""
+	if !budgetGiven(fs) && !isPilots(fs) {
+		noBudget = "a budget"
 	}
-	if !budgetGiven(fs) {
-		missing = append(missing, "a budget (--budget FLOPS, or --gpu-hours with --gpu-flops and --mfu)")
-	}
-	switch len(missing) {
-	case 0:
-	case 1:
-		if strings.HasPrefix(missing[0], "a budget") {
-			return opt, usagef("a budget is required: --budget FLOPS, or --gpu-hours with --gpu-flops and --mfu")
+	if err := required(unset(fs, "index"), unset(fs, "target"), unset(fs, "out"), unset(fs, "train-params"), noBudget); err != nil {
+		if noBudget != "" {
+			return opt, usagef("%v (give --budget FLOPS, or --gpu-hours with --gpu-flops and --mfu)", err)
 		}
-		return opt, usagef("%s is required", missing[0])
-	default:
-		return opt, usagef("these are required: %s", strings.Join(missing, ", "))
+		return opt, err
 	}
 	if opt.Analyzer != "" && !slices.Contains(analysis.Names(), opt.Analyzer) {
 		return opt, usagef("--analyzer %q: give %s", opt.Analyzer, strings.Join(analysis.Names(), " or "))
@@ -173,19 +167,6 @@ func pickOptions(fs *pflag.FlagSet) (run.Options, error) {
 	}
 	if _, err := jsonl.NewExtractor(jsonl.Shapes()[0], opt.TargetID, ""); err != nil {
 		return opt, usagef("--target-id: %v", err)
-	}
-	var err error
-	if opt.Params, err = scoreParams(fs); err != nil {
-		return opt, err
-	}
-	if err := methodFlags(fs, &opt); err != nil {
-		return opt, err
-	}
-	if opt.Budget, opt.BudgetHow, err = budgetFlags(fs); err != nil {
-		return opt, err
-	}
-	if err := trainingFlags(fs, &opt); err != nil {
-		return opt, err
 	}
 	return opt, nil
 }
@@ -199,9 +180,12 @@ func scoreParams(fs *pflag.FlagSet) (score.Params, error) {
 	str := func(n string) string { v, _ := fs.GetString(n); return v }
 	var err error
 	p := score.DefaultParams()
-	if m := str("method"); !slices.Contains([]string{run.MethodNgram, run.MethodVectors, run.MethodScores}, m) {
-		if p.Method, err = score.ParseMethod(m); err != nil {
+	for _, m := range strings.Split(str("method"), ",") {
+		if !slices.Contains(run.Methods(), m) {
 			return p, usagef("--method %q: give %s", m, strings.Join(run.Methods(), ", "))
+		}
+		if lm, err := score.ParseMethod(m); err == nil {
+			p.Method = lm
 		}
 	}
 	if p.Aggregate, err = score.ParseAggregate(str("aggregate")); err != nil {
@@ -246,7 +230,7 @@ func methodFlags(fs *pflag.FlagSet, opt *run.Options) error {
 		return usagef("--order %d: give 3, 4 or 5", opt.Ngram.Order)
 	}
 	for _, f := range []string{"order", "ngram-score", "ngram-seed"} {
-		if fs.Changed(f) && opt.Method != run.MethodNgram {
+		if fs.Changed(f) && !named(opt.Method, run.MethodNgram) {
 			return usagef("--%s is for --method ngram", f)
 		}
 	}
@@ -260,7 +244,7 @@ func methodFlags(fs *pflag.FlagSet, opt *run.Options) error {
 	if pf == "" {
 		return nil
 	}
-	if opt.Method == run.MethodBM25 || opt.Method == run.MethodTFIDF {
+	if !named(opt.Method, run.MethodNgram) && !named(opt.Method, run.MethodVectors) && !named(opt.Method, run.MethodScores) {
 		return usagef("--prefilter goes before a model-based method (--method ngram), not before %s", opt.Method)
 	}
 	var err error
@@ -270,6 +254,9 @@ func methodFlags(fs *pflag.FlagSet, opt *run.Options) error {
 	return nil
 }
 
+// named says whether the --method value list, comma-separated, names method m.
+func named(list, m string) bool { return slices.Contains(strings.Split(list, ","), m) }
+
 // trainingFlags resolves the trained model's size, the epochs and the stops of the pick.
 func trainingFlags(fs *pflag.FlagSet, opt *run.Options) error {
 	tp, _ := fs.GetString("train-params")
@@ -277,7 +264,9 @@ func trainingFlags(fs *pflag.FlagSet, opt *run.Options) error {
 		return usagef("--train-params is required (parameters of the model you will train, e.g. 7B)")
 	}
 	var err error
-	if opt.TrainParams, err = budget.ParseCount(tp); err != nil {
+	if isPilots(fs) {
+		// Pilots take a list of model sizes, which they read themselves.
+	} else if opt.TrainParams, err = budget.ParseCount(tp); err != nil {
 		return usagef("--train-params: %v", err)
 	}
 	opt.Epochs, _ = fs.GetFloat64("epochs")

@@ -4,9 +4,6 @@ import (
 	"bufio"
 	"context"
 	"fmt"
-	"math"
-	"os"
-	"strconv"
 	"strings"
 
 	"github.com/spf13/pflag"
@@ -30,32 +27,7 @@ func (*planCmd) summary() string {
 }
 
 func (*planCmd) flags() *pflag.FlagSet {
-	fs := newFlags("plan", "sluice plan (--pilots FILE | --simulate CURVE... --p0 P) --pool-tokens T --train-params N --out DIR [flags]",
-		`Fits P(k) = P̄ - (P̄ - P0)·exp(-λ·k) to pilot fine-tunes, one curve per method and base model,
-by nonlinear least squares; methods of one base model share P0 unless --free-p0. Then, over a log
-grid of budgets, works out for each method the tokens it can train on once it has scored the whole
-pool, (budget - selection) / (6 x train-params x epochs), its predicted metric with a ±2 standard
-error band, the best method, and the budgets where the best method changes.
-
-Pilots are CSV with a header row, or JSONL; columns method, cost (lexical, forward,
-forward+backward or a number of forward passes), selector_params (0 for lexical), trained_params,
-tokens (or rows and tokens_per_row) and metric. Selection costs passes x 2 x selector params x pool
-tokens; lexical scoring is charged 8 FLOPs per pool token. Each method needs pilots at 3 or more
-data sizes, spread over where its metric bends and levels off.
-
-With --simulate no pilots are fitted: each curve is given as METHOD=COST,SELECTOR,PBAR,LAMBDA
-(λ per 1B tokens) with one --p0 for all, to explore, say, a selector ten times smaller.
-
-Writes into DIR: plan.json (fits, residuals, every budget's options, changes), plan.svg (predicted
-metric against total FLOPs, one line per method, the best-method envelope, pilots and changes
-marked) and, from pilots, residuals.svg (each pilot's metric minus its fitted curve).
-Predictions beyond the largest pilot are extrapolations of the curve.`,
-		`  sluice plan --pilots pilots.csv --pool-tokens 4B --train-params 1B --out plan1
-  sluice plan --pilots pilots.jsonl --pool-tokens 20B --train-params 7B --epochs 2 \
-      --budgets 1e19:1e22 --points 40 --free-p0 --out plan2
-  # what if the gradient selector were 10x smaller?
-  sluice plan --simulate bm25=lexical,0,0.547,10.2 --simulate grad=forward+backward,100M,0.657,4.0 \
-      --p0 0.421 --pool-tokens 4B --train-params 1B --out what-if`)
+	fs := newFlags("plan")
 	fs.String("pilots", "", "CSV or JSONL file of pilot runs (required unless --simulate)")
 	fs.String("pool-tokens", "", "tokens in the whole pool, e.g. 4B (required unless --index)")
 	fs.String("index", "", "an index of the pool, to count its tokens as a pick would")
@@ -84,17 +56,12 @@ func (c *planCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 	case get("pilots") != "" && len(sims) > 0:
 		return usagef("give --pilots or --simulate, not both")
 	}
-	var missing []string
-	for _, n := range []string{"train-params", "out"} {
-		if get(n) == "" {
-			missing = append(missing, "--"+n)
-		}
-	}
+	either := ""
 	if (get("pool-tokens") == "") == (get("index") == "") {
-		missing = append(missing, "one of --pool-tokens and --index")
+		either = "one of --pool-tokens and --index"
 	}
-	if len(missing) > 0 {
-		return usagef("required: %s", strings.Join(missing, ", "))
+	if err := required(unset(fs, "train-params"), unset(fs, "out"), either); err != nil {
+		return err
 	}
 	cfg, err := planConfig(fs)
 	if err != nil {
@@ -133,6 +100,7 @@ func planConfig(fs *pflag.FlagSet) (plan.Config, error) {
 		if cfg.PoolTokens, err = run.PoolTokens(get("index")); err != nil {
 			return cfg, err
 		}
+		cfg.Index = get("index")
 	} else if cfg.PoolTokens, err = budget.ParseCount(get("pool-tokens")); err != nil {
 		return cfg, usagef("--pool-tokens: %v", err)
 	}
@@ -172,31 +140,17 @@ func planConfig(fs *pflag.FlagSet) (plan.Config, error) {
 func planCurves(fs *pflag.FlagSet, sims []string, trainParams float64) ([]plan.Curve, error) {
 	get := func(n string) string { s, _ := fs.GetString(n); return s }
 	if len(sims) > 0 {
-		p0, err := strconv.ParseFloat(get("p0"), 64)
-		if err != nil || math.IsNaN(p0) || math.IsInf(p0, 0) {
+		if get("p0") == "" {
 			return nil, usagef("--simulate needs --p0, the base model's score")
 		}
-		var curves []plan.Curve
-		for _, s := range sims {
-			c, err := plan.ParseCurve(s, p0, trainParams)
-			if err != nil {
-				return nil, usagef("--simulate %q: %v", s, err)
-			}
-			curves = append(curves, c)
+		c, err := plan.ParseCurves(sims, get("p0"), trainParams)
+		if err != nil {
+			return nil, usagef("--simulate: %v", err)
 		}
-		return curves, nil
+		return c, nil
 	}
 	free, _ := fs.GetBool("free-p0")
-	f, err := os.Open(get("pilots"))
-	if err != nil {
-		return nil, err
-	}
-	pilots, err := plan.ReadPilots(f, get("pilots"))
-	f.Close()
-	if err != nil {
-		return nil, err
-	}
-	return plan.Fit(pilots, plan.FitOptions{FreeP0: free})
+	return plan.FitFile(get("pilots"), plan.FitOptions{FreeP0: free})
 }
 
 // writePlan writes plan.json and the charts into out, residuals.svg only when

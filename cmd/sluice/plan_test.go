@@ -3,8 +3,10 @@ package main
 import (
 	"encoding/json"
 	"flag"
+	"math"
 	"os"
 	"path/filepath"
+	"strconv"
 	"strings"
 	"testing"
 
@@ -77,7 +79,7 @@ func TestPlanUsageErrors(t *testing.T) {
 		{"bad budgets", append(append([]string{}, base...), "--budgets", "1e20"), 2, "LO:HI"},
 		{"reversed budgets", append(append([]string{}, base...), "--budgets", "1e20:1e19"), 2, "HI must be"},
 		{"zero epochs", append(append([]string{}, base...), "--epochs", "0"), 2, "--epochs"},
-		{"other model size", append(append([]string{}, base...), "--train-params", "7B"), 1, "no pilots on a 7e+09"},
+		{"other model size", append(append([]string{}, base...), "--train-params", "7B"), 1, "no pilots on a 7B-parameter model"},
 		{"pilots and simulate", append(append([]string{}, base...), "--simulate", "a=lexical,0,0.5,1", "--p0", "0.4"), 2, "not both"},
 		{"simulate without p0", []string{"plan", "--simulate", "a=lexical,0,0.5,1", "--pool-tokens", "4B", "--train-params", "1B", "--out", out}, 2, "--p0"},
 		{"simulate bad spec", []string{"plan", "--simulate", "a=lexical,0,0.5", "--p0", "0.4", "--pool-tokens", "4B", "--train-params", "1B", "--out", out}, 2, "METHOD=COST"},
@@ -145,4 +147,72 @@ func readPlanJSON(t *testing.T, out string) plan.Plan {
 		t.Fatal(err)
 	}
 	return p
+}
+
+// demoMetric is an invented pilot result for the README's walk from pilots to plan to pick: a
+// saturating curve per method whose level and rate move with the pilot model's size, plus a
+// little fixed noise. It is demo data, not a check value.
+func demoMetric(method string, n, tokens float64, line int) float64 {
+	x := math.Log(n / 125e6)
+	p0, pbar, lam := 0.30+0.03*x, 0.50+0.04*x, 4e-4*math.Pow(n/125e6, -0.2)
+	if method == "ngram" {
+		pbar, lam = 0.55+0.05*x, 2.5e-4*math.Pow(n/125e6, -0.2)
+	}
+	noise := 0.004 * math.Sin(float64(7*line))
+	return pbar - (pbar-p0)*math.Exp(-lam*tokens) + noise
+}
+
+// The README's walk: pilots on the demo data, their metrics filled in (invented), a plan for a
+// model size no pilot trained, and the pick the plan prints, run as printed.
+func TestPilotsToPlanToPick(t *testing.T) {
+	dir, idx, target := demoIndex(t)
+	pilotsDir := filepath.Join(dir, "pilots")
+	code, stdout, stderr := sluice(t, "pilots", "--index", idx, "--target", target, "--method", "bm25,ngram",
+		"--train-params", "125M,350M", "--out", pilotsDir)
+	if code != 0 || !strings.Contains(stdout, "charged once") {
+		t.Fatalf("pilots: exit %d: %s%s", code, stdout, stderr)
+	}
+	raw := mustRead(t, filepath.Join(pilotsDir, "pilots.csv"))
+	var filled []string
+	for i, l := range strings.Split(strings.TrimSuffix(raw, "\n"), "\n") {
+		f := strings.Split(l, ",")
+		if len(f) == 11 && f[0] != "method" && !strings.HasPrefix(l, "#") {
+			n, _ := strconv.ParseFloat(f[4], 64)
+			k, _ := strconv.ParseFloat(f[5], 64)
+			l += strconv.FormatFloat(demoMetric(f[0], n, k, i), 'f', 4, 64)
+		}
+		filled = append(filled, l)
+	}
+	got := "# metrics invented for the demo: demoMetric in cmd/sluice/plan_test.go; not measured\n" + strings.Join(filled, "\n") + "\n"
+	golden := "../../testdata/plan/demo-pilots.csv"
+	if *updatePlan {
+		if err := os.WriteFile(golden, []byte(got), 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	if want := mustRead(t, golden); got != want {
+		t.Errorf("filled pilots differ from %s (run go test -update-plan)", golden)
+	}
+	code, stdout, stderr = sluice(t, "plan", "--pilots", golden, "--index", idx, "--train-params", "1.3B",
+		"--budget", "3e14", "--out", filepath.Join(dir, "plan"))
+	if code != 0 {
+		t.Fatalf("plan: exit %d: %s", code, stderr)
+	}
+	p := readPlanJSON(t, filepath.Join(dir, "plan"))
+	if len(p.Curves) != 2 || p.Curves[0].Trend != plan.Extrapolated || len(p.Trends) != 2 {
+		t.Errorf("plan for 1.3B from pilots on 125M and 350M: %d curves (%q), %d trends", len(p.Curves), p.Curves[0].Trend, len(p.Trends))
+	}
+	if !strings.Contains(stdout, "extrapolated from 125M, 350M") {
+		t.Errorf("the table does not mark the extrapolation:\n%s", stdout)
+	}
+	var pick string
+	for _, l := range strings.Split(stdout, "\n") {
+		if strings.Contains(l, "sluice pick ") {
+			pick = strings.TrimSpace(l)
+		}
+	}
+	args := strings.Fields(strings.NewReplacer("TARGET.jsonl", target, "RUN", filepath.Join(dir, "run")).Replace(pick))[1:]
+	if code, _, stderr := sluice(t, args...); code != 0 {
+		t.Errorf("%s: exit %d: %s", pick, code, stderr)
+	}
 }

@@ -15,20 +15,7 @@ func (*reportCmd) name() string    { return "report" }
 func (*reportCmd) summary() string { return "write one self-contained HTML page showing a run" }
 
 func (*reportCmd) flags() *pflag.FlagSet {
-	fs := newFlags("report", "sluice report RUN --out FILE.html [flags]",
-		`Writes one HTML file that shows a run made by 'sluice pick': the distribution of scores with the
-cut marked, the FLOP ledger as one bar (selection, training, what is left), the kept tokens by
-pool file, the terms that weigh most in the target set, and samples of rows: the top of the
-ranking, the rows kept just above the cut, the best rows not kept, and kept rows drawn at random
-(with a fixed seed, so the page is the same each time). Each sample row shows its text fields, why
-it was or was not kept, and the terms (or, for n-gram runs, the tokens) that made its score. Rows
-are counted on a log scale, log10(1 + rows), so a few kept rows stay in sight beside many dropped
-ones; rows without a score (a cascade's prefilter left them out) are counted apart by reason. The
-page needs no network and runs no script: charts are inline SVG, and every figure in them is also
-written as a data- attribute for tools. It streams scores.jsonl once, keeping only the histogram,
-per-file sums and the samples, so runs of millions of rows are fine.`,
-		`  sluice report run1 --out run1.html
-  sluice report run1 --out run1.html --sample 10 --terms 30`)
+	fs := newFlags("report")
 	fs.String("out", "", "HTML file to write (required)")
 	fs.Int("sample", 5, "rows to show in each of the four samples")
 	fs.Int("terms", 20, "target terms to show")

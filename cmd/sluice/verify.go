@@ -18,13 +18,7 @@ func (*verifyCmd) summary() string {
 }
 
 func (*verifyCmd) flags() *pflag.FlagSet {
-	fs := newFlags("verify", "sluice verify RUN...",
-		`Rechecks the SHA-256 of every file of each run folder against its manifest.json, and that the
-target file and the index (its meta.json, which holds the checksum of every other index file) are
-the ones the run used. Exit 0 when all agree, 1 with a line per difference otherwise.`,
-		`  sluice verify run1
-  sluice verify runs/*
-  sluice verify copied/run1 --index /data/pool.idx --target /data/support.jsonl`)
+	fs := newFlags("verify")
 	addMovedFlags(fs)
 	return fs
 }

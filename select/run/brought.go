@@ -56,6 +56,9 @@ type VectorsOptions struct {
 	Cost   Declared `json:"cost"`          // of computing Pool and Target elsewhere
 }
 
+// Inputs are the files a pick reads besides the index and the target: no output may replace them.
+func (o *Options) Inputs() []string { return o.inputs() }
+
 // inputs are the files a method reads besides the index and the target, for the manifest.
 func (o *Options) inputs() []string {
 	return append(o.methodInputs(), o.Guards.Exclude...)

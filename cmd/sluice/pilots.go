@@ -1,0 +1,71 @@
+package main
+
+import (
+	"context"
+	"errors"
+	"fmt"
+	"strings"
+
+	"github.com/spf13/pflag"
+
+	"sluice/budget"
+	"sluice/select/pilots"
+	"sluice/select/run"
+)
+
+type pilotsCmd struct{}
+
+func (*pilotsCmd) name() string { return "pilots" }
+func (*pilotsCmd) summary() string {
+	return "write nested training subsets for pilot fine-tunes, and the pilots file plan reads"
+}
+
+// isPilots says the flag set is the pilots command's, which resolves pick flags without a budget.
+func isPilots(fs *pflag.FlagSet) bool { return fs.Lookup("sizes") != nil }
+
+func (*pilotsCmd) flags() *pflag.FlagSet {
+	fs := newFlags("pilots")
+	addPickInputFlags(fs)
+	addMethodFlags(fs)
+	addPickStopFlags(fs)
+	fs.Lookup("method").Usage = "methods to make pilots for, comma-separated: " + strings.Join(run.Methods(), ", ")
+	fs.Lookup("train-params").Usage = "parameters of the pilot models, comma-separated, e.g. 125M,350M (required)"
+	fs.Lookup("out").Usage = "pilots folder to write (required)"
+	fs.String("sizes", "", "subset sizes in tokens: a list (1M,3M,10M) or LO:HI:N, N sizes log-spaced (default: 0.3%:30% of the pool, 5)")
+	return fs
+}
+
+func (c *pilotsCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
+	if fs.NArg() > 0 {
+		return usagef("unexpected argument %q", fs.Arg(0))
+	}
+	po, err := pickOptions(fs)
+	if err != nil {
+		return err
+	}
+	po.Command, po.Stdin, po.Version = append([]string{"sluice"}, e.args...), e.stdin, version()
+	opt := pilots.Options{Pick: po, Methods: strings.Split(po.Method, ","), Out: po.Out}
+	tp, _ := fs.GetString("train-params")
+	for _, s := range strings.Split(tp, ",") {
+		n, err := budget.ParseCount(s)
+		if err != nil {
+			return usagef("--train-params %q: %v", s, err)
+		}
+		opt.Trained = append(opt.Trained, n)
+	}
+	sizes, _ := fs.GetString("sizes")
+	if opt.Sizes, err = pilots.ParseSizes(sizes, func() (float64, error) { return run.PoolTokens(po.Index) }); errors.Is(err, pilots.ErrBadOptions) {
+		return usagef("--%v", err)
+	} else if err != nil {
+		return err
+	}
+	quiet, _ := fs.GetBool("quiet")
+	if !quiet {
+		opt.Started = func(m string) { fmt.Fprintf(e.stderr, "pilots: scoring the pool with %s\n", m) }
+	}
+	res, err := pilots.Make(ctx, opt)
+	if err != nil || quiet {
+		return err
+	}
+	return res.WriteSummary(e.stdout)
+}
