@@ -202,3 +202,24 @@ func TestLadder(t *testing.T) {
 		}
 	}
 }
+
+// ParseSizes takes any string without a panic, and whatever it returns is a usable size list.
+func FuzzParseSizes(f *testing.F) {
+	for _, s := range []string{"", "1M,3M,10M", "1M:100M:5", "1:2:2", "0", "-1", "1e400", "5:1:3", "1M:2M:999", ",", "::"} {
+		f.Add(s)
+	}
+	f.Fuzz(func(t *testing.T, s string) {
+		sizes, err := ParseSizes(s, func() (float64, error) { return 1e6, nil })
+		if err != nil {
+			return
+		}
+		if len(sizes) == 0 {
+			t.Fatalf("%q: no sizes and no error", s)
+		}
+		for _, v := range sizes {
+			if !(v > 0) {
+				t.Fatalf("%q: size %v", s, v)
+			}
+		}
+	})
+}
