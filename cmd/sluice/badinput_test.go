@@ -61,9 +61,9 @@ var poolCases = []poolCase{
 			{5, 94, 5, []string{"not a JSON object: found null"}, `null`, false},
 		}},
 	{name: "text field missing", files: []string{"text-missing.jsonl"}, read: 3, indexed: 2,
-		rejects: []wantReject{{2, 61, 33, []string{"no text: no string at text"}, `{"id":"b1","title":"ferry dock"}`, false}}},
+		rejects: []wantReject{{2, 61, 33, []string{`no text: text: missing; the row has "id", "title"`}, `{"id":"b1","title":"ferry dock"}`, false}}},
 	{name: "text field null", files: []string{"text-null.jsonl"}, read: 3, indexed: 2,
-		rejects: []wantReject{{2, 61, 24, []string{"no text: no string at text"}, `{"id":"b1","text":null}`, false}}},
+		rejects: []wantReject{{2, 61, 24, []string{`no text: text: null; the row has "id", "text"`}, `{"id":"b1","text":null}`, false}}},
 	{name: "text field a number", files: []string{"text-number.jsonl"}, read: 3, indexed: 2,
 		rejects: []wantReject{{2, 61, 24, []string{"text is not a string: text: a number, want a string"}, `{"id":"b1","text":12.5}`, false}}},
 	{name: "text field empty", files: []string{"text-empty.jsonl"}, read: 3, indexed: 2,
@@ -72,8 +72,8 @@ var poolCases = []poolCase{
 		rejects: []wantReject{{2, 61, 35, []string{"empty text: only empty or white-space strings at text"}, `{"id":"b1","text":" \t\n \u00a0 "}`, false}}},
 	{name: "array path matching nothing", files: []string{"array-no-match.jsonl"}, flags: []string{"--text", "messages[].content", "--id", "id"}, targetText: "text", read: 4, indexed: 2,
 		rejects: []wantReject{
-			{2, 79, 26, []string{"no text: no string at messages[].content"}, `{"id":"b1","messages":[]}`, false},
-			{3, 105, 41, []string{"no text: no string at messages[].content"}, `{"id":"b2","messages":[{"role":"user"}]}`, false},
+			{2, 79, 26, []string{"no text: messages[].content: no string there"}, `{"id":"b1","messages":[]}`, false},
+			{3, 105, 41, []string{"no text: messages[].content: no string there"}, `{"id":"b2","messages":[{"role":"user"}]}`, false},
 		}},
 	{name: "invalid UTF-8 in the text", files: []string{"invalid-utf8.jsonl"}, read: 3, indexed: 2,
 		rejects: []wantReject{{2, 61, 35, []string{"text is not valid UTF-8: text part 1, byte 6"}, `{\"id\":\"b1\",\"text\":\"ferry \xff\xfe dock\"}`, true}}},
@@ -119,7 +119,7 @@ var poolCases = []poolCase{
 	{name: "empty pool, shape detected", files: []string{"empty.jsonl"}, flags: []string{}, code: 1,
 		msg: []string{"no rows in empty.jsonl", "the pool is empty"}},
 	{name: "no row usable", files: []string{"pool.jsonl"}, flags: []string{"--text", "body"}, code: 1,
-		msg: []string{"no row could be indexed: read 3 = indexed 0 + quarantined 3; the first, pool.jsonl:1: no text: no string at body"}},
+		msg: []string{"no row could be indexed: read 3 = indexed 0 + quarantined 3; the first, pool.jsonl:1: no text: body: missing; the row has \"id\", \"text\""}},
 	{name: "bad --text", files: []string{"pool.jsonl"}, flags: []string{"--text", "messages["}, code: 2, msg: []string{"--text: bad field spec"}},
 	{name: "bad --id", files: []string{"pool.jsonl"}, flags: []string{"--text", "text", "--id", "a[]"}, code: 2, msg: []string{"--id: id field: bad field spec"}},
 	{name: "bad --max-row-bytes", files: []string{"pool.jsonl"}, flags: []string{"--max-row-bytes", "-1"}, code: 2, msg: []string{"--max-row-bytes"}},
@@ -523,7 +523,7 @@ func TestBadPickInput(t *testing.T) {
 		}
 		hasAll(t, "summary", stdout, []string{"target rows: read 3 = used 2 + quarantined 1", "quarantine run-trej/rejected.jsonl (target rows)"})
 		rej := readRejects(t, filepath.Join("run-trej", "rejected.jsonl"))
-		want := index.Reject{File: "text-null.jsonl", Line: 2, Offset: 61, Length: 24, Reason: "no text: no string at text", Raw: `{"id":"b1","text":null}`}
+		want := index.Reject{File: "text-null.jsonl", Line: 2, Offset: 61, Length: 24, Reason: `no text: text: null; the row has "id", "text"`, Raw: `{"id":"b1","text":null}`}
 		if len(rej) != 1 || rej[0] != want {
 			t.Errorf("target quarantine %+v, want %+v", rej, want)
 		}

@@ -18,8 +18,8 @@ var ErrNoShape = errors.New("no known row shape fits")
 const maxKeysShown = 30
 
 // Detect returns the first of Shapes that fits more than half of the sample
-// lines holding a JSON object: the first key of each of its paths is present
-// and its first path yields a string. Real pools carry a few damaged rows,
+// lines holding a JSON object: each of its paths gives the row a string, so
+// that Extract would take the row's text from it. Real pools carry a few damaged rows,
 // which must not hide the shape of the rest; Extract quarantines them later.
 // Blank lines and lines that are not JSON objects are left out, as Extract
 // would reject them anyway. When nothing fits, the error wraps ErrNoShape and
@@ -53,7 +53,7 @@ func Detect(lines [][]byte) (Spec, error) {
 			}
 		})
 		for i, sh := range shapes {
-			if w.fits(v, o, sh) {
+			if w.fits(v, sh) {
 				fits[i]++
 			}
 		}
@@ -106,13 +106,16 @@ func Detect(lines [][]byte) (Spec, error) {
 	return Spec{}, fmt.Errorf("%w in %d sample rows: %s", ErrNoShape, rows, b.String())
 }
 
-// fits reports whether the row v (whose object is o) has the shape sh.
-func (w *Extractor) fits(v *fastjson.Value, o *fastjson.Object, sh Spec) bool {
-	for _, pa := range sh.paths {
-		if o.Get(pa[0].key) == nil {
+// fits reports whether the row v has every path of the shape sh as a string: whether Extract
+// would take its text from sh.
+func (w *Extractor) fits(v *fastjson.Value, sh Spec) bool {
+	w.parts = w.parts[:0]
+	for _, pa := range sh.alts[0] {
+		n := len(w.parts)
+		w.idx = w.idx[:0]
+		if w.collect(v, pa, 0) != nil || len(w.parts) == n {
 			return false
 		}
 	}
-	w.parts, w.found, w.idx = w.parts[:0], false, w.idx[:0]
-	return w.collect(v, sh.paths[0], 0) == nil && w.found
+	return true
 }

@@ -35,7 +35,7 @@ func TestDetect(t *testing.T) {
 		{"second path must be present", lines(`{"prompt":"a","text":"t"}`), "text"},
 		{"first path must be a string", lines(`{"prompt":3,"completion":"b","content":"c"}`), "content"},
 		{"every row must fit", lines(`{"text":"a","question":"q","answer":"x"}`, `{"text":"b"}`), "text"},
-		{"null completion still present", lines(`{"prompt":"a","completion":null}`), "prompt,completion"},
+		{"null completion is missing", lines(`{"prompt":"a","completion":null,"text":"t"}`), "text"},
 		{"blank and bad rows left out", lines("", "  \r", "not json", `[1]`, "\xef\xbb\xbf{\"text\":\"a\"}\r"), "text"},
 	}
 	for _, tt := range tests {
@@ -106,7 +106,7 @@ func TestExtractMatchesPythonJSON(t *testing.T) {
 		t.Fatal(err)
 	}
 	wantLines := strings.Split(strings.TrimSuffix(string(want), "\n"), "\n")
-	e, err := NewExtractor(mustSpec(t, "text,turns[]"), "", "")
+	e, err := NewExtractor(mustSpec(t, "text,turns[]|text"), "", "")
 	if err != nil {
 		t.Fatal(err)
 	}

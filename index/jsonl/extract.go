@@ -5,6 +5,7 @@ import (
 	"errors"
 	"fmt"
 	"math"
+	"slices"
 	"strconv"
 	"strings"
 	"unicode"
@@ -30,7 +31,7 @@ var (
 // RowError says why a row cannot be used.
 type RowError struct {
 	Kind   error  // one of the Err* row errors above
-	Path   string // the field at fault, such as "messages[2].content"; may be empty
+	Path   string // the field or fields at fault, such as "messages[2].content"; may be empty
 	Detail string // what was found; may be empty
 }
 
@@ -57,31 +58,47 @@ type Row struct {
 	Tokens    int64
 	HasTokens bool
 	TextBytes int // total bytes of the text parts
+	// Missing names the paths the row lacks (no string at them) of the first alternative of the
+	// spec that it has some paths of, or of the first alternative when it has none of any. It is
+	// nil when that alternative is complete; a row that takes its text from a later alternative
+	// may still miss paths of an earlier one, as a misspelt field would make it. Valid until the
+	// next Extract.
+	Missing []string
 }
 
 // Extractor pulls the fields of a Spec out of JSONL rows. It reuses its
 // parser's memory from row to row, so it must not be shared between
 // goroutines; make one per goroutine.
 type Extractor struct {
-	spec   Spec
-	id     path
-	tokens path
-	p      fastjson.Parser
-	parts  [][]byte
-	found  bool
-	idx    []int // array indexes on the way down, for error paths
-	idBuf  []byte
-	tokBuf []byte
+	spec    Spec
+	names   [][]string // by alternative, the canonical form of each path
+	canon   []string   // by alternative, its canonical form
+	id      path
+	tokens  path
+	p       fastjson.Parser
+	last    *fastjson.Value // the row last parsed, when it was an object
+	parts   [][]byte
+	idx     []int // array indexes on the way down, for error paths
+	missing []string
+	idBuf   []byte
+	tokBuf  []byte
 }
 
 // NewExtractor returns an Extractor for spec. idField and tokensField are
 // dotted paths (the key syntax of Spec, without "[]") of a row's id and
 // token count; "" means the rows have none.
 func NewExtractor(spec Spec, idField, tokensField string) (*Extractor, error) {
-	if len(spec.paths) == 0 {
+	if len(spec.alts) == 0 {
 		return nil, fmt.Errorf("%w: no paths", ErrBadSpec)
 	}
 	e := &Extractor{spec: spec}
+	for _, a := range spec.alts {
+		names := make([]string, len(a))
+		for i, pa := range a {
+			names[i] = pa.String()
+		}
+		e.names, e.canon = append(e.names, names), append(e.canon, a.String())
+	}
 	var err error
 	if e.id, err = parseField("id", idField); err != nil {
 		return nil, err
@@ -100,15 +117,16 @@ func parseField(what, s string) (path, error) {
 	if err != nil {
 		return nil, fmt.Errorf("%s field: %w", what, err)
 	}
-	if len(sp.paths) != 1 {
+	if len(sp.alts) != 1 || len(sp.alts[0]) != 1 {
 		return nil, fmt.Errorf("%s field: %w %q: want one path", what, ErrBadSpec, s)
 	}
-	for _, sg := range sp.paths[0] {
+	pa := sp.alts[0][0]
+	for _, sg := range pa {
 		if sg.arrays > 0 {
 			return nil, fmt.Errorf("%s field: %w %q: \"[]\" is not allowed here", what, ErrBadSpec, s)
 		}
 	}
-	return sp.paths[0], nil
+	return pa, nil
 }
 
 // Spec returns the spec e extracts.
@@ -128,10 +146,16 @@ func blank(line []byte) bool {
 }
 
 // Extract parses line and calls fn, which may be nil, with each text part:
-// the unescaped string values of the spec's paths, in spec order and, in
-// arrays, in array order. Empty strings are passed too; nulls and missing
-// keys are skipped. fn is called only when the row has no error, and a part
-// is valid only until the next Extract.
+// the unescaped string values of the paths of the first alternative of the
+// spec that the row has in full, in spec order and, in arrays, in array
+// order. Empty strings are passed too; nulls are skipped. A path counts as
+// had when it gives at least one string, even an empty one. fn is called
+// only when the row has no error, and a part is valid only until the next
+// Extract.
+//
+// A row that has no alternative in full has no text (ErrNoText, naming the
+// paths missing); a path that meets a value of the wrong type makes the row
+// bad (ErrBadText) unless an earlier alternative was had in full.
 //
 // A UTF-8 byte order mark before the JSON and a trailing "\r" or "\n" are
 // ignored, so Scanner lines of BOM-prefixed and CRLF files parse as they
@@ -139,17 +163,19 @@ func blank(line []byte) bool {
 // strings are passed through, as the parser allows them. On a text error
 // the returned Row still carries the id and token count.
 func (e *Extractor) Extract(line []byte, fn func(part []byte)) (Row, error) {
+	e.last = nil
 	line = bytes.TrimPrefix(line, bom)
 	if blank(line) {
 		return Row{}, &RowError{Kind: ErrEmpty}
 	}
 	v, err := e.p.ParseBytes(line)
 	if err != nil {
-		return Row{}, &RowError{Kind: ErrNotJSON, Detail: err.Error()}
+		return Row{}, parseError(err, line)
 	}
 	if t := v.Type(); t != fastjson.TypeObject {
 		return Row{}, &RowError{Kind: ErrNotObject, Detail: "found " + typeName(v)}
 	}
+	e.last = v
 	var row Row
 	if e.id != nil {
 		if err := e.getID(v, &row); err != nil {
@@ -161,15 +187,9 @@ func (e *Extractor) Extract(line []byte, fn func(part []byte)) (Row, error) {
 			return Row{}, err
 		}
 	}
-	e.parts, e.found = e.parts[:0], false
-	for _, pa := range e.spec.paths {
-		e.idx = e.idx[:0]
-		if err := e.collect(v, pa, 0); err != nil {
-			return row, err
-		}
-	}
-	if !e.found {
-		return row, &RowError{Kind: ErrNoText, Detail: "no string at " + e.spec.String()}
+	taken, err := e.text(v, &row)
+	if err != nil {
+		return row, err
 	}
 	empty := true
 	for i, part := range e.parts {
@@ -182,7 +202,7 @@ func (e *Extractor) Extract(line []byte, fn func(part []byte)) (Row, error) {
 		}
 	}
 	if empty {
-		return row, &RowError{Kind: ErrEmptyText, Detail: "only empty or white-space strings at " + e.spec.String()}
+		return row, &RowError{Kind: ErrEmptyText, Detail: "only empty or white-space strings at " + e.canon[taken]}
 	}
 	if fn != nil {
 		for _, part := range e.parts {
@@ -190,6 +210,159 @@ func (e *Extractor) Extract(line []byte, fn func(part []byte)) (Row, error) {
 		}
 	}
 	return row, nil
+}
+
+// text leaves in e.parts the strings of the first alternative the row v has in full and returns
+// its number; it sets row.Missing. It returns an error when no alternative is had in full.
+func (e *Extractor) text(v *fastjson.Value, row *Row) (int, error) {
+	var typeErr error
+	partial := -1 // the first alternative the row has some but not all paths of
+	e.missing = e.missing[:0]
+	for ai, a := range e.spec.alts {
+		e.parts = e.parts[:0]
+		had, err := e.collectAlt(v, ai, partial < 0)
+		if err != nil {
+			if typeErr == nil {
+				typeErr = err
+			}
+			if partial < 0 {
+				e.missing = e.missing[:0]
+			}
+			continue
+		}
+		if had == len(a) {
+			if partial >= 0 {
+				row.Missing = e.missing
+			}
+			return ai, nil
+		}
+		if had > 0 && partial < 0 {
+			partial = ai
+		} else if partial < 0 {
+			e.missing = e.missing[:0]
+		}
+	}
+	if partial < 0 {
+		// The row has no path of any alternative: it misses them all, the first alternative's
+		// standing for the rest.
+		partial = 0
+		e.missing = append(e.missing[:0], e.names[0]...)
+	}
+	row.Missing = e.missing
+	if typeErr != nil {
+		return 0, typeErr
+	}
+	if len(e.spec.alts) > 1 && len(e.missing) == len(e.names[partial]) {
+		return 0, &RowError{Kind: ErrNoText, Detail: "none of " + e.spec.String() + "; " + e.fieldsOf(v)}
+	}
+	detail := e.lack(v, partial)
+	if len(e.missing) < len(e.names[partial]) {
+		detail += " (of " + e.canon[partial] + ")"
+	}
+	return 0, &RowError{Kind: ErrNoText, Path: strings.Join(e.missing, ", "), Detail: detail + "; " + e.fieldsOf(v)}
+}
+
+// collectAlt appends the strings of each path of alternative ai below v and returns how many
+// paths gave one. With note, it records the names of the paths that gave none in e.missing.
+func (e *Extractor) collectAlt(v *fastjson.Value, ai int, note bool) (int, error) {
+	had := 0
+	for pi, pa := range e.spec.alts[ai] {
+		n := len(e.parts)
+		e.idx = e.idx[:0]
+		if err := e.collect(v, pa, 0); err != nil {
+			return had, err
+		}
+		if len(e.parts) > n {
+			had++
+		} else if note {
+			e.missing = append(e.missing, e.names[ai][pi])
+		}
+	}
+	return had, nil
+}
+
+// lack says how the missing paths of alternative ai are missing: absent, null, or there without
+// a string.
+func (e *Extractor) lack(v *fastjson.Value, ai int) string {
+	o, _ := v.Object()
+	var null, other int
+	for pi, pa := range e.spec.alts[ai] {
+		if !slices.Contains(e.missing, e.names[ai][pi]) {
+			continue
+		}
+		switch c := o.Get(pa[0].key); {
+		case c == nil:
+		case c.Type() == fastjson.TypeNull:
+			null++
+		default:
+			other++
+		}
+	}
+	switch {
+	case null == len(e.missing):
+		return "null"
+	case other == len(e.missing):
+		return "no string there"
+	case null+other == 0:
+		return "missing"
+	}
+	return "missing, null or without a string"
+}
+
+// Bounds on the fields a reason lists, so that a row of many or long keys gives a short reason.
+const (
+	maxFieldsShown   = 8
+	maxFieldKeyBytes = 40
+)
+
+// fieldsOf names the top-level fields of v, an object, for a reason: a misspelt path shows
+// beside the field it meant.
+func (e *Extractor) fieldsOf(v *fastjson.Value) string {
+	var b strings.Builder
+	n := 0
+	v.GetObject().Visit(func(k []byte, _ *fastjson.Value) {
+		n++
+		if n > maxFieldsShown {
+			return
+		}
+		if n > 1 {
+			b.WriteString(", ")
+		}
+		k = cutUTF8(k, maxFieldKeyBytes)
+		b.WriteString(strconv.Quote(string(k)))
+	})
+	switch {
+	case n == 0:
+		return "the row has no fields"
+	case n > maxFieldsShown:
+		fmt.Fprintf(&b, " and %d more", n-maxFieldsShown)
+	}
+	return "the row has " + b.String()
+}
+
+// cutUTF8 cuts b to at most n bytes without splitting a UTF-8 sequence.
+func cutUTF8(b []byte, n int) []byte {
+	if len(b) <= n {
+		return b
+	}
+	for n > 0 && !utf8.RuneStart(b[n]) {
+		n--
+	}
+	return b[:n]
+}
+
+// Keys calls fn with each top-level key of the row last given to Extract, when it was a JSON
+// object; the key is valid only during the call.
+func (e *Extractor) Keys(fn func(key []byte)) {
+	if e.last == nil {
+		return
+	}
+	e.last.GetObject().Visit(func(k []byte, _ *fastjson.Value) { fn(k) })
+}
+
+// parseError words an error of the JSON parser for a row.
+func parseError(err error, line []byte) error {
+	return &RowError{Kind: ErrNotJSON, Detail: err.Error()}
 }
 
 func invalidAt(b []byte) int {
@@ -277,7 +450,6 @@ func (e *Extractor) descend(c *fastjson.Value, pa path, i, arrays int) error {
 	if err != nil {
 		return e.badText(pa, i, pa[i].arrays, typeName(c)+", want a string")
 	}
-	e.found = true
 	e.parts = append(e.parts, s)
 	return nil
 }

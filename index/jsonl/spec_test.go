@@ -2,6 +2,7 @@ package jsonl
 
 import (
 	"errors"
+	"slices"
 	"strings"
 	"testing"
 )
@@ -10,28 +11,39 @@ func TestParseSpec(t *testing.T) {
 	tests := []struct {
 		in    string
 		canon string
-		paths []path
+		paths []path // of a spec of one alternative
+		alts  []alt  // of a spec of several
 	}{
-		{"prompt,completion", "prompt,completion", []path{{{key: "prompt"}}, {{key: "completion"}}}},
-		{"instruction,input,output", "instruction,input,output", []path{{{key: "instruction"}}, {{key: "input"}}, {{key: "output"}}}},
-		{"messages[].content", "messages[].content", []path{{{key: "messages", arrays: 1}, {key: "content"}}}},
-		{"conversations[].value", "conversations[].value", []path{{{key: "conversations", arrays: 1}, {key: "value"}}}},
-		{"a.b.c", "a.b.c", []path{{{key: "a"}, {key: "b"}, {key: "c"}}}},
-		{"turns[]", "turns[]", []path{{{key: "turns", arrays: 1}}}},
-		{"grid[][].cell", "grid[][].cell", []path{{{key: "grid", arrays: 2}, {key: "cell"}}}},
-		{" prompt , completion ", "prompt,completion", []path{{{key: "prompt"}}, {{key: "completion"}}}},
-		{"turns[] ,x", "turns[],x", []path{{{key: "turns", arrays: 1}}, {{key: "x"}}}},
-		{"input text", "input text", []path{{{key: "input text"}}}},
-		{"a .b", "a .b", []path{{{key: "a "}, {key: "b"}}}},
-		{`a\.b`, `a\.b`, []path{{{key: "a.b"}}}},
-		{`x\,y,\[z\]`, `x\,y,\[z\]`, []path{{{key: "x,y"}}, {{key: "[z]"}}}},
-		{`back\\slash`, `back\\slash`, []path{{{key: `back\slash`}}}},
-		{`\ lead`, `\ lead`, []path{{{key: " lead"}}}},
-		{`trail\ `, `trail\ `, []path{{{key: "trail "}}}},
-		{`\q`, `q`, []path{{{key: "q"}}}},
-		{"é.ключ", "é.ключ", []path{{{key: "é"}, {key: "ключ"}}}},
+		{"prompt,completion", "prompt,completion", []path{{{key: "prompt"}}, {{key: "completion"}}}, nil},
+		{"instruction,input,output", "instruction,input,output", []path{{{key: "instruction"}}, {{key: "input"}}, {{key: "output"}}}, nil},
+		{"messages[].content", "messages[].content", []path{{{key: "messages", arrays: 1}, {key: "content"}}}, nil},
+		{"conversations[].value", "conversations[].value", []path{{{key: "conversations", arrays: 1}, {key: "value"}}}, nil},
+		{"a.b.c", "a.b.c", []path{{{key: "a"}, {key: "b"}, {key: "c"}}}, nil},
+		{"turns[]", "turns[]", []path{{{key: "turns", arrays: 1}}}, nil},
+		{"grid[][].cell", "grid[][].cell", []path{{{key: "grid", arrays: 2}, {key: "cell"}}}, nil},
+		{" prompt , completion ", "prompt,completion", []path{{{key: "prompt"}}, {{key: "completion"}}}, nil},
+		{"turns[] ,x", "turns[],x", []path{{{key: "turns", arrays: 1}}, {{key: "x"}}}, nil},
+		{"input text", "input text", []path{{{key: "input text"}}}, nil},
+		{"a .b", "a .b", []path{{{key: "a "}, {key: "b"}}}, nil},
+		{`a\.b`, `a\.b`, []path{{{key: "a.b"}}}, nil},
+		{`x\,y,\[z\]`, `x\,y,\[z\]`, []path{{{key: "x,y"}}, {{key: "[z]"}}}, nil},
+		{`back\\slash`, `back\\slash`, []path{{{key: `back\slash`}}}, nil},
+		{`\ lead`, `\ lead`, []path{{{key: " lead"}}}, nil},
+		{`trail\ `, `trail\ `, []path{{{key: "trail "}}}, nil},
+		{`\q`, `q`, []path{{{key: "q"}}}, nil},
+		{"é.ключ", "é.ключ", []path{{{key: "é"}, {key: "ключ"}}}, nil},
+		// Alternatives: the first a row has in full gives its text.
+		{"prompt,completion|instruction,input,response", "prompt,completion|instruction,input,response", nil,
+			[]alt{{{{key: "prompt"}}, {{key: "completion"}}}, {{{key: "instruction"}}, {{key: "input"}}, {{key: "response"}}}}},
+		{" a , b | c ", "a,b|c", nil, []alt{{{{key: "a"}}, {{key: "b"}}}, {{{key: "c"}}}}},
+		{"turns[] |x", "turns[]|x", nil, []alt{{{{key: "turns", arrays: 1}}}, {{{key: "x"}}}}},
+		{"a,b|b", "a,b|b", nil, []alt{{{{key: "a"}}, {{key: "b"}}}, {{{key: "b"}}}}},
+		{`pipe\|key`, `pipe\|key`, []path{{{key: "pipe|key"}}}, nil},
 	}
 	for _, tt := range tests {
+		if tt.paths == nil && tt.alts == nil {
+			continue
+		}
 		sp, err := ParseSpec(tt.in)
 		if err != nil {
 			t.Errorf("ParseSpec(%q): %v", tt.in, err)
@@ -40,27 +52,18 @@ func TestParseSpec(t *testing.T) {
 		if got := sp.String(); got != tt.canon {
 			t.Errorf("ParseSpec(%q).String() = %q, want %q", tt.in, got, tt.canon)
 		}
-		if !equalPaths(sp.paths, tt.paths) {
-			t.Errorf("ParseSpec(%q) = %#v, want %#v", tt.in, sp.paths, tt.paths)
+		want := tt.alts
+		if want == nil {
+			want = []alt{tt.paths}
+		}
+		if !equalAlts(sp.alts, want) {
+			t.Errorf("ParseSpec(%q) = %#v, want %#v", tt.in, sp.alts, want)
 		}
 	}
 }
 
-func equalPaths(a, b []path) bool {
-	if len(a) != len(b) {
-		return false
-	}
-	for i := range a {
-		if len(a[i]) != len(b[i]) {
-			return false
-		}
-		for j := range a[i] {
-			if a[i][j] != b[i][j] {
-				return false
-			}
-		}
-	}
-	return true
+func equalAlts(a, b []alt) bool {
+	return slices.EqualFunc(a, b, func(x, y alt) bool { return slices.EqualFunc(x, y, path.equal) })
 }
 
 func TestParseSpecErrors(t *testing.T) {
@@ -86,6 +89,16 @@ func TestParseSpecErrors(t *testing.T) {
 		{`a\`, "at byte 1: backslash at end"},
 		{"a,b,a", "at byte 4: path \"a\" repeats path 1"},
 		{"a, a ", "at byte 3: path \"a\" repeats path 1"},
+		{"|a", "at byte 0: empty path"},
+		{"a|", "at byte 2: empty path"},
+		{"a||b", "at byte 2: empty path"},
+		{"a,|b", "at byte 2: empty path"},
+		{"a| ,b", "at byte 3: empty path"},
+		{"a,b|b,a", "at byte 4: alternative 2 repeats alternative 1"},
+		{"a|b|a", "at byte 4: alternative 3 repeats alternative 1"},
+		{"a|b,a", "at byte 2: alternative 2 can never be taken"},
+		{"x.y|z|x.y,w", "at byte 6: alternative 3 can never be taken: a row with all its fields has those of alternative 1"},
+		{"a|b[", "at byte 3: want"},
 	}
 	for _, tt := range tests {
 		_, err := ParseSpec(tt.in)
@@ -114,14 +127,15 @@ func TestShapes(t *testing.T) {
 		}
 	}
 	// Callers may keep and change the result; the next call must not see it.
-	shapes[0].paths[0][0].key = "changed"
+	shapes[0].alts[0][0][0].key = "changed"
 	if Shapes()[0].String() != shapeSpecs[0] {
 		t.Error("Shapes shares memory between calls")
 	}
 }
 
 func FuzzParseSpec(f *testing.F) {
-	for _, s := range []string{"prompt,completion", "messages[].content", `a\.b. c ,\ d\ `, "a[][].b", "a..b", `\`, "x[0]"} {
+	for _, s := range []string{"prompt,completion", "messages[].content", `a\.b. c ,\ d\ `, "a[][].b", "a..b", `\`, "x[0]",
+		"prompt,completion|instruction,input,response", "a|a", "a,b|b", "a|b,a", `x\||y`, "|", " a | b[] "} {
 		f.Add(s)
 	}
 	f.Fuzz(func(t *testing.T, s string) {
@@ -137,11 +151,24 @@ func FuzzParseSpec(f *testing.F) {
 		if err != nil {
 			t.Fatalf("ParseSpec(%q) ok, but its String %q fails: %v", s, canon, err)
 		}
-		if !equalPaths(sp.paths, sp2.paths) {
-			t.Fatalf("round trip of %q through %q: %#v != %#v", s, canon, sp.paths, sp2.paths)
+		if !equalAlts(sp.alts, sp2.alts) {
+			t.Fatalf("round trip of %q through %q: %#v != %#v", s, canon, sp.alts, sp2.alts)
 		}
 		if sp2.String() != canon {
 			t.Fatalf("String not canonical: %q -> %q", canon, sp2.String())
+		}
+		// The alternatives, each a spec of its own, join back to the spec.
+		var joined Spec
+		for i, a := range sp.Alternatives() {
+			if len(a.alts) != 1 {
+				t.Fatalf("alternative %d of %q is %q", i+1, canon, a)
+			}
+			if joined, err = joined.Or(a); err != nil {
+				t.Fatalf("joining the alternatives of %q: %v", canon, err)
+			}
+		}
+		if joined.String() != canon {
+			t.Fatalf("alternatives of %q join to %q", canon, joined)
 		}
 	})
 }
