@@ -2,6 +2,7 @@ package index
 
 import (
 	"bufio"
+	"bytes"
 	"context"
 	"crypto/sha256"
 	"encoding/binary"
@@ -21,8 +22,6 @@ import (
 	"syscall"
 	"unicode/utf8"
 	"unsafe"
-
-	"github.com/valyala/fastjson"
 
 	"sluice/index/analysis"
 	"sluice/index/atomicdir"
@@ -75,12 +74,6 @@ type Stats struct {
 	FirstDuplicate *Duplicate
 	// Quarantined counts, per source, the rows set aside, with the first of them.
 	Quarantined []SourceQuarantine
-}
-
-// SourceQuarantine is what one pool file lost to the quarantine.
-type SourceQuarantine struct {
-	Rows  int64
-	First *Reject
 }
 
 // RowError is a bad row met with Options.Strict.
@@ -202,6 +195,7 @@ type batchOut struct {
 	rows    []rowRec
 	ids     [][]byte
 	rejects []Reject
+	missing map[string]*missCount // by path of the text spec, the rows lacking it
 	blank   int64
 	err     error
 }
@@ -282,13 +276,22 @@ func Build(ctx context.Context, dir string, sources []string, opt Options) (*Sta
 		meta:  Meta{Format: Format, Version: Version, Analyzer: probe.Name(), AnalyzerChain: probe.Describe(), IDField: opt.ID, TokensField: opt.Tokens, MaxRowBytes: opt.MaxRowBytes, Command: opt.Command},
 		paths: sources,
 		tok:   tok,
+		held:  map[int]*heldHead{},
 	}
+	defer b.closeHeld()
 	if tok != nil {
 		b.meta.Tokenizer = opt.Tokenizer
 		if b.meta.TokenizerSHA256, err = FileSHA256(opt.Tokenizer); err != nil {
 			return nil, fmt.Errorf("build index: %w", err)
 		}
 	}
+	if opt.Text == "" {
+		if err := b.detectShapes(ctx); err != nil {
+			return nil, err
+		}
+	}
+	b.meta.Text = b.spec.String()
+	b.meta.Version = versionFor(b.spec)
 	st, err := b.run(ctx)
 	if err != nil {
 		return nil, err
@@ -312,6 +315,10 @@ type builder struct {
 	meta  Meta
 	tok   *tokens.Tokenizer // counts rows' tokens; nil without Options.Tokenizer
 	paths []string
+	// detected is, by source, the shape found in its first rows when no spec was given ("" for a
+	// file of blank lines); held the bytes detection read of each stream, to be read again.
+	detected []string
+	held     map[int]*heldHead
 
 	workers     []*worker
 	freeBatches chan *batch // batches workers are done with; its capacity bounds how many exist
@@ -338,10 +345,9 @@ func (b *builder) run(ctx context.Context) (*Stats, error) {
 	}
 	memPer := b.opt.Mem / int64(b.opt.Workers)
 	// Enough batches for every worker to hold one and the channel to it two each, and one for the
-	// reader. The sample read before the workers start may make up to sampleRows more, and the free
-	// channel must still take them all back.
+	// reader.
 	b.maxBatches = b.opt.Workers*3 + 2
-	b.freeBatches = make(chan *batch, b.maxBatches+sampleRows)
+	b.freeBatches = make(chan *batch, b.maxBatches)
 	var wg sync.WaitGroup
 	var werr error
 	var werrOnce sync.Once
@@ -356,34 +362,24 @@ func (b *builder) run(ctx context.Context) (*Stats, error) {
 		if b.tok != nil {
 			w.tok = b.tok.Clone()
 		}
+		var err error
+		if w.ex, err = jsonl.NewExtractor(b.spec, b.opt.ID, b.opt.Tokens); err != nil {
+			return nil, fmt.Errorf("build index: %w", err)
+		}
 		b.workers = append(b.workers, w)
 	}
 
-	// The reader detects the text shape from the first rows before any worker starts, so every
-	// worker gets the same spec.
-	var readErr, err error
+	var readErr error
 	readDone := make(chan struct{})
-	specReady := make(chan struct{})
 	go func() {
 		defer close(readDone)
 		defer close(batches)
-		readErr = b.read(ctx, batches, specReady)
+		readErr = b.read(ctx, batches)
 		if readErr != nil {
 			cancel()
 		}
 	}()
-	// readErr may be read only once the reader is done: past specReady it is still reading.
-	select {
-	case <-specReady:
-	case <-readDone:
-		if readErr != nil {
-			return nil, readErr
-		}
-	}
 	for _, w := range b.workers {
-		if w.ex, err = jsonl.NewExtractor(b.spec, b.opt.ID, b.opt.Tokens); err != nil {
-			return nil, fmt.Errorf("build index: %w", err)
-		}
 		wg.Add(1)
 		go func(w *worker) {
 			defer wg.Done()
@@ -406,6 +402,9 @@ func (b *builder) run(ctx context.Context) (*Stats, error) {
 	<-readDone
 	if err := firstCause(readErr, werr, cerr); err != nil {
 		return nil, err
+	}
+	for i := range b.meta.Sources {
+		b.meta.Sources[i].Rows = b.srcRows[i]
 	}
 	if err := ctx.Err(); err != nil {
 		return nil, err
@@ -462,11 +461,10 @@ func firstCause(errs ...error) error {
 }
 
 // newBatch hands the reader an empty batch. Past the first few it waits for one a worker has
-// finished with, which bounds the memory held in batches and saves zeroing a fresh buffer for each;
-// while the text shape is being detected it never waits, since no worker has started.
-func (b *builder) newBatch(ctx context.Context, seq, src int, detecting bool) (*batch, error) {
+// finished with, which bounds the memory held in batches and saves zeroing a fresh buffer for each.
+func (b *builder) newBatch(ctx context.Context, seq, src int) (*batch, error) {
 	var bt *batch
-	if !detecting && b.batches >= b.maxBatches {
+	if b.batches >= b.maxBatches {
 		select {
 		case bt = <-b.freeBatches:
 		case <-ctx.Done():
@@ -486,138 +484,18 @@ func (b *builder) newBatch(ctx context.Context, seq, src int, detecting bool) (*
 }
 
 // read streams every source into batches. It owns b.meta.Sources until it returns.
-func (b *builder) read(ctx context.Context, out chan<- *batch, specReady chan<- struct{}) (err error) {
+func (b *builder) read(ctx context.Context, out chan<- *batch) error {
 	seq := 0
-	ready := false
-	signal := func() {
-		if !ready {
-			ready = true
-			close(specReady)
-		}
-	}
-	// specReady stays open when reading fails before the spec is known, so that Build waits for
-	// the reader's error rather than starting workers without a spec.
-	defer func() {
-		if err == nil {
-			signal()
-		}
-	}()
-	var sample []*batch
-	flushSample := func() error {
-		if ready {
-			return nil
-		}
-		if b.opt.Text == "" {
-			var lines [][]byte
-			for _, bt := range sample {
-				for _, l := range bt.lines {
-					if !l.tooLong {
-						lines = append(lines, bt.buf[l.start:l.end])
-					}
-				}
-			}
-			spec, err := jsonl.Detect(lines)
-			if err != nil {
-				return fmt.Errorf("build index: %s: no --text given and %w", b.paths[0], err)
-			}
-			b.spec = spec
-			b.meta.TextDetected = true
-		}
-		b.meta.Text = b.spec.String()
-		signal()
-		for _, bt := range sample {
-			select {
-			case out <- bt:
-			case <-ctx.Done():
-				return ctx.Err()
-			}
-		}
-		sample = nil
-		return nil
-	}
-	sampled := 0
 	for si, path := range b.paths {
 		src, err := b.openSource(ctx, si, path)
 		if err != nil {
 			return err
 		}
-		sc := jsonl.NewScanner(src.r, b.opt.MaxRowBytes)
-		var sniff jsonl.Sniffer
-		sniffing := true
-		// cur is taken only when a line arrives, so a file ends with no batch held back.
-		var cur *batch
-		send := func() error {
-			if cur == nil {
-				return nil
-			}
-			if !ready {
-				sample = append(sample, cur)
-			} else {
-				select {
-				case out <- cur:
-				case <-ctx.Done():
-					return ctx.Err()
-				}
-			}
-			seq++
-			cur = nil
-			return nil
+		err = b.readSource(ctx, src, si, &seq, out)
+		if cerr := src.close(); err == nil {
+			err = cerr
 		}
-		for sc.Scan() {
-			if cur == nil {
-				if cur, err = b.newBatch(ctx, seq, si, !ready); err != nil {
-					src.close()
-					return err
-				}
-			}
-			line := sc.Bytes()
-			if !b.anyRow && (sc.TooLong() || !isBlank(line)) {
-				b.anyRow = true
-			}
-			if sniffing && sniff.Line(line) {
-				sniffing = false
-				if err := sniff.Err(); err != nil {
-					src.close()
-					return fmt.Errorf("read %s: %w", path, err)
-				}
-			}
-			ref := lineRef{off: sc.Offset(), n: sc.Len(), line: sc.Line(), tooLong: sc.TooLong()}
-			ref.start = len(cur.buf)
-			cur.buf = append(cur.buf, line...)
-			ref.end = len(cur.buf)
-			cur.lines = append(cur.lines, ref)
-			sampled++
-			if !ready && sampled >= sampleRows {
-				if err := send(); err != nil {
-					src.close()
-					return err
-				}
-				if err := flushSample(); err != nil {
-					src.close()
-					return err
-				}
-			} else if len(cur.buf) >= batchBytes || len(cur.lines) >= b.opt.batchRows {
-				if err := send(); err != nil {
-					src.close()
-					return err
-				}
-			}
-		}
-		if err := sc.Err(); err != nil {
-			src.close()
-			return fmt.Errorf("read %s: %w", path, err)
-		}
-		if sniffing {
-			if sniff.End(); sniff.Err() != nil {
-				src.close()
-				return fmt.Errorf("read %s: %w", path, sniff.Err())
-			}
-		}
-		if err := send(); err != nil {
-			src.close()
-			return err
-		}
-		if err := src.close(); err != nil {
+		if err != nil {
 			return err
 		}
 		m := src.meta()
@@ -626,15 +504,85 @@ func (b *builder) read(ctx context.Context, out chan<- *batch, specReady chan<- 
 				return err
 			}
 		}
+		if b.detected != nil {
+			m.Detected = b.detected[si]
+		}
 		b.meta.Sources = append(b.meta.Sources, m)
 	}
 	if !b.anyRow {
 		return fmt.Errorf("build index: no rows in %s, only blank lines or nothing: %w", strings.Join(b.paths, ", "), ErrEmptyPool)
 	}
-	if !ready && len(sample) == 0 && b.opt.Text == "" {
-		return fmt.Errorf("build index: %s: the pool is empty: %w", b.paths[0], jsonl.ErrNoShape)
+	return nil
+}
+
+// readSource splits one source into batches of lines, numbering the batches from *seq on.
+func (b *builder) readSource(ctx context.Context, src *source, si int, seq *int, out chan<- *batch) error {
+	path := b.paths[si]
+	sc := jsonl.NewScanner(src.r, b.opt.MaxRowBytes)
+	var sniff jsonl.Sniffer
+	sniffing := true
+	// cur is taken only when a line arrives, so a file ends with no batch held back.
+	var cur *batch
+	send := func() error {
+		if cur == nil {
+			return nil
+		}
+		select {
+		case out <- cur:
+		case <-ctx.Done():
+			return ctx.Err()
+		}
+		*seq++
+		cur = nil
+		return nil
 	}
-	return flushSample()
+	for sc.Scan() {
+		if cur == nil {
+			var err error
+			if cur, err = b.newBatch(ctx, *seq, si); err != nil {
+				return err
+			}
+		}
+		line := sc.Bytes()
+		if !b.anyRow && (sc.TooLong() || !isBlank(line)) {
+			b.anyRow = true
+		}
+		if sniffing && sniff.Line(line) {
+			sniffing = false
+			if err := sniff.Err(); err != nil {
+				return fmt.Errorf("read %s: %w", path, err)
+			}
+		}
+		ref := lineRef{off: sc.Offset(), n: sc.Len(), line: sc.Line(), tooLong: sc.TooLong()}
+		ref.start = len(cur.buf)
+		cur.buf = append(cur.buf, line...)
+		ref.end = len(cur.buf)
+		cur.lines = append(cur.lines, ref)
+		if len(cur.buf) >= batchBytes || len(cur.lines) >= b.opt.batchRows {
+			if err := send(); err != nil {
+				return err
+			}
+		}
+	}
+	if err := sc.Err(); err != nil {
+		return fmt.Errorf("read %s: %w", path, err)
+	}
+	if sniffing {
+		if sniff.End(); sniff.Err() != nil {
+			return fmt.Errorf("read %s: %w", path, sniff.Err())
+		}
+	}
+	return send()
+}
+
+// closeHeld closes the streams detection read that the build did not go on to read.
+func (b *builder) closeHeld() {
+	for si, h := range b.held {
+		if h.f != os.Stdin {
+			h.f.Close()
+		}
+		delete(b.held, si)
+	}
 }
 
 // locate returns how an index at dir finds the pool file path later: path itself when absolute,
@@ -726,7 +674,13 @@ func storedName(si int, path string) string {
 
 func (b *builder) openSource(ctx context.Context, si int, path string) (*source, error) {
 	s := &source{path: path, h: sha256.New(), prog: b.opt.Progress}
-	if path == "-" {
+	var raw io.Reader
+	if h := b.held[si]; h != nil {
+		// Detection read the head of this stream: it is read again from memory, then the rest.
+		delete(b.held, si)
+		s.f, s.stored = h.f, storedName(si, path)
+		raw = io.MultiReader(bytes.NewReader(h.head), h.f)
+	} else if path == "-" {
 		s.f, s.stored = os.Stdin, storedName(si, path)
 	} else {
 		f, err := os.Open(path)
@@ -747,7 +701,9 @@ func (b *builder) openSource(ctx context.Context, si int, path string) (*source,
 			s.stored = storedName(si, path)
 		}
 	}
-	var raw io.Reader = s.f
+	if raw == nil {
+		raw = s.f
+	}
 	if s.stored != "" {
 		st, err := os.Create(b.wd.path(s.stored))
 		if err != nil {
@@ -877,15 +833,18 @@ func (b *builder) collect(ctx context.Context, outs <-chan *batchOut) error {
 			if b.firstReject == nil && len(o.rejects) > 0 {
 				b.firstReject = &o.rejects[0]
 			}
-			if len(o.rejects) > 0 {
+			if len(o.rejects) > 0 || o.missing != nil {
 				for len(b.quarantined) <= o.src {
 					b.quarantined = append(b.quarantined, SourceQuarantine{})
 				}
 				q := &b.quarantined[o.src]
-				if q.First == nil {
+				if q.First == nil && len(o.rejects) > 0 {
 					q.First = &o.rejects[0]
 				}
 				q.Rows += int64(len(o.rejects))
+				if o.missing != nil {
+					q.addMissing(o.missing)
+				}
 			}
 			n := int64(len(o.rows))
 			b.meta.Rows += n
@@ -914,6 +873,9 @@ func (b *builder) collect(ctx context.Context, outs <-chan *batchOut) error {
 		}
 	}
 	b.srcRows = srcRows
+	for i := range b.quarantined {
+		b.quarantined[i].finishMissing()
+	}
 	return nil
 }
 
@@ -1055,6 +1017,9 @@ func (w *worker) do(bt *batch, paths []string) (*batchOut, error) {
 				w.st[id].count++
 			})
 		})
+		if len(row.Missing) > 0 {
+			o.noteMissing(row.Missing, l.line, w.ex)
+		}
 		if err != nil {
 			for _, id := range w.touched {
 				w.st[id].count = 0
@@ -1131,6 +1096,9 @@ func crcLine(line []byte, n int) uint32 {
 	return c
 }
 
+// utf8BOM is the UTF-8 byte-order mark, which some writers put at the start of a file.
+var utf8BOM = []byte("\xef\xbb\xbf")
+
 func isBlank(b []byte) bool {
 	for _, c := range b {
 		switch c {
@@ -1168,29 +1136,6 @@ func quoteRaw(b []byte) (raw string, escaped bool) {
 	return q[1 : len(q)-1], true
 }
 
-// WriteSummary writes what a build read and made, for people: rows, text fields, analyzer,
-// terms, repeated ids and the quarantine, with out the folder it was published as.
-func (st *Stats) WriteSummary(w io.Writer, out string) {
-	m := &st.Meta
-	how := "given"
-	if m.TextDetected {
-		how = "detected; pass --text to choose"
-	}
-	fmt.Fprintf(w, "indexed %d rows from %d file(s) into %s\n", m.Rows, len(m.Sources), out)
-	fmt.Fprintf(w, "  text fields   %s (%s)\n", m.Text, how)
-	fmt.Fprintf(w, "  analyzer      %s\n", m.Analyzer)
-	fmt.Fprintf(w, "  rows          read %d = indexed %d + quarantined %d (blank lines skipped: %d)\n", m.RowsRead, m.Rows, m.RowsRejected, m.BlankLines)
-	fmt.Fprintf(w, "  terms         %d distinct, %d postings, mean row length %.1f terms\n", m.Terms, m.Postings, m.AvgLen)
-	if d := st.FirstDuplicate; d != nil {
-		// Allowed, not quarantined: the rows are good, only their names clash.
-		fmt.Fprintf(w, "  ids           %d rows repeat an earlier row's id (kept; scores.jsonl is in input order), the first %s at %s:%d and %s:%d\n",
-			m.DuplicateIDs, strconv.Quote(d.ID), d.First.File, d.First.Line, d.Second.File, d.Second.Line)
-	}
-	if m.RowsRejected > 0 {
-		fmt.Fprintf(w, "  quarantine    %s/rejected.jsonl\n", out)
-	}
-}
-
 // FileSHA256 is the SHA-256 of a file, in hex: how indexes and runs name the exact files they read
 // (a tokenizer, a target, vectors).
 func FileSHA256(path string) (string, error) {
@@ -1204,44 +1149,4 @@ func FileSHA256(path string) (string, error) {
 		return "", fmt.Errorf("read %s: %w", path, err)
 	}
 	return hex.EncodeToString(h.Sum(nil)), nil
-}
-
-// quarantineWarnShare is the share of a file's rows set aside past which the summary warns: a few
-// bad rows are the norm in scraped pools, a tenth of a file is most often fields named otherwise.
-const quarantineWarnShare = 0.05
-
-// WriteWarnings says loudly which files lost more than a few rows to the quarantine, with the
-// first one and the text fields its rows do hold, so that a pool mixing field names is not indexed
-// by halves without a word.
-func (st *Stats) WriteWarnings(w io.Writer) {
-	for i, q := range st.Quarantined {
-		if q.First == nil || i >= len(st.Sources) {
-			continue
-		}
-		read := st.Sources[i].Rows + q.Rows
-		if float64(q.Rows) <= quarantineWarnShare*float64(read) {
-			continue
-		}
-		fmt.Fprintf(w, "warning: %s: %d of its %d rows (%.0f%%) were quarantined; the first, line %d: %s\n",
-			st.Sources[i].Path, q.Rows, read, 100*float64(q.Rows)/float64(read), q.First.Line, q.First.Reason)
-		if fields := stringFields(q.First.Raw); fields != "" {
-			fmt.Fprintf(w, "  its rows hold the text fields %s: an index reads one text spec, so index this file on its own with --text %s\n", fields, fields)
-		}
-	}
-}
-
-// stringFields names the top-level fields of a JSON row whose values are strings, for a --text
-// suggestion; "" when the row is not a JSON object.
-func stringFields(raw string) string {
-	v, err := fastjson.Parse(raw)
-	if err != nil || v.Type() != fastjson.TypeObject {
-		return ""
-	}
-	var names []string
-	v.GetObject().Visit(func(k []byte, e *fastjson.Value) {
-		if e.Type() == fastjson.TypeString && !strings.ContainsAny(string(k), ",[].") {
-			names = append(names, string(k))
-		}
-	})
-	return strings.Join(names, ",")
 }

@@ -9,16 +9,49 @@ import (
 	"io"
 	"io/fs"
 	"os"
+	"strings"
 
 	"sluice/index/jsonl"
 )
 
 // Format and Version name the on-disk layout. Version changes whenever a file's encoding changes, so an
-// older sluice refuses a newer index instead of misreading it.
+// older sluice refuses a newer index instead of misreading it. Version is the newest this sluice
+// reads and writes; it reads every version from 1.
+//
+// Version 2 differs from 1 in meta.json's text spec alone, which may hold alternatives ("|"), a
+// meaning a version-1 reader would take for part of a key. An index whose spec has one alternative
+// is written as version 1, which every sluice reads alike.
 const (
 	Format  = "sluice-index"
-	Version = 1
+	Version = 2
 )
+
+// versionFor is the version an index with text spec sp is written as: the oldest that reads it.
+func versionFor(sp jsonl.Spec) int {
+	if len(sp.Alternatives()) > 1 {
+		return 2
+	}
+	return 1
+}
+
+// v1Spec rewrites a text spec written by version 1, where "|" was a character of a key, in the
+// syntax of today's, where it separates alternatives unless escaped.
+func v1Spec(text string) string {
+	var b strings.Builder
+	for i := 0; i < len(text); i++ {
+		switch c := text[i]; {
+		case c == '\\' && i+1 < len(text):
+			b.WriteByte(c)
+			i++
+			b.WriteByte(text[i])
+		case c == '|':
+			b.WriteString(`\|`)
+		default:
+			b.WriteByte(c)
+		}
+	}
+	return b.String()
+}
 
 // File names inside an index folder.
 const (
@@ -87,6 +120,9 @@ type Source struct {
 	SHA256      string `json:"sha256"`
 	Compression string `json:"compression"`
 	Rows        int64  `json:"rows"`
+	// Detected is the text shape found in the file's first rows when the build was given no spec;
+	// the index's spec holds every file's, as alternatives.
+	Detected string `json:"detected_text,omitempty"`
 }
 
 // File is the checksum of one file of the index folder.
@@ -149,8 +185,11 @@ func readMetaAt(d *os.File, dir string) (*Meta, error) {
 	if m.Format != Format {
 		return nil, fmt.Errorf("open index %s: format %q: %w", dir, m.Format, ErrNotIndex)
 	}
-	if m.Version != Version {
-		return nil, fmt.Errorf("open index %s: version %d, this sluice reads version %d (rebuild the index): %w", dir, m.Version, Version, ErrVersion)
+	if m.Version < 1 || m.Version > Version {
+		return nil, fmt.Errorf("open index %s: version %d, this sluice reads versions 1 to %d (rebuild the index): %w", dir, m.Version, Version, ErrVersion)
+	}
+	if m.Version == 1 {
+		m.Text = v1Spec(m.Text)
 	}
 	return &m, nil
 }

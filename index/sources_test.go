@@ -1,8 +1,6 @@
 package index
 
 import (
-	"context"
-	"fmt"
 	"os"
 	"path/filepath"
 	"slices"
@@ -37,33 +35,5 @@ func TestSources(t *testing.T) {
 	}
 	if _, _, err := Sources([]string{filepath.Join(dir, "none")}); err == nil || !strings.Contains(err.Error(), "no such file") {
 		t.Errorf("a missing file: %v", err)
-	}
-}
-
-// TestQuarantineWarning: a file that loses more than a few rows to the quarantine is named, with
-// its first bad row and the text fields its rows do hold; before, only a count was printed.
-func TestQuarantineWarning(t *testing.T) {
-	dir := t.TempDir()
-	a, b := filepath.Join(dir, "a.jsonl"), filepath.Join(dir, "b.jsonl")
-	var sa, sb strings.Builder
-	for i := range 40 {
-		fmt.Fprintf(&sa, "{\"prompt\":\"ferry timetable %d\",\"completion\":\"yes\"}\n", i)
-	}
-	for i := range 10 {
-		fmt.Fprintf(&sb, "{\"instruction\":\"write code %d\",\"response\":\"print(1)\"}\n", i)
-	}
-	os.WriteFile(a, []byte(sa.String()), 0o644)
-	os.WriteFile(b, []byte(sb.String()), 0o644)
-	st, err := Build(context.Background(), filepath.Join(dir, "idx"), []string{a, b}, Options{})
-	if err != nil {
-		t.Fatal(err)
-	}
-	var w strings.Builder
-	st.WriteWarnings(&w)
-	if !strings.Contains(w.String(), "b.jsonl: 10 of its 10 rows (100%) were quarantined") || !strings.Contains(w.String(), "--text instruction,response") {
-		t.Errorf("warnings: %q", w.String())
-	}
-	if strings.Contains(w.String(), "a.jsonl") {
-		t.Errorf("a file that lost nothing is warned of: %q", w.String())
 	}
 }

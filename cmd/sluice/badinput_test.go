@@ -424,7 +424,7 @@ func TestBadPickInput(t *testing.T) {
 		{"budget below the selection cost", with("--budget", "10"), 1, []string{"the selection cost alone", "exceeds the budget of 1.000e+01 FLOPs", "nothing was written"}},
 		{"damaged postings", with("--index", "idx-flipped"), 1, []string{"open index idx-flipped: postings checksum", "index is damaged"}},
 		{"cut rows file", with("--index", "idx-cut"), 1, []string{"open index idx-cut: rows is 10 bytes", "index is damaged"}},
-		{"other format version", with("--index", "idx-version"), 1, []string{"open index idx-version: version 99, this sluice reads version 1 (rebuild the index)"}},
+		{"other format version", with("--index", "idx-version"), 1, []string{"open index idx-version: version 99, this sluice reads versions 1 to 2 (rebuild the index)"}},
 		{"not an index", with("--index", "."), 1, []string{"not a sluice index"}},
 		{"other analyzer", with("--analyzer", "plain"), 1, []string{"index idx was built with the english analyzer, not plain as --analyzer asks"}},
 		{"unknown analyzer", with("--analyzer", "klingon"), 2, []string{`--analyzer "klingon": give english or plain`}},

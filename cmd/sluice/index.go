@@ -23,7 +23,7 @@ func (*indexCmd) summary() string { return "stream JSONL pool files into a persi
 func (*indexCmd) flags() *pflag.FlagSet {
 	fs := newFlags("index")
 	fs.String("out", "", "index folder to write (required)")
-	fs.String("text", "", "JSON paths of the text fields, comma-separated; [] walks an array (default: detect)")
+	fs.String("text", "", "JSON paths of the text fields, comma-separated; [] walks an array; | separates alternatives\n(default: detect each file's)")
 	fs.String("id", "", "field holding each row's id (default: file:line)")
 	fs.String("tokens", "", "field holding each row's token count for the ledger (default: UTF-8 bytes / 4)")
 	fs.String("tokenizer", "", "count each row's tokens for the ledger with this tokenizer file (a tokenizer.json of byte-level\nBPE, or GPT-2's vocab.json/merges.txt), as the model to be trained will; default: UTF-8 bytes / 4")

@@ -119,3 +119,33 @@ func (w *Extractor) fits(v *fastjson.Value, sh Spec) bool {
 	}
 	return true
 }
+
+// Suggest returns a spec that reads the text of line, a JSON object: the first known shape it
+// fits, else its top-level fields that hold strings, in row order. ok is false when line is not
+// an object or has no such field. It words advice, such as a --text for rows a spec missed.
+func Suggest(line []byte) (sp Spec, ok bool) {
+	var (
+		p fastjson.Parser
+		w Extractor
+	)
+	v, err := p.ParseBytes(bytes.TrimPrefix(line, bom))
+	if err != nil || v.Type() != fastjson.TypeObject {
+		return Spec{}, false
+	}
+	for _, sh := range Shapes() {
+		if w.fits(v, sh) {
+			return sh, true
+		}
+	}
+	var a alt
+	v.GetObject().Visit(func(k []byte, e *fastjson.Value) {
+		pa := path{{key: string(k)}}
+		if len(k) > 0 && e.Type() == fastjson.TypeString && !slices.ContainsFunc(a, pa.equal) {
+			a = append(a, pa)
+		}
+	})
+	if len(a) == 0 {
+		return Spec{}, false
+	}
+	return Spec{alts: []alt{a}}, true
+}

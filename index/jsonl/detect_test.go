@@ -163,3 +163,27 @@ func TestDetectJSONArray(t *testing.T) {
 		t.Errorf("Detect of a JSON array: %v", err)
 	}
 }
+
+func TestSuggest(t *testing.T) {
+	for _, tt := range []struct {
+		line, want string
+	}{
+		{`{"instruction":"a","input":"","response":"b","n":1}`, "instruction,input,response"},
+		{`{"title":"a","n":1,"body":"b","title":"c"}`, "title,body"},
+		{`{"a.b":"x","":"y"}`, `a\.b`},
+		{"\xef\xbb\xbf{\"text\":\"t\"}", "text"},
+		{`{"n":1}`, ""},
+		{`[1]`, ""},
+		{`{bad`, ""},
+	} {
+		sp, ok := Suggest([]byte(tt.line))
+		if ok != (tt.want != "") || ok && sp.String() != tt.want {
+			t.Errorf("Suggest(%s) = %q, %v; want %q", tt.line, sp, ok, tt.want)
+		}
+		if ok {
+			if _, err := ParseSpec(sp.String()); err != nil {
+				t.Errorf("Suggest(%s) = %q, which does not parse: %v", tt.line, sp, err)
+			}
+		}
+	}
+}
