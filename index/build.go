@@ -955,6 +955,7 @@ func (w *worker) do(bt *batch, paths []string) (*batchOut, error) {
 	for _, l := range bt.lines {
 		line := bt.buf[l.start:l.end]
 		reject := func(reason string, cause error) error {
+			reason = cutReason(reason, MaxReasonBytes)
 			if w.strict {
 				return &RowError{File: file, Line: l.line, Offset: l.off, Reason: reason, Err: cause}
 			}
@@ -1027,7 +1028,7 @@ func (w *worker) do(bt *batch, paths []string) (*batchOut, error) {
 			reason := reasonOf(err)
 			if l.n == len(line) && errors.Is(err, jsonl.ErrNotJSON) {
 				// Only the last line of a file can lack its newline.
-				reason += "; it is the last line and has no newline: the file may have been cut short"
+				reason = cutReason(reason, MaxReasonBytes-len(cutShort)) + cutShort
 			}
 			if err := reject(reason, err); err != nil {
 				return nil, err
@@ -1110,10 +1111,30 @@ func isBlank(b []byte) bool {
 	return true
 }
 
+// MaxReasonBytes bounds the reason a bad row is given, in the quarantine and in a --strict error:
+// a reason may quote the row's values and fields, and a hostile row must not make it long.
+const MaxReasonBytes = 300
+
 // reasonOf words a row error for the quarantine; jsonl's errors already say kind, field and detail.
 func reasonOf(err error) string {
-	return err.Error()
+	return cutReason(err.Error(), MaxReasonBytes)
 }
+
+// cutReason cuts s to at most n bytes, at a character, marking the cut.
+func cutReason(s string, n int) string {
+	if len(s) <= n {
+		return s
+	}
+	const more = " …"
+	n -= len(more)
+	for n > 0 && !utf8.RuneStart(s[n]) {
+		n--
+	}
+	return s[:n] + more
+}
+
+// cutShort is added to the reason of a malformed last line without a newline.
+const cutShort = "; it is the last line and has no newline: the file may have been cut short"
 
 // quoteRaw keeps the bytes of a bad row, at most MaxRawBytes of them, in a form JSON can carry:
 // valid UTF-8 stays readable, anything else is escaped as in a Go string literal and escaped is

@@ -261,3 +261,45 @@ func TestV1Spec(t *testing.T) {
 		}
 	}
 }
+
+// TestReasonsBounded: a bad row's reason stays short, whatever the row: before, a row nested a few
+// thousand deep was reasoned in 14 KB, one "cannot parse" per level. The row's file and line stand
+// beside the reason, in the quarantine and in a --strict error.
+func TestReasonsBounded(t *testing.T) {
+	for _, tc := range []struct {
+		name, row string
+		want      string
+	}{
+		{"deep arrays", `{"text":` + strings.Repeat("[", 5000) + strings.Repeat("]", 5000) + "}", "nested 5001 levels deep, past the parser's limit of 300"},
+		{"deep objects", `{"text":` + strings.Repeat(`{"a":`, 3000) + "1" + strings.Repeat("}", 3000) + "}", "nested 3001 levels deep"},
+		{"deep, cut off", "[" + strings.Repeat("[", 100000), "nested 100001 levels deep"},
+		{"long bad id", `{"id":0` + strings.Repeat("1", 20000) + `,"text":"t"}`, "bad id: id: \"01111"},
+		{"long key", `{"` + strings.Repeat("k", 5000) + `":"v"}`, `no text: text: missing; the row has "kkkk`},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			dir := t.TempDir()
+			pool := writeRows(t, dir, "pool.jsonl", 3, func(i int) string {
+				if i == 1 {
+					return tc.row
+				}
+				return fmt.Sprintf(`{"id":%d,"text":"ferry %d"}`, i, i)
+			})
+			st, err := Build(context.Background(), filepath.Join(dir, "idx"), []string{pool}, Options{Text: "text", ID: "id"})
+			if err != nil {
+				t.Fatal(err)
+			}
+			r := st.Quarantined[0].First
+			if r == nil || r.File != pool || r.Line != 2 || len(r.Reason) > MaxReasonBytes || !strings.Contains(r.Reason, tc.want) {
+				t.Fatalf("quarantined %+v; want line 2, a reason of at most %d bytes holding %q", r, MaxReasonBytes, tc.want)
+			}
+			_, err = Build(context.Background(), filepath.Join(dir, "idx2"), []string{pool}, Options{Text: "text", ID: "id", Strict: true})
+			var re *RowError
+			if !errors.As(err, &re) || !strings.HasPrefix(err.Error(), pool+":2: ") || len(re.Reason) > MaxReasonBytes {
+				t.Errorf("--strict: %.400v", err)
+			}
+		})
+	}
+	if got := cutReason("a€€", 6); got != "a …" {
+		t.Errorf("cutReason = %q", got)
+	}
+}

@@ -360,9 +360,53 @@ func (e *Extractor) Keys(fn func(key []byte)) {
 	e.last.GetObject().Visit(func(k []byte, _ *fastjson.Value) { fn(k) })
 }
 
-// parseError words an error of the JSON parser for a row.
+// parseError words an error of the JSON parser for a row. The parser says "cannot parse ..." once
+// for every level it was in, so a row nested a few thousand deep would be reasoned in kilobytes:
+// only the outermost and the innermost levels are kept, and a row nested past the parser's limit
+// is said to be so, with its depth.
 func parseError(err error, line []byte) error {
-	return &RowError{Kind: ErrNotJSON, Detail: err.Error()}
+	if d := depth(line); d > fastjson.MaxDepth {
+		return &RowError{Kind: ErrNotJSON, Detail: fmt.Sprintf("nested %d levels deep, past the parser's limit of %d", d, fastjson.MaxDepth)}
+	}
+	msg := err.Error()
+	head, tail, hasTail := strings.Cut(msg, "; unparsed tail: ")
+	parts := strings.Split(head, ": ")
+	last := 0
+	for i, p := range parts {
+		if strings.HasPrefix(p, "cannot parse ") {
+			last = i
+		}
+	}
+	if last > 1 {
+		parts = append(parts[:1], parts[last:]...)
+		msg = strings.Join(parts, ": ")
+		if hasTail {
+			msg += "; unparsed tail: " + tail
+		}
+	}
+	return &RowError{Kind: ErrNotJSON, Detail: msg}
+}
+
+// depth returns how deeply the arrays and objects of a JSON text nest, strings left out. It reads
+// a malformed text as far as it goes.
+func depth(b []byte) int {
+	d, deepest := 0, 0
+	for i := 0; i < len(b); i++ {
+		switch b[i] {
+		case '[', '{':
+			d++
+			deepest = max(deepest, d)
+		case ']', '}':
+			d--
+		case '"':
+			for i++; i < len(b) && b[i] != '"'; i++ {
+				if b[i] == '\\' {
+					i++
+				}
+			}
+		}
+	}
+	return deepest
 }
 
 func invalidAt(b []byte) int {
