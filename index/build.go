@@ -544,6 +544,14 @@ func (b *builder) readSource(ctx context.Context, src *source, si int, seq *int,
 			}
 		}
 		line := sc.Bytes()
+		ref := lineRef{off: sc.Offset(), n: sc.Len(), line: sc.Line(), tooLong: sc.TooLong()}
+		if bytes.HasPrefix(line, utf8BOM) {
+			// A byte-order mark is no part of the row: left in, a kept row would carry it into the
+			// middle of kept.jsonl.
+			line = line[len(utf8BOM):]
+			ref.off += int64(len(utf8BOM))
+			ref.n -= len(utf8BOM)
+		}
 		if !b.anyRow && (sc.TooLong() || !isBlank(line)) {
 			b.anyRow = true
 		}
@@ -553,7 +561,6 @@ func (b *builder) readSource(ctx context.Context, src *source, si int, seq *int,
 				return fmt.Errorf("read %s: %w", path, err)
 			}
 		}
-		ref := lineRef{off: sc.Offset(), n: sc.Len(), line: sc.Line(), tooLong: sc.TooLong()}
 		ref.start = len(cur.buf)
 		cur.buf = append(cur.buf, line...)
 		ref.end = len(cur.buf)

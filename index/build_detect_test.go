@@ -303,3 +303,55 @@ func TestReasonsBounded(t *testing.T) {
 		t.Errorf("cutReason = %q", got)
 	}
 }
+
+// TestBOMNotPartOfRow: a byte-order mark at the start of a line is left out of the row's span, so
+// a copied row is the line without it and the rest byte for byte; before, the first row of a file
+// that began with one carried it into the middle of kept.jsonl.
+func TestBOMNotPartOfRow(t *testing.T) {
+	const bom = "\xef\xbb\xbf"
+	for _, tc := range []struct {
+		name, data string
+		want       string // the rows copied
+		blank      int64
+		reject     int64 // offset of the one row quarantined, or -1
+	}{
+		{"first line", bom + `{"text":"ferry"}` + "\n" + `{"text":"tide"}` + "\n", `{"text":"ferry"}` + "\n" + `{"text":"tide"}` + "\n", 0, -1},
+		{"CRLF kept", bom + "{\"text\":\"ferry\"}\r\n", "{\"text\":\"ferry\"}\r\n", 0, -1},
+		{"a later file's, concatenated", `{"text":"ferry"}` + "\n" + bom + `{"text":"tide"}`, `{"text":"ferry"}` + "\n" + `{"text":"tide"}` + "\n", 0, -1},
+		{"only a BOM", bom + "\n" + `{"text":"ferry"}` + "\n", `{"text":"ferry"}` + "\n", 1, -1},
+		{"bad row", bom + `{"text":` + "\n" + `{"text":"ferry"}` + "\n", `{"text":"ferry"}` + "\n", 0, 3},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			dir := t.TempDir()
+			pool := filepath.Join(dir, "pool.jsonl")
+			os.WriteFile(pool, []byte(tc.data), 0o644)
+			idx := filepath.Join(dir, "idx")
+			st, err := Build(context.Background(), idx, []string{pool}, Options{Text: "text"})
+			if err != nil {
+				t.Fatal(err)
+			}
+			if st.BlankLines != tc.blank {
+				t.Errorf("%d blank lines, want %d", st.BlankLines, tc.blank)
+			}
+			if r := st.Quarantined; tc.reject >= 0 && (len(r) == 0 || r[0].First.Offset != tc.reject || strings.HasPrefix(r[0].First.Raw, bom)) {
+				t.Errorf("quarantine %+v, want the row at offset %d without its BOM", r, tc.reject)
+			}
+			ix, err := Open(idx)
+			if err != nil {
+				t.Fatal(err)
+			}
+			defer ix.Close()
+			var got bytes.Buffer
+			rows := make([]int, ix.NumRows())
+			for i := range rows {
+				rows[i] = i
+			}
+			if err := ix.CopyRows(&got, rows); err != nil {
+				t.Fatal(err)
+			}
+			if got.String() != tc.want {
+				t.Errorf("copied %q, want %q", got.String(), tc.want)
+			}
+		})
+	}
+}
