@@ -3,6 +3,8 @@ package atomicdir
 import (
 	"errors"
 	"fmt"
+	"io/fs"
+	"math/rand/v2"
 	"os"
 	"path/filepath"
 	"strconv"
@@ -25,14 +27,14 @@ func Temp(dir string) (string, error) {
 	parent, prefix := filepath.Dir(clean), "."+filepath.Base(clean)+".tmp-"
 	// A missing parent is made, as a user naming run/2026-12/support expects; CheckOut has made
 	// sure the nearest one that exists is a plain folder.
-	if err := os.MkdirAll(parent, 0o755); err != nil {
+	if err := os.MkdirAll(parent, 0o777); err != nil {
 		return "", fmt.Errorf("make a working folder beside %s: %w", dir, pathless(err))
 	}
 	removeStale(parent, prefix)
 	// Another process's clean-up may take a folder in the moment between its making and its lock;
 	// it then removes it, and another is made.
 	for range 3 {
-		made, err := os.MkdirTemp(parent, prefix+strconv.Itoa(os.Getpid())+"-")
+		made, err := mkdirFresh(parent, prefix+strconv.Itoa(os.Getpid())+"-")
 		if err != nil {
 			return "", fmt.Errorf("make a working folder beside %s: %w", dir, pathless(err))
 		}
@@ -46,6 +48,41 @@ func Temp(dir string) (string, error) {
 		}
 	}
 	return "", fmt.Errorf("make a working folder beside %s: other processes' clean-ups keep removing it", dir)
+}
+
+// mkdirFresh makes a new folder in parent named prefix and a random number, with the mode a plain
+// mkdir gives: 0777 less the umask (and whatever a default ACL of parent adds). os.MkdirTemp
+// would make it 0700, and the folder keeps its mode when published, so every index or run would be
+// private whatever the user's umask says. Asking the kernel for 0777 lets it apply the umask
+// itself, as it does for mkdir(1): reading the umask takes syscall.Umask, which sets it too, and
+// between setting and restoring it another goroutine's files would be made with the wrong mode.
+func mkdirFresh(parent, prefix string) (string, error) {
+	for range 10000 {
+		name := filepath.Join(parent, prefix+strconv.FormatUint(uint64(rand.Uint32()), 10))
+		err := os.Mkdir(name, 0o777)
+		if err == nil {
+			return name, nil
+		}
+		if !errors.Is(err, fs.ErrExist) {
+			return "", err
+		}
+	}
+	return "", &os.PathError{Op: "mkdir", Path: filepath.Join(parent, prefix+"*"), Err: fs.ErrExist}
+}
+
+// TempFile creates a new file beside path, named after it with a dot before and a random number
+// after, for the caller to fill, sync and rename onto path. Its mode is what os.Create gives, 0666
+// less the umask, which os.CreateTemp (0600) would not.
+func TempFile(path string) (*os.File, error) {
+	clean := filepath.Clean(path)
+	prefix := filepath.Join(filepath.Dir(clean), "."+filepath.Base(clean)+".tmp-")
+	for range 10000 {
+		f, err := os.OpenFile(prefix+strconv.FormatUint(uint64(rand.Uint32()), 10), os.O_RDWR|os.O_CREATE|os.O_EXCL, 0o666)
+		if !errors.Is(err, fs.ErrExist) {
+			return f, err
+		}
+	}
+	return nil, &os.PathError{Op: "open", Path: prefix + "*", Err: fs.ErrExist}
 }
 
 // lockWorking locks the working folder made and renames it to its final name, which adds the number

@@ -221,3 +221,42 @@ func TestErrorsNameDestination(t *testing.T) {
 		}
 	}
 }
+
+// TestModesFollowUmask checks that a published folder, and a file made by TempFile, have the mode
+// mkdir and creat give under the process umask, not MkdirTemp's and CreateTemp's private ones. It
+// sets the umask of the whole process, so it must not run in parallel with anything.
+func TestModesFollowUmask(t *testing.T) {
+	for _, umask := range []int{0o022, 0o002, 0o027, 0o077, 0o000} {
+		t.Run(fmt.Sprintf("%03o", umask), func(t *testing.T) {
+			old := unix.Umask(umask)
+			defer unix.Umask(old)
+			root := t.TempDir()
+			dir := filepath.Join(root, "deep", "out")
+			tmp, err := Temp(dir)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if err := Publish(tmp, dir); err != nil {
+				t.Fatal(err)
+			}
+			f, err := TempFile(filepath.Join(root, "page.html"))
+			if err != nil {
+				t.Fatal(err)
+			}
+			f.Close()
+			wantDir, wantFile := os.FileMode(0o777&^umask), os.FileMode(0o666&^umask)
+			for _, c := range []struct {
+				path string
+				want os.FileMode
+			}{{dir, wantDir}, {filepath.Dir(dir), wantDir}, {f.Name(), wantFile}} {
+				fi, err := os.Stat(c.path)
+				if err != nil {
+					t.Fatal(err)
+				}
+				if got := fi.Mode().Perm(); got != c.want {
+					t.Errorf("%s: mode %03o, want %03o", c.path, got, c.want)
+				}
+			}
+		})
+	}
+}

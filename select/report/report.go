@@ -500,7 +500,7 @@ func (rep *Page) WriteFile(out string) error {
 	if err := reportPage.Execute(&buf, rep); err != nil {
 		return fmt.Errorf("report: %w", err)
 	}
-	f, err := os.CreateTemp(filepath.Dir(out), "."+filepath.Base(out)+".tmp-*")
+	f, err := atomicdir.TempFile(out)
 	if err != nil {
 		return fmt.Errorf("write %s: %w", out, err)
 	}
@@ -510,9 +510,6 @@ func (rep *Page) WriteFile(out string) error {
 	}
 	if cerr := f.Close(); err == nil {
 		err = cerr
-	}
-	if err == nil {
-		err = os.Chmod(f.Name(), 0o644)
 	}
 	if err == nil {
 		err = os.Rename(f.Name(), out)
