@@ -2,8 +2,11 @@ package run
 
 import (
 	"bufio"
+	"bytes"
 	"encoding/json"
+	"errors"
 	"fmt"
+	"io"
 	"math"
 	"os"
 	"path/filepath"
@@ -76,13 +79,15 @@ func (s *Score) UnmarshalJSON(b []byte) error {
 	return nil
 }
 
-// maxScoreLine bounds one line of scores.jsonl: it holds two ids, each up to what the index took.
-const maxScoreLine = 16 << 20
-
 // EachScoreLine calls fn with every line of the run's scores.jsonl and its row number. The bytes
 // are only valid during the call. An error of fn comes back with the file and line it was on.
 // Callers that need only a few fields parse them from the line themselves, so that a pass over
 // millions of rows does not decode every field.
+//
+// A line is read whatever its length: it holds up to three ids (the row's, the row kept in its
+// place, its best target row), each as long as the line the index or the target reader took it
+// from (--max-row-bytes) and up to six times that once escaped, so no fixed limit would fit every
+// run that a pick can write. Memory is one buffer of the longest line.
 func EachScoreLine(dir string, fn func(row int, line []byte) error) error {
 	path := filepath.Join(dir, ScoresFile)
 	f, err := os.Open(path)
@@ -90,17 +95,32 @@ func EachScoreLine(dir string, fn func(row int, line []byte) error) error {
 		return fmt.Errorf("read run %s: %w", dir, err)
 	}
 	defer f.Close()
-	sc := bufio.NewScanner(f)
-	sc.Buffer(nil, maxScoreLine)
-	for row := 0; sc.Scan(); row++ {
-		if err := fn(row, sc.Bytes()); err != nil {
-			return fmt.Errorf("read %s:%d: %w", path, row+1, err)
+	br := bufio.NewReaderSize(f, 1<<16)
+	var long []byte // a line longer than br's buffer, gathered
+	for row := 0; ; {
+		line, err := br.ReadSlice('\n')
+		if errors.Is(err, bufio.ErrBufferFull) {
+			long = append(long, line...)
+			continue
+		}
+		if err != nil && !errors.Is(err, io.EOF) {
+			return fmt.Errorf("read %s: %w", path, err)
+		}
+		if len(long) > 0 {
+			line = append(long, line...)
+			long = line[:0]
+		}
+		if len(line) > 0 {
+			line = bytes.TrimSuffix(line, []byte("\n"))
+			if ferr := fn(row, bytes.TrimSuffix(line, []byte("\r"))); ferr != nil {
+				return fmt.Errorf("read %s:%d: %w", path, row+1, ferr)
+			}
+			row++
+		}
+		if err != nil {
+			return nil
 		}
 	}
-	if err := sc.Err(); err != nil {
-		return fmt.Errorf("read %s: %w", path, err)
-	}
-	return nil
 }
 
 // EachScore calls fn with every line of the run's scores.jsonl, decoded.

@@ -1,0 +1,89 @@
+package run
+
+import (
+	"context"
+	"encoding/json"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+
+	"sluice/index"
+)
+
+// TestEachScoreLineAnyLength reads scores.jsonl files whose lines are longer than any buffer (a
+// scores line holds up to three ids, each as long as the row the index took), ending with or
+// without a newline, with CRLF and empty lines, and checks every line comes back whole.
+func TestEachScoreLineAnyLength(t *testing.T) {
+	long := strings.Repeat("a", 17<<20)
+	for _, tc := range []struct {
+		name, file string
+		want       []string
+	}{
+		{"short", "{}\n{}\n", []string{"{}", "{}"}},
+		{"no final newline", "{}\n{}", []string{"{}", "{}"}},
+		{"crlf and empty", "{}\r\n\n{}\n", []string{"{}", "", "{}"}},
+		{"longer than 16 MiB", "x\n" + long + "\ny\n", []string{"x", long, "y"}},
+		{"long last line", long, []string{long}},
+		{"empty", "", nil},
+	} {
+		t.Run(tc.name, func(t *testing.T) {
+			dir := t.TempDir()
+			if err := os.WriteFile(filepath.Join(dir, ScoresFile), []byte(tc.file), 0o644); err != nil {
+				t.Fatal(err)
+			}
+			var got []string
+			err := EachScoreLine(dir, func(row int, line []byte) error {
+				if row != len(got) {
+					t.Errorf("line %d read as row %d", len(got)+1, row)
+				}
+				got = append(got, string(line))
+				return nil
+			})
+			if err != nil {
+				t.Fatal(err)
+			}
+			if len(got) != len(tc.want) {
+				t.Fatalf("%d lines, want %d", len(got), len(tc.want))
+			}
+			for i := range got {
+				if got[i] != tc.want[i] {
+					t.Errorf("line %d: %d bytes, want %d", i+1, len(got[i]), len(tc.want[i]))
+				}
+			}
+		})
+	}
+}
+
+// TestLongIDsReadBack picks from a pool whose ids are 9 MiB long, two rows being copies of each
+// other, so the dropped copy's line in scores.jsonl carries two such ids (18 MiB), and reads the
+// run back as why, diff and report do.
+func TestLongIDsReadBack(t *testing.T) {
+	dir := t.TempDir()
+	idA, idB := strings.Repeat("a", 9<<20), strings.Repeat("b", 9<<20)
+	var pool strings.Builder
+	for _, r := range []struct{ id, text string }{
+		{idA, "how do i reset my password"}, {idB, "how do i reset my password"}, {"c", "the weather is fine"},
+	} {
+		b, _ := json.Marshal(map[string]string{"id": r.id, "text": r.text})
+		pool.Write(append(b, '\n'))
+	}
+	poolPath, target := filepath.Join(dir, "pool.jsonl"), filepath.Join(dir, "target.jsonl")
+	os.WriteFile(poolPath, []byte(pool.String()), 0o644)
+	os.WriteFile(target, []byte(`{"id":"t","text":"reset my password"}`+"\n"), 0o644)
+	idx, out := filepath.Join(dir, "idx"), filepath.Join(dir, "run")
+	if _, err := index.Build(context.Background(), idx, []string{poolPath}, index.Options{ID: "id"}); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := Pick(context.Background(), demoOptions(idx, target, out)); err != nil {
+		t.Fatal(err)
+	}
+	found, err := FindScores(out, []string{idA, idB})
+	if err != nil {
+		t.Fatal(err)
+	}
+	a, b := found[idA], found[idB]
+	if len(a) != 1 || len(b) != 1 || !a[0].Kept || b[0].Reason != "duplicate" || b[0].DuplicateOf != idA {
+		t.Errorf("read back: %d and %d lines for the two long ids, the second a duplicate of the first: %v", len(a), len(b), len(b) == 1 && b[0].DuplicateOf == idA)
+	}
+}
