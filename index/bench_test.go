@@ -69,10 +69,8 @@ func BenchmarkPostings(b *testing.B) {
 		b.Fatal(err)
 	}
 	defer ix.Close()
-	terms := make([]string, ix.NumTerms())
-	for i := range terms {
-		terms[i] = string(ix.term(i))
-	}
+	var terms []string
+	ix.lex.each(func(t []byte) { terms = append(terms, string(t)) })
 	var rows, tfs []uint32
 	var n int64
 	for b.Loop() {

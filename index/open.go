@@ -1,7 +1,6 @@
 package index
 
 import (
-	"bytes"
 	"encoding/binary"
 	"fmt"
 	"hash/crc32"
@@ -26,15 +25,12 @@ type Index struct {
 	real string // dir made absolute with links resolved when opened, where relative sources are found
 	meta Meta
 
-	terms   []byte   // lexicon terms, concatenated in byte order
-	termEnd []uint32 // end of term i in terms
-	df      []uint32
-	postOff []uint64 // postings of term i are postings[postOff[i]:postOff[i+1]]
+	lex lexicon
 
-	postings []byte // mapped
-	rows     []byte // mapped, rowRecSize per row
-	norms    []float64
-	idOff    []uint64 // where row i's length-prefixed id starts in ids, when the index has an id field
+	postings []byte   // mapped
+	rows     []byte   // mapped, rowRecSize per row
+	norms    []byte   // mapped, a little-endian float64 per row
+	idOff    []uint64 // where row i·idStride's length-prefixed id starts in ids, when the index has an id field
 	ids      []byte
 	stored   map[string][]byte // mapped copies of sources read from a stream, by file name
 
@@ -181,12 +177,9 @@ func (ix *Index) load(d *os.File) error {
 	if int64(len(nb)) != n*8 {
 		return fmt.Errorf("open index %s: norms holds %d bytes for %d rows: %w", dir, len(nb), n, ErrDamaged)
 	}
-	ix.norms = make([]float64, n)
-	for i := range ix.norms {
-		ix.norms[i] = math.Float64frombits(binary.LittleEndian.Uint64(nb[8*i:]))
-	}
-	if err := ix.loadLexicon(data[lexiconFile]); err != nil {
-		return err
+	ix.norms = nb
+	if err := ix.lex.load(data[lexiconFile], ix.meta.Terms, ix.meta.Rows, uint64(len(ix.postings))); err != nil {
+		return fmt.Errorf("open index %s: lexicon: %w", dir, err)
 	}
 	if m.IDField != "" {
 		if err := ix.loadIDs(data[idsFile]); err != nil {
@@ -223,73 +216,23 @@ func (ix *Index) mapFile(d *os.File, name string) ([]byte, error) {
 	return b, nil
 }
 
-func (ix *Index) loadLexicon(b []byte) error {
-	bad := func(what string) error {
-		return fmt.Errorf("open index %s: lexicon: %s: %w", ix.dir, what, ErrDamaged)
-	}
-	nt := ix.meta.Terms
-	// meta.json says how many terms to expect, but only the lexicon's own size may size the arrays:
-	// every entry takes at least three bytes.
-	if nt < 0 || nt > int64(len(b)/3) {
-		return bad(fmt.Sprintf("meta.json says %d terms", nt))
-	}
-	ix.termEnd = make([]uint32, 0, nt)
-	ix.df = make([]uint32, 0, nt)
-	ix.postOff = make([]uint64, 1, nt+1)
-	var prev []byte
-	for len(b) > 0 {
-		l, k := binary.Uvarint(b)
-		if k <= 0 || uint64(len(b)-k) < l {
-			return bad("truncated term")
-		}
-		t := b[k : k+int(l)]
-		b = b[k+int(l):]
-		if len(ix.termEnd) > 0 && bytes.Compare(prev, t) >= 0 {
-			return bad("terms out of order")
-		}
-		prev = t
-		df, k := binary.Uvarint(b)
-		if k <= 0 {
-			return bad("truncated df")
-		}
-		if df == 0 || df > uint64(ix.meta.Rows) {
-			return bad(fmt.Sprintf("term %q in %d rows of %d", t, df, ix.meta.Rows))
-		}
-		b = b[k:]
-		pl, k := binary.Uvarint(b)
-		if k <= 0 {
-			return bad("truncated postings length")
-		}
-		b = b[k:]
-		// Compared by subtraction, since an offset plus a damaged length may overflow.
-		off := ix.postOff[len(ix.postOff)-1]
-		if pl > uint64(len(ix.postings))-off {
-			return bad(fmt.Sprintf("postings of %q end past the %d bytes of postings", t, len(ix.postings)))
-		}
-		if len(ix.terms)+len(t) > math.MaxUint32 {
-			return fmt.Errorf("open index %s: lexicon: more than 4 GiB of terms", ix.dir)
-		}
-		ix.terms = append(ix.terms, t...)
-		ix.termEnd = append(ix.termEnd, uint32(len(ix.terms)))
-		ix.df = append(ix.df, uint32(df))
-		ix.postOff = append(ix.postOff, off+pl)
-	}
-	if int64(len(ix.df)) != nt || ix.postOff[len(ix.postOff)-1] != uint64(len(ix.postings)) {
-		return bad("counts disagree with meta.json")
-	}
-	return nil
-}
+// idStride is how many rows' ids lie between two offsets Open keeps: an offset per row would cost 8
+// bytes a pool row, one per 16 costs half a byte, and finding an id then walks past at most 15
+// others, each a length and a skip.
+const idStride = 16
 
 func (ix *Index) loadIDs(b []byte) error {
 	n := ix.meta.Rows
-	ix.idOff = make([]uint64, 0, n+1)
+	ix.idOff = make([]uint64, 0, n/idStride+1)
 	off := 0
 	for i := int64(0); i < n; i++ {
 		l, k := binary.Uvarint(b[off:])
 		if k <= 0 || uint64(len(b)-off-k) < l {
 			return fmt.Errorf("open index %s: ids: truncated at row %d: %w", ix.dir, i, ErrDamaged)
 		}
-		ix.idOff = append(ix.idOff, uint64(off))
+		if i%idStride == 0 {
+			ix.idOff = append(ix.idOff, uint64(off))
+		}
 		off += k + int(l)
 	}
 	ix.ids = b
@@ -330,7 +273,9 @@ func (ix *Index) rec(row int) rowRec { return getRowRec(ix.rows[row*rowRecSize:]
 func (ix *Index) RowLen(row int) int { return int(ix.rec(row).alen) }
 
 // RowNorm returns the l2 norm of the row's TF-IDF vector, raw tf times ln((1+N)/(1+df))+1.
-func (ix *Index) RowNorm(row int) float64 { return ix.norms[row] }
+func (ix *Index) RowNorm(row int) float64 {
+	return math.Float64frombits(binary.LittleEndian.Uint64(ix.norms[8*row:]))
+}
 
 // RowTokens returns the row's token count from its count field, or ok=false when the index has
 // none, and the UTF-8 bytes of its text for an estimate.
@@ -363,7 +308,12 @@ func (ix *Index) RowID(row int) string {
 // row when all of them are written out.
 func (ix *Index) AppendRowID(b []byte, row int) []byte {
 	if ix.idOff != nil {
-		id := ix.ids[ix.idOff[row]:]
+		// Open checked every length, so the walk from the nearest kept offset stays in ids.
+		id := ix.ids[ix.idOff[row/idStride]:]
+		for range row % idStride {
+			l, k := binary.Uvarint(id)
+			id = id[k+int(l):]
+		}
 		l, k := binary.Uvarint(id)
 		return append(b, id[k:k+int(l)]...)
 	}
@@ -373,42 +323,26 @@ func (ix *Index) AppendRowID(b []byte, row int) []byte {
 	return strconv.AppendUint(b, uint64(r.line), 10)
 }
 
-func (ix *Index) term(i int) []byte {
-	start := uint32(0)
-	if i > 0 {
-		start = ix.termEnd[i-1]
-	}
-	return ix.terms[start:ix.termEnd[i]]
-}
-
-func (ix *Index) find(term string) (int, bool) {
-	i := sort.Search(len(ix.termEnd), func(i int) bool { return string(ix.term(i)) >= term })
-	if i < len(ix.termEnd) && string(ix.term(i)) == term {
-		return i, true
-	}
-	return 0, false
-}
-
 // DF returns the number of rows holding term.
 func (ix *Index) DF(term string) int {
-	if i, ok := ix.find(term); ok {
-		return int(ix.df[i])
+	if e, ok := ix.lex.find(term); ok {
+		return int(e.df)
 	}
 	return 0
 }
 
 // NumTerms returns the size of the lexicon.
-func (ix *Index) NumTerms() int { return len(ix.df) }
+func (ix *Index) NumTerms() int { return ix.lex.n }
 
 // Postings appends the rows holding term, ascending, and their term frequencies.
 func (ix *Index) Postings(term string, rows, tfs []uint32) ([]uint32, []uint32, error) {
-	i, ok := ix.find(term)
+	e, ok := ix.lex.find(term)
 	if !ok {
 		return rows, tfs, nil
 	}
-	c := ix.cursorAt(i, term)
+	c := ix.cursorAt(e, term)
 	// df is only a hint here (a damaged list is caught in decoding), but a sane one saves regrowing.
-	if df := int(ix.df[i]); df <= len(c.b) {
+	if df := int(e.df); df <= len(c.b) {
 		rows, tfs = slices.Grow(rows, df), slices.Grow(tfs, df)
 	}
 	return c.Next(math.MaxInt, rows, tfs)
@@ -427,15 +361,15 @@ type Cursor struct {
 
 // NewCursor returns a cursor at the start of term's postings; a term the index lacks has none.
 func (ix *Index) NewCursor(term string) *Cursor {
-	if i, ok := ix.find(term); ok {
-		c := ix.cursorAt(i, term)
+	if e, ok := ix.lex.find(term); ok {
+		c := ix.cursorAt(e, term)
 		return &c
 	}
 	return &Cursor{ix: ix, term: term, row: -1, next: -1}
 }
 
-func (ix *Index) cursorAt(i int, term string) Cursor {
-	return Cursor{ix: ix, term: term, b: ix.postings[ix.postOff[i]:ix.postOff[i+1]], row: -1, next: -1}
+func (ix *Index) cursorAt(e termEntry, term string) Cursor {
+	return Cursor{ix: ix, term: term, b: ix.postings[e.post:e.postEnd], row: -1, next: -1}
 }
 
 // Next appends the postings of rows below end that earlier calls have not handed out to rows and

@@ -64,8 +64,10 @@ func openNoPanic(dir string) (err error) {
 		return err
 	}
 	defer ix.Close()
-	for i := range ix.NumTerms() {
-		if _, _, err := ix.Postings(string(ix.term(i)), nil, nil); err != nil {
+	var terms []string
+	ix.lex.each(func(t []byte) { terms = append(terms, string(t)) })
+	for _, term := range terms {
+		if _, _, err := ix.Postings(term, nil, nil); err != nil {
 			return err
 		}
 	}
