@@ -287,7 +287,9 @@ func (w *rowWorker) row(r int, terms []int32, parts []float64, res *Result, best
 		acc[t] = negZero
 	}
 	res.Best[r] = best
-	bestScore[r] = bv
+	if bestScore != nil {
+		bestScore[r] = bv
+	}
 	if w.combined != nil {
 		res.Scores[r] = sum
 	}

@@ -232,32 +232,28 @@ func Score(ctx context.Context, c Corpus, q []Query, p Params) (*Result, error) 
 	if len(pl.vocab) == 0 {
 		return res, nil
 	}
-	s := &scorer{c: c, p: p, pl: pl, k1p1: p.K1 + 1, factor: make([]float64, n)}
+	s := &scorer{c: c, p: p, pl: pl, k1p1: p.K1 + 1}
 	rowWise := !p.SkipBest && len(q) <= maxRowTargets
+	// The row-at-a-time scorers find each row's best target row at once, so with Sum they keep no
+	// best score per row (nil); with Max the best score is the score.
+	var rowBest []float64
+	if p.Aggregate == Max {
+		rowBest = res.Scores
+	}
 	if cc, ok := c.(CursorCorpus); ok && rowWise && p.CacheBytes >= 0 {
-		for i := range s.factor {
-			s.factor[i] = math.NaN()
-		}
-		bestScore := res.Scores
-		if p.Aggregate == Sum {
-			bestScore = make([]float64, n)
-		}
-		if err := s.streamPasses(ctx, cc, res, bestScore); err != nil {
+		if err := s.streamPasses(ctx, cc, res, rowBest); err != nil {
 			return nil, err
 		}
 		return res, nil
 	}
+	s.factor = make([]float64, n)
 	if err := s.prepare(ctx); err != nil {
 		return nil, err
 	}
 	res.Work.PostingsFetched = s.fetched
 
 	if s.allCached && rowWise {
-		bestScore := res.Scores
-		if p.Aggregate == Sum {
-			bestScore = make([]float64, n)
-		}
-		if err := s.rowPasses(ctx, res, bestScore); err != nil {
+		if err := s.rowPasses(ctx, res, rowBest); err != nil {
 			return nil, err
 		}
 		return res, nil
@@ -286,10 +282,12 @@ type scorer struct {
 	p    Params
 	pl   *plan
 	k1p1 float64
-	// factor holds per pool row the BM25 length normaliser k1·(1−b+b·len/avglen)
-	// or the TF-IDF row norm, for the rows some query term reaches (prepare
-	// fills it before any worker starts; it is read-only afterwards).
-	factor []float64
+	// factor holds per pool row from factorLo the BM25 length normaliser
+	// k1·(1−b+b·len/avglen) or the TF-IDF row norm, for the rows some query
+	// term reaches: every row for prepare (which fills it before any worker
+	// starts; it is read-only afterwards), a span's rows for streamPasses.
+	factor   []float64
+	factorLo int
 	// cache holds per vocab term its postings and tf parts, or nil rows when
 	// the term did not fit the bound and must be read again.
 	cache     []cachedList
@@ -388,15 +386,15 @@ func (s *scorer) fetch(term string, rows, tfs []uint32) ([]uint32, []uint32, err
 func (s *scorer) tfParts(parts []float64, rows, tfs []uint32) []float64 {
 	parts = parts[:len(rows)]
 	tfs = tfs[:len(rows)]
-	factor := s.factor
+	factor, lo := s.factor, uint32(s.factorLo)
 	if s.p.Method == BM25 {
 		k1p1 := s.k1p1
 		for i, r := range rows {
-			parts[i] = bm25Part(float64(tfs[i]), k1p1, factor[r])
+			parts[i] = bm25Part(float64(tfs[i]), k1p1, factor[r-lo])
 		}
 	} else {
 		for i, r := range rows {
-			parts[i] = tfidfPart(float64(tfs[i]), factor[r])
+			parts[i] = tfidfPart(float64(tfs[i]), factor[r-lo])
 		}
 	}
 	return parts

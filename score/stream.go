@@ -3,6 +3,7 @@ package score
 import (
 	"context"
 	"fmt"
+	"math"
 )
 
 // A PostingCursor reads one term's postings in row order, a stretch at a time.
@@ -48,6 +49,7 @@ func (s *scorer) streamPasses(ctx context.Context, cc CursorCorpus, res *Result,
 	perRow := max(1, total/int64(max(1, n)))
 	span := int(max(1, budget/(16*perRow)/rowBlock)) * rowBlock
 
+	s.factor = make([]float64, min(span, n))
 	start := make([]int, len(pl.vocab)+1)
 	// Sized for a span of average rows up front: growing by appending would
 	// touch about twice the memory.
@@ -74,15 +76,22 @@ func (s *scorer) streamPasses(ctx context.Context, cc CursorCorpus, res *Result,
 		}
 		start[len(pl.vocab)] = len(rows)
 		res.Work.PostingsFetched += int64(len(rows))
+		// The factors of the span's rows only: a span's rows are scored, and done with, before the
+		// next span's are read, so that this costs no memory per pool row.
+		s.factorLo, s.factor = lo, s.factor[:hi-lo]
+		for i := range s.factor {
+			s.factor[i] = math.NaN()
+		}
 		for _, r := range rows {
-			if s.factor[r] == s.factor[r] {
+			i := int(r) - lo
+			if s.factor[i] == s.factor[i] {
 				continue
 			}
 			f, err := rowFactor(s.c, s.p, pl.avg, int(r))
 			if err != nil {
 				return fmt.Errorf("score: %w", err)
 			}
-			s.factor[r] = f
+			s.factor[i] = f
 		}
 		if cap(parts) < len(rows) {
 			parts = make([]float64, len(rows))
