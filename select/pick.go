@@ -127,7 +127,7 @@ func (s Stop) String() string {
 
 // A Decision is what Pick decided for one row.
 type Decision struct {
-	Rank   int // 1-based position in the ranking
+	Rank   uint32 // 1-based position in the ranking
 	Kept   bool
 	Reason Reason // Kept when Kept is true
 	// LedgerAfter is the ledger total once this row was considered: Fixed
@@ -153,29 +153,40 @@ type Summary struct {
 // order (lower index first), so the ranking is deterministic. NaN scores,
 // which Pick rejects, are ranked after every other score.
 func Order(scores []float64) []int {
-	// Sorting (score, index) pairs keeps each comparison's data together;
-	// going through an index slice would touch scores at random.
-	type key struct {
-		score float64
-		row   int
+	keys := ranked(scores)
+	idx := make([]int, len(keys))
+	for i, k := range keys {
+		idx[i] = int(k.row)
 	}
-	keys := make([]key, len(scores))
+	return idx
+}
+
+// rankKey is a row and its score, sorted together: going through an index slice would touch
+// scores at random. 16 bytes a row, where an index into scores beside it would add 8 more.
+type rankKey struct {
+	score float64
+	row   uint32
+}
+
+// ranked returns the rows as Order ranks them, with their scores.
+func ranked(scores []float64) []rankKey {
+	keys := make([]rankKey, len(scores))
 	for i, s := range scores {
-		keys[i] = key{s, i}
+		keys[i] = rankKey{s, uint32(i)}
 	}
 	// cmp.Compare orders NaN below -Inf and treats -0 and +0 as equal.
-	slices.SortFunc(keys, func(a, b key) int {
+	slices.SortFunc(keys, func(a, b rankKey) int {
 		if c := cmp.Compare(b.score, a.score); c != 0 {
 			return c
 		}
 		return cmp.Compare(a.row, b.row)
 	})
-	idx := make([]int, len(keys))
-	for i, k := range keys {
-		idx[i] = k.row
-	}
-	return idx
+	return keys
 }
+
+// MaxPickRows is the most rows Pick takes: rows and ranks are held in 32 bits, which keeps a
+// Decision to 16 bytes and a row of the ranking to 16.
+const MaxPickRows = math.MaxUint32
 
 // Pick ranks rows by score (as Order does) and keeps them greedily: walking
 // down the ranking, a row is kept if Fixed plus the cost of the rows kept so
@@ -198,7 +209,7 @@ func Pick(scores []float64, costs []float64, opt Options) ([]Decision, Summary, 
 	if err := check(scores, costs, opt); err != nil {
 		return nil, Summary{}, err
 	}
-	order := Order(scores)
+	order := ranked(scores)
 	dec := make([]Decision, len(scores))
 	total := opt.Fixed
 	var count float64 // with Unit, the kept counts so far
@@ -219,9 +230,10 @@ func Pick(scores []float64, costs []float64, opt Options) ([]Decision, Summary, 
 	}
 	stopped := sum.Stop != StopExhausted
 	byScore := false // the walk ended on a score limit, so later rows are judged by score
-	for r, i := range order {
+	for r, k := range order {
+		i := int(k.row)
 		d := &dec[i]
-		d.Rank = r + 1
+		d.Rank = uint32(r + 1)
 		next, fit := fits(costs[i])
 		switch {
 		case opt.Barred != nil && opt.Barred[i] != Kept:
@@ -232,10 +244,10 @@ func Pick(scores []float64, costs []float64, opt Options) ([]Decision, Summary, 
 			d.Reason = BelowCut
 		case opt.MaxRows > 0 && sum.Kept == opt.MaxRows:
 			d.Reason = MaxRows
-			sum.Stop, sum.StopRank, stopped = StopMaxRows, d.Rank, true
+			sum.Stop, sum.StopRank, stopped = StopMaxRows, int(d.Rank), true
 		case scoreReason(scores[i], opt) != Kept:
 			d.Reason = scoreReason(scores[i], opt)
-			sum.Stop, sum.StopRank, stopped, byScore = StopNoMatch, d.Rank, true, true
+			sum.Stop, sum.StopRank, stopped, byScore = StopNoMatch, int(d.Rank), true, true
 			if d.Reason == MinScore {
 				sum.Stop = StopMinScore
 			}
@@ -244,7 +256,7 @@ func Pick(scores []float64, costs []float64, opt Options) ([]Decision, Summary, 
 		case opt.MaxCount > 0 && count+costs[i] > opt.MaxCount:
 			d.Reason = MaxCount
 			if !opt.Fill {
-				sum.Stop, sum.StopRank, stopped = StopMaxCount, d.Rank, true
+				sum.Stop, sum.StopRank, stopped = StopMaxCount, int(d.Rank), true
 			}
 		case fit:
 			total = next
@@ -258,7 +270,7 @@ func Pick(scores []float64, costs []float64, opt Options) ([]Decision, Summary, 
 		default:
 			d.Reason = Budget
 			if !opt.Fill {
-				sum.Stop, sum.StopRank, stopped = StopBudget, d.Rank, true
+				sum.Stop, sum.StopRank, stopped = StopBudget, int(d.Rank), true
 			}
 		}
 		d.LedgerAfter = total
@@ -283,6 +295,9 @@ func scoreReason(s float64, opt Options) Reason {
 }
 
 func check(scores, costs []float64, opt Options) error {
+	if len(scores) > MaxPickRows {
+		return fmt.Errorf("pick: %d rows, at most %d: %w", len(scores), MaxPickRows, ErrBadInput)
+	}
 	if len(scores) != len(costs) {
 		return fmt.Errorf("pick: %d scores but %d costs: %w", len(scores), len(costs), ErrBadInput)
 	}

@@ -226,7 +226,7 @@ func TestPick(t *testing.T) {
 				if d.Reason != tt.reasons[i] || d.Kept != (tt.reasons[i] == Kept) {
 					t.Errorf("row %d: kept %v reason %q, want reason %q", i, d.Kept, d.Reason, tt.reasons[i])
 				}
-				if tt.ranks != nil && d.Rank != tt.ranks[i] {
+				if tt.ranks != nil && int(d.Rank) != tt.ranks[i] {
 					t.Errorf("row %d: rank %d, want %d", i, d.Rank, tt.ranks[i])
 				}
 				if tt.after != nil && d.LedgerAfter != tt.after[i] {
@@ -362,7 +362,7 @@ func checkProperties(t *testing.T, seed uint64, scores, costs []float64, opt Opt
 	byRank := make([]int, n)
 	seen := make([]bool, n)
 	for i, d := range dec {
-		if d.Rank < 1 || d.Rank > n || seen[d.Rank-1] {
+		if d.Rank < 1 || int(d.Rank) > n || seen[d.Rank-1] {
 			fail("row %d: rank %d is not a permutation entry", i, d.Rank)
 		}
 		seen[d.Rank-1] = true

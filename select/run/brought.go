@@ -104,13 +104,13 @@ func (d Declared) charge(led *budget.Ledger, what string, poolTokens, targetToke
 func (p *picked) tokensOf(rows []int) int64 {
 	var t int64
 	if rows == nil {
-		for _, v := range p.tokens {
-			t += v
+		for r := range p.ix.NumRows() {
+			t += p.tokens(r)
 		}
 		return t
 	}
 	for _, r := range rows {
-		t += p.tokens[r]
+		t += p.tokens(r)
 	}
 	return t
 }
@@ -399,7 +399,6 @@ func Recompute(ctx context.Context, ix *index.Index, targets []index.Target, m *
 		opt.Params.Aggregate = score.Sum
 	}
 	p := &picked{opt: &opt, ix: ix, targets: targets, target: m.Target.Path, spec: st.TargetText, led: &budget.Ledger{}}
-	p.rowTokens()
 	var err error
 	switch st.Method {
 	case MethodScores:

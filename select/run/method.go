@@ -163,7 +163,7 @@ func (p *picked) prefilter(ctx context.Context) ([]int, error) {
 			break
 		}
 		rows = append(rows, r)
-		tokens += p.tokens[r]
+		tokens += p.tokens(r)
 	}
 	slices.Sort(rows)
 	p.barred = make([]selection.Reason, n)

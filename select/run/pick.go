@@ -101,7 +101,6 @@ type picked struct {
 	tid       string
 	targets   []index.Target
 	trej      []index.Reject
-	tokens    []int64            // per row, for the ledger
 	led       *budget.Ledger     // the selection charged so far
 	scores    []float64          // per row; NaN where barred with no score
 	best      []int32            // per row, the best-matching target row or -1; nil if none
@@ -174,7 +173,6 @@ func Pick(ctx context.Context, opt Options) (*Result, error) {
 	if err := p.readTargets(); err != nil {
 		return nil, err
 	}
-	p.rowTokens()
 	if err := p.score(ctx); err != nil {
 		return nil, err
 	}
@@ -237,14 +235,9 @@ func (p *picked) readTargets() error {
 	return nil
 }
 
-// rowTokens reads every row's token count: the training cost the ledger charges for it.
-func (p *picked) rowTokens() {
-	n := p.ix.NumRows()
-	p.tokens = make([]int64, n)
-	for r := 0; r < n; r++ {
-		p.tokens[r] = rowTokens(p.ix, r)
-	}
-}
+// tokens is row r's token count: the training cost the ledger charges for it. It is read from the
+// index's row record each time rather than kept, which would cost 8 bytes a pool row.
+func (p *picked) tokens(r int) int64 { return rowTokens(p.ix, r) }
 
 // rowTokens is a row's tokens as the ledger charges them: as the index counted them (a field or a
 // tokenizer), else estimated from the text's bytes.
@@ -271,8 +264,8 @@ func (p *picked) keep() error {
 	n := p.ix.NumRows()
 	unit := budget.TrainFLOPs(opt.TrainParams, 1, opt.Epochs)
 	costs := make([]float64, n)
-	for r, t := range p.tokens {
-		costs[r] = float64(t)
+	for r := range costs {
+		costs[r] = float64(p.tokens(r))
 	}
 	so := opt.Select
 	so.Budget, so.Fixed, so.Barred, so.Unit = opt.Budget, led.Selection(), p.barred, unit
@@ -308,12 +301,12 @@ func (p *picked) keep() error {
 		}
 		st := &r.Sources[p.ix.RowLocation(row).Source]
 		st.Rows++
-		st.Tokens += p.tokens[row]
+		st.Tokens += p.tokens(row)
 		if d.Kept {
 			r.Kept = append(r.Kept, row)
-			r.KeptTokens += p.tokens[row]
+			r.KeptTokens += p.tokens(row)
 			st.KeptRows++
-			st.KeptTokens += p.tokens[row]
+			st.KeptTokens += p.tokens(row)
 		}
 	}
 	led.AddTraining(fmt.Sprintf("train %s-parameter model on kept rows", budget.FormatCount(opt.TrainParams)), "token", float64(r.KeptTokens), unit,

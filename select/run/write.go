@@ -206,7 +206,7 @@ func (p *picked) writeScores(w *bufio.Writer) error {
 			b = p.appendGuard(b, r, d.Reason, &plain)
 		}
 		b = append(b, `,"tokens":`...)
-		b = strconv.AppendInt(b, p.tokens[r], 10)
+		b = strconv.AppendInt(b, p.tokens(r), 10)
 		b = append(b, `,"target":`...)
 		if p.best == nil {
 			b = append(b, "null"...) // not asked for (--attribute=false), or not a lexical method
