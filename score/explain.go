@@ -101,13 +101,13 @@ func Explain(c Corpus, q []Query, p Params, row int, topTargets int) (*Explanati
 			} else {
 				part = tfidfPart(float64(tf[k]), factor)
 			}
-			x := contribution(qu.qi[i], part)
+			x := contribution(qu.factor(i, pl.idf), part)
 			s += x
 			shared = append(shared, pl.vocab[k])
 			if keep {
 				ps = append(ps, Part{
 					Term: pl.vocab[k], TF: tf[k], DF: pl.df[k], IDF: pl.idf[k],
-					TFPart: part, QueryWeight: qu.qw[i], Contribution: x,
+					TFPart: part, QueryWeight: qu.weight(i), Contribution: x,
 				})
 			}
 		}

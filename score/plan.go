@@ -87,10 +87,25 @@ type plan struct {
 	tokens   int64
 }
 
+// query is one query of a plan. It holds 4 bytes a term for BM25's binary queries, whose weights
+// are all 1, and 12 for TF-IDF's, since a large target set holds one query per row.
 type query struct {
 	terms []int32   // vocab indices, ascending (so terms ascend by bytes)
-	qw    []float64 // query weight per term
-	qi    []float64 // float64(qw·idf), the factor applied to the tf part
+	qw    []float64 // query weight per term; nil when every weight is 1
+}
+
+// weight is the query weight of the query's i-th term.
+func (qu *query) weight(i int) float64 {
+	if qu.qw == nil {
+		return 1
+	}
+	return qu.qw[i]
+}
+
+// factor is float64(qw·idf), the factor applied to the tf part of the i-th term: computed where it
+// is used, which gives the same bits every time, rather than kept beside the weight.
+func (qu *query) factor(i int, idf []float64) float64 {
+	return float64(qu.weight(i) * idf[qu.terms[i]])
 }
 
 func newPlan(c Corpus, q []Query, p Params) (*plan, error) {
@@ -109,14 +124,20 @@ func newPlan(c Corpus, q []Query, p Params) (*plan, error) {
 		}
 	}
 
-	var all []string
+	// The distinct terms alone are gathered: a large target set repeats most of its terms.
+	index := map[string]int32{}
 	for _, qq := range q {
 		pl.tokens += int64(len(qq.Terms))
-		all = append(all, qq.Terms...)
+		for _, t := range qq.Terms {
+			index[t] = 0
+		}
+	}
+	all := make([]string, 0, len(index))
+	for t := range index {
+		all = append(all, t)
 	}
 	slices.Sort(all)
-	all = slices.Compact(all)
-	index := make(map[string]int32, len(all))
+	clear(index)
 	for _, t := range all {
 		df := c.DF(t)
 		if df < 0 || df > n {
@@ -148,27 +169,25 @@ func newPlan(c Corpus, q []Query, p Params) (*plan, error) {
 		slices.Sort(ids)
 		tq := &pl.targets[j]
 		counts = counts[:0]
+		uniq := ids[:0] // the distinct ids, written over the sorted ones
 		for i, k := range ids {
 			if i > 0 && ids[i-1] == k {
 				counts[len(counts)-1]++
 				continue
 			}
-			tq.terms = append(tq.terms, k)
+			uniq = append(uniq, k)
 			counts = append(counts, 1)
 		}
-		if p.Method == BM25 {
-			// Binary query: a repeated target term counts once.
-			for range tq.terms {
-				tq.qw = append(tq.qw, 1)
-			}
-		} else {
+		if len(uniq) > 0 {
+			tq.terms = slices.Clone(uniq) // sized to fit, which appending would not be
+		}
+		if p.Method == TFIDF { // BM25's binary queries count a repeated target term once: weights 1, nil
 			idf = idf[:0]
 			for _, k := range tq.terms {
 				idf = append(idf, pl.idf[k])
 			}
 			tq.qw = unitWeights(make([]float64, 0, len(counts)), counts, idf, sklearnWeighting)
 		}
-		tq.setQI(pl.idf)
 	}
 
 	if p.Aggregate == Sum {
@@ -176,7 +195,7 @@ func newPlan(c Corpus, q []Query, p Params) (*plan, error) {
 		for j := range pl.targets {
 			tq := &pl.targets[j]
 			for i, k := range tq.terms {
-				w[k] += tq.qw[i] // BM25: counts target rows holding the term
+				w[k] += tq.weight(i) // BM25: counts target rows holding the term
 			}
 		}
 		cq := &pl.combined
@@ -190,14 +209,6 @@ func newPlan(c Corpus, q []Query, p Params) (*plan, error) {
 			cq.terms = append(cq.terms, int32(k))
 			cq.qw = append(cq.qw, x)
 		}
-		cq.setQI(pl.idf)
 	}
 	return pl, nil
-}
-
-func (qu *query) setQI(idf []float64) {
-	qu.qi = make([]float64, len(qu.terms))
-	for i, k := range qu.terms {
-		qu.qi[i] = float64(qu.qw[i] * idf[k])
-	}
 }

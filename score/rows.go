@@ -21,19 +21,21 @@ const rowBlock = 1024
 const maxRowTargets = 4096
 
 // holders is the target side of the row-at-a-time scorer: per vocab term, the
-// target rows holding it (ascending) with their factor qi.
+// target rows of a block [lo, hi) holding it (ascending, numbered from lo)
+// with their factor qi.
 type holders struct {
-	off []int32 // term k's holders are t[off[k]:off[k+1]]
-	t   []int32
-	qi  []float64
+	lo, hi int
+	off    []int32 // term k's holders are t[off[k]:off[k+1]]
+	t      []int32
+	qi     []float64
 	// same reports that every holder of a term has the same qi (BM25's binary
 	// queries), so one contribution per posting serves them all.
 	same bool
 }
 
-func newHolders(pl *plan, method Method) *holders {
-	h := &holders{off: make([]int32, len(pl.vocab)+1), same: method == BM25}
-	for j := range pl.targets {
+func newHolders(pl *plan, method Method, lo, hi int) *holders {
+	h := &holders{lo: lo, hi: hi, off: make([]int32, len(pl.vocab)+1), same: method == BM25}
+	for j := lo; j < hi; j++ {
 		for _, k := range pl.targets[j].terms {
 			h.off[k+1]++
 		}
@@ -44,10 +46,10 @@ func newHolders(pl *plan, method Method) *holders {
 	n := h.off[len(pl.vocab)]
 	h.t, h.qi = make([]int32, n), make([]float64, n)
 	next := slices.Clone(h.off[:len(pl.vocab)])
-	for j := range pl.targets {
+	for j := lo; j < hi; j++ {
 		qu := &pl.targets[j]
 		for i, k := range qu.terms {
-			h.t[next[k]], h.qi[next[k]] = int32(j), qu.qi[i]
+			h.t[next[k]], h.qi[next[k]] = int32(j-lo), qu.factor(i, pl.idf)
 			next[k]++
 		}
 	}
@@ -66,18 +68,19 @@ func newHolders(pl *plan, method Method) *holders {
 // Workers take blocks of rowBlock pool rows in turn and write only their
 // block's rows, so the Result does not depend on the number of workers.
 func (s *scorer) rowPasses(ctx context.Context, res *Result, bestScore []float64) error {
-	h, combined := s.rowSetup(&res.Work, func(k int) int64 { return int64(len(s.cache[k].rows)) })
+	h, combined := s.rowSetup(&res.Work, 0, len(s.pl.targets), func(k int) int64 { return int64(len(s.cache[k].rows)) })
 	lists := func(k int32) ([]uint32, []float64) { return s.cache[k].rows, s.cache[k].parts }
 	return s.runBlocks(ctx, 0, s.pl.n, lists, h, combined, res, bestScore)
 }
 
-// rowSetup builds the target side of the row-at-a-time scorer and counts its
-// work as the per-target passes would do it: per term, its list length
-// (df) times the target rows holding it.
-func (s *scorer) rowSetup(work *Work, df func(k int) int64) (*holders, []float64) {
+// rowSetup builds the target side of the row-at-a-time scorer for the target
+// rows [lo, hi) and counts its work as the per-target passes would do it: per
+// term, its list length (df) times the target rows holding it. The combined
+// query (Sum) goes with the first block.
+func (s *scorer) rowSetup(work *Work, lo, hi int, df func(k int) int64) (*holders, []float64) {
 	pl := s.pl
-	h := newHolders(pl, s.p.Method)
-	for j := range pl.targets {
+	h := newHolders(pl, s.p.Method, lo, hi)
+	for j := lo; j < hi; j++ {
 		if len(pl.targets[j].terms) > 0 {
 			work.Passes++
 			work.QueryTerms += int64(len(pl.targets[j].terms))
@@ -89,14 +92,14 @@ func (s *scorer) rowSetup(work *Work, df func(k int) int64) (*holders, []float64
 	// combined[k] is the combined query's factor for vocab term k (Sum only);
 	// NaN marks a term the combined query lacks.
 	var combined []float64
-	if s.p.Aggregate == Sum {
+	if s.p.Aggregate == Sum && lo == 0 {
 		combined = make([]float64, len(pl.vocab))
 		for k := range combined {
 			combined[k] = math.NaN()
 		}
 		cq := &pl.combined
 		for i, k := range cq.terms {
-			combined[k] = cq.qi[i]
+			combined[k] = cq.factor(i, pl.idf)
 		}
 		work.Passes++
 		work.QueryTerms += int64(len(cq.terms))
@@ -124,7 +127,7 @@ func (s *scorer) runBlocks(ctx context.Context, lo, hi int, lists func(k int32) 
 	var wg sync.WaitGroup
 	for i := range nw {
 		wg.Go(func() {
-			w := newRowWorker(len(s.pl.targets), h, combined, lists)
+			w := newRowWorker(h, combined, lists)
 			for !failed.Load() {
 				b := int(next.Add(1) - 1)
 				if b >= blocks {
@@ -203,8 +206,8 @@ type rowWorker struct {
 	parts    []float64
 }
 
-func newRowWorker(targets int, h *holders, combined []float64, lists func(k int32) ([]uint32, []float64)) *rowWorker {
-	w := &rowWorker{h: h, combined: combined, lists: lists, acc: make([]float64, targets),
+func newRowWorker(h *holders, combined []float64, lists func(k int32) ([]uint32, []float64)) *rowWorker {
+	w := &rowWorker{h: h, combined: combined, lists: lists, acc: make([]float64, h.hi-h.lo),
 		count: make([]int32, rowBlock+1)}
 	for i := range w.acc {
 		w.acc[i] = negZero
@@ -264,6 +267,9 @@ func (w *rowWorker) row(r int, terms []int32, parts []float64, res *Result, best
 		}
 		lo, hi := h.off[k], h.off[k+1]
 		ts := h.t[lo:hi]
+		if len(ts) == 0 {
+			continue // read for the combined query alone: no target row of the block holds it
+		}
 		if h.same {
 			x := contribution(h.qi[lo], part)
 			for _, t := range ts {
@@ -278,7 +284,9 @@ func (w *rowWorker) row(r int, terms []int32, parts []float64, res *Result, best
 		}
 	}
 	// Unreached accumulators hold -0, reached ones +0 or more; ties go to
-	// the lowest target index.
+	// the lowest target index, within the block and, blocks coming in
+	// ascending order and a later one winning only when strictly higher,
+	// across them.
 	best, bv := int32(-1), 0.0
 	for t, v := range acc {
 		if !math.Signbit(v) && (best < 0 || v > bv) {
@@ -286,9 +294,12 @@ func (w *rowWorker) row(r int, terms []int32, parts []float64, res *Result, best
 		}
 		acc[t] = negZero
 	}
-	res.Best[r] = best
-	if bestScore != nil {
-		bestScore[r] = bv
+	switch {
+	case best < 0:
+	case bestScore == nil: // Sum with one block: no other block to compare with
+		res.Best[r] = best + int32(h.lo)
+	case res.Best[r] < 0 || bv > bestScore[r]:
+		res.Best[r], bestScore[r] = best+int32(h.lo), bv
 	}
 	if w.combined != nil {
 		res.Scores[r] = sum

@@ -124,3 +124,41 @@ func zipfSetup(seed uint64, rows, rowLen, vocab, nq, maxLen int) (*zipfCorpus, [
 	}
 	return c, q
 }
+
+// Target rows taken a block at a time, so that a large target set needs no memory per target row
+// and pool row, give the same scores, best target rows (ties to the lowest index across blocks
+// too) and work as one block. Internal property: no reference values.
+func TestTargetBlocksMatchOneBlock(t *testing.T) {
+	c, q := zipfSetup(11, 5*rowBlock+3, 30, 3000, 90, 20)
+	for j := 9; j < len(q); j += 10 {
+		q[j].Terms = q[j-1].Terms // ties, some across a block's edge
+	}
+	q = append(q, Query{ID: "no terms"}, Query{ID: "absent", Terms: []string{"not-in-pool"}})
+	cc := cursorCorpus{zipfCorpus: c}
+	for _, p := range allParams() {
+		p.CacheBytes = 1 << 12
+		want, err := scoreBlocks(context.Background(), cc, q, p, maxRowTargets)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for _, block := range []int{1, 7, 10, 64} {
+			got, err := scoreBlocks(context.Background(), cc, q, p, block)
+			if err != nil {
+				t.Fatal(err)
+			}
+			name := fmt.Sprintf("%v/%v blocks of %d", p.Method, p.Aggregate, block)
+			for r := range got.Scores {
+				if math.Float64bits(got.Scores[r]) != math.Float64bits(want.Scores[r]) || got.Best[r] != want.Best[r] {
+					t.Fatalf("%s: row %d: score %v best %d, one block %v best %d", name, r, got.Scores[r], got.Best[r], want.Scores[r], want.Best[r])
+				}
+			}
+			if got.Work.PostingsFetched < want.Work.PostingsFetched {
+				t.Errorf("%s: %d postings fetched, fewer than one block's %d", name, got.Work.PostingsFetched, want.Work.PostingsFetched)
+			}
+			got.Work.PostingsFetched, want.Work.PostingsFetched = 0, 0
+			if got.Work != want.Work {
+				t.Errorf("%s: work %+v, one block %+v", name, got.Work, want.Work)
+			}
+		}
+	}
+}

@@ -213,6 +213,11 @@ type Result struct {
 // number of workers. c is only ever used by one goroutine at a time. ctx is
 // checked before every posting list read and every pass.
 func Score(ctx context.Context, c Corpus, q []Query, p Params) (*Result, error) {
+	return scoreBlocks(ctx, c, q, p, maxRowTargets)
+}
+
+// scoreBlocks is Score with the streamed scorer taking up to block target rows at a time.
+func scoreBlocks(ctx context.Context, c Corpus, q []Query, p Params, block int) (*Result, error) {
 	if err := p.Validate(); err != nil {
 		return nil, err
 	}
@@ -233,16 +238,23 @@ func Score(ctx context.Context, c Corpus, q []Query, p Params) (*Result, error) 
 		return res, nil
 	}
 	s := &scorer{c: c, p: p, pl: pl, k1p1: p.K1 + 1}
-	rowWise := !p.SkipBest && len(q) <= maxRowTargets
-	// The row-at-a-time scorers find each row's best target row at once, so with Sum they keep no
-	// best score per row (nil); with Max the best score is the score.
+	rowWise := !p.SkipBest && len(q) <= block
+	// The row-at-a-time scorers find each row's best target row at once, so with Sum and one block
+	// of target rows they keep no best score per row (nil); with Max the best score is the score.
 	var rowBest []float64
 	if p.Aggregate == Max {
 		rowBest = res.Scores
 	}
-	if cc, ok := c.(CursorCorpus); ok && rowWise && p.CacheBytes >= 0 {
-		if err := s.streamPasses(ctx, cc, res, rowBest); err != nil {
-			return nil, err
+	if cc, ok := c.(CursorCorpus); ok && !p.SkipBest && p.CacheBytes >= 0 {
+		// Target rows are taken a block at a time, each block one more read of its terms' lists,
+		// so that memory grows with neither the target set nor, past a span, the pool.
+		if !rowWise && rowBest == nil {
+			rowBest = make([]float64, n)
+		}
+		for lo := 0; lo < len(q); lo += block {
+			if err := s.streamPasses(ctx, cc, res, rowBest, lo, min(len(q), lo+block)); err != nil {
+				return nil, err
+			}
 		}
 		return res, nil
 	}
@@ -570,9 +582,9 @@ func (w *worker) run(ctx context.Context) error {
 				}
 				w.work.Postings += int64(len(rows))
 				if dense {
-					accumulate(acc, rows, parts, qu.qi[i])
+					accumulate(acc, rows, parts, qu.factor(i, s.pl.idf))
 				} else {
-					touched = accumulateTrack(acc, rows, parts, qu.qi[i], touched)
+					touched = accumulateTrack(acc, rows, parts, qu.factor(i, s.pl.idf), touched)
 				}
 			}
 			if dense {
@@ -643,7 +655,7 @@ func (s *scorer) combinedPass(ctx context.Context, acc []float64, work *Work) er
 		}
 		work.QueryTerms++
 		work.Postings += int64(len(rows))
-		accumulate(acc, rows, parts, qu.qi[i])
+		accumulate(acc, rows, parts, qu.factor(i, s.pl.idf))
 	}
 	work.PostingsFetched += w.work.PostingsFetched
 	return nil

@@ -27,13 +27,19 @@ type CursorCorpus interface {
 // every query term's postings in the span through a cursor, fills in their
 // tf parts, and scores the span's blocks on the workers. A span's postings
 // take about Params.CacheBytes, and every list is read exactly once.
-func (s *scorer) streamPasses(ctx context.Context, cc CursorCorpus, res *Result, bestScore []float64) error {
+//
+// It scores against the target rows [tlo, thi) (and, for the first block, the
+// combined query), reading the lists of their terms only.
+func (s *scorer) streamPasses(ctx context.Context, cc CursorCorpus, res *Result, bestScore []float64, tlo, thi int) error {
 	pl := s.pl
 	n := pl.n
-	h, combined := s.rowSetup(&res.Work, func(k int) int64 { return int64(pl.df[k]) })
+	h, combined := s.rowSetup(&res.Work, tlo, thi, func(k int) int64 { return int64(pl.df[k]) })
 	curs := make([]PostingCursor, len(pl.vocab))
 	var total int64
 	for k, term := range pl.vocab {
+		if h.off[k] == h.off[k+1] && (combined == nil || combined[k] != combined[k]) {
+			continue // no target row of the block holds it, nor does the combined query
+		}
 		c, err := cc.Cursor(term)
 		if err != nil {
 			return fmt.Errorf("score: postings of %q: %w", term, err)
@@ -66,6 +72,9 @@ func (s *scorer) streamPasses(ctx context.Context, cc CursorCorpus, res *Result,
 				return fmt.Errorf("score: %w", err)
 			}
 			start[k] = len(rows)
+			if c == nil {
+				continue
+			}
 			var err error
 			if rows, tfs, err = c.Next(hi, rows, tfs); err != nil {
 				return fmt.Errorf("score: postings of %q: %w", pl.vocab[k], err)
