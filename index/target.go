@@ -82,9 +82,11 @@ func ReadTargets(path, spec, idField string, an *analysis.Analyzer, maxRowBytes 
 				}
 			}
 			ex, _ := jsonl.NewExtractor(sp, idField, "") // checked above
-			var cut []byte
+			sc := &targetScratch{seen: map[string]string{}}
 			for j := i * len(lines) / nw; j < (i+1)*len(lines)/nw; j++ {
-				cut = lines[j].analyse(path, ex, wan, cut)
+				if lines[j].analyse(path, ex, wan, sc); lines[j].reject == "" {
+					lines[j].raw = nil // only a reject needs its line from here on
+				}
 			}
 		})
 	}
@@ -117,32 +119,47 @@ type targetLine struct {
 	t      Target
 }
 
+// targetScratch is one worker's space for analysing target rows, reused from row to row.
+type targetScratch struct {
+	cut   []byte   // for cutLongRuns
+	terms []string // the row's terms, copied to fit into its Target
+	// seen holds one string per distinct term, shared by every row holding it: a target set
+	// repeats most of its terms, and a string each would cost its bytes again at every use.
+	seen map[string]string
+}
+
 // analyse makes the line's Target, or its reject. Terms longer than MaxTermBytes are dropped, as
-// the index drops them. cut is scratch space for cutLongRuns, returned for the next line.
-func (tl *targetLine) analyse(path string, ex *jsonl.Extractor, an *analysis.Analyzer, cut []byte) []byte {
+// the index drops them.
+func (tl *targetLine) analyse(path string, ex *jsonl.Extractor, an *analysis.Analyzer, sc *targetScratch) {
 	if tl.reject != "" {
-		return cut
+		return
 	}
-	var terms []string
+	terms := sc.terms[:0]
 	row, err := ex.Extract(tl.raw, func(part []byte) {
-		part, cut = cutLongRuns(part, cut)
+		part, sc.cut = cutLongRuns(part, sc.cut)
 		an.Each(part, func(t []byte) {
-			if len(t) <= MaxTermBytes {
-				terms = append(terms, string(t))
+			if len(t) > MaxTermBytes {
+				return
 			}
+			s, ok := sc.seen[string(t)]
+			if !ok {
+				s = string(t)
+				sc.seen[s] = s
+			}
+			terms = append(terms, s)
 		})
 	})
+	sc.terms = terms
 	if err != nil {
 		tl.reject = reasonOf(err)
 		if tl.n == len(tl.raw) && errors.Is(err, jsonl.ErrNotJSON) {
 			tl.reject += "; it is the last line and has no newline: the file may have been cut short"
 		}
-		return cut
+		return
 	}
 	id := path + ":" + strconv.FormatInt(tl.line, 10)
 	if row.HasID {
 		id = string(row.ID)
 	}
-	tl.t = Target{ID: id, Line: tl.line, Terms: terms, TextBytes: row.TextBytes}
-	return cut
+	tl.t = Target{ID: id, Line: tl.line, Terms: slices.Clone(terms), TextBytes: row.TextBytes}
 }
