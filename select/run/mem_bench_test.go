@@ -84,7 +84,7 @@ func peakHeap(fn func() error) (int64, error) {
 // kept: the duplicate guard's own cost per row is dedup's (BenchmarkDetector).
 func BenchmarkPickMemory(b *testing.B) {
 	dir := b.TempDir()
-	const rows0, rows1, targets0, targets1 = 100_000, 300_000, 500, 3_500
+	const rows0, rows1, targets0, targets1 = 100_000, 300_000, 500, 8_500
 	var idx [2]string
 	for i, n := range []int{rows0, rows1} {
 		pool := filepath.Join(dir, fmt.Sprintf("pool%d.jsonl", i))
