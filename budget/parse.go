@@ -234,3 +234,16 @@ func ParseSize(s string) (int64, error) {
 	}
 	return q.Int64(), nil
 }
+
+// ParseBound parses a size bound of at least least bytes, as ParseSize does; "" (no bound asked
+// for) is 0.
+func ParseBound(s string, least int64) (int64, error) {
+	if s == "" {
+		return 0, nil
+	}
+	v, err := ParseSize(s)
+	if err == nil && v < least {
+		err = badNumber("size", s, fmt.Sprintf("below the least of %d MiB", least>>20))
+	}
+	return v, err
+}

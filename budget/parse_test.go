@@ -263,3 +263,27 @@ func TestAccelerators(t *testing.T) {
 		}
 	}
 }
+
+func TestParseBound(t *testing.T) {
+	for _, tc := range []struct {
+		in    string
+		least int64
+		want  int64
+		ok    bool
+	}{
+		{"", 1 << 20, 0, true}, // no bound asked for
+		{"8GiB", 1 << 20, 8 << 30, true},
+		{"1MiB", 1 << 20, 1 << 20, true},
+		{"1023KiB", 1 << 20, 0, false},
+		{"lots", 1 << 20, 0, false},
+		{"-1GiB", 0, 0, false},
+	} {
+		got, err := ParseBound(tc.in, tc.least)
+		if tc.ok != (err == nil) || tc.ok && got != tc.want {
+			t.Errorf("ParseBound(%q, %d) = %d, %v; want %d, ok %v", tc.in, tc.least, got, err, tc.want, tc.ok)
+		}
+		if err != nil && !errors.Is(err, ErrBadNumber) {
+			t.Errorf("ParseBound(%q): %v, want ErrBadNumber", tc.in, err)
+		}
+	}
+}

@@ -113,12 +113,9 @@ func indexOptions(fs *pflag.FlagSet) (index.Options, error) {
 		return opt, usagef("--analyzer: %v", err)
 	}
 	memS, _ := fs.GetString("mem")
-	mem, err := budget.ParseSize(memS)
+	mem, err := budget.ParseBound(memS, 16<<20)
 	if err != nil {
 		return opt, usagef("--mem: %v", err)
-	}
-	if mem < 16<<20 {
-		return opt, usagef("--mem %s: at least 16MiB is needed", memS)
 	}
 	opt.Mem = mem
 	mrS, _ := fs.GetString("max-row-bytes")

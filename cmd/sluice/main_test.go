@@ -503,3 +503,29 @@ func TestHelpFiles(t *testing.T) {
 		}
 	}
 }
+
+// TestMaxMem checks pick's memory bound from the command line: a bound below what the pick's
+// estimate needs is a usage error (exit 2) saying how much it needs, before anything is written;
+// a bound below the least allowed is refused as a flag; a wide one lets the pick run.
+func TestMaxMem(t *testing.T) {
+	dir, idx, target := demoIndex(t)
+	for i, tc := range []struct {
+		maxMem string
+		code   int
+		msg    string
+	}{
+		{"64MiB", 2, "needs about"},
+		{"1KiB", 2, "--max-mem"},
+		{"1TiB", 0, ""},
+	} {
+		out := filepath.Join(dir, fmt.Sprintf("run%d", i))
+		code, stdout, stderr := sluice(t, "pick", "--quiet", "--index", idx, "--target", target, "--budget", "1e18",
+			"--train-params", "1B", "--max-mem", tc.maxMem, "--out", out)
+		if code != tc.code || !strings.Contains(stdout+stderr, tc.msg) {
+			t.Errorf("--max-mem %s: exit %d (want %d), output %q lacks %q", tc.maxMem, code, tc.code, stdout+stderr, tc.msg)
+		}
+		if _, err := os.Stat(out); tc.code != 0 && !os.IsNotExist(err) {
+			t.Errorf("--max-mem %s: %s was made", tc.maxMem, out)
+		}
+	}
+}

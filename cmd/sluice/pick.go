@@ -2,7 +2,9 @@ package main
 
 import (
 	"context"
+	"errors"
 	"math"
+	"runtime/debug"
 	"slices"
 	"strings"
 	"time"
@@ -51,7 +53,15 @@ func (c *pickCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 func pick(ctx context.Context, e *env, opt run.Options, quiet bool) (*run.Result, error) {
 	opt.Version = version()
 	started := time.Now()
+	if opt.MaxMem > 0 {
+		// The collector works harder near the bound rather than pass it; the old limit is restored
+		// for whatever the process does next (a plan runs several picks).
+		defer debug.SetMemoryLimit(debug.SetMemoryLimit(opt.MaxMem))
+	}
 	res, err := run.Pick(ctx, opt)
+	if errors.Is(err, run.ErrMemory) {
+		return nil, usagef("%v", err)
+	}
 	if err == nil && !quiet {
 		err = res.WriteSummary(e.stdout, time.Since(started))
 	}
@@ -109,6 +119,7 @@ func addPickStopFlags(fs *pflag.FlagSet) {
 	fs.String("out", "", "run folder to write (required)")
 	fs.String("compress", "none", "write the kept rows as kept.jsonl (none), kept.jsonl.gz (gzip) or kept.jsonl.zst (zstd)")
 	fs.String("mem", "64MiB", "memory for the postings of one span of pool rows; lists are read a span at a time")
+	fs.String("max-mem", "", "refuse, before scoring, a pick its estimate says needs more memory (e.g. 8GiB), and hold the heap to it")
 	fs.BoolP("quiet", "q", false, "print nothing but errors")
 }
 
@@ -202,15 +213,9 @@ func scoreParams(fs *pflag.FlagSet) (score.Params, error) {
 	if !(p.B >= 0 && p.B <= 1) {
 		return p, usagef("--b %v: must be between 0 and 1", p.B)
 	}
-	memS := str("mem")
-	mem, err := budget.ParseSize(memS)
-	if err != nil {
+	if p.CacheBytes, err = budget.ParseBound(str("mem"), 1<<20); err != nil {
 		return p, usagef("--mem: %v", err)
 	}
-	if mem < 1<<20 {
-		return p, usagef("--mem %s: give at least 1MiB", memS)
-	}
-	p.CacheBytes = mem
 	return p, nil
 }
 
@@ -219,13 +224,12 @@ func methodFlags(fs *pflag.FlagSet, opt *run.Options) error {
 	opt.Method, _ = fs.GetString("method")
 	opt.Ngram.Order, _ = fs.GetInt("order")
 	opt.Ngram.Seed, _ = fs.GetUint64("ngram-seed")
-	switch ns, _ := fs.GetString("ngram-score"); ns {
-	case "difference":
-	case "target":
-		opt.Ngram.TargetOnly = true
-	default:
+	ns, _ := fs.GetString("ngram-score")
+	targetOnly, ok := run.ParseNgramScore(ns)
+	if !ok {
 		return usagef("--ngram-score %q: give difference or target", ns)
 	}
+	opt.Ngram.TargetOnly = targetOnly
 	if opt.Ngram.Order < 3 || opt.Ngram.Order > 5 {
 		return usagef("--order %d: give 3, 4 or 5", opt.Ngram.Order)
 	}
@@ -287,6 +291,11 @@ func trainingFlags(fs *pflag.FlagSet, opt *run.Options) error {
 	if mt, _ := fs.GetString("max-tokens"); mt != "" {
 		if opt.Select.MaxCount, err = budget.ParseCount(mt); err != nil {
 			return usagef("--max-tokens: %v", err)
+		}
+	}
+	if mm, _ := fs.GetString("max-mem"); mm != "" {
+		if opt.MaxMem, err = budget.ParseBound(mm, 64<<20); err != nil {
+			return usagef("--max-mem: %v", err)
 		}
 	}
 	return nil

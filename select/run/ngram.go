@@ -183,3 +183,15 @@ func RowTerms(ctx context.Context, ix *index.Index, row int) ([]string, error) {
 	})
 	return out, err
 }
+
+// ParseNgramScore reads how an n-gram pick scores a row: "difference" (the target model against the
+// pool sample's) or "target" (the target model alone, TargetOnly).
+func ParseNgramScore(s string) (targetOnly, ok bool) {
+	switch s {
+	case "difference":
+		return false, true
+	case "target":
+		return true, true
+	}
+	return false, false
+}

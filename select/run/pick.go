@@ -51,6 +51,10 @@ type Options struct {
 	Epochs      float64
 	Select      selection.Options // Budget and Fixed are set by Pick
 
+	// MaxMem, when above 0, is the most memory the pick may need by its estimate (memoryNeed); a
+	// pick needing more fails with ErrMemory before scoring.
+	MaxMem int64
+
 	Out      string    // run folder to write
 	Compress string    // none, gzip or zstd
 	Command  []string  // the command line, for the manifest
@@ -171,6 +175,9 @@ func Pick(ctx context.Context, opt Options) (*Result, error) {
 		return nil, err
 	}
 	if err := p.readTargets(); err != nil {
+		return nil, err
+	}
+	if err := p.checkMemory(); err != nil {
 		return nil, err
 	}
 	if err := p.score(ctx); err != nil {

@@ -3,6 +3,8 @@ package run
 import (
 	"context"
 	"encoding/json"
+	"errors"
+	"fmt"
 	"os"
 	"path/filepath"
 	"strings"
@@ -85,5 +87,57 @@ func TestLongIDsReadBack(t *testing.T) {
 	a, b := found[idA], found[idB]
 	if len(a) != 1 || len(b) != 1 || !a[0].Kept || b[0].Reason != "duplicate" || b[0].DuplicateOf != idA {
 		t.Errorf("read back: %d and %d lines for the two long ids, the second a duplicate of the first: %v", len(a), len(b), len(b) == 1 && b[0].DuplicateOf == idA)
+	}
+}
+
+// TestMaxMem checks the pick's memory bound: a pick whose estimate passes it fails before scoring
+// with ErrMemory, saying what it needs, and writes nothing; one within it runs; and the estimate
+// counts the duplicate guard per pool row.
+func TestMaxMem(t *testing.T) {
+	dir, idx, target := demo(t)
+	for i, tc := range []struct {
+		maxMem int64
+		keep   bool
+		fails  bool
+	}{
+		{64 << 20, true, true}, // the posting span and the buffers alone take more
+		{1 << 40, true, false},
+		{1 << 40, false, false},
+		{0, false, false}, // no bound
+	} {
+		out := filepath.Join(dir, fmt.Sprintf("run%d", i))
+		opt := demoOptions(idx, target, out)
+		opt.MaxMem, opt.Guards.KeepDuplicates = tc.maxMem, tc.keep
+		_, err := Pick(context.Background(), opt)
+		if tc.fails != errors.Is(err, ErrMemory) || !tc.fails && err != nil {
+			t.Errorf("--max-mem %d: %v", tc.maxMem, err)
+		}
+		if tc.fails {
+			if !strings.Contains(fmt.Sprint(err), "needs about") {
+				t.Errorf("the error does not say what the pick needs: %v", err)
+			}
+			if _, serr := os.Stat(out); !os.IsNotExist(serr) {
+				t.Errorf("a pick refused for memory left %s: %v", out, serr)
+			}
+		}
+	}
+	ix, err := index.Open(idx)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer ix.Close()
+	need := func(keep bool) int64 {
+		opt := demoOptions(idx, target, "")
+		opt.Guards.KeepDuplicates = keep
+		p := &picked{opt: &opt, ix: ix, target: target}
+		if err := p.readTargets(); err != nil {
+			t.Fatal(err)
+		}
+		n, _ := p.memoryNeed()
+		return n
+	}
+	n := int64(ix.NumRows())
+	if got, want := need(false)-need(true), n*dupRowBytes(chooseBands(DefaultNearDup)); got != want {
+		t.Errorf("the duplicate guard adds %d to the estimate, want %d for %d rows", got, want, n)
 	}
 }

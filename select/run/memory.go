@@ -1,0 +1,100 @@
+package run
+
+import (
+	"errors"
+	"fmt"
+	"strings"
+
+	"sluice/score"
+)
+
+// ErrMemory reports a pick that would need more memory than Options.MaxMem allows; nothing was
+// written.
+var ErrMemory = errors.New("the pick needs more memory than allowed")
+
+// What a pick holds, in bytes, by what it grows with. The figures are BenchmarkPickMemory's
+// (live heap, rounded up) and the sizes of the arrays behind them; the mapped index files are not
+// counted, since the kernel can drop their pages and read them again.
+const (
+	// PoolRowBytes is a pool row's share: its score (8), best target row (4) and cost (8), its
+	// place in the ranking (16) and its decision (16). Measured: 42 to 54.
+	PoolRowBytes = 56
+	// TargetRowBytes and TargetTermBytes are a target row's share, less its terms, and a term's:
+	// its string in the row (16) and its number in the row's query (4; 12 for TF-IDF). Measured:
+	// 150 to 300 a row of 13 terms.
+	TargetRowBytes  = 200
+	TargetTermBytes = 32
+	// fixedBytes covers what grows with nothing: the writers' buffers (1 MiB each), the readers',
+	// the lexicon's sample and the runtime.
+	fixedBytes = 64 << 20
+)
+
+// dupRowBytes is what the duplicate guard holds per pool row, as dedup documents it at its most: a
+// sketch of a byte per hash (Detector), the row's number and its cluster (4 and 4), a bucket entry
+// per band at 32 bytes, and an exact-duplicate key in a map at 48 (Exact).
+func dupRowBytes(bands int) int64 { return minhashes + 4 + 4 + 32*int64(bands) + 48 }
+
+// memPart is one part of a pick's memory, in words and bytes.
+type memPart struct {
+	what  string
+	bytes int64
+}
+
+// memoryNeed estimates the most memory the pick holds at once, with the parts it is made of in
+// words, once the target rows are read. Model-based methods add their model, which is not counted.
+func (p *picked) memoryNeed() (int64, []string) {
+	n := int64(p.ix.NumRows())
+	var terms int64
+	for _, t := range p.targets {
+		terms += int64(len(t.Terms))
+	}
+	span := p.opt.Params.CacheBytes
+	if span <= 0 {
+		span = score.DefaultSpanBytes
+	}
+	parts := []memPart{
+		{fmt.Sprintf("%d pool rows at %d B", n, PoolRowBytes), n * PoolRowBytes},
+		{fmt.Sprintf("%d target rows at %d B and %d target terms at %d B", len(p.targets), TargetRowBytes, terms, TargetTermBytes),
+			int64(len(p.targets))*TargetRowBytes + terms*TargetTermBytes},
+		// A span's postings take the bound and a quarter more when rows are longer than average.
+		{fmt.Sprintf("the postings of a span of rows (--mem %s) and a quarter", formatBytes(span)), span + span/4},
+		{"buffers", fixedBytes},
+	}
+	if g := p.opt.Guards; !g.KeepDuplicates {
+		b := int64(chooseBands(orDefault(g.NearDup, DefaultNearDup)))
+		parts = append(parts, memPart{fmt.Sprintf("the duplicate guard, %d B a pool row (--keep-duplicates drops it)", dupRowBytes(int(b))), n * dupRowBytes(int(b))})
+	}
+	var total int64
+	var words []string
+	for _, pt := range parts {
+		total += pt.bytes
+		words = append(words, fmt.Sprintf("%s: %s", pt.what, formatBytes(pt.bytes)))
+	}
+	return total, words
+}
+
+// checkMemory refuses, before any scoring, a pick that would need more than opt.MaxMem.
+func (p *picked) checkMemory() error {
+	if p.opt.MaxMem <= 0 {
+		return nil
+	}
+	need, parts := p.memoryNeed()
+	if need <= p.opt.MaxMem {
+		return nil
+	}
+	return fmt.Errorf("this pick needs about %s (%s), more than --max-mem %s allows: raise it, or lower --mem; nothing was written: %w",
+		formatBytes(need), strings.Join(parts, "; "), formatBytes(p.opt.MaxMem), ErrMemory)
+}
+
+// formatBytes writes a size in the largest binary unit that keeps it at 1 or more, as --mem takes it.
+func formatBytes(b int64) string {
+	units := []string{"B", "KiB", "MiB", "GiB", "TiB"}
+	v, u := float64(b), 0
+	for v >= 1024 && u < len(units)-1 {
+		v, u = v/1024, u+1
+	}
+	if u == 0 {
+		return fmt.Sprintf("%d B", b)
+	}
+	return fmt.Sprintf("%.1f %s", v, units[u])
+}
