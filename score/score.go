@@ -200,11 +200,13 @@ type Result struct {
 // combined query and one pass per target row finds Best; in Max mode the
 // per-target passes give both.
 //
-// With at most a few thousand target rows, the per-target passes (and the
-// combined pass) are turned around into one walk over the pool rows that
-// keeps an accumulator per target row: span by span through cursors for a
-// CursorCorpus (streamPasses), else when every list fits the cache
-// (rowPasses). The sums are the same, term by term, so the results are too.
+// The per-target passes (and the combined pass) are turned around into one
+// walk over the pool rows that keeps an accumulator per target row: for a
+// CursorCorpus span by span through cursors (streamPasses), taking the target
+// rows 4,096 at a time, so that memory grows with neither the pool nor the
+// target set; for another Corpus, when every list fits the cache and there
+// are at most 4,096 target rows (rowPasses). The sums are the same, term by
+// term, so the results are too.
 //
 // Each distinct query term's posting list is read from c once and kept, with
 // its per-posting tf part, within Params.CacheBytes. The per-target passes run
