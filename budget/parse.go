@@ -159,6 +159,19 @@ func parsePositive(what, s, t string, suffixes map[string]int, foldCase bool) (f
 // count cannot be confused with a byte size.
 var countSuffixes = map[string]int{"k": 3, "m": 6, "b": 9, "t": 12}
 
+// ParseCounts reads a comma-separated list of counts, each as ParseCount reads it.
+func ParseCounts(s string) ([]float64, error) {
+	var out []float64
+	for _, p := range strings.Split(s, ",") {
+		v, err := ParseCount(p)
+		if err != nil {
+			return nil, err
+		}
+		out = append(out, v)
+	}
+	return out, nil
+}
+
 // ParseCount parses a positive count such as a number of model parameters
 // or tokens: "7B", "1.3B", "350M", "125k", "2T" or "7e9". Suffixes are k
 // (1e3), M (1e6), B (billion, 1e9) and T (1e12), in either case.

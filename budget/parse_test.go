@@ -287,3 +287,15 @@ func TestParseBound(t *testing.T) {
 		}
 	}
 }
+
+func TestParseCounts(t *testing.T) {
+	got, err := ParseCounts("125M,1.3B,7e9")
+	if err != nil || len(got) != 3 || got[0] != 125e6 || got[1] != 1.3e9 || got[2] != 7e9 {
+		t.Errorf("ParseCounts = %v, %v", got, err)
+	}
+	for _, bad := range []string{"", "1M,", "1M,x"} {
+		if _, err := ParseCounts(bad); err == nil {
+			t.Errorf("ParseCounts(%q): no error", bad)
+		}
+	}
+}

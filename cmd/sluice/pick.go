@@ -42,8 +42,7 @@ func (c *pickCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 	if err != nil {
 		return err
 	}
-	opt.Command = append([]string{"sluice"}, e.args...)
-	opt.Stdin = e.stdin
+	opt.Command, opt.Stdin = append([]string{"sluice"}, e.args...), e.stdin
 	quiet, _ := fs.GetBool("quiet")
 	_, err = pick(ctx, e, opt, quiet)
 	return err

@@ -46,12 +46,8 @@ func (c *pilotsCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 	po.Command, po.Stdin, po.Version = append([]string{"sluice"}, e.args...), e.stdin, version()
 	opt := pilots.Options{Pick: po, Methods: strings.Split(po.Method, ","), Out: po.Out}
 	tp, _ := fs.GetString("train-params")
-	for _, s := range strings.Split(tp, ",") {
-		n, err := budget.ParseCount(s)
-		if err != nil {
-			return usagef("--train-params %q: %v", s, err)
-		}
-		opt.Trained = append(opt.Trained, n)
+	if opt.Trained, err = budget.ParseCounts(tp); err != nil {
+		return usagef("--train-params: %v", err)
 	}
 	sizes, _ := fs.GetString("sizes")
 	if opt.Sizes, err = pilots.ParseSizes(sizes, func() (float64, error) { return run.PoolTokens(po.Index) }); errors.Is(err, pilots.ErrBadOptions) {
