@@ -464,4 +464,21 @@ func TestStopsAsPeopleStateThem(t *testing.T) {
 	if l, _ := run.ReadLedger(filepath.Join(dir, "cap")); !strings.HasPrefix(l.Stop, "max-tokens") {
 		t.Errorf("stop %q", l.Stop)
 	}
+	// The knee: rows kept are exactly those at or above run.Knee of the matching rows' scores.
+	var scores []float64
+	for _, s := range all {
+		if s.Score > 0 {
+			scores = append(scores, s.Score)
+		}
+	}
+	slices.Sort(scores)
+	knee := run.Knee(scores)
+	for _, s := range pickWith("knee", "--min-score", "knee") {
+		if s.Kept != (s.Score >= knee) {
+			t.Errorf("knee %v: row %s scores %v, kept %v", knee, s.ID, s.Score, s.Kept)
+		}
+	}
+	if l, _ := run.ReadLedger(filepath.Join(dir, "knee")); !strings.Contains(l.Stop, "knee") {
+		t.Errorf("stop %q does not say the floor is the knee", l.Stop)
+	}
 }

@@ -113,7 +113,7 @@ func addPickStopFlags(fs *pflag.FlagSet) {
 	fs.Float64("epochs", 1, "training epochs over the kept rows")
 	fs.Bool("fill", false, "after the first row that does not fit, keep scanning for rows that do")
 	fs.Int("max-rows", 0, "keep at most this many rows (0: no limit)")
-	fs.String("min-score", "", "keep only rows scoring at least this: a score, a share of the best score (50%),\nor a percentile of the scored rows (p90: the best tenth); lexical rows sharing no term are never kept")
+	fs.String("min-score", "", "keep only rows scoring at least this: a score, a share of the best score (50%),\na percentile of the scored rows (p90: the best tenth), or knee (where the sorted scores stop falling steeply);\nlexical rows sharing no term are never kept")
 	fs.String("max-tokens", "", "keep rows only until they hold this many tokens (e.g. 50M), whatever budget is left")
 	fs.String("out", "", "run folder to write (required)")
 	fs.String("compress", "none", "write the kept rows as kept.jsonl (none), kept.jsonl.gz (gzip) or kept.jsonl.zst (zstd)")

@@ -5,6 +5,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"slices"
 	"strings"
 	"testing"
 
@@ -148,3 +149,46 @@ func TestNonFiniteScoresRefused(t *testing.T) {
 		t.Errorf("a run folder was written: %v", err)
 	}
 }
+
+// Knee follows the definition of the Kneedle method (Satopää et al., 2011) for a decreasing convex
+// curve: on a curve of two straight pieces the knee is the corner, and on any curve it is the point
+// whose scaled rank plus scaled score is least, found here by brute force.
+func TestKnee(t *testing.T) {
+	asc := func(desc ...float64) []float64 {
+		s := slices.Clone(desc)
+		slices.Reverse(s)
+		return s
+	}
+	for _, c := range []struct {
+		name string
+		desc []float64
+		want float64
+	}{
+		// A steep fall over 4 rows, then a flat tail: the corner is the 5th best, score 2.
+		{"corner", []float64{10, 8, 6, 4, 2, 1.9, 1.8, 1.7, 1.6, 1.5, 1.4, 1.3, 1.2, 1.1, 1.0}, 2},
+		{"one", []float64{3}, 3},
+		{"flat", []float64{2, 2, 2, 2}, 2},
+		{"two", []float64{5, 1}, 1},
+	} {
+		if got := Knee(asc(c.desc...)); got != c.want {
+			t.Errorf("%s: knee %v, want %v", c.name, got, c.want)
+		}
+	}
+	// 1/x, sampled: the brute-force minimum of scaled rank + scaled score.
+	var desc []float64
+	for x := 1; x <= 200; x++ {
+		desc = append(desc, 1/float64(x))
+	}
+	n := float64(len(desc) - 1)
+	best, want := math.Inf(1), 0.0
+	for i, v := range desc {
+		if d := float64(i)/n + (v-desc[n0(desc)])/(desc[0]-desc[n0(desc)]); d < best {
+			best, want = d, v
+		}
+	}
+	if got := Knee(asc(desc...)); got != want || want >= 0.2 || want <= 0.02 {
+		t.Errorf("1/x: knee %v, want %v (between the steep head and the flat tail)", got, want)
+	}
+}
+
+func n0(s []float64) int { return len(s) - 1 }

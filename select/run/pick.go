@@ -319,6 +319,9 @@ func (p *picked) keep() error {
 	led.AddTraining(fmt.Sprintf("train %s-parameter model on kept rows", budget.FormatCount(opt.TrainParams)), "token", float64(r.KeptTokens), unit,
 		fmt.Sprintf("6 x %g parameters x %d tokens x %g epochs", opt.TrainParams, r.KeptTokens, opt.Epochs))
 	led.Stop = stopText(sum, so)
+	if sum.Stop == selection.StopMinScore && opt.MinScore.Kind != "" {
+		led.Stop += " (" + opt.MinScore.String() + ")"
+	}
 	tokSrc := "UTF-8 bytes of the text fields / 4, rounded up (rule of thumb for English, common practice)"
 	switch {
 	case m.TokensField != "":
@@ -461,7 +464,8 @@ func PoolTokens(dir string) (float64, error) {
 
 // MinScore is a score floor given relative to the scores: Kind "share" keeps rows scoring at least
 // Value times the best score; "percentile" keeps rows scoring at least the Value-th percentile of
-// the scored rows (p90 keeps about the best tenth). The zero value is a plain floor.
+// the scored rows (p90 keeps about the best tenth); "knee" keeps the rows above where the sorted
+// scores stop falling steeply (Knee). The zero value is a plain floor.
 type MinScore struct {
 	Kind  string  `json:"kind,omitempty"`
 	Value float64 `json:"value,omitempty"`
@@ -469,6 +473,9 @@ type MinScore struct {
 }
 
 func (m MinScore) String() string {
+	if m.Kind == "knee" {
+		return "the knee of the sorted scores, where they stop falling steeply"
+	}
 	if m.Kind == "share" {
 		return fmt.Sprintf("%g%% of the best score", 100*m.Value)
 	}
@@ -482,6 +489,8 @@ func ParseMinScore(s string) (MinScore, error) {
 	switch {
 	case s == "":
 		return m, nil
+	case s == "knee":
+		return MinScore{Kind: "knee"}, nil
 	case strings.HasSuffix(s, "%"):
 		v, err := strconv.ParseFloat(strings.TrimSuffix(s, "%"), 64)
 		if err != nil || !(v > 0 && v <= 100) {
@@ -497,7 +506,7 @@ func ParseMinScore(s string) (MinScore, error) {
 	}
 	v, err := strconv.ParseFloat(s, 64)
 	if err != nil || math.IsNaN(v) || math.IsInf(v, 0) {
-		return m, fmt.Errorf("%q: give a finite score, a share of the best (50%%) or a percentile (p90)", s)
+		return m, fmt.Errorf("%q: give a finite score, a share of the best (50%%), a percentile (p90) or knee", s)
 	}
 	return MinScore{Plain: v}, nil
 }
@@ -515,6 +524,9 @@ func (m MinScore) resolve(scores []float64, barred []selection.Reason, lexical b
 		return math.Inf(1)
 	}
 	slices.Sort(s)
+	if m.Kind == "knee" {
+		return Knee(s)
+	}
 	if m.Kind == "share" {
 		best := s[len(s)-1]
 		if best < 0 {
@@ -523,4 +535,27 @@ func (m MinScore) resolve(scores []float64, barred []selection.Reason, lexical b
 		return m.Value * best
 	}
 	return s[int(math.Floor(m.Value/100*float64(len(s)-1)))]
+}
+
+// Knee is the score at the knee of scores sorted ascending, read from the best down: where the
+// curve of score against rank bends from a steep fall to a flat tail. It is the point of the
+// Kneedle method (Satopää, Albrecht, Irwin and Raghavan, 2011) for a decreasing convex curve: with
+// rank and score both scaled to [0, 1], the point farthest below the straight line from the best
+// row to the last, that is, the least scaled rank plus scaled score; ties go to the better rank.
+// One score, or all equal, gives the lowest score: there is no bend, so nothing is cut.
+func Knee(ascending []float64) float64 {
+	n := len(ascending)
+	lo, hi := ascending[0], ascending[n-1]
+	if n < 3 || hi == lo {
+		return lo
+	}
+	best, at := math.Inf(1), hi
+	for i := range n {
+		v := ascending[n-1-i] // the i-th best
+		d := float64(i)/float64(n-1) + (v-lo)/(hi-lo)
+		if d < best {
+			best, at = d, v
+		}
+	}
+	return at
 }
