@@ -7,6 +7,7 @@ import (
 	"fmt"
 	"io"
 	"os"
+	"slices"
 	"strings"
 
 	"github.com/spf13/pflag"
@@ -45,19 +46,14 @@ func usagef(format string, a ...any) error { return &usageError{fmt.Sprintf(form
 // required reports, all together, what a command line left out: each argument names one thing,
 // or is "" when it was given.
 func required(missing ...string) error {
-	var m []string
-	for _, s := range missing {
-		if s != "" {
-			m = append(m, s)
-		}
-	}
-	switch len(m) {
+	switch m := slices.DeleteFunc(missing, func(s string) bool { return s == "" }); len(m) {
 	case 0:
 		return nil
 	case 1:
 		return usagef("%s is required", m[0])
+	default:
+		return usagef("these are required: %s", strings.Join(m, ", "))
 	}
-	return usagef("these are required: %s", strings.Join(m, ", "))
 }
 
 // unset is "--name" when the string flag name was left empty, else "".

@@ -116,6 +116,7 @@ func addPickStopFlags(fs *pflag.FlagSet) {
 	fs.String("min-score", "", "keep only rows scoring at least this: a score, a share of the best score (50%),\na percentile of the scored rows (p90: the best tenth), or knee (where the sorted scores stop falling steeply);\nlexical rows sharing no term are never kept")
 	fs.String("max-tokens", "", "keep rows only until they hold this many tokens (e.g. 50M), whatever budget is left")
 	fs.String("out", "", "run folder to write (required)")
+	fs.String("kept-format", run.KeptRows, "kept rows as they stand (rows), or in one schema with source, id, score and rank:\ntext ({\"text\"}) or chat ({\"messages\": user turn, assistant turn})")
 	fs.String("compress", "none", "write the kept rows as kept.jsonl (none), kept.jsonl.gz (gzip) or kept.jsonl.zst (zstd)")
 	fs.String("mem", "64MiB", "memory for the postings of one span of pool rows; lists are read a span at a time")
 	fs.String("max-mem", "", "refuse, before scoring, a pick its estimate says needs more memory (e.g. 8GiB), and hold the heap to it")
@@ -147,15 +148,15 @@ func pickOptions(fs *pflag.FlagSet) (run.Options, error) {
 func pickInputs(fs *pflag.FlagSet) (run.Options, error) {
 	str := func(n string) string { v, _ := fs.GetString(n); return v }
 	opt := run.Options{Index: str("index"), Target: str("target"), TargetText: str("target-text"),
-		TargetID: str("target-id"), Analyzer: str("analyzer"), Out: str("out"), Compress: str("compress")}
+		TargetID: str("target-id"), Analyzer: str("analyzer"), Out: str("out"), Compress: str("compress"), KeptFormat: str("kept-format")}
 	opt.OtherText, _ = fs.GetBool("other-target-text")
 	if is, _ := fs.GetBool("index-settings"); is {
 		opt.TargetText, opt.Analyzer = "", ""
 	}
-	switch opt.Compress {
-	case "none", "gzip", "zstd":
-	default:
-		return opt, usagef("--compress %q: give none, gzip or zstd", opt.Compress)
+	for _, c := range []struct{ flag, v, ok string }{{"compress", opt.Compress, "none,gzip,zstd"}, {"kept-format", opt.KeptFormat, strings.Join(run.KeptFormats(), ",")}} {
+		if !slices.Contains(strings.Split(c.ok, ","), c.v) {
+			return opt, usagef("--%s %q: give %s", c.flag, c.v, strings.ReplaceAll(c.ok, ",", ", "))
+		}
 	}
 	noBudget := ""
 	if !budgetGiven(fs) && !isPilots(fs) {

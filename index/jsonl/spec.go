@@ -224,6 +224,19 @@ func (s Spec) Alternatives() []Spec {
 	return out
 }
 
+// Paths returns each path of s's first alternative as a Spec of its own, in order: the fields a row
+// read through that alternative has, one at a time.
+func (s Spec) Paths() []Spec {
+	if len(s.alts) == 0 {
+		return nil
+	}
+	out := make([]Spec, len(s.alts[0]))
+	for i, pa := range s.alts[0] {
+		out[i] = Spec{alts: []alt{{pa}}}
+	}
+	return out
+}
+
 // Or returns s with the alternatives of t that s lacks added after its own, or an error wrapping
 // ErrBadSpec when one of them could never be taken (it holds every path of an alternative of s).
 func (s Spec) Or(t Spec) (Spec, error) {

@@ -172,3 +172,20 @@ func FuzzParseSpec(f *testing.F) {
 		}
 	})
 }
+
+func TestSpecPaths(t *testing.T) {
+	sp, err := ParseSpec(`prompt,a\,b,messages[].content|text`)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var got []string
+	for _, a := range sp.Alternatives() {
+		for _, p := range a.Paths() {
+			got = append(got, p.String())
+		}
+	}
+	want := []string{"prompt", `a\,b`, "messages[].content", "text"}
+	if strings.Join(got, "|") != strings.Join(want, "|") {
+		t.Errorf("paths %q, want %q", got, want)
+	}
+}

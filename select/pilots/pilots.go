@@ -162,6 +162,9 @@ func (o *Options) check() error {
 			return fmt.Errorf("pilots: size %g: must be 1 or more: %w", v, ErrBadOptions)
 		}
 	}
+	if f := o.Pick.KeptFormat; f != "" && f != run.KeptRows {
+		return fmt.Errorf("pilots: the subsets are the rows as they stand; --kept-format %s does not apply: %w", f, ErrBadOptions)
+	}
 	if o.Pick.Target == "-" {
 		return fmt.Errorf("pilots: the target is read once per method: give a file, not -: %w", ErrBadOptions)
 	}

@@ -169,35 +169,21 @@ func newRowTexter(spec string) (*rowTexter, error) {
 		return nil, err
 	}
 	t := &rowTexter{}
-	for _, name := range splitPaths(sp.String()) {
-		one, err := jsonl.ParseSpec(name)
-		if err != nil {
-			return nil, err
+	// Every path of every alternative, once: a row shows the fields it has, each under its name.
+	for _, a := range sp.Alternatives() {
+		for _, one := range a.Paths() {
+			name := one.String()
+			if slices.Contains(t.names, name) {
+				continue
+			}
+			ex, err := jsonl.NewExtractor(one, "", "")
+			if err != nil {
+				return nil, err
+			}
+			t.names, t.ex = append(t.names, name), append(t.ex, ex)
 		}
-		ex, err := jsonl.NewExtractor(one, "", "")
-		if err != nil {
-			return nil, err
-		}
-		t.names, t.ex = append(t.names, name), append(t.ex, ex)
 	}
 	return t, nil
-}
-
-// splitPaths splits the canonical form of a spec at its commas; a comma inside a key is escaped
-// with a backslash there, and so is a backslash.
-func splitPaths(canon string) []string {
-	var out []string
-	start := 0
-	for i := 0; i < len(canon); i++ {
-		switch canon[i] {
-		case '\\':
-			i++
-		case ',':
-			out = append(out, canon[start:i])
-			start = i + 1
-		}
-	}
-	return append(out, canon[start:])
 }
 
 // Limits on the text shown for a sample row: the rows of a pool can be megabytes long.

@@ -78,6 +78,8 @@ type Settings struct {
 	MaxRows     int     `json:"max_rows"`
 	MinScore    float64 `json:"min_score"`
 	Kept        string  `json:"kept"` // the kept file's name
+	// KeptFormat is how kept rows were written: "" (or "rows") byte for byte, or in one schema.
+	KeptFormat string `json:"kept_format,omitempty"`
 	// NoScoreFloor says a model-based method's scores had no --min-score floor.
 	NoScoreFloor bool            `json:"no_score_floor,omitempty"`
 	Prefilter    string          `json:"prefilter,omitempty"` // a cascade's first stage, METHOD:SHARE% or METHOD:TOKENS

@@ -55,11 +55,13 @@ type Options struct {
 	// pick needing more fails with ErrMemory before scoring.
 	MaxMem int64
 
-	Out      string    // run folder to write
-	Compress string    // none, gzip or zstd
-	Command  []string  // the command line, for the manifest
-	Version  string    // sluice's version, for the manifest
-	Stdin    io.Reader // read for a Target of "-"; nil is os.Stdin
+	Out      string // run folder to write
+	Compress string // none, gzip or zstd
+	// KeptFormat is KeptRows ("" too): the kept rows byte for byte; or KeptText or KeptChat.
+	KeptFormat string
+	Command    []string  // the command line, for the manifest
+	Version    string    // sluice's version, for the manifest
+	Stdin      io.Reader // read for a Target of "-"; nil is os.Stdin
 }
 
 // Result is what a pick did, for a summary; the run folder holds all of it and more.
@@ -157,6 +159,9 @@ func (p *picked) keepPipedTarget() error {
 // selection, keeps rows from the top while the ledger stays within the budget, and writes the run
 // folder opt.Out, published only when complete. Nothing is written when it fails.
 func Pick(ctx context.Context, opt Options) (*Result, error) {
+	if opt.KeptFormat != "" && !slices.Contains(KeptFormats(), opt.KeptFormat) {
+		return nil, fmt.Errorf("kept format %q: give %s", opt.KeptFormat, strings.Join(KeptFormats(), ", "))
+	}
 	if err := CheckOut(opt); err != nil {
 		return nil, err
 	}
@@ -358,7 +363,7 @@ func (p *picked) settings() Settings {
 		Method: o.method(), Aggregate: o.Params.Aggregate.String(),
 		K1: o.Params.K1, B: o.Params.B, Attribute: !o.Params.SkipBest,
 		Budget: o.Budget, BudgetHow: o.BudgetHow, TrainParams: o.TrainParams, Epochs: o.Epochs,
-		Fill: o.Select.Fill, MaxRows: o.Select.MaxRows, MinScore: o.Select.MinScore, Kept: KeptName(o.Compress),
+		Fill: o.Select.Fill, MaxRows: o.Select.MaxRows, MinScore: o.Select.MinScore, Kept: KeptName(o.Compress), KeptFormat: o.KeptFormat,
 		Prefilter: o.Prefilter.String(), Guards: o.Guards,
 	}
 	if !lexical(st.Method) {

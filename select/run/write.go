@@ -112,13 +112,20 @@ func (p *picked) manifest() *Manifest {
 	return m
 }
 
-// copyKept copies the kept rows to w, compressed as asked; decompressed, the bytes are the same.
+// copyKept copies the kept rows to w, compressed as asked; decompressed, the bytes are the same,
+// or, with a KeptFormat other than KeptRows, the rows in that schema.
 func (p *picked) copyKept(w *bufio.Writer) error {
 	kept := p.out.Kept
+	write := func(w io.Writer) error {
+		if f := p.opt.KeptFormat; f != "" && f != KeptRows {
+			return p.copyUniform(f, w)
+		}
+		return p.ix.CopyRows(w, kept)
+	}
 	switch p.opt.Compress {
 	case "gzip":
 		zw := gzip.NewWriter(w)
-		if err := p.ix.CopyRows(zw, kept); err != nil {
+		if err := write(zw); err != nil {
 			return err
 		}
 		return zw.Close()
@@ -127,13 +134,13 @@ func (p *picked) copyKept(w *bufio.Writer) error {
 		if err != nil {
 			return err
 		}
-		if err := p.ix.CopyRows(zw, kept); err != nil {
+		if err := write(zw); err != nil {
 			zw.Close()
 			return err
 		}
 		return zw.Close()
 	}
-	return p.ix.CopyRows(w, kept)
+	return write(w)
 }
 
 // writeFileBytes writes b to path and fsyncs it; errors name it as shown.
