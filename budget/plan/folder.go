@@ -4,7 +4,6 @@ import (
 	"bufio"
 	"encoding/json"
 	"fmt"
-	"os"
 	"path/filepath"
 
 	"sluice/index/atomicdir"
@@ -58,7 +57,7 @@ func (p *Plan) WriteFolder(dir string, residuals bool) ([]string, error) {
 	}
 	var names []string
 	for _, f := range files {
-		if err := writeSynced(filepath.Join(tmp, f.name), f.b); err != nil {
+		if err := atomicdir.WriteFile(filepath.Join(tmp, f.name), func(w *bufio.Writer) error { _, err := w.Write(f.b); return err }); err != nil {
 			atomicdir.Discard(tmp)
 			return nil, fmt.Errorf("write %s: %w", filepath.Join(dir, f.name), err)
 		}
@@ -69,23 +68,4 @@ func (p *Plan) WriteFolder(dir string, residuals bool) ([]string, error) {
 		return nil, err
 	}
 	return names, nil
-}
-
-func writeSynced(path string, b []byte) error {
-	f, err := os.Create(path)
-	if err != nil {
-		return err
-	}
-	w := bufio.NewWriter(f)
-	_, err = w.Write(b)
-	if err == nil {
-		err = w.Flush()
-	}
-	if err == nil {
-		err = f.Sync()
-	}
-	if cerr := f.Close(); err == nil {
-		err = cerr
-	}
-	return err
 }

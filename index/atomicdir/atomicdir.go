@@ -1,6 +1,7 @@
 package atomicdir
 
 import (
+	"bufio"
 	"errors"
 	"fmt"
 	"io/fs"
@@ -192,6 +193,27 @@ func numbers(rest string) ([]int, bool) {
 		nums[i] = n
 	}
 	return nums, true
+}
+
+// WriteFile creates the file path, in a working folder from Temp, lets fill write it through a
+// buffer, and syncs it before closing, so that Publish makes public only what is on disk.
+func WriteFile(path string, fill func(w *bufio.Writer) error) error {
+	f, err := os.Create(path)
+	if err != nil {
+		return err
+	}
+	w := bufio.NewWriterSize(f, 1<<20)
+	err = fill(w)
+	if err == nil {
+		err = w.Flush()
+	}
+	if err == nil {
+		err = f.Sync()
+	}
+	if cerr := f.Close(); err == nil {
+		err = cerr
+	}
+	return err
 }
 
 // Discard removes the working folder tmp, made by Temp and not to be published, and releases its

@@ -1,6 +1,7 @@
 package atomicdir
 
 import (
+	"bufio"
 	"errors"
 	"fmt"
 	"os"
@@ -258,5 +259,19 @@ func TestModesFollowUmask(t *testing.T) {
 				}
 			}
 		})
+	}
+}
+
+func TestWriteFile(t *testing.T) {
+	path := filepath.Join(t.TempDir(), "f")
+	if err := WriteFile(path, func(w *bufio.Writer) error { _, err := w.WriteString("hello\n"); return err }); err != nil {
+		t.Fatal(err)
+	}
+	if b, _ := os.ReadFile(path); string(b) != "hello\n" {
+		t.Errorf("wrote %q", b)
+	}
+	boom := errors.New("boom")
+	if err := WriteFile(path, func(*bufio.Writer) error { return boom }); !errors.Is(err, boom) {
+		t.Errorf("fill's error: got %v", err)
 	}
 }

@@ -9,7 +9,6 @@ import (
 	"fmt"
 	"io"
 	"math"
-	"os"
 	"path/filepath"
 	"slices"
 	"strconv"
@@ -300,22 +299,7 @@ func (o *Options) method(ctx context.Context, ix *index.Index, m, tmp string) ([
 func sizeName(v float64) string { return strings.ReplaceAll(budget.FormatCount(v), " ", "") }
 
 func copyRows(ix *index.Index, path string, rows []int) error {
-	f, err := os.Create(path)
-	if err != nil {
-		return err
-	}
-	w := bufio.NewWriterSize(f, 1<<20)
-	err = ix.CopyRows(w, rows)
-	if err == nil {
-		err = w.Flush()
-	}
-	if err == nil {
-		err = f.Sync()
-	}
-	if cerr := f.Close(); err == nil {
-		err = cerr
-	}
-	return err
+	return atomicdir.WriteFile(path, func(w *bufio.Writer) error { return ix.CopyRows(w, rows) })
 }
 
 type line []string
@@ -370,27 +354,14 @@ func passesName(p float64) string {
 }
 
 func writeCSV(path string, lines []line) error {
-	f, err := os.Create(path)
-	if err != nil {
-		return err
-	}
-	w := bufio.NewWriter(f)
-	w.WriteString(header)
-	cw := csv.NewWriter(w)
-	cw.Write(columns)
-	for _, l := range lines {
-		cw.Write(l)
-	}
-	cw.Flush()
-	err = cw.Error()
-	if err == nil {
-		err = w.Flush()
-	}
-	if err == nil {
-		err = f.Sync()
-	}
-	if cerr := f.Close(); err == nil {
-		err = cerr
-	}
-	return err
+	return atomicdir.WriteFile(path, func(w *bufio.Writer) error {
+		w.WriteString(header)
+		cw := csv.NewWriter(w)
+		cw.Write(columns)
+		for _, l := range lines {
+			cw.Write(l)
+		}
+		cw.Flush()
+		return cw.Error()
+	})
 }
