@@ -2,6 +2,7 @@ package index
 
 import (
 	"context"
+	"io"
 	"os"
 	"path/filepath"
 	"testing"
@@ -83,4 +84,49 @@ func BenchmarkPostings(b *testing.B) {
 	}
 	b.ReportMetric(float64(n)/b.Elapsed().Seconds(), "postings/s")
 	b.ReportMetric(b.Elapsed().Seconds()*1e9/float64(n), "ns/posting")
+}
+
+// BenchmarkCopyRows copies every tenth row of the T0 files (a pick keeping a tenth of the pool),
+// every other row and all of them, one read per row against one read per span of neighbouring
+// rows: compare each pair in one run.
+func BenchmarkCopyRows(b *testing.B) {
+	files, _ := sharedPool(b)
+	dir := filepath.Join(b.TempDir(), "idx")
+	if _, err := Build(context.Background(), dir, files, Options{Text: "prompt,completion"}); err != nil {
+		b.Fatal(err)
+	}
+	ix, err := Open(dir)
+	if err != nil {
+		b.Fatal(err)
+	}
+	defer ix.Close()
+	for _, c := range []struct {
+		name        string
+		every, span int
+	}{{"tenth/per-row", 10, 0}, {"tenth/spans", 10, copySpan}, {"half/per-row", 2, 0}, {"half/spans", 2, copySpan}, {"all/per-row", 1, 0}, {"all/spans", 1, copySpan}} {
+		var rows []int
+		var bytes int64
+		for r := 0; r < ix.NumRows(); r += c.every {
+			rows = append(rows, r)
+			bytes += ix.RowLocation(r).Length
+		}
+		b.Run(c.name, func(b *testing.B) {
+			b.SetBytes(bytes)
+			var buf []byte
+			for b.Loop() {
+				for i := 0; i < len(rows); {
+					src := ix.rec(rows[i]).src
+					j := i
+					for j < len(rows) && ix.rec(rows[j]).src == src {
+						j++
+					}
+					if err := ix.copyFrom(io.Discard, int(src), rows[i:j], c.span, &buf); err != nil {
+						b.Fatal(err)
+					}
+					i = j
+				}
+			}
+			b.ReportMetric(float64(len(rows))*float64(b.N)/b.Elapsed().Seconds(), "rows/s")
+		})
+	}
 }

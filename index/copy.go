@@ -23,13 +23,14 @@ func (ix *Index) CopyRows(w io.Writer, rows []int) error {
 	rows = slices.Clone(rows)
 	slices.Sort(rows)
 	rows = slices.Compact(rows)
+	var buf []byte // one read buffer for every source
 	for i := 0; i < len(rows); {
 		src := ix.rec(rows[i]).src
 		j := i
 		for j < len(rows) && ix.rec(rows[j]).src == src {
 			j++
 		}
-		if err := ix.copyFrom(w, int(src), rows[i:j]); err != nil {
+		if err := ix.copyFrom(w, int(src), rows[i:j], copySpan, &buf); err != nil {
 			return err
 		}
 		i = j
@@ -103,7 +104,16 @@ type nopCloser struct{ *bytes.Reader }
 
 func (nopCloser) Close() error { return nil }
 
-func (ix *Index) copyFrom(w io.Writer, si int, rows []int) error {
+// Kept rows of a plain file are read in spans of up to copySpan bytes, skipping gaps of at most
+// copyGap between rows: one read for many rows, as few bytes read twice as a gap costs.
+const (
+	copySpan = 4 << 20
+	copyGap  = 4 << 10
+)
+
+// copyFrom copies rows of source si, ascending, to w; a plain file is read in spans of up to span
+// bytes (0: one read per row).
+func (ix *Index) copyFrom(w io.Writer, si int, rows []int, span int, buf *[]byte) error {
 	s := ix.meta.Sources[si]
 	f, size, err := ix.openSource(s)
 	if err != nil {
@@ -113,44 +123,81 @@ func (ix *Index) copyFrom(w io.Writer, si int, rows []int) error {
 	if size != s.Size {
 		return fmt.Errorf("copy rows from %s: %d bytes now, %d when indexed: %w", s.Path, size, s.Size, ErrSourceChanged)
 	}
-	var r io.Reader = f
-	plain := s.Compression == jsonl.None.String()
-	if !plain {
-		dr, _, err := jsonl.NewReader(bufio.NewReaderSize(f, 1<<20))
-		if err != nil {
-			return fmt.Errorf("copy rows from %s: %w", s.Path, err)
-		}
-		if c, ok := dr.(io.Closer); ok {
-			defer c.Close()
-		}
-		r = bufio.NewReaderSize(dr, 1<<20)
+	if s.Compression == jsonl.None.String() {
+		return ix.copyPlain(w, f, s.Path, rows, span, buf)
 	}
+	dr, _, err := jsonl.NewReader(bufio.NewReaderSize(f, 1<<20))
+	if err != nil {
+		return fmt.Errorf("copy rows from %s: %w", s.Path, err)
+	}
+	if c, ok := dr.(io.Closer); ok {
+		defer c.Close()
+	}
+	r := bufio.NewReaderSize(dr, 1<<20)
 	var pos int64
-	var buf []byte
+	rbuf := *buf
+	defer func() { *buf = rbuf }()
 	for _, row := range rows {
 		rec := ix.rec(row)
 		off, n := int64(rec.off), int(rec.n)
-		buf = slices.Grow(buf[:0], n)[:n]
-		if plain {
-			if _, err := f.ReadAt(buf, off); err != nil {
-				return fmt.Errorf("copy rows from %s:%d: %w", s.Path, rec.line, err)
-			}
-		} else {
-			if _, err := io.CopyN(io.Discard, r, off-pos); err != nil {
-				return fmt.Errorf("copy rows from %s:%d: %w", s.Path, rec.line, err)
-			}
-			if _, err := io.ReadFull(r, buf); err != nil {
-				return fmt.Errorf("copy rows from %s:%d: %w", s.Path, rec.line, err)
-			}
-			pos = off + int64(n)
+		rbuf = slices.Grow(rbuf[:0], n)[:n]
+		if _, err := io.CopyN(io.Discard, r, off-pos); err != nil {
+			return fmt.Errorf("copy rows from %s:%d: %w", s.Path, rec.line, err)
 		}
-		if crc32.Checksum(buf, castagnoli) != rec.crc {
-			return fmt.Errorf("copy rows from %s:%d: row bytes differ from when indexed: %w", s.Path, rec.line, ErrSourceChanged)
+		if _, err := io.ReadFull(r, rbuf); err != nil {
+			return fmt.Errorf("copy rows from %s:%d: %w", s.Path, rec.line, err)
 		}
-		if n == 0 || buf[n-1] != '\n' {
-			buf = append(buf, '\n')
+		pos = off + int64(n)
+		if err := writeRow(w, rbuf, rec, s.Path); err != nil {
+			return err
 		}
-		if _, err := w.Write(buf); err != nil {
+	}
+	return nil
+}
+
+// copyPlain copies rows of a plain file, reading neighbouring rows in one span.
+func (ix *Index) copyPlain(w io.Writer, f io.ReaderAt, path string, rows []int, span int, bufp *[]byte) error {
+	buf := *bufp
+	defer func() { *bufp = buf }()
+	for i := 0; i < len(rows); {
+		first := ix.rec(rows[i])
+		start, end := int64(first.off), int64(first.off)+int64(first.n)
+		j := i + 1
+		for ; j < len(rows); j++ {
+			r := ix.rec(rows[j])
+			o, e := int64(r.off), int64(r.off)+int64(r.n)
+			if o-end > copyGap || e-start > int64(span) {
+				break
+			}
+			end = max(end, e)
+		}
+		buf = slices.Grow(buf[:0], int(end-start))[:end-start]
+		if _, err := f.ReadAt(buf, start); err != nil {
+			return fmt.Errorf("copy rows from %s:%d: %w", path, first.line, err)
+		}
+		for _, row := range rows[i:j] {
+			rec := ix.rec(row)
+			o := int64(rec.off) - start
+			if err := writeRow(w, buf[o:o+int64(rec.n)], rec, path); err != nil {
+				return err
+			}
+		}
+		i = j
+	}
+	return nil
+}
+
+// writeRow checks a row's bytes against its checksum and writes them, with a newline if the row
+// had none (a last line without one).
+func writeRow(w io.Writer, b []byte, rec rowRec, path string) error {
+	if crc32.Checksum(b, castagnoli) != rec.crc {
+		return fmt.Errorf("copy rows from %s:%d: row bytes differ from when indexed: %w", path, rec.line, ErrSourceChanged)
+	}
+	if _, err := w.Write(b); err != nil {
+		return fmt.Errorf("copy rows: %w", err)
+	}
+	if len(b) == 0 || b[len(b)-1] != '\n' {
+		if _, err := w.Write([]byte{'\n'}); err != nil {
 			return fmt.Errorf("copy rows: %w", err)
 		}
 	}
