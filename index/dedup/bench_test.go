@@ -114,7 +114,7 @@ func BenchmarkDetector(b *testing.B) {
 		}
 	}
 	b.ReportMetric(float64(b.N*len(sigs))/b.Elapsed().Seconds(), "rows/s")
-	b.ReportMetric(float64(d.bytes())/float64(len(sigs)), "B/row")
+	b.ReportMetric(float64(d.Bytes())/float64(len(sigs)), "B/row")
 }
 
 // BenchmarkExactAdd reports the heap bytes per distinct key held by Exact.

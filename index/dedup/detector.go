@@ -131,8 +131,9 @@ func sketchSimilarity(m, k int) float64 {
 	return min(max(e, 0), 1)
 }
 
-// bytes returns the memory the Detector holds for its rows.
-func (d *Detector) bytes() int {
+// Bytes returns the memory the Detector holds for its rows (slices by capacity, the table by its
+// slots, the clusters), so that a caller holding many rows can count it against a bound.
+func (d *Detector) Bytes() int {
 	return cap(d.sketch) + 4*cap(d.rows) + 4*cap(d.clusters.parent) + 12*len(d.buckets.keys)
 }
 

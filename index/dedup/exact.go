@@ -204,6 +204,10 @@ func (e *Exact) Add(row int, k Key) (first int, err error) {
 	return row, nil
 }
 
+// Bytes returns an upper bound on the memory Exact holds: 48 bytes per distinct key, the most
+// measured between the map's doublings (see Exact).
+func (e *Exact) Bytes() int { return 48 * len(e.first) }
+
 // Len returns the number of distinct keys added.
 func (e *Exact) Len() int { return len(e.first) }
 

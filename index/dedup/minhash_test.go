@@ -339,3 +339,22 @@ func TestWriteCount(t *testing.T) {
 		}
 	}
 }
+
+// TestRecallBands checks the bands against the S-curve 1 − (1 − t^r)^b of Leskovec, Rajaraman and
+// Ullman (Mining of Massive Datasets, ch. 3), worked by hand: at t = 0.8, 16 bands of 8 values
+// catch a pair with probability 1 − (1 − 0.8⁸)¹⁶ = 0.947, and 8 bands of 16 with 0.204, below 0.9;
+// at t = 0.5, 64 bands of 2 give 1 − 0.75⁶⁴ ≈ 1 and 32 of 4 give 1 − 0.9375³² = 0.873.
+func TestRecallBands(t *testing.T) {
+	for _, c := range []struct {
+		k    int
+		t    float64
+		want int
+	}{{128, 0.8, 16}, {128, 0.9, 16}, {128, 0.5, 64}, {128, 0.1, 128}, {0, 0.8, 0}} {
+		if got := RecallBands(c.k, c.t, 0.9); got != c.want {
+			t.Errorf("RecallBands(%d, %v, 0.9) = %d, want %d", c.k, c.t, got, c.want)
+		}
+	}
+	if p := ForThreshold(0.8); p.Bands != 16 || p.Hashes != 128 || p.Shingle != 5 {
+		t.Errorf("ForThreshold(0.8) = %+v", p)
+	}
+}

@@ -19,13 +19,13 @@ package dedup
 //
 // For a row of w words (w ≥ k) and K hash functions the MinHash term, 4·K·(w − k + 1), dominates.
 type Work struct {
-	Bytes        int64
-	Hashed       int64
-	ShingleWords int64
-	MinHashes    int64
-	BandValues   int64
-	Probes       int64
-	Compared     int64
+	Bytes        int64 `json:"bytes"`
+	Hashed       int64 `json:"hashed"`
+	ShingleWords int64 `json:"shingle_words"`
+	MinHashes    int64 `json:"minhashes"`
+	BandValues   int64 `json:"band_values"`
+	Probes       int64 `json:"probes"`
+	Compared     int64 `json:"compared"`
 }
 
 // FLOPs converts w to FLOP-equivalents with the weights in Work's documentation.

@@ -43,28 +43,11 @@ const DefaultNearDup = 0.8
 // checking training data against benchmarks.
 const DefaultExcludeN = 13
 
-// minhashes is the signature length K; the bands are chosen from it and the threshold by
-// chooseBands.
-const minhashes = 128
+// minhashes is the signature length K (see dedup.ForThreshold).
+const minhashes = dedup.DefaultHashes
 
-// chooseBands picks the LSH bands for threshold t: the most rows per band (the fewest chance
-// candidates) that still make a pair at exactly t a candidate with probability 0.9 or more, by the
-// S-curve 1 − (1 − t^r)^b (Leskovec, Rajaraman and Ullman, Mining of Massive Datasets, ch. 3).
-// Candidates are then confirmed by their signatures' estimate, so a looser band costs only
-// comparisons. For t = 0.8 and K = 128 it is 16 bands of 8 rows (0.947 at 0.8).
-func chooseBands(t float64) int {
-	best := minhashes
-	for r := 1; r <= minhashes; r++ {
-		if minhashes%r != 0 {
-			continue
-		}
-		b := minhashes / r
-		if 1-math.Pow(1-math.Pow(t, float64(r)), float64(b)) >= 0.9 {
-			best = b
-		}
-	}
-	return best
-}
+// chooseBands picks the LSH bands for threshold t: 16 bands of 8 values for t = 0.8.
+func chooseBands(t float64) int { return dedup.ForThreshold(t).Bands }
 
 // guarded is what the guards found in one pass over the pool.
 type guarded struct {
@@ -102,8 +85,8 @@ func (p *picked) guard(ctx context.Context) error {
 	var exact dedup.Exact
 	if !g.KeepDuplicates {
 		t := orDefault(g.NearDup, DefaultNearDup)
-		gd.bands = chooseBands(t)
-		prm = &dedup.Params{Hashes: minhashes, Threshold: t, Bands: gd.bands}
+		fp := dedup.ForThreshold(t)
+		gd.bands, prm = fp.Bands, &fp
 		var err error
 		if det, err = dedup.NewDetector(*prm); err != nil {
 			return err
