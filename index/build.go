@@ -19,12 +19,14 @@ import (
 	"strconv"
 	"strings"
 	"sync"
+	"sync/atomic"
 	"syscall"
 	"unicode/utf8"
 	"unsafe"
 
 	"sluice/index/analysis"
 	"sluice/index/atomicdir"
+	"sluice/index/dedup"
 	"sluice/index/jsonl"
 	"sluice/index/tokens"
 )
@@ -52,6 +54,12 @@ type Options struct {
 	// Within lists kinds of folder the index may not be made inside, besides an index (a run, say,
 	// whose owner would find a stranger in it).
 	Within []atomicdir.Kind
+	// NearDup is the Jaccard similarity at or above which rows are near duplicates, in (0, 1]; 0
+	// takes DefaultNearDup. The build finds exact and near duplicates as a pick would (see
+	// dedup.ForThreshold) and stores each row's cluster, so that picks at the same threshold need not
+	// hash the pool again. NoDups finds none.
+	NearDup float64
+	NoDups  bool
 	// Command, when set, is recorded in meta.json as the command line that made the index, so a
 	// run's manifest (which hashes meta.json) says how its index was built.
 	Command []string
@@ -64,6 +72,7 @@ const (
 	DefaultMem         = 512 << 20
 	DefaultMaxRowBytes = 64 << 20
 	DefaultAnalyzer    = "english"
+	DefaultNearDup     = 0.8
 )
 
 // Stats describe a finished build.
@@ -74,6 +83,8 @@ type Stats struct {
 	FirstDuplicate *Duplicate
 	// Quarantined counts, per source, the rows set aside, with the first of them.
 	Quarantined []SourceQuarantine
+	// DupMem is the most the duplicate finder held, out of Mem, the build's Options.Mem.
+	DupMem, Mem int64
 }
 
 // RowError is a bad row met with Options.Strict.
@@ -197,6 +208,8 @@ type batchOut struct {
 	rejects []Reject
 	missing map[string]*missCount // by path of the text spec, the rows lacking it
 	blank   int64
+	keys    []dedup.Key // by row, when duplicates are found
+	sigs    []uint32    // K values by row
 	err     error
 }
 
@@ -331,6 +344,10 @@ type builder struct {
 	quarantined []SourceQuarantine
 	idHashes    []uint64 // by row, to find repeated ids
 	firstDup    *Duplicate
+	dups        *dupFinder // nil without duplicates
+	// dupMem is what dups holds, which the workers' dictionaries give up of Options.Mem.
+	dupMem  atomic.Int64
+	dupPeak int64
 }
 
 func (b *builder) run(ctx context.Context) (*Stats, error) {
@@ -343,7 +360,14 @@ func (b *builder) run(ctx context.Context) (*Stats, error) {
 	if err := os.Mkdir(runDir, 0o755); err != nil {
 		return nil, b.wd.err("build index: make", err)
 	}
-	memPer := b.opt.Mem / int64(b.opt.Workers)
+	if !b.opt.NoDups && !b.opt.DryRun {
+		var err error
+		if b.dups, err = newDupFinder(b.opt.NearDup); err != nil {
+			return nil, err
+		}
+	}
+	// A worker's share of Options.Mem is what the duplicate finder leaves, split evenly.
+	share := func() int64 { return max(0, b.opt.Mem-b.dupMem.Load()) / int64(b.opt.Workers) }
 	// Enough batches for every worker to hold one and the channel to it two each, and one for the
 	// reader.
 	b.maxBatches = b.opt.Workers*3 + 2
@@ -358,11 +382,17 @@ func (b *builder) run(ctx context.Context) (*Stats, error) {
 			case b.freeBatches <- bt:
 			default:
 			}
-		}, id: i, an: a, dict: newTermTable(), memLimit: memPer, wd: b.wd, strict: b.opt.Strict, dry: b.opt.DryRun, needIDs: b.opt.ID != "", idField: b.opt.ID, tokField: b.opt.Tokens}
+		}, id: i, an: a, dict: newTermTable(), memLimit: share, wd: b.wd, strict: b.opt.Strict, dry: b.opt.DryRun, needIDs: b.opt.ID != "", idField: b.opt.ID, tokField: b.opt.Tokens}
 		if b.tok != nil {
 			w.tok = b.tok.Clone()
 		}
 		var err error
+		if b.dups != nil {
+			w.sign = &signRow{k: b.dups.prm.Hashes}
+			if w.sign.signer, err = dedup.NewSigner(b.dups.prm); err != nil {
+				return nil, fmt.Errorf("build index: %w", err)
+			}
+		}
 		if w.ex, err = jsonl.NewExtractor(b.spec, b.opt.ID, b.opt.Tokens); err != nil {
 			return nil, fmt.Errorf("build index: %w", err)
 		}
@@ -416,6 +446,18 @@ func (b *builder) run(ctx context.Context) (*Stats, error) {
 	if err := b.findDuplicates(ctx); err != nil {
 		return nil, err
 	}
+	if b.dups != nil {
+		var work dedup.Work
+		for _, w := range b.workers {
+			work = work.Plus(w.sign.work())
+		}
+		if err := b.dups.write(b, b.meta.Rows, work); err != nil {
+			return nil, err
+		}
+		// The merge may have the memory back.
+		b.dups = nil
+		b.dupMem.Store(0)
+	}
 	if b.opt.DryRun {
 		st := &Stats{Meta: b.meta, FirstDuplicate: b.firstDup, Quarantined: b.quarantined}
 		return st, nil
@@ -438,6 +480,7 @@ func (b *builder) run(ctx context.Context) (*Stats, error) {
 	}
 	st.Meta = b.meta
 	st.FirstDuplicate = b.firstDup
+	st.DupMem, st.Mem = b.dupPeak, b.opt.Mem
 	return st, nil
 }
 
@@ -853,6 +896,11 @@ func (b *builder) collect(ctx context.Context, outs <-chan *batchOut) error {
 					q.addMissing(o.missing)
 				}
 			}
+			if b.dups != nil {
+				if err := b.addDups(o); err != nil {
+					return err
+				}
+			}
 			n := int64(len(o.rows))
 			b.meta.Rows += n
 			srcRows[o.src] += n
@@ -907,8 +955,8 @@ type worker struct {
 	st       []termState // by id
 	touched  []int32
 	mem      int64
-	memLimit int64
-	wd       workDir // runs go in its runs folder
+	memLimit func() int64 // the worker's share of Options.Mem, which shrinks as duplicates are found
+	wd       workDir      // runs go in its runs folder
 	runs     []runFile
 	memRun   *memRun // the last dictionary, sorted, once the worker is done
 	strict   bool
@@ -918,6 +966,7 @@ type worker struct {
 	tokField string
 	tok      *tokens.Tokenizer // counts the tokens of each row's text fields; nil to take tokField
 	cut      []byte            // text with long runs cut, see cutLongRuns
+	sign     *signRow          // hashes rows for duplicates; nil without
 }
 
 func (w *worker) work(ctx context.Context, in <-chan *batch, out chan<- *batchOut, paths []string) error {
@@ -932,7 +981,7 @@ func (w *worker) work(ctx context.Context, in <-chan *batch, out chan<- *batchOu
 		case <-ctx.Done():
 			return ctx.Err()
 		}
-		if !w.dry && w.dictBytes() >= w.memLimit {
+		if !w.dry && w.dictBytes() >= w.memLimit() {
 			if err := w.spill(); err != nil {
 				return err
 			}
@@ -986,9 +1035,16 @@ func (w *worker) do(bt *batch, paths []string) (*batchOut, error) {
 		alen := 0
 		w.touched = w.touched[:0]
 		ntok := 0
+		if w.sign != nil {
+			w.sign.reset()
+		}
 		row, err := w.ex.Extract(line, func(part []byte) {
 			if w.tok != nil {
 				ntok += w.tok.Count(part)
+			}
+			if w.sign != nil {
+				// Before long runs are cut: a pick hashes the text as it stands.
+				w.sign.write(part)
 			}
 			part, w.cut = cutLongRuns(part, w.cut)
 			w.an.EachTagged(part, func(term []byte, tag *uint64) {
@@ -1084,8 +1140,11 @@ func (w *worker) do(bt *batch, paths []string) (*batchOut, error) {
 		if w.needIDs {
 			o.ids = append(o.ids, append([]byte(nil), row.ID...))
 		}
+		if w.sign != nil {
+			w.sign.sum(o)
+		}
 		local++
-		if !w.dry && w.dictBytes() >= max(w.memLimit, midBatchSpill) {
+		if !w.dry && w.dictBytes() >= max(w.memLimit(), midBatchSpill) {
 			if err := w.spill(); err != nil {
 				return nil, err
 			}

@@ -121,6 +121,10 @@ func (st *Stats) WriteSummary(w io.Writer, out string) {
 		fmt.Fprintf(w, "  ids           %d rows repeat an earlier row's id (kept; scores.jsonl is in input order), the first %s at %s:%d and %s:%d\n",
 			m.DuplicateIDs, strconv.Quote(d.ID), d.First.File, d.First.Line, d.Second.File, d.Second.Line)
 	}
+	if d := m.Dups; d != nil {
+		fmt.Fprintf(w, "  duplicates    %d rows in %d clusters are not their cluster's first (%d exact; near: Jaccard of word %d-gram shingles >= %g, %d MinHash values in %d bands); hashing %.3g FLOPs, paid here for every pick at this threshold\n",
+			d.Duplicates, d.Clusters, d.ExactDuplicates, d.Shingle, d.Threshold, d.Hashes, d.Bands, d.FLOPs)
+	}
 	if m.RowsRejected > 0 {
 		fmt.Fprintf(w, "  quarantine    %s/rejected.jsonl\n", out)
 	}
@@ -168,6 +172,9 @@ const exampleBytes = 200
 // rows of a file lack, with the fields those rows have, so that neither a pool mixing field names
 // nor a misspelt field goes by without a word.
 func (st *Stats) WriteWarnings(w io.Writer) {
+	if st.Mem > 0 && st.DupMem > st.Mem {
+		fmt.Fprintf(w, "warning: finding duplicates held %d MiB, more than --mem (%d MiB) by itself: the build passed the bound; give more --mem, or --no-dups and let picks find them\n", st.DupMem>>20, st.Mem>>20)
+	}
 	for i, q := range st.Quarantined {
 		if i >= len(st.Sources) {
 			continue

@@ -151,7 +151,7 @@ func TestBuildMatchesBruteForce(t *testing.T) {
 			}
 			// The same input gives the same bytes whatever the workers and spills.
 			var all []byte
-			for _, f := range []string{lexiconFile, postingsFile, rowsFile, normsFile, rejectedFile, metaFile} {
+			for _, f := range []string{lexiconFile, postingsFile, rowsFile, normsFile, rejectedFile, dupsFile, metaFile} {
 				b, err := os.ReadFile(filepath.Join(dir, f))
 				if err != nil {
 					t.Fatal(err)

@@ -62,6 +62,7 @@ const (
 	normsFile    = "norms"
 	idsFile      = "ids"
 	rejectedFile = "rejected.jsonl"
+	dupsFile     = "dups"
 	stdinPrefix  = "stdin"
 )
 
@@ -103,6 +104,8 @@ type Meta struct {
 	Sources         []Source        `json:"sources"`
 	Files           map[string]File `json:"files"`
 	Command         []string        `json:"command,omitempty"` // the command line that built it, when given
+	// Dups describes the dups file, when the build found duplicates.
+	Dups *Dups `json:"duplicates,omitempty"`
 }
 
 // Source is one pool file as it was when indexed.

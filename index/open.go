@@ -16,6 +16,7 @@ import (
 	"golang.org/x/sys/unix"
 
 	"sluice/index/analysis"
+	"sluice/index/dedup"
 	"sluice/index/jsonl"
 )
 
@@ -30,6 +31,7 @@ type Index struct {
 	postings []byte   // mapped
 	rows     []byte   // mapped, rowRecSize per row
 	norms    []byte   // mapped, a little-endian float64 per row
+	dups     []byte   // mapped, dupRecSize bytes per row, when the build found duplicates
 	idOff    []uint64 // where row i·idStride's length-prefixed id starts in ids, when the index has an id field
 	ids      []byte
 	stored   map[string][]byte // mapped copies of sources read from a stream, by file name
@@ -181,6 +183,20 @@ func (ix *Index) load(d *os.File) error {
 	if err := ix.lex.load(data[lexiconFile], ix.meta.Terms, ix.meta.Rows, uint64(len(ix.postings))); err != nil {
 		return fmt.Errorf("open index %s: lexicon: %w", dir, err)
 	}
+	if m.Dups != nil {
+		db := data[dupsFile]
+		if _, listed := m.Files[dupsFile]; !listed || int64(len(db)) != n*dupRecSize {
+			return fmt.Errorf("open index %s: dups holds %d bytes for %d rows: %w", dir, len(db), n, ErrDamaged)
+		}
+		// Each row's first must be itself or an earlier row that is its own first: the pick trusts it.
+		for r := int64(0); r < n; r++ {
+			f := int64(binary.LittleEndian.Uint32(db[r*dupRecSize:]))
+			if f > r || int64(binary.LittleEndian.Uint32(db[f*dupRecSize:])) != f {
+				return fmt.Errorf("open index %s: dups: row %d names %d as its cluster's first: %w", dir, r, f, ErrDamaged)
+			}
+		}
+		ix.dups = db
+	}
 	if m.IDField != "" {
 		if err := ix.loadIDs(data[idsFile]); err != nil {
 			return err
@@ -214,6 +230,26 @@ func (ix *Index) mapFile(d *os.File, name string) ([]byte, error) {
 	}
 	ix.maps = append(ix.maps, b)
 	return b, nil
+}
+
+// DupFirst returns the first row of row's cluster of duplicates (row itself when it is alone or
+// first), as found when the index was built, and false when the build found none (see Meta.Dups).
+func (ix *Index) DupFirst(row int) (int, bool) {
+	if ix.dups == nil {
+		return row, false
+	}
+	return int(binary.LittleEndian.Uint32(ix.dups[row*dupRecSize:])), true
+}
+
+// DupKey returns row's exact-duplicate key (dedup.Key), and false when the build found no
+// duplicates.
+func (ix *Index) DupKey(row int) (dedup.Key, bool) {
+	var k dedup.Key
+	if ix.dups == nil {
+		return k, false
+	}
+	copy(k[:], ix.dups[row*dupRecSize+4:])
+	return k, true
 }
 
 // idStride is how many rows' ids lie between two offsets Open keeps: an offset per row would cost 8

@@ -422,7 +422,11 @@ func RecallBands(k int, t, recall float64) int {
 
 // ForThreshold returns the Params with which sluice finds near duplicates at threshold t, at index
 // time and at pick time alike, so that the two find the same clusters: shingles of DefaultShingle
-// words, DefaultHashes values, seed 0, and the bands RecallBands picks for a recall of 0.9.
+// words, DefaultHashes values, seed 0, and the bands RecallBands picks for a recall of 0.9. A t of
+// 0 takes DefaultThreshold.
 func ForThreshold(t float64) Params {
+	if t == 0 {
+		t = DefaultThreshold
+	}
 	return Params{Shingle: DefaultShingle, Hashes: DefaultHashes, Threshold: t, Bands: RecallBands(DefaultHashes, t, 0.9)}
 }

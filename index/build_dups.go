@@ -1,0 +1,178 @@
+package index
+
+import (
+	"encoding/binary"
+	"fmt"
+	"math/bits"
+	"slices"
+
+	"sluice/index/dedup"
+)
+
+// Dups is what meta.json says of the duplicates found while the index was built: the parameters
+// (dedup.ForThreshold of Threshold), what was found, and the hashing work, which a pick that uses
+// the clusters then does not do again.
+type Dups struct {
+	Threshold float64 `json:"threshold"` // Jaccard similarity of word shingles at or above which rows are near duplicates
+	Shingle   int     `json:"shingle"`   // words per shingle
+	Hashes    int     `json:"hashes"`    // MinHash values per row, K
+	Bands     int     `json:"bands"`     // LSH bands of Hashes/Bands values
+	Seed      uint64  `json:"seed"`
+	// ExactDuplicates counts the rows whose normalised text an earlier row has; Clusters the
+	// clusters of two rows or more, exact or near; Duplicates the rows that are not their cluster's
+	// first.
+	ExactDuplicates int64      `json:"exact_duplicates"`
+	Clusters        int64      `json:"clusters"`
+	Duplicates      int64      `json:"duplicates"`
+	Work            dedup.Work `json:"work"`
+	FLOPs           float64    `json:"flops"` // Work.FLOPs()
+}
+
+// Params returns the parameters the clusters were found with.
+func (d *Dups) Params() dedup.Params {
+	return dedup.Params{Shingle: d.Shingle, Hashes: d.Hashes, Threshold: d.Threshold, Bands: d.Bands, Seed: d.Seed}
+}
+
+// dupRecSize is the size of one row's record in the dups file: the cluster's first row (uint32,
+// little-endian; the row itself when it is alone or first) and the row's dedup.Key.
+// (16 bytes)
+const dupRecSize = 4 + 16
+
+// dupFinder finds duplicates in the collector, which feeds it rows in input order, as a pick's
+// duplicate guard would: exact keys grouped by dedup.Exact, signatures by a dedup.Detector, an exact
+// duplicate joined to its first row and not given to the Detector (its signature is its first's,
+// so it would find nothing the first did not).
+type dupFinder struct {
+	prm    dedup.Params
+	det    *dedup.Detector
+	exact  dedup.Exact
+	pairs  []dedup.Pair
+	keys   []byte // dedup.Key per row, written to the dups file at the end
+	nexact int64
+}
+
+func newDupFinder(t float64) (*dupFinder, error) {
+	prm := dedup.ForThreshold(t)
+	det, err := dedup.NewDetector(prm)
+	if err != nil {
+		return nil, fmt.Errorf("build index: --near-dup: %w", err)
+	}
+	return &dupFinder{prm: prm, det: det}, nil
+}
+
+// add takes the rows of one batch, numbered from base: a key each and K signature values each.
+func (f *dupFinder) add(base int64, keys []dedup.Key, sigs []uint32) error {
+	k := f.prm.Hashes
+	for i, key := range keys {
+		row := int(base) + i
+		f.keys = append(f.keys, key[:]...)
+		first, err := f.exact.Add(row, key)
+		if err != nil {
+			return fmt.Errorf("build index: duplicates: %w", err)
+		}
+		if first != row {
+			f.nexact++
+			if err := f.det.Clusters().Union(first, row); err != nil {
+				return fmt.Errorf("build index: duplicates: %w", err)
+			}
+			continue
+		}
+		if f.pairs, err = f.det.Add(f.pairs[:0], row, sigs[i*k:(i+1)*k]); err != nil {
+			return fmt.Errorf("build index: duplicates: %w", err)
+		}
+	}
+	return nil
+}
+
+// bytes is what the finder holds, counted against Options.Mem: the Detector, the exact groups and
+// the keys kept for the dups file.
+func (f *dupFinder) bytes() int64 {
+	return int64(f.det.Bytes()) + int64(f.exact.Bytes()) + int64(cap(f.keys))
+}
+
+// write writes the dups file for rows rows and fills in meta's Dups.
+func (f *dupFinder) write(b *builder, rows int64, work dedup.Work) error {
+	w, err := b.wd.create(b.wd.path(dupsFile))
+	if err != nil {
+		return err
+	}
+	defer w.abort()
+	cl := f.det.Clusters()
+	d := &Dups{Threshold: f.prm.Threshold, Shingle: f.prm.Shingle, Hashes: f.prm.Hashes, Bands: f.prm.Bands, Seed: f.prm.Seed, ExactDuplicates: f.nexact}
+	work = work.Plus(f.det.Work())
+	d.Work, d.FLOPs = work, work.FLOPs()
+	var rec [dupRecSize]byte
+	// A cluster of two rows or more is counted at its first row, marked by the others.
+	firsts := make([]uint64, (rows+63)/64)
+	for r := int64(0); r < rows; r++ {
+		first := cl.Find(int(r))
+		if first != int(r) {
+			d.Duplicates++
+			firsts[first/64] |= 1 << (first % 64)
+		}
+		binary.LittleEndian.PutUint32(rec[:4], uint32(first))
+		copy(rec[4:], f.keys[r*int64(len(dedup.Key{})):])
+		if _, err := w.w.Write(rec[:]); err != nil {
+			return w.fail(err)
+		}
+	}
+	for _, m := range firsts {
+		d.Clusters += int64(bits.OnesCount64(m))
+	}
+	b.meta.Dups = d
+	return w.close()
+}
+
+// signRow is a worker's hashing of one row: the row's text parts go to both hashers, a newline
+// between parts as a pick joins them.
+type signRow struct {
+	hasher dedup.Hasher
+	signer *dedup.Signer
+	k      int // values per signature
+	parts  int
+}
+
+func (s *signRow) reset() {
+	s.hasher.Reset()
+	s.signer.Reset()
+	s.parts = 0
+}
+
+func (s *signRow) write(part []byte) {
+	if s.parts > 0 {
+		s.hasher.Write(newline)
+		s.signer.Write(newline)
+	}
+	s.hasher.Write(part)
+	s.signer.Write(part)
+	s.parts++
+}
+
+// sum appends the row's key and signature to the batch's.
+func (s *signRow) sum(o *batchOut) {
+	k := s.k
+	o.keys = append(o.keys, s.hasher.Sum())
+	n := len(o.sigs)
+	o.sigs = slices.Grow(o.sigs, k)
+	s.signer.Sum(o.sigs[n:n])
+	o.sigs = o.sigs[:n+k]
+	s.parts = 0
+}
+
+func (s *signRow) work() dedup.Work { return s.hasher.Work().Plus(s.signer.Work()) }
+
+var newline = []byte{'\n'}
+
+// addDups hands the rows of batch o, the next in input order, to the duplicate finder, and gives
+// the workers' dictionaries what it now holds less of Options.Mem. The finder's rows cannot be
+// spilled: once it alone holds more than the bound, the workers spill at every batch and the build
+// goes on, past the bound, and says so (Stats.DupMem).
+func (b *builder) addDups(o *batchOut) error {
+	if err := b.dups.add(b.meta.Rows, o.keys, o.sigs); err != nil {
+		return err
+	}
+	n := b.dups.bytes()
+	b.dupMem.Store(n)
+	b.dupPeak = max(b.dupPeak, n)
+	return nil
+}

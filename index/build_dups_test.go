@@ -1,0 +1,116 @@
+package index
+
+import (
+	"bytes"
+	"os"
+	"path/filepath"
+	"testing"
+
+	"sluice/index/dedup"
+)
+
+// TestDupsMatchDetector checks the dups file against dedup run directly over the pool's rows in
+// order, every row signed and given to the Detector as a pick's guard does (the build skips exact
+// duplicates, which must change no cluster), with one to three workers and spills.
+func TestDupsMatchDetector(t *testing.T) {
+	// The pool's rows again after it, the first 400 of them, make exact duplicates.
+	data, _ := os.ReadFile(testPool(t, 3000))
+	data = append(data, bytes.Join(bytes.SplitAfter(data, []byte("\n"))[:400], nil)...)
+	pool := filepath.Join(t.TempDir(), "pool.jsonl")
+	if err := os.WriteFile(pool, data, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	prm := dedup.ForThreshold(0.7)
+	det, err := dedup.NewDetector(prm)
+	if err != nil {
+		t.Fatal(err)
+	}
+	signer, _ := dedup.NewSigner(prm)
+	var exact dedup.Exact
+	var h dedup.Hasher
+	var keys []dedup.Key
+	row := 0
+	for _, line := range bytes.Split(data, []byte("\n")) {
+		if len(line) == 0 || line[0] != '{' || !bytes.Contains(line, []byte(`"prompt"`)) {
+			continue
+		}
+		var text []byte
+		for _, field := range []string{`"prompt":"`, `"completion":"`} {
+			i := bytes.Index(line, []byte(field)) + len(field)
+			j := i + bytes.IndexByte(line[i:], '"')
+			if len(text) > 0 {
+				text = append(text, '\n')
+			}
+			text = append(text, line[i:j]...)
+		}
+		h.Write(text)
+		k := h.Sum()
+		keys = append(keys, k)
+		signer.Write(text)
+		first, _ := exact.Add(row, k)
+		if _, err := det.Add(nil, row, signer.Sum(nil)); err != nil {
+			t.Fatal(err)
+		}
+		if first != row {
+			det.Clusters().Union(first, row)
+		}
+		row++
+	}
+	cl := det.Clusters()
+	var ref []byte
+	for _, tc := range []struct {
+		workers int
+		mem     int64
+	}{{1, 0}, {2, 4 << 10}, {3, 1 << 10}} {
+		dir, _ := build(t, pool, Options{Workers: tc.workers, Mem: tc.mem, NearDup: 0.7, batchRows: 64})
+		ix, err := Open(dir)
+		if err != nil {
+			t.Fatal(err)
+		}
+		d := ix.Meta().Dups
+		if d == nil || d.Threshold != 0.7 || d.Bands != prm.Bands || d.Hashes != prm.Hashes {
+			t.Fatalf("meta duplicates %+v, want the parameters %+v", d, prm)
+		}
+		dupRows := 0
+		for r := range row {
+			f, ok := ix.DupFirst(r)
+			if want := cl.Find(r); !ok || f != want {
+				t.Fatalf("workers %d: row %d: first %d, want %d", tc.workers, r, f, want)
+			}
+			if k, _ := ix.DupKey(r); k != keys[r] {
+				t.Fatalf("row %d: key differs", r)
+			}
+			if f != r {
+				dupRows++
+			}
+		}
+		if d.Duplicates != int64(dupRows) || d.Clusters != int64(len(cl.Groups())) || d.ExactDuplicates != int64(row-exact.Len()) {
+			t.Errorf("counts %+v, want %d duplicates in %d clusters, %d exact", d, dupRows, len(cl.Groups()), row-exact.Len())
+		}
+		if d.ExactDuplicates == 0 || int64(dupRows) == d.ExactDuplicates {
+			t.Errorf("the pool should hold exact and near duplicates: %+v", d)
+		}
+		if d.Work.MinHashes == 0 || d.FLOPs != d.Work.FLOPs() {
+			t.Errorf("work %+v, flops %v", d.Work, d.FLOPs)
+		}
+		b, _ := os.ReadFile(filepath.Join(dir, dupsFile))
+		if ref == nil {
+			ref = b
+		} else if !bytes.Equal(ref, b) {
+			t.Errorf("workers %d: dups differs from the first build", tc.workers)
+		}
+		ix.Close()
+	}
+	dir, _ := build(t, pool, Options{NoDups: true})
+	ix, err := Open(dir)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer ix.Close()
+	if _, ok := ix.DupFirst(0); ok || ix.Meta().Dups != nil {
+		t.Errorf("NoDups: the index holds duplicates")
+	}
+	if _, err := os.Stat(filepath.Join(dir, dupsFile)); !os.IsNotExist(err) {
+		t.Errorf("NoDups: dups file: %v", err)
+	}
+}
