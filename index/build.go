@@ -213,6 +213,29 @@ type batchOut struct {
 	err     error
 }
 
+// Check refuses options that name a field, spec, analyzer or threshold that cannot be, each error
+// naming its command-line flag, before any work.
+func (opt Options) Check() error {
+	if opt.Text != "" {
+		if _, err := jsonl.ParseSpec(opt.Text); err != nil {
+			return fmt.Errorf("--text: %w", err)
+		}
+	}
+	if _, err := jsonl.NewExtractor(jsonl.Shapes()[0], opt.ID, ""); err != nil {
+		return fmt.Errorf("--id: %w", err)
+	}
+	if _, err := jsonl.NewExtractor(jsonl.Shapes()[0], "", opt.Tokens); err != nil {
+		return fmt.Errorf("--tokens: %w", err)
+	}
+	if _, err := analysis.New(opt.Analyzer); opt.Analyzer != "" && err != nil {
+		return fmt.Errorf("--analyzer: %w", err)
+	}
+	if t := opt.NearDup; !opt.NoDups && t != 0 && !(t > 0 && t <= 1) {
+		return fmt.Errorf("--near-dup %v: give a Jaccard similarity above 0 and at most 1", t)
+	}
+	return nil
+}
+
 // Build reads the pool files in order and publishes an index at dir. An existing index at dir is
 // replaced only once the new one is complete; a folder that is not an index is never overwritten.
 func Build(ctx context.Context, dir string, sources []string, opt Options) (*Stats, error) {
@@ -235,6 +258,9 @@ func Build(ctx context.Context, dir string, sources []string, opt Options) (*Sta
 		opt.batchRows = batchRows
 	}
 	if _, err := jsonl.NewExtractor(jsonl.Shapes()[0], opt.ID, opt.Tokens); err != nil {
+		return nil, fmt.Errorf("build index: %w", err)
+	}
+	if err := opt.Check(); err != nil {
 		return nil, fmt.Errorf("build index: %w", err)
 	}
 	probe, err := analysis.New(opt.Analyzer)
@@ -1006,6 +1032,11 @@ func (w *worker) dictBytes() int64 {
 // rejects go back to the collector, which alone knows global row numbers.
 func (w *worker) do(bt *batch, paths []string) (*batchOut, error) {
 	o := &batchOut{seq: bt.seq, src: bt.src}
+	if w.sign != nil {
+		// At most a row a line: made once, not grown row by row.
+		o.keys = make([]dedup.Key, 0, len(bt.lines))
+		o.sigs = make([]uint32, 0, len(bt.lines)*w.sign.k)
+	}
 	file := paths[bt.src]
 	local := uint64(0)
 	for _, l := range bt.lines {

@@ -11,7 +11,6 @@ import (
 	"sluice/index"
 	"sluice/index/analysis"
 	"sluice/index/atomicdir"
-	"sluice/index/jsonl"
 	"sluice/select/run"
 )
 
@@ -32,6 +31,8 @@ func (*indexCmd) flags() *pflag.FlagSet {
 	fs.String("max-row-bytes", "64MiB", "longer rows are quarantined without being loaded")
 	fs.Int("workers", 0, "goroutines analysing rows (default: one per core)")
 	fs.Bool("strict", false, "stop at the first bad row (exit 1) instead of quarantining it")
+	fs.Float64("near-dup", index.DefaultNearDup, "find exact and near duplicates at this Jaccard similarity (word 5-gram shingles), for picks\nat the same --near-dup")
+	fs.Bool("no-dups", false, "find no duplicates (picks then find them themselves)")
 	fs.Bool("dry-run", false, "read, parse and analyse every row and report, but write no index")
 	fs.BoolP("quiet", "q", false, "print nothing but errors")
 	return fs
@@ -98,19 +99,14 @@ func indexOptions(fs *pflag.FlagSet) (index.Options, error) {
 	opt.Workers, _ = fs.GetInt("workers")
 	opt.Strict, _ = fs.GetBool("strict")
 	opt.DryRun, _ = fs.GetBool("dry-run")
-	if opt.Text != "" {
-		if _, err := jsonl.ParseSpec(opt.Text); err != nil {
-			return opt, usagef("--text: %v", err)
-		}
+	opt.NearDup, _ = fs.GetFloat64("near-dup")
+	if opt.NoDups, _ = fs.GetBool("no-dups"); opt.NoDups && fs.Changed("near-dup") {
+		return opt, usagef("--near-dup has no use with --no-dups")
+	} else if opt.NearDup == 0 {
+		return opt, usagef("--near-dup 0: give a Jaccard similarity above 0 and at most 1, or --no-dups")
 	}
-	if _, err := jsonl.NewExtractor(jsonl.Shapes()[0], opt.ID, ""); err != nil {
-		return opt, usagef("--id: %v", err)
-	}
-	if _, err := jsonl.NewExtractor(jsonl.Shapes()[0], "", opt.Tokens); err != nil {
-		return opt, usagef("--tokens: %v", err)
-	}
-	if _, err := analysis.New(opt.Analyzer); err != nil {
-		return opt, usagef("--analyzer: %v", err)
+	if err := opt.Check(); err != nil {
+		return opt, usagef("%v", err)
 	}
 	memS, _ := fs.GetString("mem")
 	mem, err := budget.ParseBound(memS, 16<<20)
