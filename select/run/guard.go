@@ -57,8 +57,9 @@ type guarded struct {
 	evalFiles []string
 	bands     int
 	work      dedup.Work
-	evalWork  int64    // words checked against the evaluation set
-	inPool    []string // ids of pool rows that are also target rows
+	built     *index.Dups // the index's clusters, when the pick takes them instead of hashing
+	evalWork  int64       // words checked against the evaluation set
+	inPool    []string    // ids of pool rows that are also target rows
 }
 
 // active reports whether the guards need a pass over the pool.
@@ -83,16 +84,23 @@ func (p *picked) guard(ctx context.Context) error {
 	var prm *dedup.Params
 	var det *dedup.Detector
 	var exact dedup.Exact
-	if !g.KeepDuplicates {
-		t := orDefault(g.NearDup, DefaultNearDup)
-		fp := dedup.ForThreshold(t)
+	targetKeys := p.targetKeys()
+	if d := p.indexDups(); d != nil {
+		gd.clusters, gd.inPool = p.indexClusters(targetKeys)
+		gd.exactDups, gd.bands, gd.built = int(d.ExactDuplicates), d.Bands, d
+	} else if !g.KeepDuplicates {
+		fp := dedup.ForThreshold(orDefault(g.NearDup, DefaultNearDup))
 		gd.bands, prm = fp.Bands, &fp
 		var err error
 		if det, err = dedup.NewDetector(*prm); err != nil {
 			return err
 		}
 	}
-	targetKeys := p.targetKeys()
+	if det == nil && set == nil {
+		p.guards = gd
+		p.chargeGuards()
+		return nil
+	}
 	var pairs []dedup.Pair
 	// Hashing, signing and checking words are per row and run on every core; the detector and the
 	// exact groups take the rows in order, as they must.
@@ -130,6 +138,39 @@ func (p *picked) guard(ctx context.Context) error {
 	p.guards = gd
 	p.chargeGuards()
 	return nil
+}
+
+// indexDups returns what the index says of its duplicates when they were found as this pick would
+// find them (dedup.ForThreshold of its --near-dup), and nil when the pick must find them itself: it
+// keeps duplicates, or the index was built without them, before them, or at another threshold.
+func (p *picked) indexDups() *index.Dups {
+	g := p.opt.Guards
+	d := p.ix.Meta().Dups
+	if g.KeepDuplicates || d == nil || d.Params() != dedup.ForThreshold(orDefault(g.NearDup, DefaultNearDup)) {
+		return nil
+	}
+	return d
+}
+
+// indexClusters reads the clusters the index stores, and the ids of the pool rows whose key a
+// target row has, in row order, as the pick's own pass would find them.
+func (p *picked) indexClusters(targetKeys map[dedup.Key]bool) (*dedup.Clusters, []string) {
+	c := &dedup.Clusters{}
+	var inPool []string
+	n := p.ix.NumRows()
+	for r := range n {
+		// Open has checked that every row's first is itself or an earlier first.
+		if f, _ := p.ix.DupFirst(r); f != r {
+			_ = c.Union(f, r)
+		}
+		if k, _ := p.ix.DupKey(r); targetKeys[k] {
+			inPool = append(inPool, p.ix.RowID(r))
+		}
+	}
+	if n > 0 {
+		_ = c.Union(n-1, n-1) // cover every row, as a Detector given them all does
+	}
+	return c, inPool
 }
 
 // targetKeys are the exact-duplicate keys of the target rows, so that target rows that also sit in
@@ -229,7 +270,7 @@ func readEvalRows(path string, fn func(line int64, text string) error) (int, err
 // chargeGuards enters the guards' work in the ledger.
 func (p *picked) chargeGuards() {
 	gd := p.guards
-	if gd.clusters != nil {
+	if gd.clusters != nil && gd.built == nil {
 		p.led.AddSelection(fmt.Sprintf("find duplicates: exact keys and MinHash signatures (%d hashes, %d bands)", minhashes, gd.bands), "FLOP", gd.work.FLOPs(), 1,
 			"the hashing work counted as index/dedup states it: bytes read and hashed, shingles, MinHash evaluations, band probes, sketches compared")
 	}
@@ -347,6 +388,9 @@ func (p *picked) guardNotes() []string {
 		}
 		notes = append(notes, fmt.Sprintf("duplicates: %d rows have an exact duplicate earlier in the pool; %d clusters of exact or near duplicates (Jaccard of word 5-gram shingles >= %g, %d MinHash values in %d bands); %d rows dropped for a better-scored row of their cluster",
 			gd.exactDups, groups, orDefault(p.opt.Guards.NearDup, DefaultNearDup), minhashes, gd.bands, len(p.dupOf)))
+	}
+	if d := gd.built; d != nil {
+		notes = append(notes, fmt.Sprintf("duplicates were found when the index was built, which paid their hashing once for every pick at this --near-dup: %s FLOP-equivalents as index/dedup counts it (meta.json's duplicates); this pick charges none of it", budget.FormatFLOPs(d.FLOPs)))
 	}
 	if gd.evalFiles != nil {
 		notes = append(notes, fmt.Sprintf("evaluation rows: %d pool rows share a %d-word n-gram with %s and are never kept", len(gd.contam), orDefaultInt(p.opt.Guards.ExcludeN, DefaultExcludeN), strings.Join(gd.evalFiles, ", ")))

@@ -34,6 +34,11 @@ const (
 // per band at 32 bytes, and an exact-duplicate key in a map at 48 (Exact).
 func dupRowBytes(bands int) int64 { return minhashes + 4 + 4 + 32*int64(bands) + 48 }
 
+// indexDupRowBytes is what the duplicate guard holds per pool row when it takes the index's
+// clusters: a union-find parent (4), and while keeping one row per cluster the scores (8), each
+// cluster's best (4) and each row's kept row (8).
+const indexDupRowBytes = 24
+
 // memPart is one part of a pick's memory, in words and bytes.
 type memPart struct {
 	what  string
@@ -60,7 +65,9 @@ func (p *picked) memoryNeed() (int64, []string) {
 		{fmt.Sprintf("the postings of a span of rows (--mem %s) and a quarter", formatBytes(span)), span + span/4},
 		{"buffers", fixedBytes},
 	}
-	if g := p.opt.Guards; !g.KeepDuplicates {
+	if p.indexDups() != nil {
+		parts = append(parts, memPart{fmt.Sprintf("the index's clusters of duplicates, %d B a pool row", indexDupRowBytes), n * indexDupRowBytes})
+	} else if g := p.opt.Guards; !g.KeepDuplicates {
 		b := int64(chooseBands(orDefault(g.NearDup, DefaultNearDup)))
 		parts = append(parts, memPart{fmt.Sprintf("the duplicate guard, %d B a pool row (--keep-duplicates drops it)", dupRowBytes(int(b))), n * dupRowBytes(int(b))})
 	}

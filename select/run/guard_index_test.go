@@ -1,0 +1,109 @@
+package run
+
+import (
+	"bytes"
+	"context"
+	"encoding/json"
+	"fmt"
+	"math"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+
+	"sluice/cmd/sluice/demodata"
+	"sluice/index"
+)
+
+// TestIndexDupsMatchPickTime picks from an index that holds the duplicates found at build time and
+// from one built without them, whose pick finds them itself: every row's score, rank, reason and
+// duplicate_of, and the kept rows, are the same bytes. Only each row's running ledger differs, by
+// the hashing that the second pick charges and the first does not (the index paid it), and the
+// ledger says which.
+func TestIndexDupsMatchPickTime(t *testing.T) {
+	dir := t.TempDir()
+	pool, target := filepath.Join(dir, "pool.jsonl"), filepath.Join(dir, "target.jsonl")
+	eval := filepath.Join(dir, "eval.jsonl")
+	for f, b := range map[string][]byte{pool: demodata.Pool(), target: demodata.Target(), eval: demodata.Eval()} {
+		if err := os.WriteFile(f, b, 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	for _, exclude := range []bool{false, true} {
+		var runs [2]string
+		var ledgers [2]Ledger
+		for i, noDups := range []bool{false, true} {
+			idx := filepath.Join(dir, fmt.Sprintf("idx%d", i))
+			if _, err := index.Build(context.Background(), idx, []string{pool}, index.Options{ID: "id", NoDups: noDups}); err != nil {
+				t.Fatal(err)
+			}
+			runs[i] = filepath.Join(dir, fmt.Sprintf("run%d-%v", i, exclude))
+			opt := demoOptions(idx, target, runs[i])
+			opt.Budget = 1e15 // no cut between the two ledgers' totals
+			if exclude {
+				opt.Guards.Exclude = []string{eval}
+			}
+			if _, err := Pick(context.Background(), opt); err != nil {
+				t.Fatal(err)
+			}
+			l, err := ReadLedger(runs[i])
+			if err != nil {
+				t.Fatal(err)
+			}
+			ledgers[i] = *l
+		}
+		var hashing float64
+		for _, ln := range ledgers[1].Lines {
+			if strings.HasPrefix(ln.What, "find duplicates") {
+				hashing = ln.FLOPs
+			}
+		}
+		for _, ln := range ledgers[0].Lines {
+			if strings.HasPrefix(ln.What, "find duplicates") {
+				t.Errorf("the pick on the index's clusters charges %q", ln.What)
+			}
+		}
+		if hashing == 0 || !strings.Contains(strings.Join(ledgers[0].Notes, "\n"), "found when the index was built") {
+			t.Errorf("charge %v; notes %q", hashing, ledgers[0].Notes)
+		}
+		kept := [2][]byte{}
+		lines := [2][][]byte{}
+		for i, r := range runs {
+			kept[i], _ = os.ReadFile(filepath.Join(r, "kept.jsonl"))
+			s, _ := os.ReadFile(filepath.Join(r, "scores.jsonl"))
+			lines[i] = bytes.Split(s, []byte("\n"))
+		}
+		if !bytes.Equal(kept[0], kept[1]) || len(kept[0]) == 0 {
+			t.Errorf("exclude %v: kept.jsonl differs (%d and %d bytes)", exclude, len(kept[0]), len(kept[1]))
+		}
+		if len(lines[0]) != len(lines[1]) {
+			t.Fatalf("scores.jsonl: %d and %d lines", len(lines[0]), len(lines[1]))
+		}
+		dups := 0
+		for j := range lines[0] {
+			if len(lines[0][j]) == 0 {
+				continue
+			}
+			var a, b map[string]any
+			json.Unmarshal(lines[0][j], &a)
+			json.Unmarshal(lines[1][j], &b)
+			la, lb := a["ledger"].(float64), b["ledger"].(float64)
+			if math.Abs(lb-la-hashing) > 1e-9*lb {
+				t.Errorf("line %d: ledger %v and %v, want apart by the hashing %v", j, la, lb, hashing)
+			}
+			delete(a, "ledger")
+			delete(b, "ledger")
+			ja, _ := json.Marshal(a)
+			jb, _ := json.Marshal(b)
+			if !bytes.Equal(ja, jb) {
+				t.Fatalf("line %d differs:\n%s\n%s", j, ja, jb)
+			}
+			if a["reason"] == "duplicate" {
+				dups++
+			}
+		}
+		if dups == 0 {
+			t.Errorf("the demo pool holds copies, but no row was dropped as a duplicate")
+		}
+	}
+}
