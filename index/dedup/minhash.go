@@ -3,6 +3,7 @@ package dedup
 import (
 	"fmt"
 	"math"
+	"math/bits"
 	"unicode/utf8"
 )
 
@@ -168,29 +169,45 @@ const (
 	fnvPrime  = 1099511628211
 )
 
-// batch is how many shingle hashes a Signer gathers before applying the K hash functions to them,
-// so that each running minimum stays in a register for the whole batch.
-const batch = 64
+// maxBuffered is how many of a row's shingle hashes a Signer keeps for the rounds after the first.
+// Past it, a shingle takes part in round 0 alone; a row of that many shingles leaves a bin empty
+// after round 0 with probability below K·e^(−maxBuffered/K), 10⁻²¹⁵ for K = 128, so this changes
+// no signature in practice and keeps a Signer's memory fixed whatever the length of a row.
+const maxBuffered = 1 << 16
 
 // Signer makes MinHash signatures. Words are maximal runs of letters, marks and decimal digits
 // (other runes separate them), case folded as Normalize folds them. A shingle is k consecutive
 // words (Params.Shingle); a row with at least one but fewer than k words is one shingle of all
 // its words, so that short rows still have a signature (and are near duplicates only of rows of
-// the same few words). The K hash functions are h_i(x) = ⌊(a_i·x + c_i) / 2³²⌋ mod 2³² on the
-// 64-bit shingle hash x, with a_i odd and a_i, c_i drawn from Params.Seed, so equal Params give
-// equal signatures in any process.
+// the same few words).
+//
+// The K values are made by fast similarity sketching (Dahlgaard, Knudsen and Thorup, "Fast
+// Similarity Sketching", FOCS 2017), which costs about n + K·ln K hash evaluations for n shingles
+// where K independent hash functions cost n·K. Value j is a bin; in round i < K each shingle x
+// falls in a bin drawn from a hash of (x, i), in round K ≤ i < 2K in bin (o(x) + i) mod K for an
+// offset o(x) drawn once (our variant of the paper's per-shingle permutation: it too fills every
+// bin by round 2K), each time with the value i·2^(32−q) + r(x, i), q bits for the round and r
+// random bits; a bin keeps its smallest value. Rounds stop once every bin is filled, as no later
+// round can lower a value. Every shingle is treated alike, so the shingle behind bin j is equally
+// likely to be any of the union of two rows, and two rows agree at j with probability their
+// Jaccard similarity, as with K independent functions; the paper shows the share of agreeing bins
+// concentrates as well. The hashes are drawn from Params.Seed, so equal Params give equal
+// signatures in any process.
 //
 // A Signer is reused from row to row and allocates nothing per row; it must not be shared
 // between goroutines: make one per goroutine.
 type Signer struct {
-	k    int
-	a, c []uint64
+	k     int
+	seeds []uint64 // one per round, 2K
+	off   uint64   // seeds the offsets of the rounds from K on
+	shift uint     // 32 − q: the round number's place in a value
 	runes
 	word   uint64 // FNV-1a state of the current word
 	inWord bool
 	ring   []uint64 // hashes of the last k words, oldest at ring[n % k] once n ≥ k
 	n      int      // words so far in the row
-	buf    []uint64 // shingle hashes not yet applied
+	buf    []uint64 // the row's shingle hashes, at most maxBuffered
+	filled int      // bins of sig holding a value
 	sig    []uint32
 	work   Work
 }
@@ -202,18 +219,17 @@ func NewSigner(p Params) (*Signer, error) {
 		return nil, fmt.Errorf("new signer: %w", err)
 	}
 	s := &Signer{
-		k:    p.Shingle,
-		a:    make([]uint64, p.Hashes),
-		c:    make([]uint64, p.Hashes),
-		ring: make([]uint64, p.Shingle),
-		buf:  make([]uint64, 0, batch),
-		sig:  make([]uint32, p.Hashes),
+		k:     p.Shingle,
+		seeds: make([]uint64, 2*p.Hashes),
+		ring:  make([]uint64, p.Shingle),
+		sig:   make([]uint32, p.Hashes),
+		shift: 32 - uint(bits.Len(uint(2*p.Hashes))),
 	}
 	g := splitmix{p.Seed}
-	for i := range s.a {
-		s.a[i] = g.next() | 1
-		s.c[i] = g.next()
+	for i := range s.seeds {
+		s.seeds[i] = g.next()
 	}
+	s.off = g.next()
 	s.Reset()
 	return s, nil
 }
@@ -223,6 +239,7 @@ func (s *Signer) Reset() {
 	s.npend = 0
 	s.word, s.inWord, s.n = fnvOffset, false, 0
 	s.buf = s.buf[:0]
+	s.filled = 0
 	for i := range s.sig {
 		s.sig[i] = math.MaxUint32
 	}
@@ -300,41 +317,53 @@ func (s *Signer) addShingle(start, m int) {
 		h = (h ^ s.ring[(start+j)%s.k]) * 0x9E3779B97F4A7C15
 		h ^= h >> 29
 	}
-	s.buf = append(s.buf, mix64(h^uint64(m)))
+	s.addHash(mix64(h ^ uint64(m)))
 	s.work.ShingleWords += int64(m)
-	if len(s.buf) == batch {
-		s.apply()
+}
+
+// addHash takes the hash of one shingle of the row. Past maxBuffered it takes part in round 0 now
+// and is not kept.
+func (s *Signer) addHash(x uint64) {
+	if len(s.buf) < maxBuffered {
+		s.buf = append(s.buf, x)
+		return
+	}
+	s.put(0, x)
+	s.work.MinHashes++
+}
+
+// put sketches shingle x in round i: it lowers its bin's value if it can.
+func (s *Signer) put(i int, x uint64) {
+	z := mix64(x ^ s.seeds[i])
+	k := uint64(len(s.sig))
+	var bin uint64
+	if i < len(s.sig) {
+		bin = uint64(uint32(z)) * k >> 32
+	} else {
+		bin = (uint64(uint32(mix64(x^s.off)))*k>>32 + uint64(i) - k) % k
+	}
+	v := uint32(i)<<s.shift | uint32(z>>32)>>(32-s.shift)
+	if old := s.sig[bin]; v < old {
+		if old == math.MaxUint32 {
+			s.filled++
+		}
+		s.sig[bin] = v
 	}
 }
 
-// apply applies the K hash functions to the gathered shingle hashes, four functions at a time
-// so that each shingle hash is loaded once for four (about a third faster than one at a time).
-func (s *Signer) apply() {
-	buf := s.buf
-	k := len(s.a)
-	a, c, sig := s.a[:k], s.c[:k], s.sig[:k]
-	i := 0
-	for ; i+3 < k; i += 4 {
-		a0, a1, a2, a3 := a[i], a[i+1], a[i+2], a[i+3]
-		c0, c1, c2, c3 := c[i], c[i+1], c[i+2], c[i+3]
-		m0, m1, m2, m3 := sig[i], sig[i+1], sig[i+2], sig[i+3]
-		for _, x := range buf {
-			m0 = min(m0, uint32((a0*x+c0)>>32))
-			m1 = min(m1, uint32((a1*x+c1)>>32))
-			m2 = min(m2, uint32((a2*x+c2)>>32))
-			m3 = min(m3, uint32((a3*x+c3)>>32))
-		}
-		sig[i], sig[i+1], sig[i+2], sig[i+3] = m0, m1, m2, m3
+// sketch runs the rounds over the row's shingles until every bin holds a value. A row without
+// shingles leaves every value 2³²−1.
+func (s *Signer) sketch() {
+	if len(s.buf) == 0 && s.filled == 0 {
+		return
 	}
-	for ; i < k; i++ {
-		m, ai, ci := sig[i], a[i], c[i]
-		for _, x := range buf {
-			m = min(m, uint32((ai*x+ci)>>32))
+	// Round 0 takes every shingle, even if those past maxBuffered have filled every bin already.
+	for i := 0; i < len(s.seeds) && (i == 0 || s.filled < len(s.sig)); i++ {
+		for _, x := range s.buf {
+			s.put(i, x)
 		}
-		sig[i] = m
+		s.work.MinHashes += int64(len(s.buf))
 	}
-	s.work.MinHashes += int64(len(buf)) * int64(k)
-	s.buf = s.buf[:0]
 }
 
 // Sum appends to dst[:0] the signature of the text written since the last Sum or Reset, returns
@@ -347,9 +376,7 @@ func (s *Signer) Sum(dst Signature) Signature {
 	if 0 < s.n && s.n < s.k {
 		s.addShingle(0, s.n)
 	}
-	if len(s.buf) > 0 {
-		s.apply()
-	}
+	s.sketch()
 	dst = append(dst[:0], s.sig...)
 	s.Reset()
 	return dst

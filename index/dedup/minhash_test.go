@@ -3,6 +3,7 @@ package dedup
 import (
 	"errors"
 	"math"
+	"math/bits"
 	"math/rand/v2"
 	"slices"
 	"strings"
@@ -151,10 +152,7 @@ func TestMinHashMatchesExactJaccard(t *testing.T) {
 func setSignature(s *Signer, xs []uint64) Signature {
 	s.Reset()
 	for _, x := range xs {
-		s.buf = append(s.buf, x)
-		if len(s.buf) == batch {
-			s.apply()
-		}
+		s.addHash(x)
 	}
 	return s.Sum(nil)
 }
@@ -257,11 +255,15 @@ func TestSignerWork(t *testing.T) {
 	sign(t, s, text)
 	sign(t, s, "a b") // a short row: 1 shingle of 2 words
 	w := s.Work()
-	want := Work{Bytes: int64(len(text) + 3), ShingleWords: 3*3 + 2, MinHashes: 4 * 16}
+	// One shingle needs every round to fill every bin; three need fewer (sketchByDefinition counts).
+	if w.MinHashes < 16+3 || w.MinHashes > 2*16*(1+3) {
+		t.Errorf("%d evaluations", w.MinHashes)
+	}
+	want := Work{Bytes: int64(len(text) + 3), ShingleWords: 3*3 + 2, MinHashes: w.MinHashes}
 	if w != want {
 		t.Errorf("work %+v, want %+v", w, want)
 	}
-	if f := w.FLOPs(); f != 4*float64(want.Bytes)+2*11+4*64 {
+	if f := w.FLOPs(); f != 4*float64(want.Bytes)+2*11+12*float64(w.MinHashes) {
 		t.Errorf("FLOPs %v", f)
 	}
 }
@@ -306,23 +308,55 @@ func FuzzSign(f *testing.F) {
 	})
 }
 
-// TestApplyMatchesDefinition checks the unrolled MinHash loop against the definition, for a K
-// that is not a multiple of four and more shingles than one batch.
-func TestApplyMatchesDefinition(t *testing.T) {
-	s := mustSigner(t, Params{Hashes: 7, Bands: 7, Seed: 5})
-	rng := rand.New(rand.NewPCG(3, 4))
-	xs := make([]uint64, 3*batch+5)
-	for i := range xs {
-		xs[i] = rng.Uint64()
+// sketchByDefinition is fast similarity sketching as Signer documents it, without stopping early:
+// every shingle in every one of the 2K rounds. It returns the signature and the evaluations a
+// Signer makes, which stops after the first round that leaves no bin empty.
+func sketchByDefinition(s *Signer, xs []uint64) (Signature, int64) {
+	k := len(s.sig)
+	q := bits.Len(uint(2 * k))
+	sig := make(Signature, k)
+	for j := range sig {
+		sig[j] = math.MaxUint32
 	}
-	got := setSignature(s, xs)
-	for i := range got {
-		want := uint32(math.MaxUint32)
+	var evals int64
+	stopped := false
+	for i := range 2 * k {
 		for _, x := range xs {
-			want = min(want, uint32((s.a[i]*x+s.c[i])>>32))
+			z := mix64(x ^ s.seeds[i])
+			bin := int(uint64(uint32(z)) * uint64(k) >> 32)
+			if i >= k {
+				bin = (int(uint64(uint32(mix64(x^s.off)))*uint64(k)>>32) + i - k) % k
+			}
+			sig[bin] = min(sig[bin], uint32(i)<<(32-q)|uint32(z>>32)>>q)
 		}
-		if got[i] != want {
-			t.Errorf("value %d: %d, want %d", i, got[i], want)
+		if !stopped {
+			evals += int64(len(xs))
+		}
+		if !slices.Contains(sig, math.MaxUint32) {
+			stopped = true
+		}
+	}
+	return sig, evals
+}
+
+// TestSketchMatchesDefinition checks the Signer's early stop and its bins against the definition,
+// for a K that is not a power of two, sets from one shingle (every round needed) to many.
+func TestSketchMatchesDefinition(t *testing.T) {
+	s := mustSigner(t, Params{Hashes: 12, Bands: 4, Seed: 5})
+	rng := rand.New(rand.NewPCG(3, 4))
+	for _, n := range []int{1, 2, 5, 12, 40, 300} {
+		xs := make([]uint64, n)
+		for i := range xs {
+			xs[i] = rng.Uint64()
+		}
+		before := s.Work().MinHashes
+		got := setSignature(s, xs)
+		want, evals := sketchByDefinition(s, xs)
+		if !slices.Equal(got, want) {
+			t.Errorf("%d shingles: %v, want %v", n, got, want)
+		}
+		if e := s.Work().MinHashes - before; e != evals {
+			t.Errorf("%d shingles: %d evaluations, want %d", n, e, evals)
 		}
 	}
 }

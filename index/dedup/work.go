@@ -11,13 +11,14 @@ package dedup
 //	             operations and a 48-word message schedule per 64-byte block,
 //	             our count from the definition in FIPS 180-4)
 //	ShingleWords a word hash mixed into a shingle hash (k per shingle of k words)  2
-//	MinHashes    one hash function applied to one shingle and kept if smaller:     4
-//	             multiply, add, shift, compare (K per shingle)
+//	MinHashes    a shingle sketched in one round (see Signer): its hash mixed with   12
+//	             the round's seed (two multiplies, three shifts, four xors), a bin
+//	             drawn (a multiply, a shift), a value made and kept if smaller
 //	BandValues   a signature value mixed into a band's bucket key (K per row)      2
 //	Probes       a bucket looked up or inserted (b per row)                        8
 //	Compared     a sketch byte compared while confirming a candidate (K per pair)  1
 //
-// For a row of w words (w ≥ k) and K hash functions the MinHash term, 4·K·(w − k + 1), dominates.
+// A row of n shingles takes about n + K·ln K sketch evaluations, fewer rounds the more shingles.
 type Work struct {
 	Bytes        int64 `json:"bytes"`
 	Hashed       int64 `json:"hashed"`
@@ -31,7 +32,7 @@ type Work struct {
 // FLOPs converts w to FLOP-equivalents with the weights in Work's documentation.
 func (w Work) FLOPs() float64 {
 	return 4*float64(w.Bytes) + 32*float64(w.Hashed) + 2*float64(w.ShingleWords) +
-		4*float64(w.MinHashes) + 2*float64(w.BandValues) + 8*float64(w.Probes) + float64(w.Compared)
+		12*float64(w.MinHashes) + 2*float64(w.BandValues) + 8*float64(w.Probes) + float64(w.Compared)
 }
 
 // Plus returns the sum of w and v, for adding up the Work of several goroutines.
