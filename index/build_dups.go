@@ -18,6 +18,7 @@ type Dups struct {
 	Hashes    int     `json:"hashes"`    // MinHash values per row, K
 	Bands     int     `json:"bands"`     // LSH bands of Hashes/Bands values
 	Seed      uint64  `json:"seed"`
+	Version   int     `json:"dedup_version"` // dedup.Version
 	// ExactDuplicates counts the rows whose normalised text an earlier row has; Clusters the
 	// clusters of two rows or more, exact or near; Duplicates the rows that are not their cluster's
 	// first.
@@ -28,7 +29,8 @@ type Dups struct {
 	FLOPs           float64    `json:"flops"` // Work.FLOPs()
 }
 
-// Params returns the parameters the clusters were found with.
+// Params returns the parameters the clusters were found with. They are those of this sluice's
+// dedup only when Version is dedup.Version.
 func (d *Dups) Params() dedup.Params {
 	return dedup.Params{Shingle: d.Shingle, Hashes: d.Hashes, Threshold: d.Threshold, Bands: d.Bands, Seed: d.Seed}
 }
@@ -98,7 +100,7 @@ func (f *dupFinder) write(b *builder, rows int64, work dedup.Work) error {
 	}
 	defer w.abort()
 	cl := f.det.Clusters()
-	d := &Dups{Threshold: f.prm.Threshold, Shingle: f.prm.Shingle, Hashes: f.prm.Hashes, Bands: f.prm.Bands, Seed: f.prm.Seed, ExactDuplicates: f.nexact}
+	d := &Dups{Threshold: f.prm.Threshold, Shingle: f.prm.Shingle, Hashes: f.prm.Hashes, Bands: f.prm.Bands, Seed: f.prm.Seed, Version: dedup.Version, ExactDuplicates: f.nexact}
 	work = work.Plus(f.det.Work())
 	d.Work, d.FLOPs = work, work.FLOPs()
 	var rec [dupRecSize]byte

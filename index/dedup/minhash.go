@@ -131,9 +131,9 @@ func simpson(f func(float64) float64, lo, hi float64) float64 {
 	return sum * h / 3
 }
 
-// Signature is a MinHash signature: for each of K hash functions, the smallest value it takes
-// over a row's shingles (Broder, 1997). The share of positions where two signatures agree
-// estimates the Jaccard similarity of the two rows' shingle sets, with standard deviation
+// Signature is a MinHash signature (Broder, 1997): K values, each the smallest of the hashes that
+// land in its position (see Signer for how). The share of positions where two signatures agree
+// estimates the Jaccard similarity of the two rows' shingle sets, with standard deviation about
 // √(J(1−J)/K). A row without words has no shingles and every value 2³²−1.
 type Signature []uint32
 
@@ -446,6 +446,11 @@ func RecallBands(k int, t, recall float64) int {
 	}
 	return best
 }
+
+// Version numbers the way keys and signatures are made from Params: it changes whenever the same
+// text and Params would give another Key or Signature, so that clusters stored by one version
+// are not taken for another's.
+const Version = 2
 
 // ForThreshold returns the Params with which sluice finds near duplicates at threshold t, at index
 // time and at pick time alike, so that the two find the same clusters: shingles of DefaultShingle

@@ -142,11 +142,12 @@ func (p *picked) guard(ctx context.Context) error {
 
 // indexDups returns what the index says of its duplicates when they were found as this pick would
 // find them (dedup.ForThreshold of its --near-dup), and nil when the pick must find them itself: it
-// keeps duplicates, or the index was built without them, before them, or at another threshold.
+// keeps duplicates, or the index was built without them, before them, at another threshold or by
+// another version of dedup.
 func (p *picked) indexDups() *index.Dups {
 	g := p.opt.Guards
 	d := p.ix.Meta().Dups
-	if g.KeepDuplicates || d == nil || d.Params() != dedup.ForThreshold(orDefault(g.NearDup, DefaultNearDup)) {
+	if g.KeepDuplicates || d == nil || d.Version != dedup.Version || d.Params() != dedup.ForThreshold(orDefault(g.NearDup, DefaultNearDup)) {
 		return nil
 	}
 	return d

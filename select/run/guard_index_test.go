@@ -13,6 +13,7 @@ import (
 
 	"sluice/cmd/sluice/demodata"
 	"sluice/index"
+	"sluice/index/dedup"
 )
 
 // TestIndexDupsMatchPickTime picks from an index that holds the duplicates found at build time and
@@ -105,5 +106,53 @@ func TestIndexDupsMatchPickTime(t *testing.T) {
 		if dups == 0 {
 			t.Errorf("the demo pool holds copies, but no row was dropped as a duplicate")
 		}
+	}
+}
+
+// TestIndexDupsFallBack: a pick finds duplicates itself, and charges the hashing, when the index's
+// were made at another threshold or by another version of dedup.
+func TestIndexDupsFallBack(t *testing.T) {
+	dir, idx, target := demo(t)
+	charged := func(out string, opt Options) bool {
+		t.Helper()
+		if _, err := Pick(context.Background(), opt); err != nil {
+			t.Fatal(err)
+		}
+		l, err := ReadLedger(out)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for _, ln := range l.Lines {
+			if strings.HasPrefix(ln.What, "find duplicates") {
+				return true
+			}
+		}
+		return false
+	}
+	out := filepath.Join(dir, "run-same")
+	if charged(out, demoOptions(idx, target, out)) {
+		t.Error("a pick at the index's threshold charges hashing")
+	}
+	out = filepath.Join(dir, "run-other")
+	opt := demoOptions(idx, target, out)
+	opt.Guards.NearDup = 0.9
+	if !charged(out, opt) {
+		t.Error("a pick at another threshold took the index's clusters")
+	}
+	meta := filepath.Join(idx, "meta.json")
+	b, err := os.ReadFile(meta)
+	if err != nil {
+		t.Fatal(err)
+	}
+	old := bytes.Replace(b, []byte(fmt.Sprintf(`"dedup_version": %d`, dedup.Version)), []byte(`"dedup_version": 1`), 1)
+	if bytes.Equal(old, b) {
+		t.Fatal("meta.json names no dedup_version")
+	}
+	if err := os.WriteFile(meta, old, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	out = filepath.Join(dir, "run-old")
+	if !charged(out, demoOptions(idx, target, out)) {
+		t.Error("a pick took clusters made by another version of dedup")
 	}
 }
