@@ -204,7 +204,8 @@ type Signer struct {
 	runes
 	word   uint64 // FNV-1a state of the current word
 	inWord bool
-	ring   []uint64 // hashes of the last k words, oldest at ring[n % k] once n ≥ k
+	ring   []uint64 // hashes of the last k words, oldest at ring[pos] once n ≥ k
+	pos    int      // n mod k, kept apart since a division per word costs more than the rest
 	n      int      // words so far in the row
 	buf    []uint64 // the row's shingle hashes, at most maxBuffered
 	filled int      // bins of sig holding a value
@@ -237,7 +238,7 @@ func NewSigner(p Params) (*Signer, error) {
 // Reset drops the text written since the last Sum.
 func (s *Signer) Reset() {
 	s.npend = 0
-	s.word, s.inWord, s.n = fnvOffset, false, 0
+	s.word, s.inWord, s.n, s.pos = fnvOffset, false, 0, 0
 	s.buf = s.buf[:0]
 	s.filled = 0
 	for i := range s.sig {
@@ -303,19 +304,26 @@ func (s *Signer) endWord() {
 
 // addWord takes the next word's hash and, once there are k words, the shingle that it ends.
 func (s *Signer) addWord(h uint64) {
-	s.ring[s.n%s.k] = h
+	s.ring[s.pos] = h
 	s.n++
+	if s.pos++; s.pos == s.k {
+		s.pos = 0
+	}
 	if s.n >= s.k {
-		s.addShingle(s.n%s.k, s.k)
+		s.addShingle(s.pos, s.k)
 	}
 }
 
 // addShingle hashes the m words that start at ring[start] into a shingle hash.
 func (s *Signer) addShingle(start, m int) {
 	h := uint64(0x243F6A8885A308D3) // digits of π: any fixed value serves
-	for j := 0; j < m; j++ {
-		h = (h ^ s.ring[(start+j)%s.k]) * 0x9E3779B97F4A7C15
+	// The words from start to the end of the ring, then from its start: no division per word.
+	for j, i := 0, start; j < m; j++ {
+		h = (h ^ s.ring[i]) * 0x9E3779B97F4A7C15
 		h ^= h >> 29
+		if i++; i == s.k {
+			i = 0
+		}
 	}
 	s.addHash(mix64(h ^ uint64(m)))
 	s.work.ShingleWords += int64(m)
