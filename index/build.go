@@ -388,9 +388,10 @@ func (b *builder) run(ctx context.Context) (*Stats, error) {
 	}
 	if !b.opt.NoDups && !b.opt.DryRun {
 		var err error
-		if b.dups, err = newDupFinder(b.opt.NearDup); err != nil {
+		if b.dups, err = newDupFinder(b.opt.NearDup, b.wd, filepath.Join(runDir, "keys")); err != nil {
 			return nil, err
 		}
+		defer b.dups.abort()
 	}
 	// A worker's share of Options.Mem is what the duplicate finder leaves, split evenly.
 	share := func() int64 { return max(0, b.opt.Mem-b.dupMem.Load()) / int64(b.opt.Workers) }

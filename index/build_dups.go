@@ -1,9 +1,12 @@
 package index
 
 import (
+	"bufio"
 	"encoding/binary"
 	"fmt"
+	"io"
 	"math/bits"
+	"os"
 	"slices"
 
 	"sluice/index/dedup"
@@ -49,25 +52,35 @@ type dupFinder struct {
 	det    *dedup.Detector
 	exact  dedup.Exact
 	pairs  []dedup.Pair
-	keys   []byte // dedup.Key per row, written to the dups file at the end
+	keys   *fileWriter // dedup.Key per row, in the runs folder until the dups file is written
 	nexact int64
 }
 
-func newDupFinder(t float64) (*dupFinder, error) {
+// newDupFinder makes a finder at threshold t whose rows' keys wait in the file keys; abort removes
+// it when the build stops before the dups file is written.
+func newDupFinder(t float64, wd workDir, keys string) (*dupFinder, error) {
 	prm := dedup.ForThreshold(t)
 	det, err := dedup.NewDetector(prm)
 	if err != nil {
 		return nil, fmt.Errorf("build index: --near-dup: %w", err)
 	}
-	return &dupFinder{prm: prm, det: det}, nil
+	kw, err := wd.create(keys)
+	if err != nil {
+		return nil, err
+	}
+	return &dupFinder{prm: prm, det: det, keys: kw}, nil
 }
+
+func (f *dupFinder) abort() { f.keys.abort() }
 
 // add takes the rows of one batch, numbered from base: a key each and K signature values each.
 func (f *dupFinder) add(base int64, keys []dedup.Key, sigs []uint32) error {
 	k := f.prm.Hashes
 	for i, key := range keys {
 		row := int(base) + i
-		f.keys = append(f.keys, key[:]...)
+		if err := f.keys.write(key[:]); err != nil {
+			return err
+		}
 		first, err := f.exact.Add(row, key)
 		if err != nil {
 			return fmt.Errorf("build index: duplicates: %w", err)
@@ -86,14 +99,23 @@ func (f *dupFinder) add(base int64, keys []dedup.Key, sigs []uint32) error {
 	return nil
 }
 
-// bytes is what the finder holds, counted against Options.Mem: the Detector, the exact groups and
-// the keys kept for the dups file.
+// bytes is what the finder holds, counted against Options.Mem: the Detector and the exact groups.
 func (f *dupFinder) bytes() int64 {
-	return int64(f.det.Bytes()) + int64(f.exact.Bytes()) + int64(cap(f.keys))
+	return int64(f.det.Bytes()) + int64(f.exact.Bytes())
 }
 
 // write writes the dups file for rows rows and fills in meta's Dups.
 func (f *dupFinder) write(b *builder, rows int64, work dedup.Work) error {
+	if err := f.keys.closeNoSync(); err != nil {
+		return err
+	}
+	kf, err := os.Open(f.keys.path)
+	if err != nil {
+		return b.wd.err("build index: read back", err)
+	}
+	defer os.Remove(f.keys.path)
+	defer kf.Close()
+	keys := bufio.NewReaderSize(kf, 1<<20)
 	w, err := b.wd.create(b.wd.path(dupsFile))
 	if err != nil {
 		return err
@@ -113,7 +135,9 @@ func (f *dupFinder) write(b *builder, rows int64, work dedup.Work) error {
 			firsts[first/64] |= 1 << (first % 64)
 		}
 		binary.LittleEndian.PutUint32(rec[:4], uint32(first))
-		copy(rec[4:], f.keys[r*int64(len(dedup.Key{})):])
+		if _, err := io.ReadFull(keys, rec[4:]); err != nil {
+			return fmt.Errorf("build index: read back %s: %w", f.keys.shown, bareErr(err))
+		}
 		if _, err := w.w.Write(rec[:]); err != nil {
 			return w.fail(err)
 		}
