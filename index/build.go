@@ -209,7 +209,8 @@ type batchOut struct {
 	missing map[string]*missCount // by path of the text spec, the rows lacking it
 	blank   int64
 	keys    []dedup.Key // by row, when duplicates are found
-	sigs    []uint32    // K values by row
+	signed  []bool      // by row: whether the row has a signature in sigs
+	sigs    []uint32    // K values by row signed
 	err     error
 }
 
@@ -415,8 +416,7 @@ func (b *builder) run(ctx context.Context) (*Stats, error) {
 		}
 		var err error
 		if b.dups != nil {
-			w.sign = &signRow{k: b.dups.prm.Hashes}
-			if w.sign.signer, err = dedup.NewSigner(b.dups.prm); err != nil {
+			if w.sign, err = newSignRow(b.dups.prm); err != nil {
 				return nil, fmt.Errorf("build index: %w", err)
 			}
 		}
@@ -1036,6 +1036,7 @@ func (w *worker) do(bt *batch, paths []string) (*batchOut, error) {
 	if w.sign != nil {
 		// At most a row a line: made once, not grown row by row.
 		o.keys = make([]dedup.Key, 0, len(bt.lines))
+		o.signed = make([]bool, 0, len(bt.lines))
 		o.sigs = make([]uint32, 0, len(bt.lines)*w.sign.k)
 	}
 	file := paths[bt.src]

@@ -73,10 +73,15 @@ func newDupFinder(t float64, wd workDir, keys string) (*dupFinder, error) {
 
 func (f *dupFinder) abort() { f.keys.abort() }
 
-// add takes the rows of one batch, numbered from base: a key each and K signature values each.
-func (f *dupFinder) add(base int64, keys []dedup.Key, sigs []uint32) error {
+// add takes the rows of one batch, numbered from base: a key each and, for each row signed, K
+// signature values.
+func (f *dupFinder) add(base int64, keys []dedup.Key, signed []bool, sigs []uint32) error {
 	k := f.prm.Hashes
 	for i, key := range keys {
+		var sig []uint32
+		if signed[i] {
+			sig, sigs = sigs[:k], sigs[k:]
+		}
 		row := int(base) + i
 		if err := f.keys.write(key[:]); err != nil {
 			return err
@@ -92,7 +97,10 @@ func (f *dupFinder) add(base int64, keys []dedup.Key, sigs []uint32) error {
 			}
 			continue
 		}
-		if f.pairs, err = f.det.Add(f.pairs[:0], row, sigs[i*k:(i+1)*k]); err != nil {
+		if sig == nil {
+			return fmt.Errorf("build index: internal error: row %d, the first of its key, was not signed", row)
+		}
+		if f.pairs, err = f.det.Add(f.pairs[:0], row, sig); err != nil {
 			return fmt.Errorf("build index: duplicates: %w", err)
 		}
 	}
@@ -149,40 +157,66 @@ func (f *dupFinder) write(b *builder, rows int64, work dedup.Work) error {
 	return w.close()
 }
 
-// signRow is a worker's hashing of one row: the row's text parts go to both hashers, a newline
-// between parts as a pick joins them.
+// signRow is a worker's hashing of one row: the row's text parts, a newline between parts as a
+// pick joins them, are gathered, keyed, and signed unless the worker has met the key before.
 type signRow struct {
 	hasher dedup.Hasher
 	signer *dedup.Signer
-	k      int // values per signature
+	k      int    // values per signature
+	text   []byte // the row's text
 	parts  int
+	// seen holds keys of the worker's earlier rows, a slot each by the key's first bits (have
+	// marks the slots filled). A worker's batches come in input order, so a row whose key is
+	// there is not the first of its exact duplicates, and the collector will not need its
+	// signature: the cache saves signing it, and a key evicted costs only a signature made.
+	seen []dedup.Key
+	have []bool
+}
+
+// seenSlots is the size of a worker's cache of keys: 1 MiB of keys.
+const seenSlots = 1 << 16
+
+func newSignRow(prm dedup.Params) (*signRow, error) {
+	sg, err := dedup.NewSigner(prm)
+	if err != nil {
+		return nil, err
+	}
+	return &signRow{signer: sg, k: prm.Hashes, seen: make([]dedup.Key, seenSlots), have: make([]bool, seenSlots)}, nil
 }
 
 func (s *signRow) reset() {
-	s.hasher.Reset()
-	s.signer.Reset()
+	s.text = s.text[:0]
 	s.parts = 0
 }
 
 func (s *signRow) write(part []byte) {
 	if s.parts > 0 {
-		s.hasher.Write(newline)
-		s.signer.Write(newline)
+		s.text = append(s.text, '\n')
 	}
-	s.hasher.Write(part)
-	s.signer.Write(part)
+	s.text = append(s.text, part...)
 	s.parts++
 }
 
-// sum appends the row's key and signature to the batch's.
+// sum appends the row's key, and its signature unless the worker met the key before, to the
+// batch's.
 func (s *signRow) sum(o *batchOut) {
-	k := s.k
-	o.keys = append(o.keys, s.hasher.Sum())
+	s.hasher.Write(s.text)
+	key := s.hasher.Sum()
+	o.keys = append(o.keys, key)
+	slot := binary.LittleEndian.Uint32(key[:4]) % seenSlots
+	if s.have[slot] && s.seen[slot] == key {
+		o.signed = append(o.signed, false)
+		s.reset()
+		return
+	}
+	s.seen[slot], s.have[slot] = key, true
+	o.signed = append(o.signed, true)
+	s.signer.Write(s.text)
 	n := len(o.sigs)
-	o.sigs = slices.Grow(o.sigs, k)
+	o.sigs = slices.Grow(o.sigs, s.k)
 	s.signer.Sum(o.sigs[n:n])
-	o.sigs = o.sigs[:n+k]
-	s.parts = 0
+	o.sigs = o.sigs[:n+s.k]
+	s.reset()
 }
 
 func (s *signRow) work() dedup.Work { return s.hasher.Work().Plus(s.signer.Work()) }
@@ -194,7 +228,7 @@ var newline = []byte{'\n'}
 // spilled: once it alone holds more than the bound, the workers spill at every batch and the build
 // goes on, past the bound, and says so (Stats.DupMem).
 func (b *builder) addDups(o *batchOut) error {
-	if err := b.dups.add(b.meta.Rows, o.keys, o.sigs); err != nil {
+	if err := b.dups.add(b.meta.Rows, o.keys, o.signed, o.sigs); err != nil {
 		return err
 	}
 	n := b.dups.bytes()
