@@ -173,15 +173,16 @@ type signRow struct {
 	have []bool
 }
 
-// seenSlots is the size of a worker's cache of keys: 1 MiB of keys.
-const seenSlots = 1 << 16
+// seenSlots is the size of a worker's cache of keys: 512 KiB of keys, made when the worker keys
+// its first row.
+const seenSlots = 1 << 15
 
 func newSignRow(prm dedup.Params) (*signRow, error) {
 	sg, err := dedup.NewSigner(prm)
 	if err != nil {
 		return nil, err
 	}
-	return &signRow{signer: sg, k: prm.Hashes, seen: make([]dedup.Key, seenSlots), have: make([]bool, seenSlots)}, nil
+	return &signRow{signer: sg, k: prm.Hashes}, nil
 }
 
 func (s *signRow) reset() {
@@ -203,6 +204,9 @@ func (s *signRow) sum(o *batchOut) {
 	s.hasher.Write(s.text)
 	key := s.hasher.Sum()
 	o.keys = append(o.keys, key)
+	if s.seen == nil {
+		s.seen, s.have = make([]dedup.Key, seenSlots), make([]bool, seenSlots)
+	}
 	slot := binary.LittleEndian.Uint32(key[:4]) % seenSlots
 	if s.have[slot] && s.seen[slot] == key {
 		o.signed = append(o.signed, false)
