@@ -211,7 +211,9 @@ type batchOut struct {
 	keys    []dedup.Key // by row, when duplicates are found
 	signed  []bool      // by row: whether the row has a signature in sigs
 	sigs    []uint32    // K values by row signed
-	err     error
+	// signWork is the signing work of each row signed.
+	signWork []dedup.Work
+	err      error
 }
 
 // Check refuses options that name a field, spec, analyzer or threshold that cannot be, each error

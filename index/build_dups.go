@@ -54,6 +54,10 @@ type dupFinder struct {
 	pairs  []dedup.Pair
 	keys   *fileWriter // dedup.Key per row, in the runs folder until the dups file is written
 	nexact int64
+	// signWork is the signing of the rows given to the Detector. Which other rows a worker signs
+	// depends on how batches fall to workers, so their work is not counted: meta.json must not
+	// depend on the number of workers.
+	signWork dedup.Work
 }
 
 // newDupFinder makes a finder at threshold t whose rows' keys wait in the file keys; abort removes
@@ -75,12 +79,14 @@ func (f *dupFinder) abort() { f.keys.abort() }
 
 // add takes the rows of one batch, numbered from base: a key each and, for each row signed, K
 // signature values.
-func (f *dupFinder) add(base int64, keys []dedup.Key, signed []bool, sigs []uint32) error {
+func (f *dupFinder) add(base int64, keys []dedup.Key, signed []bool, sigs []uint32, work []dedup.Work) error {
 	k := f.prm.Hashes
 	for i, key := range keys {
 		var sig []uint32
+		var w dedup.Work
 		if signed[i] {
 			sig, sigs = sigs[:k], sigs[k:]
+			w, work = work[0], work[1:]
 		}
 		row := int(base) + i
 		if err := f.keys.write(key[:]); err != nil {
@@ -103,6 +109,7 @@ func (f *dupFinder) add(base int64, keys []dedup.Key, signed []bool, sigs []uint
 		if f.pairs, err = f.det.Add(f.pairs[:0], row, sig); err != nil {
 			return fmt.Errorf("build index: duplicates: %w", err)
 		}
+		f.signWork = f.signWork.Plus(w)
 	}
 	return nil
 }
@@ -131,7 +138,7 @@ func (f *dupFinder) write(b *builder, rows int64, work dedup.Work) error {
 	defer w.abort()
 	cl := f.det.Clusters()
 	d := &Dups{Threshold: f.prm.Threshold, Shingle: f.prm.Shingle, Hashes: f.prm.Hashes, Bands: f.prm.Bands, Seed: f.prm.Seed, Version: dedup.Version, ExactDuplicates: f.nexact}
-	work = work.Plus(f.det.Work())
+	work = work.Plus(f.signWork).Plus(f.det.Work())
 	d.Work, d.FLOPs = work, work.FLOPs()
 	var rec [dupRecSize]byte
 	// A cluster of two rows or more is counted at its first row, marked by the others.
@@ -215,15 +222,18 @@ func (s *signRow) sum(o *batchOut) {
 	}
 	s.seen[slot], s.have[slot] = key, true
 	o.signed = append(o.signed, true)
+	before := s.signer.Work()
 	s.signer.Write(s.text)
 	n := len(o.sigs)
 	o.sigs = slices.Grow(o.sigs, s.k)
 	s.signer.Sum(o.sigs[n:n])
 	o.sigs = o.sigs[:n+s.k]
+	o.signWork = append(o.signWork, s.signer.Work().Minus(before))
 	s.reset()
 }
 
-func (s *signRow) work() dedup.Work { return s.hasher.Work().Plus(s.signer.Work()) }
+// work is the keying the worker did, every row's; its signing is counted by the collector.
+func (s *signRow) work() dedup.Work { return s.hasher.Work() }
 
 var newline = []byte{'\n'}
 
@@ -232,7 +242,7 @@ var newline = []byte{'\n'}
 // spilled: once it alone holds more than the bound, the workers spill at every batch and the build
 // goes on, past the bound, and says so (Stats.DupMem).
 func (b *builder) addDups(o *batchOut) error {
-	if err := b.dups.add(b.meta.Rows, o.keys, o.signed, o.sigs); err != nil {
+	if err := b.dups.add(b.meta.Rows, o.keys, o.signed, o.sigs, o.signWork); err != nil {
 		return err
 	}
 	n := b.dups.bytes()

@@ -47,3 +47,16 @@ func (w Work) Plus(v Work) Work {
 		Compared:     w.Compared + v.Compared,
 	}
 }
+
+// Minus returns w less v, for the work done between two readings of a counter.
+func (w Work) Minus(v Work) Work {
+	return Work{
+		Bytes:        w.Bytes - v.Bytes,
+		Hashed:       w.Hashed - v.Hashed,
+		ShingleWords: w.ShingleWords - v.ShingleWords,
+		MinHashes:    w.MinHashes - v.MinHashes,
+		BandValues:   w.BandValues - v.BandValues,
+		Probes:       w.Probes - v.Probes,
+		Compared:     w.Compared - v.Compared,
+	}
+}
