@@ -359,6 +359,26 @@ func (s *Signer) put(i int, x uint64) {
 	}
 }
 
+// round is put for every buffered shingle in round i < K, written out in one loop.
+func (s *Signer) round(i int) {
+	sig := s.sig
+	k := uint64(len(sig))
+	seed, base, shift := s.seeds[i], uint32(i)<<s.shift, 32-s.shift
+	filled := s.filled
+	for _, x := range s.buf {
+		z := mix64(x ^ seed)
+		bin := uint64(uint32(z)) * k >> 32
+		v := base | uint32(z>>32)>>shift
+		if old := sig[bin]; v < old {
+			if old == math.MaxUint32 {
+				filled++
+			}
+			sig[bin] = v
+		}
+	}
+	s.filled = filled
+}
+
 // sketch runs the rounds over the row's shingles until every bin holds a value. A row without
 // shingles leaves every value 2³²−1.
 func (s *Signer) sketch() {
@@ -367,8 +387,12 @@ func (s *Signer) sketch() {
 	}
 	// Round 0 takes every shingle, even if those past maxBuffered have filled every bin already.
 	for i := 0; i < len(s.seeds) && (i == 0 || s.filled < len(s.sig)); i++ {
-		for _, x := range s.buf {
-			s.put(i, x)
+		if i >= len(s.sig) {
+			for _, x := range s.buf {
+				s.put(i, x)
+			}
+		} else {
+			s.round(i)
 		}
 		s.work.MinHashes += int64(len(s.buf))
 	}
