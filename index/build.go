@@ -71,7 +71,7 @@ type Options struct {
 const (
 	DefaultMem         = 512 << 20
 	DefaultMaxRowBytes = 64 << 20
-	DefaultAnalyzer    = "english"
+	DefaultAnalyzer    = "sklearn"
 	DefaultNearDup     = 0.8
 )
 

@@ -80,7 +80,7 @@ func TestBuildMatchesBruteForce(t *testing.T) {
 		mem     int64
 	}{{1, 0}, {2, 0}, {2, 4 << 10}, {3, 1 << 10}} {
 		t.Run(fmt.Sprintf("workers=%d/mem=%d", tc.workers, tc.mem), func(t *testing.T) {
-			dir, st := build(t, pool, Options{Workers: tc.workers, Mem: tc.mem, batchRows: 64})
+			dir, st := build(t, pool, Options{Workers: tc.workers, Mem: tc.mem, batchRows: 64, Analyzer: "english"})
 			if tc.mem > 0 && st.Runs <= tc.workers {
 				t.Errorf("expected spills with mem %d, got %d runs", tc.mem, st.Runs)
 			}

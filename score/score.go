@@ -141,7 +141,7 @@ const DefaultSpanBytes = 64 << 20
 // DefaultParams returns BM25 with Sum aggregation and k1 = 1.2, b = 0.75
 // (common practice; Robertson and Zaragoza report good results for k1 in 1.2–2 and b near 0.75).
 func DefaultParams() Params {
-	return Params{Method: BM25, Aggregate: Sum, K1: 1.2, B: 0.75}
+	return Params{Method: BM25, Aggregate: Sum, K1: 1.2, B: 1}
 }
 
 // Validate reports whether p names a known method and aggregate and has

@@ -108,7 +108,7 @@ func FuzzParseAggregate(f *testing.F) {
 
 func TestParamsValidate(t *testing.T) {
 	ok := DefaultParams()
-	if ok.K1 != 1.2 || ok.B != 0.75 || ok.Method != BM25 || ok.Aggregate != Sum {
+	if ok.K1 != 1.2 || ok.B != 1 || ok.Method != BM25 || ok.Aggregate != Sum {
 		t.Errorf("DefaultParams() = %+v", ok)
 	}
 	for _, tc := range []struct {

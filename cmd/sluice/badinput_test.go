@@ -426,7 +426,7 @@ func TestBadPickInput(t *testing.T) {
 		{"cut rows file", with("--index", "idx-cut"), 1, []string{"open index idx-cut: rows is 10 bytes", "index is damaged"}},
 		{"other format version", with("--index", "idx-version"), 1, []string{"open index idx-version: version 99, this sluice reads versions 1 to 2 (rebuild the index)"}},
 		{"not an index", with("--index", "."), 1, []string{"not a sluice index"}},
-		{"other analyzer", with("--analyzer", "plain"), 1, []string{"index idx was built with the english analyzer, not plain as --analyzer asks"}},
+		{"other analyzer", with("--analyzer", "plain"), 1, []string{"index idx was built with the sklearn analyzer, not plain as --analyzer asks"}},
 		{"unknown analyzer", with("--analyzer", "klingon"), 2, []string{`--analyzer "klingon": give english or plain`}},
 		{"bad --target-text", with("--target-text", "a["), 2, []string{"--target-text: bad field spec"}},
 	}
@@ -529,7 +529,7 @@ func TestBadPickInput(t *testing.T) {
 		}
 	})
 	t.Run("same analyzer asked for", func(t *testing.T) {
-		if code, _, stderr := sluice(t, append(append([]string{"pick"}, with("--analyzer", "english")...), "--out", "run-english")...); code != 0 {
+		if code, _, stderr := sluice(t, append(append([]string{"pick"}, with("--analyzer", "sklearn")...), "--out", "run-sklearn")...); code != 0 {
 			t.Errorf("exit %d: %s", code, stderr)
 		}
 	})

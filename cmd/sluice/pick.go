@@ -104,7 +104,7 @@ func addMethodFlags(fs *pflag.FlagSet) {
 	fs.StringArray("max-share", nil, "cap a pool file's kept rows at a share of the training budget: FILE=0.3 (the file as indexed), or 0.3 for every file; repeatable")
 	fs.String("prefilter", "", "before a model-based method, keep only the best rows by a lexical method:\nMETHOD:SHARE% (bm25:20%) or METHOD:TOKENS (tfidf:50M); the rest are never scored")
 	fs.Float64("k1", 1.2, "BM25 term-frequency saturation")
-	fs.Float64("b", 0.75, "BM25 length normalisation")
+	fs.Float64("b", 1, "BM25 length normalisation (1 measured best with sum; 0.75 is the textbook value)")
 }
 
 // addPickStopFlags declares the trained model, the stops and the output.

@@ -19,9 +19,6 @@ import (
 // ErrUnknownAnalyzer is returned by New for a name not listed by Names.
 var ErrUnknownAnalyzer = errors.New("unknown analyzer")
 
-// Default is the name of the analyzer used when none is chosen.
-const Default = "english"
-
 const (
 	english       = "english"
 	plain         = "plain"

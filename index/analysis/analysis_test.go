@@ -29,9 +29,6 @@ func TestNew(t *testing.T) {
 	if got, want := Names(), []string{"english", "plain", "english-nostem", "sklearn"}; !slices.Equal(got, want) {
 		t.Fatalf("Names() = %q, want %q", got, want)
 	}
-	if Names()[0] != Default {
-		t.Errorf("Names()[0] = %q, want the default %q", Names()[0], Default)
-	}
 	for _, name := range Names() {
 		a := mustNew(t, name)
 		if a.Name() != name {
