@@ -34,15 +34,15 @@ for corpus in t0 gpteacher; do
 	f=$work/$corpus.jsonl
 	text=prompt,completion
 	[ "$corpus" = gpteacher ] && text=instruction,input,response
-	read -r fs _ < <(secs "$S" index --dry-run --quiet --text "$text" "$f")
-	read -r is rss < <(secs "$S" index --quiet --text "$text" --out "$work/$corpus.idx" "$f")
+	read -r fs _ < <(secs "$S" index --analyzer english --dry-run --quiet --text "$text" "$f")
+	read -r is rss < <(secs "$S" index --analyzer english --quiet --text "$text" --out "$work/$corpus.idx" "$f")
 	printf '%-14s %8s %10s %10s %8s %10s %8s\n' "$corpus" "$(mb "$f")" "$fs" "$is" \
 		"$(echo "scale=2; $fs / $is" | bc)" "$(echo "scale=1; $(mb "$f") / $is" | bc)" "$((rss / 1024))"
 done
 
 # A new 1,000-row target on a built index: pick time against build time.
 python3 "$shared/scripts/t0-split.py" sentiment "$work/split" --target-rows 1000 >/dev/null
-read -r bs _ < <(secs "$S" index --quiet --id id --out "$work/split.idx" "$work/split/pool.jsonl")
+read -r bs _ < <(secs "$S" index --analyzer english --quiet --id id --out "$work/split.idx" "$work/split/pool.jsonl")
 head -n 1 "$work/split/target.jsonl" > "$work/one.jsonl"
 read -r ps _ < <(secs "$S" pick --quiet --index "$work/split.idx" --target "$work/one.jsonl" --budget 1e16 --train-params 1B --out "$work/run")
 echo "pick bm25 --aggregate sum, 1 target row: ${ps}s against build ${bs}s = $(echo "scale=1; 100 * $ps / $bs" | bc)%"
@@ -61,7 +61,7 @@ echo "write + fsync of the run's kept.jsonl and scores.jsonl ($(( ($(stat -c %s 
 
 # Peak memory for a pool of about 1 GB at the default --mem.
 for i in $(seq 1 17); do cat "$work/t0.jsonl"; done > "$work/big.jsonl"
-read -r gs grss < <(secs "$S" index --quiet --text prompt,completion --out "$work/big.idx" "$work/big.jsonl")
+read -r gs grss < <(secs "$S" index --analyzer english --quiet --text prompt,completion --out "$work/big.idx" "$work/big.jsonl")
 echo "1 GB pool ($(mb "$work/big.jsonl") MB): build ${gs}s, $(echo "scale=1; $(mb "$work/big.jsonl") / $gs" | bc) MB/s, peak RSS $((grss / 1024)) MB"
 for mem in 512MiB 64MiB; do
 	read -r ps prss < <(secs "$S" pick --quiet --mem $mem --index "$work/big.idx" --target "$work/split/target.jsonl" \

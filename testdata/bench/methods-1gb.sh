@@ -31,7 +31,7 @@ cat "$t0"/*.jsonl >"$work/t0.jsonl"
 for i in $(seq 1 17); do cat "$work/t0.jsonl"; done >"$work/big.jsonl"
 rm "$work/t0.jsonl"
 "$py" "$shared/scripts/t0-split.py" sentiment "$work/split" --target-rows 1000 >/dev/null
-/usr/bin/time -f '%e %M' -o "$work/time" "$S" index --quiet --text prompt,completion --out "$work/big.idx" "$work/big.jsonl"
+/usr/bin/time -f '%e %M' -o "$work/time" "$S" index --analyzer english --quiet --text prompt,completion --out "$work/big.idx" "$work/big.jsonl"
 read -r bs brss <"$work/time"
 rows=$("$py" -c 'import json, sys; print(json.load(open(sys.argv[1]))["rows"])' "$work/big.idx/meta.json")
 "$py" - "$rows" "$work" <<'PY'

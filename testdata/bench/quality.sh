@@ -60,7 +60,7 @@ measure() {
 			local run=$1
 			shift
 			"$S" pick --quiet --index "$dir/idx-$an" --target "$dir/target.jsonl" --attribute=false \
-				--keep-duplicates --budget 1e30 --train-params 1B --max-rows "$K" --out "$dir/run-$run" "$@"
+				--keep-duplicates --budget 1e30 --train-params 1B --max-rows "$K" --b 0.75 --out "$dir/run-$run" "$@"
 			runs+=("$run=$dir/run-$run")
 		}
 		for m in bm25 tfidf; do

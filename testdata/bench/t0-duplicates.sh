@@ -22,7 +22,7 @@ for c in $clusters; do
 	python3 "$shared/scripts/t0-split.py" "$c" "$work/$c" --target-rows 200 >/dev/null
 	n=$(wc -l < "$work/$c/labels.tsv")
 	k=$(awk -F'\t' -v c="$c" '$2 == c' "$work/$c/labels.tsv" | wc -l)
-	"$S" index --quiet --id id --text prompt,completion --out "$work/$c/idx" "$work/$c/pool.jsonl"
+	"$S" index --analyzer english --quiet --id id --text prompt,completion --out "$work/$c/idx" "$work/$c/pool.jsonl"
 	common=(--index "$work/$c/idx" --target "$work/$c/target.jsonl" --method tfidf --aggregate max --budget 1e30 --train-params 1B --max-rows "$k")
 	"$S" pick --quiet "${common[@]}" --keep-duplicates --out "$work/$c/all"
 	"$S" pick --quiet "${common[@]}" --out "$work/$c/dedup"

@@ -21,11 +21,11 @@ for c in $clusters; do
 	python3 "$shared/scripts/t0-split.py" "$c" "$work/$c" --target-rows 200 >/dev/null
 	n=$(wc -l < "$work/$c/labels.tsv")
 	k=$(awk -F'\t' -v c="$c" '$2 == c' "$work/$c/labels.tsv" | wc -l)
-	"$S" index --quiet --id id --text prompt,completion --out "$work/$c/idx" "$work/$c/pool.jsonl"
+	"$S" index --analyzer english --quiet --id id --text prompt,completion --out "$work/$c/idx" "$work/$c/pool.jsonl"
 	row="| $c | $n | $(pct "$k" "$n") |"
 	for m in bm25 tfidf; do
 		for a in sum max; do
-			"$S" pick --quiet --index "$work/$c/idx" --target "$work/$c/target.jsonl" --method $m --aggregate $a \
+			"$S" pick --quiet --b 0.75 --index "$work/$c/idx" --target "$work/$c/target.jsonl" --method $m --aggregate $a \
 				--budget 1e30 --train-params 1B --max-rows "$k" --out "$work/$c/run-$m-$a"
 			hit=$(grep -c "\"cluster\": \"$c\"" "$work/$c/run-$m-$a/kept.jsonl" || true)
 			kept=$(wc -l < "$work/$c/run-$m-$a/kept.jsonl")
