@@ -4,6 +4,7 @@ import (
 	"bufio"
 	"errors"
 	"fmt"
+	"io"
 	"io/fs"
 	"math/rand/v2"
 	"os"
@@ -196,13 +197,19 @@ func numbers(rest string) ([]int, bool) {
 }
 
 // WriteFile creates the file path, in a working folder from Temp, lets fill write it through a
-// buffer, and syncs it before closing, so that Publish makes public only what is on disk.
-func WriteFile(path string, fill func(w *bufio.Writer) error) error {
+// buffer, and syncs it before closing, so that Publish makes public only what is on disk. The bytes
+// also go to each of tee (a hash, say) as they go to the file. Errors do not name path, which is in a
+// working folder the user never sees: callers name the file as it will be published.
+func WriteFile(path string, fill func(w *bufio.Writer) error, tee ...io.Writer) error {
 	f, err := os.Create(path)
 	if err != nil {
-		return err
+		return pathless(err)
 	}
-	w := bufio.NewWriterSize(f, 1<<20)
+	var to io.Writer = f
+	if len(tee) > 0 {
+		to = io.MultiWriter(append([]io.Writer{f}, tee...)...)
+	}
+	w := bufio.NewWriterSize(to, 1<<20)
 	err = fill(w)
 	if err == nil {
 		err = w.Flush()
@@ -213,7 +220,7 @@ func WriteFile(path string, fill func(w *bufio.Writer) error) error {
 	if cerr := f.Close(); err == nil {
 		err = cerr
 	}
-	return err
+	return pathless(err)
 }
 
 // Discard removes the working folder tmp, made by Temp and not to be published, and releases its

@@ -5,11 +5,9 @@ import (
 	"crypto/sha256"
 	"encoding/hex"
 	"encoding/json"
-	"errors"
 	"fmt"
 	"io"
 	"math"
-	"os"
 	"path/filepath"
 	"strconv"
 	"strings"
@@ -152,23 +150,8 @@ func writeFileBytes(path, shown string, b []byte) error {
 // writeHashed creates path, lets fill write it through a buffer, then flushes and fsyncs it, and
 // returns the SHA-256 of what was written, in hex, so that a manifest need not read the file again.
 func writeHashed(path, shown string, fill func(w *bufio.Writer) error) (string, error) {
-	f, err := os.Create(path)
-	if err != nil {
-		return "", fmt.Errorf("write %s: %w", shown, errors.Unwrap(err))
-	}
 	h := sha256.New()
-	w := bufio.NewWriterSize(io.MultiWriter(f, h), 1<<20)
-	err = fill(w)
-	if err == nil {
-		err = w.Flush()
-	}
-	if err == nil {
-		err = f.Sync()
-	}
-	if cerr := f.Close(); err == nil {
-		err = cerr
-	}
-	if err != nil {
+	if err := atomicdir.WriteFile(path, fill, h); err != nil {
 		return "", fmt.Errorf("write %s: %w", shown, err)
 	}
 	return hex.EncodeToString(h.Sum(nil)), nil
