@@ -1,6 +1,7 @@
 package plan
 
 import (
+	"cmp"
 	"fmt"
 	"math"
 	"slices"
@@ -76,7 +77,7 @@ func Trends(curves []Curve) ([]Trend, error) {
 
 func trendOf(method string, cs []Curve) Trend {
 	cs = slices.Clone(cs)
-	slices.SortFunc(cs, func(a, b Curve) int { return cmpFloat(a.TrainedParams, b.TrainedParams) })
+	slices.SortFunc(cs, func(a, b Curve) int { return cmp.Compare(a.TrainedParams, b.TrainedParams) })
 	t := Trend{Method: method}
 	// Centre ln N at the sizes' geometric mean: the slope and level are then nearly uncorrelated.
 	for _, c := range cs {
@@ -114,16 +115,6 @@ func trendOf(method string, cs []Curve) Trend {
 	t.P0Slope, t.PbarSlope, t.LambdaExp = slope[0], slope[1], slope[2]
 	t.P0SlopeSE, t.PbarSlopeSE, t.LambdaExpSE = se[0], se[1], se[2]
 	return t
-}
-
-func cmpFloat(a, b float64) int {
-	switch {
-	case a < b:
-		return -1
-	case a > b:
-		return 1
-	}
-	return 0
 }
 
 // line is a weighted least-squares fit of y = a + b·x.

@@ -38,7 +38,7 @@ func (c *pickCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 	if fs.NArg() > 0 {
 		return usagef("unexpected argument %q", fs.Arg(0))
 	}
-	opt, err := pickOptions(fs)
+	opt, err := pickOptions(fs, false)
 	if err != nil {
 		return err
 	}
@@ -124,9 +124,9 @@ func addPickStopFlags(fs *pflag.FlagSet) {
 }
 
 // pickOptions resolves a pick's flags, refusing any mistake before work starts. For pilots, which
-// have no budget, --method may name several methods, comma-separated.
-func pickOptions(fs *pflag.FlagSet) (run.Options, error) {
-	opt, err := pickInputs(fs)
+// have no budget and a list of model sizes, --method may name several methods, comma-separated.
+func pickOptions(fs *pflag.FlagSet, pilots bool) (run.Options, error) {
+	opt, err := pickInputs(fs, pilots)
 	if err != nil {
 		return opt, err
 	}
@@ -136,16 +136,16 @@ func pickOptions(fs *pflag.FlagSet) (run.Options, error) {
 	if err := methodFlags(fs, &opt); err != nil {
 		return opt, err
 	}
-	if !isPilots(fs) {
+	if !pilots {
 		if opt.Budget, opt.BudgetHow, err = budgetFlags(fs); err != nil {
 			return opt, err
 		}
 	}
-	return opt, trainingFlags(fs, &opt)
+	return opt, trainingFlags(fs, &opt, pilots)
 }
 
 // pickInputs resolves where a pick reads and writes, and how it reads the target.
-func pickInputs(fs *pflag.FlagSet) (run.Options, error) {
+func pickInputs(fs *pflag.FlagSet, pilots bool) (run.Options, error) {
 	str := func(n string) string { v, _ := fs.GetString(n); return v }
 	opt := run.Options{Index: str("index"), Target: str("target"), TargetText: str("target-text"),
 		TargetID: str("target-id"), Analyzer: str("analyzer"), Out: str("out"), Compress: str("compress"), KeptFormat: str("kept-format")}
@@ -159,7 +159,7 @@ func pickInputs(fs *pflag.FlagSet) (run.Options, error) {
 		}
 	}
 	noBudget := ""
-	if !budgetGiven(fs) && !isPilots(fs) {
+	if !budgetGiven(fs) && !pilots {
 		noBudget = "a budget"
 	}
 	if err := required(unset(fs, "index"), unset(fs, "target"), unset(fs, "out"), unset(fs, "train-params"), noBudget); err != nil {
@@ -262,13 +262,13 @@ func methodFlags(fs *pflag.FlagSet, opt *run.Options) error {
 func named(list, m string) bool { return slices.Contains(strings.Split(list, ","), m) }
 
 // trainingFlags resolves the trained model's size, the epochs and the stops of the pick.
-func trainingFlags(fs *pflag.FlagSet, opt *run.Options) error {
+func trainingFlags(fs *pflag.FlagSet, opt *run.Options, pilots bool) error {
 	tp, _ := fs.GetString("train-params")
 	if tp == "" {
 		return usagef("--train-params is required (parameters of the model you will train, e.g. 7B)")
 	}
 	var err error
-	if isPilots(fs) {
+	if pilots {
 		// Pilots take a list of model sizes, which they read themselves.
 	} else if opt.TrainParams, err = budget.ParseCount(tp); err != nil {
 		return usagef("--train-params: %v", err)

@@ -20,9 +20,6 @@ func (*pilotsCmd) summary() string {
 	return "write nested training subsets for pilot fine-tunes, and the pilots file plan reads"
 }
 
-// isPilots says the flag set is the pilots command's, which resolves pick flags without a budget.
-func isPilots(fs *pflag.FlagSet) bool { return fs.Lookup("sizes") != nil }
-
 func (*pilotsCmd) flags() *pflag.FlagSet {
 	fs := newFlags("pilots")
 	addPickInputFlags(fs)
@@ -39,7 +36,7 @@ func (c *pilotsCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 	if fs.NArg() > 0 {
 		return usagef("unexpected argument %q", fs.Arg(0))
 	}
-	po, err := pickOptions(fs)
+	po, err := pickOptions(fs, true)
 	if err != nil {
 		return err
 	}

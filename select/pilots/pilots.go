@@ -134,8 +134,17 @@ func Folder() atomicdir.Kind {
 	first, _, _ := strings.Cut(header, "\n")
 	return atomicdir.Kind{Name: "pilots", Mark: File,
 		IsOur: func(b []byte) bool { return strings.HasPrefix(string(b), first+"\n") },
+		// Only the names Make writes: a user's notes.jsonl beside them makes the folder not ours.
 		Holds: func(name string) bool {
-			return name == File || strings.HasSuffix(name, ".run") || strings.HasSuffix(name, ".jsonl")
+			if name == File {
+				return true
+			}
+			if m, ok := strings.CutSuffix(name, ".run"); ok {
+				return slices.Contains(run.Methods(), m)
+			}
+			stem, ok := strings.CutSuffix(name, ".jsonl")
+			m, size, cut := strings.Cut(stem, "-")
+			return ok && cut && slices.Contains(run.Methods(), m) && size != ""
 		},
 	}
 }

@@ -223,3 +223,27 @@ func FuzzParseSizes(f *testing.F) {
 		}
 	})
 }
+
+// A pilots folder is replaced only while it holds nothing but what Make wrote: a file a user put
+// beside the subsets makes it not sluice's to replace.
+func TestPilotsReplaceOnlyTheirOwn(t *testing.T) {
+	dir, idx, target := demo(t)
+	out := filepath.Join(dir, "pilots")
+	opt := Options{Pick: pickOptions(idx, target), Methods: []string{"bm25"}, Sizes: []float64{500, 2000}, Trained: []float64{1e8}, Out: out}
+	if _, err := Make(context.Background(), opt); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := Make(context.Background(), opt); err != nil {
+		t.Fatalf("replacing its own pilots: %v", err)
+	}
+	notes := filepath.Join(out, "notes.jsonl")
+	if err := os.WriteFile(notes, []byte("{}\n"), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := Make(context.Background(), opt); err == nil {
+		t.Error("replaced a pilots folder holding a user's notes.jsonl")
+	}
+	if _, err := os.Stat(notes); err != nil {
+		t.Errorf("the user's file is gone: %v", err)
+	}
+}

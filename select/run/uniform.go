@@ -1,12 +1,12 @@
 package run
 
 import (
-	"bytes"
 	"errors"
 	"fmt"
 	"io"
 	"math"
 	"strconv"
+	"strings"
 
 	"sluice/index/jsonl"
 )
@@ -50,7 +50,7 @@ func (p *picked) newUniform(format string, w io.Writer) (*uniform, error) {
 			if err != nil {
 				return nil, fmt.Errorf("kept as %s: %w", format, err)
 			}
-			exs, arr = append(exs, ex), append(arr, bytes.Contains([]byte(one.String()), []byte("[]")))
+			exs, arr = append(exs, ex), append(arr, strings.Contains(one.String(), "[]"))
 		}
 		u.alts, u.arrays = append(u.alts, exs), append(u.arrays, arr)
 	}
@@ -128,7 +128,7 @@ func (u *uniform) row(r int, line []byte) error {
 func appendTurns(b []byte, fs [][]string, arrays []bool) []byte {
 	type turn struct{ role, content string }
 	var turns []turn
-	join := func(parts []string) string { return string(bytes.Join(toBytes(parts), []byte("\n\n"))) }
+	join := func(parts []string) string { return strings.Join(parts, "\n\n") }
 	switch {
 	case len(fs) == 1 && arrays[0]:
 		for i, s := range fs[0] {
@@ -159,14 +159,6 @@ func appendTurns(b []byte, fs [][]string, arrays []bool) []byte {
 		b = append(b, '}')
 	}
 	return append(b, ']')
-}
-
-func toBytes(ss []string) [][]byte {
-	out := make([][]byte, len(ss))
-	for i, s := range ss {
-		out[i] = []byte(s)
-	}
-	return out
 }
 
 // copyUniform writes the kept rows in format (KeptText or KeptChat) to w, in input order.
