@@ -200,6 +200,9 @@ func (o *Options) inputs() []string {
 // pilots.csv lists every subset for every pilot model size, its metric left to fill in. The folder
 // is published only when complete.
 func Make(ctx context.Context, opt Options) (*Result, error) {
+	if opt.Pick.Epochs == 0 {
+		opt.Pick.Epochs = 1
+	}
 	opt.Sizes = slices.Clone(opt.Sizes)
 	slices.Sort(opt.Sizes)
 	opt.Sizes = slices.Compact(opt.Sizes)
@@ -259,9 +262,6 @@ func (o *Options) method(ctx context.Context, ix *index.Index, m, tmp string) ([
 	// No budget: the sizes stop the pick. The largest pilot model is charged, an upper bound.
 	po.Budget, po.BudgetHow = math.MaxFloat64, "none: pilot subsets, cut at --sizes"
 	po.TrainParams = slices.Max(o.Trained)
-	if po.Epochs == 0 {
-		po.Epochs = 1
-	}
 	po.Select.MaxCount = o.Sizes[len(o.Sizes)-1]
 	if _, err := run.Pick(ctx, po); err != nil {
 		return nil, nil, fmt.Errorf("pilots, method %s: %w", m, err)
@@ -321,14 +321,12 @@ var columns = line{"method", "cost", "selector_params", "flops_per_pool_token", 
 // smaller selector would do.
 func csvLines(o *Options, m string, l *run.Ledger, pool float64, subs []Subset) []line {
 	cost, selector, perToken := "0", "0", strconv.FormatFloat(l.Selection/pool, 'g', 6, 64)
-	po := o.Pick
-	po.Method = m
 	var d run.Declared
 	switch m {
 	case run.MethodScores:
-		d = po.Scores.Cost
+		d = o.Pick.Scores.Cost
 	case run.MethodVectors:
-		d = po.Vectors.Cost
+		d = o.Pick.Vectors.Cost
 	}
 	if d.SelectorParams > 0 {
 		cost, selector, perToken = passesName(d.Passes), strconv.FormatFloat(d.SelectorParams, 'g', -1, 64), ""
@@ -339,17 +337,10 @@ func csvLines(o *Options, m string, l *run.Ledger, pool float64, subs []Subset) 
 			out = append(out, line{m, cost, selector, perToken, strconv.FormatFloat(n, 'g', -1, 64),
 				strconv.FormatInt(s.Tokens, 10), strconv.Itoa(s.Rows), s.File,
 				strconv.FormatFloat(l.Selection, 'g', 6, 64),
-				strconv.FormatFloat(budget.TrainFLOPs(n, float64(s.Tokens), o.epochs()), 'g', 6, 64), ""})
+				strconv.FormatFloat(budget.TrainFLOPs(n, float64(s.Tokens), o.Pick.Epochs), 'g', 6, 64), ""})
 		}
 	}
 	return out
-}
-
-func (o *Options) epochs() float64 {
-	if o.Pick.Epochs == 0 {
-		return 1
-	}
-	return o.Pick.Epochs
 }
 
 func passesName(p float64) string {
