@@ -1,6 +1,6 @@
 #!/usr/bin/env bash
 # Duplicates in the shared T0 corpus and what they cost a pick: for each task cluster (split as
-# t0-precision.sh does), pick as many rows as the cluster has in the pool with tfidf/max, once
+# quality.sh does: ../shared/scripts/t0-split.py, 200 target rows), pick as many rows as the cluster has in the pool with tfidf/max, once
 # keeping every copy (--keep-duplicates) and once keeping one row per cluster of exact or near
 # duplicates (the default). Reports the rows that have a better-scored copy in the pool, the share
 # of the first pick's kept tokens such copies took, and the precision (kept rows of the target's
