@@ -18,15 +18,12 @@ import (
 	"sluice/select/run"
 )
 
-// demo writes the built-in demo pool and target into a new folder and indexes the pool.
+// demo writes the built-in demo files into a new folder and indexes the pool.
 func demo(t *testing.T) (dir, idx, target string) {
 	t.Helper()
 	dir = t.TempDir()
-	pool, target := filepath.Join(dir, "pool.jsonl"), filepath.Join(dir, "target.jsonl")
-	if err := os.WriteFile(pool, demodata.Pool(), 0o644); err != nil {
-		t.Fatal(err)
-	}
-	if err := os.WriteFile(target, demodata.Target(), 0o644); err != nil {
+	pool, target, err := demodata.WriteFiles(filepath.Join(dir, "demo"))
+	if err != nil {
 		t.Fatal(err)
 	}
 	idx = filepath.Join(dir, "idx")
