@@ -301,7 +301,7 @@ def tables(results, analyzers):
     for k1 in ("0.6", "1.2", "2.0"):
         for b in ("0.3", "0.75", "1.0"):
             cells = [pct(mean([r[3][f"grid.{k1}/{b}.{ag}"] for r in rs])) for ag in ("sum", "max") for _, rs in groups]
-            mark = " (default)" if (k1, b) == ("1.2", "0.75") else ""
+            mark = " (default)" if (k1, b) == ("1.2", "1.0") else ""
             print(f"| {k1}{mark} | {b} | " + " | ".join(cells) + " |")
 
 
