@@ -20,6 +20,9 @@ import (
 // checking every row against the checksum taken when it was indexed. A last line that had no newline
 // gets one, so rows stay one per line.
 func (ix *Index) CopyRows(w io.Writer, rows []int) error {
+	if ix.set != nil {
+		return ix.set.copyRows(w, rows)
+	}
 	rows = slices.Clone(rows)
 	slices.Sort(rows)
 	rows = slices.Compact(rows)

@@ -37,18 +37,29 @@ type Index struct {
 	stored   map[string][]byte // mapped copies of sources read from a stream, by file name
 
 	maps [][]byte
+
+	set *segSet // the segments, for an index read from a set file; the fields above are then unused
 }
 
 // openAttempts bounds how often Open starts again when a rebuild replaced the folder while it read.
 const openAttempts = 3
 
-// Open reads an index folder, checking its format version and the checksum of every file.
+// Open reads an index folder, checking its format version and the checksum of every file, or an
+// index-set file (see WriteSet), whose segments it reads as one index: rows in order, statistics
+// summed, so that every score is what one index of the same files would give.
 //
 // Every file is read through one handle on the folder, so one Open sees one version of the index
 // even while a rebuild publishes another over it: the rebuild renames the new folder into place and
 // leaves the old one whole until it removes it. If the old one is removed before Open has read it
 // all, Open starts again on the new one.
 func Open(dir string) (*Index, error) {
+	if isSetFile(dir) {
+		dirs, overlap, err := readSet(dir)
+		if err != nil {
+			return nil, err
+		}
+		return openSet(dir, dirs, overlap)
+	}
 	for attempt := 1; ; attempt++ {
 		ix, replaced, err := openOnce(dir)
 		if err == nil || !replaced || attempt == openAttempts {
@@ -235,7 +246,7 @@ func (ix *Index) mapFile(d *os.File, name string) ([]byte, error) {
 // DupFirst returns the first row of row's cluster of duplicates (row itself when it is alone or
 // first), as found when the index was built, and false when the build found none (see Meta.Dups).
 func (ix *Index) DupFirst(row int) (int, bool) {
-	if ix.dups == nil {
+	if ix.dups == nil { // a set has none: its segments' clusters stop at their edges
 		return row, false
 	}
 	return int(binary.LittleEndian.Uint32(ix.dups[row*dupRecSize:])), true
@@ -278,6 +289,14 @@ func (ix *Index) loadIDs(b []byte) error {
 // Close releases the index's mappings.
 func (ix *Index) Close() error {
 	var err error
+	if ix.set != nil {
+		for _, g := range ix.set.segs {
+			if e := g.Close(); e != nil && err == nil {
+				err = e
+			}
+		}
+		return err
+	}
 	for _, b := range ix.maps {
 		if e := syscall.Munmap(b); e != nil && err == nil {
 			err = e
@@ -306,16 +325,29 @@ func (ix *Index) AvgLen() float64 { return ix.meta.AvgLen }
 func (ix *Index) rec(row int) rowRec { return getRowRec(ix.rows[row*rowRecSize:]) }
 
 // RowLen returns the analysed length of a row: its number of terms, repeats counted.
-func (ix *Index) RowLen(row int) int { return int(ix.rec(row).alen) }
+func (ix *Index) RowLen(row int) int {
+	if ix.set != nil {
+		g, r, _ := ix.set.seg(row)
+		return g.RowLen(r)
+	}
+	return int(ix.rec(row).alen)
+}
 
 // RowNorm returns the l2 norm of the row's TF-IDF vector, raw tf times ln((1+N)/(1+df))+1.
 func (ix *Index) RowNorm(row int) float64 {
+	if ix.set != nil {
+		return ix.set.rowNorm(row, ix.meta.Rows)
+	}
 	return math.Float64frombits(binary.LittleEndian.Uint64(ix.norms[8*row:]))
 }
 
 // RowTokens returns the row's token count from its count field, or ok=false when the index has
 // none, and the UTF-8 bytes of its text for an estimate.
 func (ix *Index) RowTokens(row int) (tokens int64, ok bool, textBytes int64) {
+	if ix.set != nil {
+		g, r, _ := ix.set.seg(row)
+		return g.RowTokens(r)
+	}
 	r := ix.rec(row)
 	return int64(r.tokens), r.tokens != noTokens, int64(r.textBytes)
 }
@@ -331,6 +363,12 @@ type Location struct {
 
 // RowLocation returns where the row came from.
 func (ix *Index) RowLocation(row int) Location {
+	if ix.set != nil {
+		g, r, i := ix.set.seg(row)
+		loc := g.RowLocation(r)
+		loc.Source += ix.set.srcBase[i]
+		return loc
+	}
 	r := ix.rec(row)
 	return Location{Source: int(r.src), File: ix.meta.Sources[r.src].Path, Line: int64(r.line), Offset: int64(r.off), Length: int64(r.n)}
 }
@@ -343,6 +381,10 @@ func (ix *Index) RowID(row int) string {
 // AppendRowID appends the row's id to b, as RowID gives it, without a string to collect for each
 // row when all of them are written out.
 func (ix *Index) AppendRowID(b []byte, row int) []byte {
+	if ix.set != nil {
+		g, r, _ := ix.set.seg(row)
+		return g.AppendRowID(b, r)
+	}
 	if ix.idOff != nil {
 		// Open checked every length, so the walk from the nearest kept offset stays in ids.
 		id := ix.ids[ix.idOff[row/idStride]:]
@@ -361,6 +403,13 @@ func (ix *Index) AppendRowID(b []byte, row int) []byte {
 
 // DF returns the number of rows holding term.
 func (ix *Index) DF(term string) int {
+	if ix.set != nil {
+		df := 0
+		for _, g := range ix.set.segs {
+			df += g.DF(term)
+		}
+		return df
+	}
 	if e, ok := ix.lex.find(term); ok {
 		return int(e.df)
 	}
@@ -368,10 +417,13 @@ func (ix *Index) DF(term string) int {
 }
 
 // NumTerms returns the size of the lexicon.
-func (ix *Index) NumTerms() int { return ix.lex.n }
+func (ix *Index) NumTerms() int { return int(ix.meta.Terms) }
 
 // Postings appends the rows holding term, ascending, and their term frequencies.
 func (ix *Index) Postings(term string, rows, tfs []uint32) ([]uint32, []uint32, error) {
+	if ix.set != nil {
+		return ix.set.postings(term, rows, tfs)
+	}
 	e, ok := ix.lex.find(term)
 	if !ok {
 		return rows, tfs, nil
@@ -393,10 +445,16 @@ type Cursor struct {
 	row  int64  // the last row decoded; -1 before the first
 	next int64  // a decoded row not yet handed out (at or past an earlier end), or -1
 	tf   uint32
+
+	parts []*Cursor // for a set, a cursor on each segment, read in turn
+	part  int       // the segment being read
 }
 
 // NewCursor returns a cursor at the start of term's postings; a term the index lacks has none.
 func (ix *Index) NewCursor(term string) *Cursor {
+	if ix.set != nil {
+		return ix.set.cursor(ix, term)
+	}
 	if e, ok := ix.lex.find(term); ok {
 		c := ix.cursorAt(e, term)
 		return &c
@@ -411,6 +469,9 @@ func (ix *Index) cursorAt(e termEntry, term string) Cursor {
 // Next appends the postings of rows below end that earlier calls have not handed out to rows and
 // tfs (rows ascending, with term frequencies) and returns them.
 func (c *Cursor) Next(end int, rows, tfs []uint32) ([]uint32, []uint32, error) {
+	if c.parts != nil {
+		return c.nextParts(end, rows, tfs)
+	}
 	if c.next >= 0 {
 		if c.next >= int64(end) {
 			return rows, tfs, nil

@@ -64,3 +64,22 @@ func ParseCurves(specs []string, p0 string, trainParams float64) ([]Curve, error
 	}
 	return curves, nil
 }
+
+// ParseBudgets reads a budget grid's bounds, LO:HI in FLOPs as budget.ParseFLOPs reads them, HI
+// above LO.
+func ParseBudgets(s string) (lo, hi float64, err error) {
+	l, h, ok := strings.Cut(s, ":")
+	if !ok {
+		return 0, 0, fmt.Errorf("%q: want LO:HI", s)
+	}
+	if lo, err = budget.ParseFLOPs(l); err != nil {
+		return 0, 0, err
+	}
+	if hi, err = budget.ParseFLOPs(h); err != nil {
+		return 0, 0, err
+	}
+	if hi <= lo {
+		return 0, 0, fmt.Errorf("%q: HI must be greater than LO", s)
+	}
+	return lo, hi, nil
+}

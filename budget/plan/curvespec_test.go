@@ -2,6 +2,7 @@ package plan
 
 import (
 	"errors"
+	"strings"
 	"testing"
 )
 
@@ -43,5 +44,29 @@ func TestParseCurveErrors(t *testing.T) {
 	}
 	if _, err := ParseCurve("a=forward,lots,0.5,1", 0.4, 1e9); err == nil {
 		t.Error("selector size lots accepted")
+	}
+}
+
+func TestParseBudgets(t *testing.T) {
+	for _, tc := range []struct {
+		in     string
+		lo, hi float64
+		bad    string
+	}{
+		{in: "1e18:1e21", lo: 1e18, hi: 1e21},
+		{in: "1e18", bad: "want LO:HI"},
+		{in: "1e21:1e18", bad: "greater than LO"},
+		{in: "x:1e18", bad: "x"},
+	} {
+		lo, hi, err := ParseBudgets(tc.in)
+		if tc.bad != "" {
+			if err == nil || !strings.Contains(err.Error(), tc.bad) {
+				t.Errorf("%q: got %v, want an error saying %q", tc.in, err, tc.bad)
+			}
+			continue
+		}
+		if err != nil || lo != tc.lo || hi != tc.hi {
+			t.Errorf("%q: got %v %v %v", tc.in, lo, hi, err)
+		}
 	}
 }

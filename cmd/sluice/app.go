@@ -64,8 +64,16 @@ func unset(fs *pflag.FlagSet, name string) string {
 	return ""
 }
 
+// noArgs is what when the command line names nothing after its flags, else "" (see required).
+func noArgs(fs *pflag.FlagSet, what string) string {
+	if fs.NArg() == 0 {
+		return what
+	}
+	return ""
+}
+
 func commands() []command {
-	return []command{&indexCmd{}, &pickCmd{}, &whyCmd{}, &diffCmd{}, &verifyCmd{}, &reportCmd{}, &demoCmd{}, &pilotsCmd{}, &planCmd{}}
+	return []command{&indexCmd{}, &pickCmd{}, &whyCmd{}, &diffCmd{}, &verifyCmd{}, &reportCmd{}, &demoCmd{}, &pilotsCmd{}, &planCmd{}, &segmentsCmd{}}
 }
 
 const intro = `sluice chooses the rows of a large JSONL instruction pool that are most like a small set of

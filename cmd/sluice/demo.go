@@ -3,7 +3,6 @@ package main
 import (
 	"context"
 	"fmt"
-	"os"
 	"path/filepath"
 
 	"github.com/spf13/pflag"
@@ -82,20 +81,5 @@ func (c *demoCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 	if err != nil || quiet {
 		return err
 	}
-	return printDemoTopics(e, runDir)
-}
-
-// printDemoTopics says how the kept rows fall into the demo's topics, and where the files are.
-func printDemoTopics(e *env, runDir string) error {
-	kept, err := os.Open(filepath.Join(runDir, "kept.jsonl"))
-	if err != nil {
-		return fmt.Errorf("demo: %w", err)
-	}
-	defer kept.Close()
-	if err := demodata.WriteTopics(e.stdout, kept); err != nil {
-		return fmt.Errorf("demo: %w", err)
-	}
-	fmt.Fprintf(e.stdout, "\nfiles:\n  %s  the kept rows, byte for byte\n  %s  every row's score, rank and fate\n  %s  the FLOP ledger\n",
-		filepath.Join(runDir, "kept.jsonl"), filepath.Join(runDir, "scores.jsonl"), filepath.Join(runDir, "ledger.json"))
-	return nil
+	return demodata.WriteRunTopics(e.stdout, runDir)
 }

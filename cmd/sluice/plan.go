@@ -119,18 +119,8 @@ func planConfig(fs *pflag.FlagSet) (plan.Config, error) {
 		return cfg, usagef("--points %d: give at most %d (a chart cannot show more)", cfg.Points, maxPlanPoints)
 	}
 	if b := get("budgets"); b != "" {
-		lo, hi, ok := strings.Cut(b, ":")
-		if !ok {
-			return cfg, usagef("--budgets %q: want LO:HI", b)
-		}
-		if cfg.Lo, err = budget.ParseFLOPs(lo); err != nil {
-			return cfg, usagef("--budgets: %v", err)
-		}
-		if cfg.Hi, err = budget.ParseFLOPs(hi); err != nil {
-			return cfg, usagef("--budgets: %v", err)
-		}
-		if cfg.Hi <= cfg.Lo {
-			return cfg, usagef("--budgets %q: HI must be greater than LO", b)
+		if cfg.Lo, cfg.Hi, err = plan.ParseBudgets(b); err != nil {
+			return cfg, usagef("--budgets %v", err)
 		}
 	}
 	return cfg, nil

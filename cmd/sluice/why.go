@@ -1,9 +1,7 @@
 package main
 
 import (
-	"bufio"
 	"context"
-	"encoding/json"
 
 	"github.com/spf13/pflag"
 
@@ -28,11 +26,8 @@ func (c *whyCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 	dir, _ := fs.GetString("run")
 	asJSON, _ := fs.GetBool("json")
 	top, _ := fs.GetInt("targets")
-	if dir == "" {
-		return usagef("--run is required")
-	}
-	if fs.NArg() == 0 {
-		return usagef("name at least one row id")
+	if err := required(unset(fs, "run"), noArgs(fs, "at least one row id")); err != nil {
+		return err
 	}
 	if top < 0 {
 		return usagef("--targets %d: must be 0 or more", top)
@@ -41,18 +36,5 @@ func (c *whyCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 	if err != nil {
 		return err
 	}
-	w := bufio.NewWriter(e.stdout)
-	defer w.Flush()
-	for _, r := range rows {
-		if asJSON {
-			b, err := json.Marshal(r)
-			if err != nil {
-				return err
-			}
-			w.Write(append(b, '\n'))
-			continue
-		}
-		r.WriteText(w)
-	}
-	return nil
+	return audit.WriteRows(e.stdout, rows, asJSON)
 }

@@ -1,6 +1,7 @@
 package audit
 
 import (
+	"bufio"
 	"bytes"
 	"cmp"
 	"context"
@@ -331,6 +332,23 @@ func fate(r Row, st run.Settings, stop string) string {
 		return "source cap: its pool file had reached its --max-share of the training budget"
 	}
 	return r.Reason
+}
+
+// WriteRows writes rows for people (WriteText) or, with asJSON, as one JSON object a line.
+func WriteRows(w io.Writer, rows []Row, asJSON bool) error {
+	bw := bufio.NewWriter(w)
+	for _, r := range rows {
+		if !asJSON {
+			r.WriteText(bw)
+			continue
+		}
+		b, err := json.Marshal(r)
+		if err != nil {
+			return err
+		}
+		bw.Write(append(b, '\n'))
+	}
+	return bw.Flush()
 }
 
 // WriteText writes the explanation for people: score, fate, ledger, the row's text, and the

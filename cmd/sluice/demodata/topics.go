@@ -5,6 +5,8 @@ import (
 	"encoding/json"
 	"fmt"
 	"io"
+	"os"
+	"path/filepath"
 	"sort"
 	"strings"
 )
@@ -73,5 +75,21 @@ func WriteTopics(w io.Writer, kept io.Reader) error {
 	if nkept > 0 {
 		_, err = fmt.Fprintf(w, "precision: %.1f%% of kept rows are %s\n", 100*float64(k[TargetTopic])/float64(nkept), TargetTopic)
 	}
+	return err
+}
+
+// WriteRunTopics writes WriteTopics of the demo run folder runDir's kept rows, and where the run's
+// files are.
+func WriteRunTopics(w io.Writer, runDir string) error {
+	kept, err := os.Open(filepath.Join(runDir, "kept.jsonl"))
+	if err != nil {
+		return fmt.Errorf("demo: %w", err)
+	}
+	defer kept.Close()
+	if err := WriteTopics(w, kept); err != nil {
+		return fmt.Errorf("demo: %w", err)
+	}
+	_, err = fmt.Fprintf(w, "\nfiles:\n  %s  the kept rows, byte for byte\n  %s  every row's score, rank and fate\n  %s  the FLOP ledger\n",
+		filepath.Join(runDir, "kept.jsonl"), filepath.Join(runDir, "scores.jsonl"), filepath.Join(runDir, "ledger.json"))
 	return err
 }
