@@ -1,0 +1,54 @@
+#!/usr/bin/env bash
+# A pick over 4 segments (an index set) against a pick over one index of the same rows, in the same
+# run, each a whole process timed with its peak RSS (GNU time). The pool is the shared T0 files
+# concatenated COPIES times (default 1, about 60 MB; 17 makes the 1 GB pool of index-vs-floor.sh),
+# cut by lines into 4 files; one index reads all 4, and each segment one. Picks use a 1,000-row
+# target (the pool's first 1,000 rows), keep at most a tenth of the pool, and alternate one index
+# and the set for ROUNDS rounds (default 3); the ratio set ÷ one is printed per round, with
+# duplicates kept (the set then reads as one index) and dropped (the default, where the set's pick
+# hashes the pool itself, since segments' clusters stop at their edges), and for tfidf, whose norms
+# the set recomputes.
+#
+#   bash testdata/bench/segments-vs-one.sh [SHARED_DIR] [COPIES]
+set -euo pipefail
+root=$(cd "$(dirname "$0")/../.." && pwd)
+shared=${1:-$root/../shared}
+copies=${2:-1}
+rounds=${ROUNDS:-3}
+work=$(mktemp -d)
+trap 'rm -rf "$work"' EXIT
+cd "$root"
+go build -o "$work/sluice" ./cmd/sluice
+S=$work/sluice
+t0=$shared/data/t0-train-50k-per-template/data_per_template
+cat "$t0"/*.jsonl >"$work/t0.jsonl"
+for _ in $(seq 1 "$copies"); do cat "$work/t0.jsonl"; done >"$work/pool.jsonl"
+rm "$work/t0.jsonl"
+rows=$(wc -l <"$work/pool.jsonl")
+split -d -n l/4 --additional-suffix=.jsonl "$work/pool.jsonl" "$work/part-"
+head -n 1000 "$work/pool.jsonl" >"$work/target.jsonl"
+rm "$work/pool.jsonl"
+parts=("$work"/part-0*.jsonl)
+run() { /usr/bin/time -f '%e %M' -o "$work/time" "$@" >/dev/null 2>"$work/err" || { cat "$work/err" >&2; exit 1; }; cat "$work/time"; }
+
+read -r ow om < <(run "$S" index --quiet --text prompt,completion --out "$work/one.idx" "${parts[@]}")
+segs=()
+sw=0
+for i in 0 1 2 3; do
+	read -r w _ < <(run "$S" index --quiet --text prompt,completion --out "$work/seg$i.idx" "${parts[$i]}")
+	sw=$(echo "$sw + $w" | bc)
+	segs+=("$work/seg$i.idx")
+done
+"$S" segments --out "$work/pool.set" "${segs[@]}" >/dev/null
+echo "pool: T0 x $copies, $rows rows in 4 files; $(nproc) cores; one index built in ${ow}s (peak ${om} KB), 4 segments in ${sw}s one after another"
+max=$((rows / 10))
+printf '%-28s %6s %10s %10s %8s %10s\n' pick round one_s set_s ratio RSS_ratio
+for r in $(seq 1 "$rounds"); do
+	for v in "bm25 --keep-duplicates" "bm25" "tfidf --keep-duplicates"; do
+		read -r -a extra <<<"--method $v"
+		read -r a am < <(run "$S" pick --quiet --index "$work/one.idx" --target "$work/target.jsonl" --budget 1e30 --train-params 1B --max-rows "$max" "${extra[@]}" --out "$work/run-one")
+		read -r b bm < <(run "$S" pick --quiet --index "$work/pool.set" --target "$work/target.jsonl" --budget 1e30 --train-params 1B --max-rows "$max" "${extra[@]}" --out "$work/run-set")
+		cmp -s "$work/run-one/kept.jsonl" "$work/run-set/kept.jsonl" || echo "kept rows differ for $v" >&2
+		printf '%-28s %6s %10s %10s %8s %10s\n' "$v" "$r" "$a" "$b" "$(echo "scale=2; $b / $a" | bc)" "$(echo "scale=2; $bm / $am" | bc)"
+	done
+done
