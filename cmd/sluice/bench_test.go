@@ -73,7 +73,7 @@ func BenchmarkPick(b *testing.B) {
 			b.Run(method.String()+"-"+agg.String(), func(b *testing.B) {
 				p := score.DefaultParams()
 				p.Method, p.Aggregate = method, agg
-				opt := run.Options{Index: idx, Target: target, Params: p, Budget: 1e16, TrainParams: 1e9, Epochs: 1,
+				opt := run.Options{Index: idx, Target: target, Params: p, Budget: 1e16, TrainParams: 1e9, Epochs: 1, Version: "bench",
 					Out: filepath.Join(dir, "run")}
 				for b.Loop() {
 					if _, err := run.Pick(context.Background(), opt); err != nil {
