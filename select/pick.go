@@ -54,12 +54,14 @@ const (
 	Contaminated               // "contaminated": it shares an n-gram with an evaluation row
 	GroupCap                   // "source-cap": its source had reached its share of the budget
 	MaxCount                   // "max-tokens": its tokens would pass Options.MaxCount
+	Taken                      // "taken": another target set of the pick kept it (PickSets)
 )
 
 var reasonNames = [...]string{
 	Kept: "", BelowCut: "below-cut", Budget: "budget", MaxRows: "max-rows",
 	MinScore: "min-score", NoMatch: "no-match", Prefilter: "prefilter", Unscored: "no-score",
 	Duplicate: "duplicate", Contaminated: "contaminated", GroupCap: "source-cap", MaxCount: "max-tokens",
+	Taken: "taken",
 }
 
 // String returns the stable lower-case word used for r in output files; it
@@ -74,7 +76,7 @@ func (r Reason) String() string {
 // Reasons lists every reason a row may not be kept, in the order summaries list them: the bars
 // set before the walk first, then the walk's own.
 func Reasons() []Reason {
-	return []Reason{Duplicate, Contaminated, GroupCap, Prefilter, Unscored, NoMatch, MinScore, MaxRows, MaxCount, Budget, BelowCut}
+	return []Reason{Taken, Duplicate, Contaminated, GroupCap, Prefilter, Unscored, NoMatch, MinScore, MaxRows, MaxCount, Budget, BelowCut}
 }
 
 // ParseReason reads a reason as String writes it.
