@@ -56,9 +56,9 @@ func required(missing ...string) error {
 	}
 }
 
-// unset is "--name" when the string flag name was left empty, else "".
+// unset is "--name" when the string flag name, or string array, was left empty, else "".
 func unset(fs *pflag.FlagSet, name string) string {
-	if v, _ := fs.GetString(name); v == "" {
+	if v := fs.Lookup(name).Value.String(); v == "" || v == "[]" {
 		return "--" + name
 	}
 	return ""

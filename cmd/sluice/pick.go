@@ -13,7 +13,6 @@ import (
 
 	"sluice/budget"
 	"sluice/index/analysis"
-	"sluice/index/jsonl"
 	"sluice/score"
 	"sluice/select/run"
 )
@@ -58,7 +57,7 @@ func pick(ctx context.Context, e *env, opt run.Options, quiet bool) (*run.Result
 		defer debug.SetMemoryLimit(debug.SetMemoryLimit(opt.MaxMem))
 	}
 	res, err := run.Pick(ctx, opt)
-	if errors.Is(err, run.ErrMemory) {
+	if errors.Is(err, run.ErrMemory) || errors.Is(err, run.ErrSets) {
 		return nil, usagef("%v", err)
 	}
 	if err == nil && !quiet {
@@ -70,7 +69,8 @@ func pick(ctx context.Context, e *env, opt run.Options, quiet bool) (*run.Result
 // addPickInputFlags declares where a pick reads its index and target, and how.
 func addPickInputFlags(fs *pflag.FlagSet) {
 	fs.String("index", "", "index folder made by 'sluice index' (required)")
-	fs.String("target", "", "JSONL file of target-task rows (required)")
+	fs.StringArray("target", nil, "JSONL file of target-task rows (required); repeat it to pick for several target sets at once")
+	fs.String("weights", "", "with several --target, each set's part of the training budget, in their order: 0.7,0.3 (default: equal parts)")
 	fs.String("target-text", "", "JSON paths of the target's text fields (default: the index's; another spec needs --other-target-text)")
 	fs.Bool("other-target-text", false, "accept a --target-text that differs from the index's text spec")
 	fs.Bool("index-settings", false, "take the index's text spec and analyzer whatever --target-text and --analyzer say")
@@ -147,16 +147,17 @@ func pickOptions(fs *pflag.FlagSet, pilots bool) (run.Options, error) {
 // pickInputs resolves where a pick reads and writes, and how it reads the target.
 func pickInputs(fs *pflag.FlagSet, pilots bool) (run.Options, error) {
 	str := func(n string) string { v, _ := fs.GetString(n); return v }
-	opt := run.Options{Index: str("index"), Target: str("target"), TargetText: str("target-text"),
+	opt := run.Options{Index: str("index"), TargetText: str("target-text"),
 		TargetID: str("target-id"), Analyzer: str("analyzer"), Out: str("out"), Compress: str("compress"), KeptFormat: str("kept-format")}
+	if targets, _ := fs.GetStringArray("target"); len(targets) > 0 {
+		opt.Target, opt.ExtraTargets = targets[0], targets[1:]
+	}
 	opt.OtherText, _ = fs.GetBool("other-target-text")
 	if is, _ := fs.GetBool("index-settings"); is {
 		opt.TargetText, opt.Analyzer = "", ""
 	}
-	for _, c := range []struct{ flag, v, ok string }{{"compress", opt.Compress, "none,gzip,zstd"}, {"kept-format", opt.KeptFormat, strings.Join(run.KeptFormats(), ",")}} {
-		if !slices.Contains(strings.Split(c.ok, ","), c.v) {
-			return opt, usagef("--%s %q: give %s", c.flag, c.v, strings.ReplaceAll(c.ok, ",", ", "))
-		}
+	if err := run.CheckFormats(opt.Compress, opt.KeptFormat); err != nil {
+		return opt, usagef("%v", err)
 	}
 	noBudget := ""
 	if !budgetGiven(fs) && !pilots {
@@ -168,16 +169,14 @@ func pickInputs(fs *pflag.FlagSet, pilots bool) (run.Options, error) {
 		}
 		return opt, err
 	}
-	if opt.Analyzer != "" && !slices.Contains(analysis.Names(), opt.Analyzer) {
-		return opt, usagef("--analyzer %q: give %s", opt.Analyzer, strings.Join(analysis.Names(), " or "))
+	var err error
+	if opt.Weights, err = run.ParseWeights(str("weights"), 1+len(opt.ExtraTargets)); err != nil {
+		return opt, usagef("--weights %v", err)
+	} else if pilots && opt.Weights != nil {
+		return opt, usagef("pilots take one --target")
 	}
-	if opt.TargetText != "" {
-		if _, err := jsonl.ParseSpec(opt.TargetText); err != nil {
-			return opt, usagef("--target-text: %v", err)
-		}
-	}
-	if _, err := jsonl.NewExtractor(jsonl.Shapes()[0], opt.TargetID, ""); err != nil {
-		return opt, usagef("--target-id: %v", err)
+	if err := run.CheckTargetFlags(opt); err != nil {
+		return opt, usagef("%v", err)
 	}
 	return opt, nil
 }

@@ -36,17 +36,20 @@ type Row struct {
 	Why    string  `json:"why"`
 	// DuplicateOf, Contaminated and NGram are as in scores.jsonl: the row kept instead of a
 	// duplicate; the evaluation row (file:line) and n-gram a contaminated row shares.
-	DuplicateOf  string       `json:"duplicate_of,omitempty"`
-	Contaminated string       `json:"contaminated,omitempty"`
-	NGram        string       `json:"ngram,omitempty"`
-	Tokens       int64        `json:"tokens"`
-	Ledger       float64      `json:"ledger"`
-	Budget       float64      `json:"budget"`
-	Method       string       `json:"method"`
-	Text         string       `json:"text"`            // the row as it stands in its file, cut at textBytes
-	Parts        []score.Part `json:"parts"`           // lexical methods: the terms that made the score
-	Words        []Word       `json:"words,omitempty"` // n-gram: the tokens that moved the score most
-	Targets      []Target     `json:"targets"`
+	DuplicateOf  string  `json:"duplicate_of,omitempty"`
+	Contaminated string  `json:"contaminated,omitempty"`
+	NGram        string  `json:"ngram,omitempty"`
+	Tokens       int64   `json:"tokens"`
+	Ledger       float64 `json:"ledger"`
+	Budget       float64 `json:"budget"`
+	Method       string  `json:"method"`
+	// Set is, in a run for several target sets, the set whose score, rank and fate these are.
+	Set       string       `json:"set,omitempty"`
+	SetWeight float64      `json:"set_weight,omitempty"`
+	Text      string       `json:"text"`            // the row as it stands in its file, cut at textBytes
+	Parts     []score.Part `json:"parts"`           // lexical methods: the terms that made the score
+	Words     []Word       `json:"words,omitempty"` // n-gram: the tokens that moved the score most
+	Targets   []Target     `json:"targets"`
 }
 
 // MarshalJSON writes the row; a row barred before its method scored it has "score": null, as in
@@ -116,11 +119,19 @@ type Explainer struct {
 	ix      *index.Index
 	targets []index.Target
 	qs      []score.Query
+	sets    []explainSet // a run for several target sets: each set's rows and queries
 	p       score.Params
 	nm      *run.NgramModels // for an n-gram run
 	scores  []float64        // for a run whose scores come from files, recomputed
 	best    []int32
 	ctx     context.Context
+}
+
+// explainSet is one target set of a run for several.
+type explainSet struct {
+	ref     run.SetRef
+	targets []index.Target
+	qs      []score.Query
 }
 
 // NewExplainer opens the run folder dir and its inputs (at the manifest's paths, or where in says),
@@ -188,12 +199,25 @@ func (x *Explainer) readTargets() error {
 		return err
 	}
 	st := x.m.Settings
-	if x.targets, _, err = index.ReadTargets(x.m.Target.Path, st.TargetText, st.TargetID, an, x.ix.Meta().MaxRowBytes); err != nil {
+	read := func(path string) ([]index.Target, []score.Query, error) {
+		ts, _, err := index.ReadTargets(path, st.TargetText, st.TargetID, an, x.ix.Meta().MaxRowBytes)
+		qs := make([]score.Query, len(ts))
+		for i, t := range ts {
+			qs[i] = score.Query{ID: t.ID, Terms: t.Terms}
+		}
+		return ts, qs, err
+	}
+	if len(x.m.Sets) == 0 {
+		x.targets, x.qs, err = read(x.m.Target.Path)
 		return err
 	}
-	x.qs = make([]score.Query, len(x.targets))
-	for i, t := range x.targets {
-		x.qs[i] = score.Query{ID: t.ID, Terms: t.Terms}
+	for _, ref := range x.m.Sets {
+		ts, qs, err := read(ref.Path)
+		if err != nil {
+			return err
+		}
+		x.sets = append(x.sets, explainSet{ref: ref, targets: ts, qs: qs})
+		x.targets = append(x.targets, ts...)
 	}
 	return nil
 }
@@ -207,7 +231,7 @@ func (x *Explainer) Manifest() *run.Manifest { return x.m }
 // Index is the run's index, open.
 func (x *Explainer) Index() *index.Index { return x.ix }
 
-// Targets are the run's target rows, analysed.
+// Targets are the run's target rows, analysed; every set's, in order, for a run for several.
 func (x *Explainer) Targets() []index.Target { return x.targets }
 
 // Explain explains the row of scores.jsonl s, showing the top best-matching target rows. The score
@@ -220,11 +244,20 @@ func (x *Explainer) Explain(s run.Score, top int) (Row, error) {
 		Rows: x.ix.NumRows(), Kept: s.Kept, Reason: s.Reason, Tokens: s.Tokens, Ledger: s.Ledger,
 		Budget: st.Budget, Method: st.MethodName(), Text: x.rowText(s.Row),
 		DuplicateOf: s.DuplicateOf, Contaminated: s.Contaminated, NGram: s.NGram}
+	targets, qs := x.targets, x.qs
+	if len(x.sets) > 0 {
+		i := slices.IndexFunc(x.sets, func(e explainSet) bool { return e.ref.Name == s.Set })
+		if i < 0 {
+			return Row{}, fmt.Errorf("explain %s: row %q: scores.jsonl names the target set %q, which the manifest does not", x.dir, s.ID, s.Set)
+		}
+		targets, qs, r.Set, r.SetWeight = x.sets[i].targets, x.sets[i].qs, s.Set, x.sets[i].ref.Weight
+		st.MinScore = x.sets[i].ref.MinScore
+	}
 	var got float64
 	switch {
 	case math.IsNaN(s.Score):
 		// Barred before the method scored it: nothing to recompute.
-		r.Why = fate(r, st, x.stop)
+		r.Why = x.fate(r, st)
 		return r, nil
 	case x.scores != nil:
 		got = x.scores[s.Row]
@@ -240,20 +273,43 @@ func (x *Explainer) Explain(s run.Score, top int) (Row, error) {
 		got = x.nm.Score(terms)
 		r.Words = topWords(x.nm.Explain(terms))
 	default:
-		ex, err := score.Explain(x.ix, x.qs, x.p, s.Row, top)
+		ex, err := score.Explain(x.ix, qs, x.p, s.Row, top)
 		if err != nil {
 			return Row{}, err
 		}
 		got, r.Parts = ex.Score, ex.Parts
 		for _, tm := range ex.Targets {
-			r.Targets = append(r.Targets, Target{ID: x.targets[tm.Index].ID, Score: tm.Score, Shared: tm.Shared})
+			r.Targets = append(r.Targets, Target{ID: targets[tm.Index].ID, Score: tm.Score, Shared: tm.Shared})
 		}
 	}
 	if math.Float64bits(got) != math.Float64bits(s.Score) {
 		return Row{}, fmt.Errorf("explain %s: row %q: recomputed score %v disagrees with scores.jsonl's %v", x.dir, s.ID, got, s.Score)
 	}
-	r.Why = fate(r, st, x.stop)
+	r.Why = x.fate(r, st)
 	return r, nil
+}
+
+// fate says in words why a row was or was not kept, and for a run for several target sets, for
+// which set.
+func (x *Explainer) fate(r Row, st run.Settings) string {
+	if r.Set == "" {
+		return fate(r, st, x.stop)
+	}
+	ref, _ := x.m.SetNamed(r.Set)
+	switch r.Reason {
+	case "":
+		return fmt.Sprintf("kept for target set %s (weight %.3g): ranked %d of %d against that set, and its training cost of %s FLOPs fitted in what was left of the set's share; the ledger stood at %s FLOPs (%.1f%% of the budget) after it",
+			r.Set, r.SetWeight, r.Rank, r.Rows, budget.FormatFLOPs(budget.TrainFLOPs(st.TrainParams, float64(r.Tokens), st.Epochs)), budget.FormatFLOPs(r.Ledger), 100*r.Ledger/st.Budget)
+	case "budget":
+		return fmt.Sprintf("not kept for target set %s, against which it ranked %d of %d: its training cost of %s FLOPs did not fit in what was left of the set's share (%g tokens, %g given by sets that ran out)",
+			r.Set, r.Rank, r.Rows, budget.FormatFLOPs(budget.TrainFLOPs(st.TrainParams, float64(r.Tokens), st.Epochs)), ref.Share, ref.Given)
+	case "below-cut":
+		return fmt.Sprintf("not kept for target set %s, against which it ranked %d of %d, after the set's walk had stopped (%s)", r.Set, r.Rank, r.Rows, ref.Stop)
+	case "duplicate":
+		return fmt.Sprintf("duplicate: it is an exact or near duplicate of %s, which stands for their cluster (the row kept for some set, or else the one set %s scores higher); ranked %d of %d against set %s",
+			r.DuplicateOf, r.Set, r.Rank, r.Rows, r.Set)
+	}
+	return fmt.Sprintf("%s (its best rank, %d of %d, was against target set %s)", fate(r, st, x.stop), r.Rank, r.Rows, r.Set)
 }
 
 // topWords keeps the tokens whose parts moved the score most, largest magnitude first (ties in
@@ -355,6 +411,9 @@ func WriteRows(w io.Writer, rows []Row, asJSON bool) error {
 // terms or tokens that made its score, largest first, and the target rows it matched best.
 func (r Row) WriteText(w io.Writer) {
 	fmt.Fprintf(w, "row %s (%s)\n", r.ID, r.Source)
+	if r.Set != "" {
+		fmt.Fprintf(w, "  set     %s (weight %.3g): the score, rank and target rows below are against this set alone\n", r.Set, r.SetWeight)
+	}
 	fmt.Fprintf(w, "  score   %v (%s), rank %d of %d\n", r.Score, r.Method, r.Rank, r.Rows)
 	fmt.Fprintf(w, "  fate    %s\n", r.Why)
 	fmt.Fprintf(w, "  ledger  %s of %s FLOPs after it; its %d tokens\n", budget.FormatFLOPs(r.Ledger), budget.FormatFLOPs(r.Budget), r.Tokens)

@@ -174,20 +174,31 @@ func (p *picked) indexClusters(targetKeys map[dedup.Key]bool) (*dedup.Clusters, 
 	return c, inPool
 }
 
-// targetKeys are the exact-duplicate keys of the target rows, so that target rows that also sit in
-// the pool can be named.
+// targetKeys are the exact-duplicate keys of the target rows, of every set, so that target rows
+// that also sit in the pool can be named.
 func (p *picked) targetKeys() map[dedup.Key]bool {
-	texts, err := targetTexts(p.target, p.spec)
-	if err != nil {
-		return nil
-	}
 	keys := map[dedup.Key]bool{}
+	if p.sets == nil {
+		p.addTargetKeys(keys, p.target, p.targets)
+	}
+	for _, s := range p.sets {
+		p.addTargetKeys(keys, s.ref.Path, s.targets)
+	}
+	return keys
+}
+
+// addTargetKeys adds the keys of the target rows read from file to keys; none if it cannot be read
+// again.
+func (p *picked) addTargetKeys(keys map[dedup.Key]bool, file string, targets []index.Target) {
+	texts, err := targetTexts(file, p.spec)
+	if err != nil {
+		return
+	}
 	var h dedup.Hasher
-	for _, t := range p.targets {
+	for _, t := range targets {
 		h.Write([]byte(texts[t.Line]))
 		keys[h.Sum()] = true
 	}
-	return keys
 }
 
 // jsonText is the text of an evaluation row: the string values of a JSON object, at any depth,

@@ -38,6 +38,7 @@ type Manifest struct {
 	Index    FileRef           `json:"index"`            // the index folder and the SHA-256 of its meta.json
 	Target   FileRef           `json:"target"`           // the target file and its SHA-256
 	Inputs   []FileRef         `json:"inputs,omitempty"` // the method's other inputs: scores, vectors
+	Sets     []SetRef          `json:"sets,omitempty"`   // with several target sets, each, Target the first
 	Files    map[string]string `json:"files"`            // SHA-256 of every other file of the run
 }
 
@@ -159,7 +160,10 @@ func sha256File(path string) (string, error) { return index.FileSHA256(path) }
 // Inputs says where a run's index and target are now, when they are no longer where its manifest
 // says (the run was copied to another machine, or made from another folder); an empty field keeps
 // the manifest's path. The hashes in the manifest are checked all the same.
-type Inputs struct{ Index, Target string }
+type Inputs struct {
+	Index, Target string
+	MoreTargets   []string // with several target sets, the second and later, in their order
+}
 
 // Apply points m at the inputs' new places.
 func (in Inputs) Apply(m *Manifest) {
@@ -168,7 +172,27 @@ func (in Inputs) Apply(m *Manifest) {
 	}
 	if in.Target != "" {
 		m.Target.Path = in.Target
+		if len(m.Sets) > 0 {
+			m.Sets[0].Path = in.Target
+		}
 	}
+	for i, t := range in.MoreTargets {
+		if i+1 < len(m.Sets) && t != "" {
+			m.Sets[i+1].Path = t
+		}
+	}
+}
+
+// setFiles are the target files of a run with several sets after the first (which is its Target),
+// as inputs to check.
+func (m *Manifest) setFiles() []FileRef {
+	var refs []FileRef
+	for i, s := range m.Sets {
+		if i > 0 {
+			refs = append(refs, FileRef{Path: s.Path, SHA256: s.SHA256})
+		}
+	}
+	return refs
 }
 
 // CheckInputs reports whether the index and target at the manifest's paths are the ones the run
@@ -189,7 +213,7 @@ func CheckInputs(what, dir string, m *Manifest) error {
 	if got != m.Target.SHA256 {
 		return fmt.Errorf("%s %s: target %s has changed since the run (run 'sluice verify %s')", what, dir, m.Target.Path, dir)
 	}
-	for _, in := range m.Inputs {
+	for _, in := range append(m.setFiles(), m.Inputs...) {
 		if got, err := sha256File(in.Path); err != nil || got != in.SHA256 {
 			return fmt.Errorf("%s %s: %s is not the file the run read (run 'sluice verify %s')", what, dir, in.Path, dir)
 		}
@@ -225,7 +249,7 @@ func Verify(dir string, m *Manifest) []string {
 	} else if got != m.Target.SHA256 {
 		bad = append(bad, fmt.Sprintf("target %s: changed since the run", m.Target.Path))
 	}
-	for _, in := range m.Inputs {
+	for _, in := range append(m.setFiles(), m.Inputs...) {
 		if got, err := sha256File(in.Path); err != nil {
 			bad = append(bad, fmt.Sprintf("input %s: %v", in.Path, err))
 		} else if got != in.SHA256 {

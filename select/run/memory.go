@@ -24,6 +24,10 @@ const (
 	// 150 to 300 a row of 13 terms.
 	TargetRowBytes  = 200
 	TargetTermBytes = 32
+	// SetRowBytes is a pool row's share for each target set of a pick for several: the set's score (8), best target row (4), bar (1), decision (16) and place in its
+	// ranking (16), and the row's set, keeper and cluster number (7) spread over two sets or more,
+	// rounded up. Not measured.
+	SetRowBytes = 52
 	// fixedBytes covers what grows with nothing: the writers' buffers (1 MiB each), the readers',
 	// the lexicon's sample and the runtime.
 	fixedBytes = 64 << 20
@@ -64,6 +68,9 @@ func (p *picked) memoryNeed() (int64, []string) {
 		// A span's postings take the bound and a quarter more when rows are longer than average.
 		{fmt.Sprintf("the postings of a span of rows (--mem %s) and a quarter", formatBytes(span)), span + span/4},
 		{"buffers", fixedBytes},
+	}
+	if k := int64(len(p.sets)); k > 1 {
+		parts = append(parts, memPart{fmt.Sprintf("%d target sets, %d B a pool row each", k, SetRowBytes), k * n * SetRowBytes})
 	}
 	if p.indexDups() != nil {
 		parts = append(parts, memPart{fmt.Sprintf("the index's clusters of duplicates, %d B a pool row", indexDupRowBytes), n * indexDupRowBytes})

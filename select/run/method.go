@@ -9,6 +9,7 @@ import (
 	"strings"
 
 	"sluice/budget"
+	"sluice/index"
 	"sluice/index/tokens"
 	"sluice/score"
 	selection "sluice/select"
@@ -65,20 +66,9 @@ func (o *Options) method() string {
 // score scores every row by the pick's method, after the prefilter if there is one, and charges
 // the work to the ledger it starts.
 func (p *picked) score(ctx context.Context) error {
-	opt, m := p.opt, p.ix.Meta()
-	p.led = &budget.Ledger{Budget: opt.Budget}
-	p.led.AddSelection("analyse pool rows (index build)", "term", float64(m.TotalLen), budget.FLOPsPerToken,
-		fmt.Sprintf("%d FLOPs x %d pool terms", budget.FLOPsPerToken, m.TotalLen))
-	if m.Tokenizer != "" {
-		p.led.AddSelection("count pool tokens with the tokenizer (index build)", "byte", float64(m.TextBytes), tokens.FLOPsPerByte,
-			fmt.Sprintf("%d FLOPs x %d text bytes", tokens.FLOPsPerByte, m.TextBytes))
-	}
-	var targetTerms int64
-	for _, t := range p.targets {
-		targetTerms += int64(len(t.Terms))
-	}
-	p.led.AddSelection("analyse target rows", "term", float64(targetTerms), budget.FLOPsPerToken,
-		fmt.Sprintf("%d FLOPs x %d target terms", budget.FLOPsPerToken, targetTerms))
+	opt := p.opt
+	p.startLedger()
+	p.chargeTargets(p.targets, "analyse target rows")
 	method := opt.method()
 	var rows []int // the rows the method scores; nil for all
 	switch {
@@ -125,6 +115,29 @@ func (p *picked) score(ctx context.Context) error {
 		}
 	}
 	return checkFinite(p.scores, p.barred)
+}
+
+// startLedger starts the pick's ledger with the index build's work, which every pick of the index
+// is charged in full.
+func (p *picked) startLedger() {
+	m := p.ix.Meta()
+	p.led = &budget.Ledger{Budget: p.opt.Budget}
+	p.led.AddSelection("analyse pool rows (index build)", "term", float64(m.TotalLen), budget.FLOPsPerToken,
+		fmt.Sprintf("%d FLOPs x %d pool terms", budget.FLOPsPerToken, m.TotalLen))
+	if m.Tokenizer != "" {
+		p.led.AddSelection("count pool tokens with the tokenizer (index build)", "byte", float64(m.TextBytes), tokens.FLOPsPerByte,
+			fmt.Sprintf("%d FLOPs x %d text bytes", tokens.FLOPsPerByte, m.TextBytes))
+	}
+}
+
+// chargeTargets charges the analysis of target rows to the ledger under the line what.
+func (p *picked) chargeTargets(targets []index.Target, what string) {
+	var terms int64
+	for _, t := range targets {
+		terms += int64(len(t.Terms))
+	}
+	p.led.AddSelection(what, "term", float64(terms), budget.FLOPsPerToken,
+		fmt.Sprintf("%d FLOPs x %d target terms", budget.FLOPsPerToken, terms))
 }
 
 // lexical scores every row by a lexical method and charges the postings it visits; stage names

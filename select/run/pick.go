@@ -15,6 +15,7 @@ import (
 
 	"sluice/budget"
 	"sluice/index"
+	"sluice/index/analysis"
 	"sluice/index/atomicdir"
 	"sluice/index/jsonl"
 	"sluice/score"
@@ -24,8 +25,14 @@ import (
 // Options is one pick with every choice made; the zero value of an optional field takes the
 // index's setting.
 type Options struct {
-	Index      string // index folder
-	Target     string // JSONL file of target-task rows
+	Index  string // index folder
+	Target string // JSONL file of target-task rows
+	// ExtraTargets are further target sets, for a pick that serves several tasks at once: each set
+	// is scored alone and the training budget is split between them by Weights (pickSets).
+	ExtraTargets []string
+	// Weights are the sets' parts of the training budget, Target's first, summing to 1 (see
+	// ParseWeights); nil gives every set an equal part. Only with ExtraTargets.
+	Weights    []float64
 	TargetText string // text spec of the target rows; "" reads them as the index read the pool
 	TargetID   string // id field of the target rows; "" takes the index's
 	Analyzer   string // "" takes the index's; else the index must have been built with it
@@ -80,6 +87,7 @@ type Result struct {
 	Notes           []string       // what the guards found, as the ledger notes it
 	Index, Out      string         // the index read and the run folder written
 	Files           []string       // the files written into the run folder, manifest last
+	Sets            []SetRef       // with several target sets: each set's part, in the order given
 }
 
 // SourceTally is what a pick kept of one pool file.
@@ -114,10 +122,12 @@ type picked struct {
 	survivors int                // rows that passed the prefilter
 	dec       []selection.Decision
 	out       Result
-	guards    *guarded    // what the guards found; nil when none ran
-	dupOf     map[int]int // a dropped duplicate's row -> the row kept instead
-	tmp       string      // the run's working folder, once made
-	target    string      // where the target is read from: opt.Target, or its copy in tmp
+	guards    *guarded     // what the guards found; nil when none ran
+	dupOf     map[int]int  // a dropped duplicate's row -> the row kept instead
+	tmp       string       // the run's working folder, once made
+	target    string       // where the target is read from: opt.Target, or its copy in tmp
+	sets      []*targetSet // with several target sets, each; nil for one
+	rowSet    []uint8      // with several target sets, the set each row's line of scores.jsonl shows
 }
 
 // TargetCopy is the name a target that could be read only once (stdin, a pipe) is kept under in
@@ -162,6 +172,9 @@ func Pick(ctx context.Context, opt Options) (*Result, error) {
 	if opt.KeptFormat != "" && !slices.Contains(KeptFormats(), opt.KeptFormat) {
 		return nil, fmt.Errorf("kept format %q: give %s", opt.KeptFormat, strings.Join(KeptFormats(), ", "))
 	}
+	if err := CheckSets(opt); err != nil {
+		return nil, err
+	}
 	if err := CheckOut(opt); err != nil {
 		return nil, err
 	}
@@ -176,25 +189,11 @@ func Pick(ctx context.Context, opt Options) (*Result, error) {
 			atomicdir.Discard(p.tmp) // published by now if all went well, so gone already
 		}
 	}()
-	if err := p.keepPipedTarget(); err != nil {
-		return nil, err
+	pick := p.one
+	if len(opt.ExtraTargets) > 0 {
+		pick = p.several
 	}
-	if err := p.readTargets(); err != nil {
-		return nil, err
-	}
-	if err := p.checkMemory(); err != nil {
-		return nil, err
-	}
-	if err := p.score(ctx); err != nil {
-		return nil, err
-	}
-	if err := p.guard(ctx); err != nil {
-		return nil, err
-	}
-	if err := p.applyGuards(); err != nil {
-		return nil, err
-	}
-	if err := p.keep(); err != nil {
+	if err := pick(ctx); err != nil {
 		return nil, err
 	}
 	if err := p.write(); err != nil {
@@ -203,9 +202,32 @@ func Pick(ctx context.Context, opt Options) (*Result, error) {
 	return &p.out, nil
 }
 
+// one picks for one target set.
+func (p *picked) one(ctx context.Context) error {
+	if err := p.keepPipedTarget(); err != nil {
+		return err
+	}
+	if err := p.readTargets(p.opt.Target); err != nil {
+		return err
+	}
+	if err := p.checkMemory(); err != nil {
+		return err
+	}
+	if err := p.score(ctx); err != nil {
+		return err
+	}
+	if err := p.guard(ctx); err != nil {
+		return err
+	}
+	if err := p.applyGuards(); err != nil {
+		return err
+	}
+	return p.keep()
+}
+
 // readTargets resolves the target's text spec and id field against the index's and reads the
-// target rows with the index's analyzer.
-func (p *picked) readTargets() error {
+// target rows from p.target with the index's analyzer; errors name the target as shown.
+func (p *picked) readTargets(shown string) error {
 	opt, m := p.opt, p.ix.Meta()
 	if opt.Analyzer != "" && opt.Analyzer != m.Analyzer {
 		return fmt.Errorf("index %s was built with the %s analyzer, not %s as --analyzer asks: rebuild it with --analyzer %s, or drop --analyzer to score with %s",
@@ -234,7 +256,7 @@ func (p *picked) readTargets() error {
 	}
 	switch {
 	case len(p.targets) == 0 && len(p.trej) == 0:
-		return fmt.Errorf("read target %s: the target set is empty: no rows to pick for; nothing was written", opt.Target)
+		return fmt.Errorf("read target %s: the target set is empty: no rows to pick for; nothing was written", shown)
 	case len(p.targets) == 0:
 		hint := ""
 		if strings.HasPrefix(p.trej[0].Reason, "no text") {
@@ -242,7 +264,24 @@ func (p *picked) readTargets() error {
 			hint = fmt.Sprintf(" (the target was read with the text fields %s; if its rows name them otherwise, give --target-text FIELDS with --other-target-text)", p.spec)
 		}
 		return fmt.Errorf("read target %s: no usable target rows: all %d quarantined, the first at line %d: %s%s; nothing was written",
-			opt.Target, len(p.trej), p.trej[0].Line, p.trej[0].Reason, hint)
+			shown, len(p.trej), p.trej[0].Line, p.trej[0].Reason, hint)
+	}
+	return nil
+}
+
+// CheckTargetFlags refuses, in the words of the flags that give them, an analyzer sluice does not
+// have, a target text spec that does not parse and a target id field that is no path.
+func CheckTargetFlags(opt Options) error {
+	if opt.Analyzer != "" && !slices.Contains(analysis.Names(), opt.Analyzer) {
+		return fmt.Errorf("--analyzer %q: give %s", opt.Analyzer, strings.Join(analysis.Names(), " or "))
+	}
+	if opt.TargetText != "" {
+		if _, err := jsonl.ParseSpec(opt.TargetText); err != nil {
+			return fmt.Errorf("--target-text: %w", err)
+		}
+	}
+	if _, err := jsonl.NewExtractor(jsonl.Shapes()[0], opt.TargetID, ""); err != nil {
+		return fmt.Errorf("--target-id: %w", err)
 	}
 	return nil
 }
@@ -264,24 +303,13 @@ func rowTokens(ix *index.Index, r int) int64 {
 // keep prices every row's training, keeps rows from the top under the budget and completes the
 // ledger.
 func (p *picked) keep() error {
-	opt, m, led := p.opt, p.ix.Meta(), p.led
-	if led.Selection() > opt.Budget {
-		// Nothing can be kept, and a run folder would show a ledger over its budget: say so instead.
-		return fmt.Errorf("the selection cost alone, %s FLOPs (%s), exceeds the budget of %s FLOPs: raise the budget; nothing was written",
-			budget.FormatFLOPs(led.Selection()), strings.Join(selectionWords(led), " + "), budget.FormatFLOPs(opt.Budget))
-	}
-	// Costs are tokens at one price per token over every epoch, so that the fit test and the
-	// ledger's training line are the same product and the ledger never passes its budget by a
-	// rounding.
-	n := p.ix.NumRows()
-	unit := budget.TrainFLOPs(opt.TrainParams, 1, opt.Epochs)
-	costs := make([]float64, n)
-	for r := range costs {
-		costs[r] = float64(p.tokens(r))
+	opt, led := p.opt, p.led
+	unit, costs, err := p.costs()
+	if err != nil {
+		return err
 	}
 	so := opt.Select
 	so.Budget, so.Fixed, so.Barred, so.Unit = opt.Budget, led.Selection(), p.barred, unit
-	var err error
 	if so.Group, so.Caps, err = p.groupCaps(unit, so.Fixed); err != nil {
 		return err
 	}
@@ -301,13 +329,45 @@ func (p *picked) keep() error {
 		return err
 	}
 	p.dec = dec
+	p.tally()
+	led.Stop = stopText(sum, so)
+	if sum.Stop == selection.StopMinScore && opt.MinScore.Kind != "" {
+		led.Stop += " (" + opt.MinScore.String() + ")"
+	}
+	p.finish(unit, sum)
+	return nil
+}
+
+// costs are every row's training cost for the selection, in tokens at unit FLOPs each; they
+// refuse a selection that alone passes the budget.
+func (p *picked) costs() (float64, []float64, error) {
+	opt, led := p.opt, p.led
+	if led.Selection() > opt.Budget {
+		// Nothing can be kept, and a run folder would show a ledger over its budget: say so instead.
+		return 0, nil, fmt.Errorf("the selection cost alone, %s FLOPs (%s), exceeds the budget of %s FLOPs: raise the budget; nothing was written",
+			budget.FormatFLOPs(led.Selection()), strings.Join(selectionWords(led), " + "), budget.FormatFLOPs(opt.Budget))
+	}
+	// Costs are tokens at one price per token over every epoch, so that the fit test and the
+	// ledger's training line are the same product and the ledger never passes its budget by a
+	// rounding.
+	unit := budget.TrainFLOPs(opt.TrainParams, 1, opt.Epochs)
+	costs := make([]float64, p.ix.NumRows())
+	for r := range costs {
+		costs[r] = float64(p.tokens(r))
+	}
+	return unit, costs, nil
+}
+
+// tally counts what p.dec kept and dropped, in all and by pool file.
+func (p *picked) tally() {
+	m := p.ix.Meta()
 	r := &p.out
 	r.Sources = make([]SourceTally, len(m.Sources))
 	for i, src := range m.Sources {
 		r.Sources[i].File = src.Path
 	}
 	r.Dropped = map[string]int{}
-	for row, d := range dec {
+	for row, d := range p.dec {
 		if !d.Kept {
 			r.Dropped[d.Reason.String()]++
 		}
@@ -321,12 +381,13 @@ func (p *picked) keep() error {
 			st.KeptTokens += p.tokens(row)
 		}
 	}
+}
+
+// finish completes the ledger, with the training of the kept rows and the notes, and the result.
+func (p *picked) finish(unit float64, sum selection.Summary) {
+	opt, m, led, r, n := p.opt, p.ix.Meta(), p.led, &p.out, p.ix.NumRows()
 	led.AddTraining(fmt.Sprintf("train %s-parameter model on kept rows", budget.FormatCount(opt.TrainParams)), "token", float64(r.KeptTokens), unit,
 		fmt.Sprintf("6 x %g parameters x %d tokens x %g epochs", opt.TrainParams, r.KeptTokens, opt.Epochs))
-	led.Stop = stopText(sum, so)
-	if sum.Stop == selection.StopMinScore && opt.MinScore.Kind != "" {
-		led.Stop += " (" + opt.MinScore.String() + ")"
-	}
 	tokSrc := "UTF-8 bytes of the text fields / 4, rounded up (rule of thumb for English, common practice)"
 	switch {
 	case m.TokensField != "":
@@ -342,6 +403,7 @@ func (p *picked) keep() error {
 	)
 	r.Notes = p.guardNotes()
 	led.Notes = append(led.Notes, r.Notes...)
+	led.Notes = append(led.Notes, p.setNotes(unit)...)
 	if opt.Prefilter.active() {
 		led.Notes = append(led.Notes, fmt.Sprintf("cascade: %d of %d rows passed the prefilter %s; the others have reason prefilter and no score", p.survivors, n, opt.Prefilter))
 	}
@@ -352,7 +414,6 @@ func (p *picked) keep() error {
 	r.Index, r.Out = opt.Index, opt.Out
 	r.Meta, r.Rows, r.Targets, r.TargetsRejected = m, n, len(p.targets), len(p.trej)
 	r.Ledger, r.Summary = led, sum
-	return nil
 }
 
 // settings are the pick's settings as the manifest records them.
@@ -447,7 +508,8 @@ func Folder() atomicdir.Kind {
 // nothing, an empty folder or an earlier run folder holding nothing else, and to replace or hold
 // any input of the pick. A run folder may not be made inside an index or another run either.
 func CheckOut(opt Options) error {
-	return atomicdir.CheckOut(opt.Out, Folder(), append([]string{opt.Index, opt.Target}, opt.inputs()...), index.Folder(), Folder())
+	in := append([]string{opt.Index, opt.Target}, opt.ExtraTargets...)
+	return atomicdir.CheckOut(opt.Out, Folder(), append(in, opt.inputs()...), index.Folder(), Folder())
 }
 
 // PoolTokens counts the tokens of an index's rows as a pick charges them for training.

@@ -50,7 +50,8 @@ type Score struct {
 	Kept   bool    `json:"kept"`
 	Reason string  `json:"reason,omitempty"`
 	Tokens int64   `json:"tokens"`
-	Target *string `json:"target"` // the target row that contributed most; nil when none or not asked
+	Target *string `json:"target"`        // the target row that contributed most; nil when none or not asked
+	Set    string  `json:"set,omitempty"` // with several target sets, the set whose score, rank and target these are
 	Ledger float64 `json:"ledger"`
 	// DuplicateOf is, for a row dropped as a duplicate, the id of the row of its cluster kept
 	// instead; Contaminated and NGram are, for a row that shares an n-gram with an evaluation

@@ -130,7 +130,7 @@ func TestMaxMem(t *testing.T) {
 		opt := demoOptions(idx, target, "")
 		opt.Guards.KeepDuplicates, opt.Guards.NearDup = keep, nearDup
 		p := &picked{opt: &opt, ix: ix, target: target}
-		if err := p.readTargets(); err != nil {
+		if err := p.readTargets(p.opt.Target); err != nil {
 			t.Fatal(err)
 		}
 		n, _ := p.memoryNeed()

@@ -29,7 +29,11 @@ func (res *Result) WriteSummary(w io.Writer, took time.Duration) error {
 	fmt.Fprintf(&sb, "  selection  %s FLOPs (%s)\n", budget.FormatFLOPs(l.Selection()), pct(l.Selection()))
 	fmt.Fprintf(&sb, "  training   %s FLOPs (%s)\n", budget.FormatFLOPs(l.Training()), pct(l.Training()))
 	fmt.Fprintf(&sb, "  left       %s FLOPs (%s)\n", budget.FormatFLOPs(l.Left()), pct(l.Left()))
-	fmt.Fprintf(&sb, "  stopped    %s\n", l.Stop)
+	if len(res.Sets) == 0 {
+		fmt.Fprintf(&sb, "  stopped    %s\n", l.Stop)
+	} else {
+		printSets(&sb, res)
+	}
 	if res.Summary.Stop == selection.StopNoMatch && res.Summary.StopRank == 1 {
 		fmt.Fprintf(&sb, "  warning    no pool row shares a term with the target rows: check --target-text and that the target is the task you meant\n")
 	} else if res.Summary.Stop == selection.StopNoMatch || res.Summary.Stop == selection.StopExhausted {
@@ -60,6 +64,22 @@ func (res *Result) WriteSummary(w io.Writer, took time.Duration) error {
 	fmt.Fprintf(&sb, "  wrote      %s/{%s}\n", res.Out, strings.Join(res.Files, ","))
 	_, err := io.WriteString(w, sb.String())
 	return err
+}
+
+// printSets says what each target set of a pick for several kept, and why it stopped.
+func printSets(sb *strings.Builder, res *Result) {
+	l := res.Ledger
+	training := l.Budget - l.Selection()
+	fmt.Fprintf(sb, "  sets       %d, walked in the order given within their shares of the training budget; a set whose ranking runs out gives the rest to the others\n", len(res.Sets))
+	for _, s := range res.Sets {
+		pct := "-"
+		if training > 0 {
+			pct = fmt.Sprintf("%.1f%%", 100*s.TrainingFLOPs/training)
+		}
+		fmt.Fprintf(sb, "             %s (weight %.3g): %d rows, %d tokens, %s of the training budget (share %g tokens, given %g, given back %g)\n",
+			s.Name, s.Weight, s.KeptRows, s.KeptTokens, pct, s.Share, s.Given, s.Returned)
+		fmt.Fprintf(sb, "             %s stopped: %s\n", strings.Repeat(" ", len(s.Name)), s.Stop)
+	}
 }
 
 // summarySources is how many pool files the pick summary names; the rest share one line.

@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"io"
 	"math"
+	"slices"
 	"strconv"
 	"strings"
 
@@ -21,6 +22,17 @@ const (
 
 // KeptFormats lists the kept formats, the default first.
 func KeptFormats() []string { return []string{KeptRows, KeptText, KeptChat} }
+
+// CheckFormats refuses a compression other than none, gzip or zstd, and a kept format not among
+// KeptFormats, in the words of the flags that give them.
+func CheckFormats(compress, kept string) error {
+	for _, c := range []struct{ flag, v, ok string }{{"compress", compress, "none,gzip,zstd"}, {"kept-format", kept, strings.Join(KeptFormats(), ",")}} {
+		if !slices.Contains(strings.Split(c.ok, ","), c.v) {
+			return fmt.Errorf("--%s %q: give %s", c.flag, c.v, strings.ReplaceAll(c.ok, ",", ", "))
+		}
+	}
+	return nil
+}
 
 // uniform rewrites kept rows, as CopyRows writes them, in one schema: the text of the first
 // alternative of the index's text spec the row has in full, its fields joined by a blank line for

@@ -103,6 +103,7 @@ func (p *picked) manifest() *Manifest {
 		m.Inputs = append(m.Inputs, FileRef{Path: in, SHA256: sum})
 	}
 	m.Target.SHA256, _ = sha256File(p.target)
+	m.Sets = p.out.Sets
 	if p.target != opt.Target {
 		// Read once from a pipe: the run keeps what was read, and names its own copy.
 		m.Target.Path = filepath.Join(opt.Out, TargetCopy)
@@ -166,6 +167,10 @@ func (p *picked) writeScores(w *bufio.Writer) error {
 	for i, t := range p.targets {
 		targets[i] = AppendJSONString(nil, t.ID)
 	}
+	var sets [][]byte
+	for _, s := range p.sets {
+		sets = append(sets, AppendJSONString(nil, s.ref.Name))
+	}
 	reasons := map[selection.Reason][]byte{}
 	var plain [256]bool // the bytes that stand in a JSON string as they are
 	for c := range plain {
@@ -204,6 +209,10 @@ func (p *picked) writeScores(w *bufio.Writer) error {
 			b = append(b, targets[t]...)
 		} else {
 			b = append(b, "null"...)
+		}
+		if p.rowSet != nil {
+			b = append(b, `,"set":`...)
+			b = append(b, sets[p.rowSet[r]]...)
 		}
 		b = append(b, `,"ledger":`...)
 		b = strconv.AppendFloat(b, d.LedgerAfter, 'g', -1, 64)
