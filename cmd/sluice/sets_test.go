@@ -1,12 +1,14 @@
 package main
 
 import (
+	"fmt"
 	"os"
 	"path/filepath"
 	"strings"
 	"testing"
 
 	"sluice/cmd/sluice/demodata"
+	"sluice/select/run"
 )
 
 // TestSeveralTargetsFromTheCommandLine runs a pick for two target sets, explains, verifies, diffs
@@ -70,6 +72,17 @@ func TestSeveralTargetsFromTheCommandLine(t *testing.T) {
 		code, stdout, stderr := sluice(t, args...)
 		if code != 0 || (args[0] == "why" && !strings.Contains(stdout, "kept for target set")) {
 			t.Errorf("%s: exit %d\n%s%s", args[0], code, stdout, stderr)
+		}
+	}
+	// The report has a row per set, its kept rows as the manifest says.
+	page, _ := os.ReadFile(filepath.Join(dir, "two.html"))
+	m, err := run.ReadManifest(out)
+	if err != nil {
+		t.Fatal(err)
+	}
+	for _, set := range m.Sets {
+		if want := fmt.Sprintf(`data-set="%s" data-kept-rows="%d"`, set.Name, set.KeptRows); !strings.Contains(string(page), want) {
+			t.Errorf("report: no %s", want)
 		}
 	}
 }

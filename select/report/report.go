@@ -62,6 +62,7 @@ type Page struct {
 	Random     []sampleView
 	Seed       int
 	Dropped    []reasonCount // rows not kept, by reason, in the order a reader asks about them
+	Sets       []run.SetRef  // the target sets of a pick made for several, else none
 }
 
 // Build reads the run folder dir once (and its sample rows' explanations) and works out everything
@@ -86,7 +87,7 @@ func Build(ctx context.Context, dir string, o Options) (*Page, error) {
 	defer x.Close()
 	ix := x.Index()
 	rep := &Page{Run: dir, Sluice: m.Sluice, Command: strings.Join(m.Command, " "), Settings: m.Settings,
-		Method: m.Settings.MethodName(), Ledger: *led, CutRank: -1, CutScore: math.NaN(), Seed: sampleSeed}
+		Method: m.Settings.MethodName(), Ledger: *led, CutRank: -1, CutScore: math.NaN(), Seed: sampleSeed, Sets: m.Sets}
 	t, err := tallyScores(ctx, dir, ix, rep, o.Sample)
 	if err != nil {
 		return nil, err
@@ -658,9 +659,17 @@ footer ul { padding-left: 18px; }
 {{end}}<text class="small" x="0" y="114">budget {{.BudgetText}} FLOPs ({{$.Settings.BudgetHow}})</text>
 </svg>
 </figure>{{end}}
-{{if .Dropped}}<h3>Rows not kept</h3>
+{{if .Sets}}<h3>Target sets</h3>
+<p class="note">The training budget split by weight; each set walked its own ranking within its share, in this order, skipping rows an earlier set kept (taken). A set whose ranking ran out gave the rest of its share to the others. Token figures are the training budget's units.</p>
+<table id="sets">
+<thead><tr><th>set</th><th class="num">weight</th><th class="num">target rows</th><th class="num">share, tokens</th><th class="num">given</th><th class="num">given back</th><th class="num">kept rows</th><th class="num">kept tokens</th><th class="num">training FLOPs</th><th>stopped</th></tr></thead>
+<tbody>
+{{range .Sets}}<tr data-set="{{.Name}}" data-kept-rows="{{.KeptRows}}" data-kept-tokens="{{.KeptTokens}}"><td>{{.Name}}</td><td class="num">{{.Weight}}</td><td class="num">{{int .Rows}}</td><td class="num">{{amount .Share}}</td><td class="num">{{amount .Given}}</td><td class="num">{{amount .Returned}}</td><td class="num">{{int .KeptRows}}</td><td class="num">{{digits .KeptTokens}}</td><td class="num">{{flops .TrainingFLOPs}}</td><td>{{.Stop}}</td></tr>
+{{end}}</tbody>
+</table>
+{{end}}{{if .Dropped}}<h3>Rows not kept</h3>
 <ul id="dropped">{{range .Dropped}}<li data-not-kept="{{.Reason}}" data-not-kept-rows="{{.Rows}}">{{digits .Rows}} {{.Reason}}</li>{{end}}</ul>
-<p class="note">duplicate: a better-scored copy was kept instead; contaminated: it shares a run of words with an evaluation file; source-cap: its file had its share; below-cut and budget: the budget ran out before or at it. <code>sluice why</code> explains any row.</p>
+<p class="note">duplicate: a better-scored copy was kept instead; contaminated: it shares a run of words with an evaluation file; source-cap: its file had its share; taken: another target set kept it; below-cut and budget: the budget ran out before or at it. <code>sluice why</code> explains any row.</p>
 {{end}}<h3>Ledger lines</h3>
 <table>
 <thead><tr><th>what</th><th>kind</th><th class="num">count</th><th class="num">FLOPs each</th><th class="num">FLOPs</th><th>formula</th></tr></thead>
