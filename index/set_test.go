@@ -210,3 +210,33 @@ func TestSetRefuses(t *testing.T) {
 		t.Fatalf("rows %d, want %d", ix.NumRows(), 2*one.NumRows())
 	}
 }
+
+// TestRebuildRefuses checks that a rebuild refuses a pool file changed since it was indexed, and
+// segments that found duplicates differently.
+func TestRebuildRefuses(t *testing.T) {
+	pool := testPool(t, 30)
+	a, _ := build(t, pool, Options{Text: "prompt,completion"})
+	other := filepath.Join(t.TempDir(), "other.jsonl")
+	os.WriteFile(other, []byte(`{"prompt":"ferry","completion":"tide"}`+"\n"), 0o644)
+	b := filepath.Join(t.TempDir(), "idx")
+	if _, err := Build(context.Background(), b, []string{other}, Options{Text: "prompt,completion", NoDups: true}); err != nil {
+		t.Fatal(err)
+	}
+	set := filepath.Join(t.TempDir(), "pool.set")
+	if _, err := WriteSet(set, []string{a, b}, false); err != nil {
+		t.Fatal(err)
+	}
+	if _, _, err := RebuildFrom(set, Options{}); err == nil || !strings.Contains(err.Error(), "found duplicates differently") {
+		t.Errorf("segments with and without duplicates: got %v", err)
+	}
+	files, opt, err := RebuildFrom(a, Options{Mem: 1 << 24})
+	if err != nil || len(files) != 1 || opt.Text != "prompt,completion" || opt.Mem != 1<<24 || opt.NoDups {
+		t.Fatalf("got %v %+v %v", files, opt, err)
+	}
+	f, _ := os.OpenFile(pool, os.O_APPEND|os.O_WRONLY, 0)
+	f.WriteString(`{"prompt":"new","completion":"row"}` + "\n")
+	f.Close()
+	if _, _, err := RebuildFrom(a, Options{}); err == nil || !strings.Contains(err.Error(), "has changed since") {
+		t.Errorf("a changed pool file: got %v", err)
+	}
+}

@@ -7,6 +7,7 @@ import (
 
 	"github.com/spf13/pflag"
 
+	"sluice/budget"
 	"sluice/cmd/sluice/demodata"
 	"sluice/index"
 	"sluice/score"
@@ -72,9 +73,7 @@ func (c *demoCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 		Out: runDir, BudgetHow: "--budget " + demoBudget, Guards: run.Guards{Exclude: []string{eval}}}
 	opt.Command = []string{"sluice", "pick", "--index", idx, "--target", target, "--exclude", eval, "--method", p.Method.String(),
 		"--aggregate", p.Aggregate.String(), "--budget", demoBudget, "--train-params", "125M", "--out", runDir}
-	if _, err := fmt.Sscanf(demoBudget, "%g", &opt.Budget); err != nil {
-		return err
-	}
+	opt.Budget, _ = budget.ParseFLOPs(demoBudget) // a constant that parses
 	de := *e
 	de.stderr = e.stdout // the demo's whole story goes to stdout
 	_, err = pick(ctx, &de, opt, quiet)

@@ -1,9 +1,7 @@
 package main
 
 import (
-	"bufio"
 	"context"
-	"encoding/json"
 
 	"github.com/spf13/pflag"
 
@@ -37,15 +35,5 @@ func (c *diffCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 	if err != nil {
 		return err
 	}
-	if asJSON {
-		b, err := json.MarshalIndent(d, "", "  ")
-		if err != nil {
-			return err
-		}
-		_, err = e.stdout.Write(append(b, '\n'))
-		return err
-	}
-	w := bufio.NewWriter(e.stdout)
-	d.WriteText(w)
-	return w.Flush()
+	return d.Write(e.stdout, asJSON)
 }

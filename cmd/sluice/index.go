@@ -33,6 +33,7 @@ func (*indexCmd) flags() *pflag.FlagSet {
 	fs.Bool("strict", false, "stop at the first bad row (exit 1) instead of quarantining it")
 	fs.Float64("near-dup", index.DefaultNearDup, "find exact and near duplicates at this Jaccard similarity (word 5-gram shingles), for picks\nat the same --near-dup")
 	fs.Bool("no-dups", false, "find no duplicates (picks then find them themselves)")
+	fs.String("from", "", "instead of pool files: the index set (or index) whose segments' files to index again as one,\nwith the settings they were built with")
 	fs.Bool("dry-run", false, "read, parse and analyse every row and report, but write no index")
 	fs.BoolP("quiet", "q", false, "print nothing but errors")
 	return fs
@@ -49,14 +50,25 @@ func (c *indexCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 		return usagef("--out is required")
 	}
 	pools := fs.Args()
-	if len(pools) == 0 {
-		return usagef("no pool files given")
+	from, _ := fs.GetString("from")
+	if (len(pools) == 0) == (from == "") {
+		return usagef("no pool files given, or both pool files and --from: give one")
 	}
 	opt, err := indexOptions(fs)
 	if err != nil {
 		return err
 	}
 	opt.Command = append([]string{"sluice"}, e.args...)
+	for _, f := range []string{"text", "id", "tokens", "tokenizer", "analyzer", "max-row-bytes", "near-dup", "no-dups"} {
+		if from != "" && fs.Changed(f) {
+			return usagef("--%s has no use with --from: the segments' own settings are used", f)
+		}
+	}
+	if from != "" {
+		if pools, opt, err = index.RebuildFrom(from, opt); err != nil {
+			return err
+		}
+	}
 	pools, total, err := index.Sources(pools)
 	if err != nil {
 		return err

@@ -38,12 +38,8 @@ func (c *reportCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 		return usagef("name one run folder")
 	case out == "":
 		return usagef("--out is required")
-	case o.Sample < 0 || o.Sample > 100:
-		return usagef("--sample %d: give 0 to 100", o.Sample)
-	case o.Terms < 0 || o.Terms > 500:
-		return usagef("--terms %d: give 0 to 500", o.Terms)
-	case o.Files < 1 || o.Files > 500:
-		return usagef("--files %d: give 1 to 500", o.Files)
+	case o.Check() != nil:
+		return usagef("%v", o.Check())
 	}
 	if err := report.CheckOut(out, fs.Arg(0), o.Inputs); err != nil {
 		return err

@@ -2,6 +2,7 @@ package main
 
 import (
 	"bytes"
+	"encoding/json"
 	"os"
 	"path/filepath"
 	"strings"
@@ -72,4 +73,56 @@ func TestPickOverSegments(t *testing.T) {
 	if code, _, stderr := sluice(t, "verify", s); code != 0 {
 		t.Errorf("verify of a set's run: %s", stderr)
 	}
+}
+
+// TestIndexFromSet checks that `index --from SET` makes the bytes of one build of the segments'
+// files: every file of the index, and meta.json but for the command line that made it.
+func TestIndexFromSet(t *testing.T) {
+	files, _ := filepath.Glob("../../../shared/data/t0-train-50k-per-template/data_per_template/*.jsonl")
+	if len(files) < 12 {
+		t.Skip("../shared/data is absent: the test reads the shared T0 corpus")
+	}
+	pool := files[:12:12]
+	dir := t.TempDir()
+	index := func(out string, args ...string) string {
+		out = filepath.Join(dir, out)
+		if code, _, stderr := sluice(t, append([]string{"index", "--quiet", "--out", out}, args...)...); code != 0 {
+			t.Fatal(stderr)
+		}
+		return out
+	}
+	one := index("one.idx", pool...)
+	set := filepath.Join(dir, "pool.set")
+	if code, _, stderr := sluice(t, "segments", "--out", set, index("a.idx", pool[:5]...), index("b.idx", pool[5:]...)); code != 0 {
+		t.Fatal(stderr)
+	}
+	merged := index("merged.idx", "--from", set)
+	names, _ := filepath.Glob(filepath.Join(one, "*"))
+	for _, p := range names {
+		a, _ := os.ReadFile(p)
+		b, err := os.ReadFile(filepath.Join(merged, filepath.Base(p)))
+		if err != nil {
+			t.Fatal(err)
+		}
+		if filepath.Base(p) == "meta.json" {
+			a, b = withoutCommand(t, a), withoutCommand(t, b)
+		}
+		if !bytes.Equal(a, b) {
+			t.Errorf("%s differs between one build and --from the set", filepath.Base(p))
+		}
+	}
+	if code, _, stderr := sluice(t, "index", "--out", filepath.Join(dir, "x.idx"), "--from", set, "--text", "prompt"); code != 2 || !strings.Contains(stderr, "--text has no use with --from") {
+		t.Errorf("--text with --from: exit %d: %s", code, stderr)
+	}
+}
+
+func withoutCommand(t *testing.T, meta []byte) []byte {
+	t.Helper()
+	var m map[string]any
+	if err := json.Unmarshal(meta, &m); err != nil {
+		t.Fatal(err)
+	}
+	delete(m, "command")
+	b, _ := json.Marshal(m)
+	return b
 }

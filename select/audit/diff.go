@@ -1,6 +1,7 @@
 package audit
 
 import (
+	"bufio"
 	"encoding/json"
 	"errors"
 	"fmt"
@@ -216,6 +217,21 @@ func pearson(x, y []float64) float64 {
 }
 
 // WriteText writes the comparison for people: each run's kept rows and spending, the overlap,
+// Write writes the comparison for people (WriteText) or, with asJSON, as one indented JSON object.
+func (d *Diff) Write(w io.Writer, asJSON bool) error {
+	if asJSON {
+		b, err := json.MarshalIndent(d, "", "  ")
+		if err != nil {
+			return err
+		}
+		_, err = w.Write(append(b, '\n'))
+		return err
+	}
+	bw := bufio.NewWriter(w)
+	d.WriteText(bw)
+	return bw.Flush()
+}
+
 // what each did not keep and why, the rank correlation and the rows that moved most.
 func (d *Diff) WriteText(w io.Writer) {
 	pct := func(a, b float64) string {

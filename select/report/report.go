@@ -33,6 +33,19 @@ type Options struct {
 	Inputs run.Inputs // where the run's index and target are, if they have moved
 }
 
+// Check says what is wrong with o's counts, if anything.
+func (o Options) Check() error {
+	switch {
+	case o.Sample < 0 || o.Sample > 100:
+		return fmt.Errorf("--sample %d: give 0 to 100", o.Sample)
+	case o.Terms < 0 || o.Terms > 500:
+		return fmt.Errorf("--terms %d: give 0 to 500", o.Terms)
+	case o.Files < 1 || o.Files > 500:
+		return fmt.Errorf("--files %d: give 1 to 500", o.Files)
+	}
+	return nil
+}
+
 // Page is everything the page shows, worked out before the template runs.
 type Page struct {
 	Run        string
