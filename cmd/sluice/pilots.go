@@ -47,7 +47,8 @@ func (c *pilotsCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 		return usagef("--train-params: %v", err)
 	}
 	sizes, _ := fs.GetString("sizes")
-	if opt.Sizes, err = pilots.ParseSizes(sizes, func() (float64, error) { return run.PoolTokens(po.Index) }); errors.Is(err, pilots.ErrBadOptions) {
+	count := func() (float64, error) { opt.PoolTokens, err = run.PoolTokens(po.Index); return opt.PoolTokens, err }
+	if opt.Sizes, err = pilots.ParseSizes(sizes, count); errors.Is(err, pilots.ErrBadOptions) {
 		return usagef("--%v", err)
 	} else if err != nil {
 		return err

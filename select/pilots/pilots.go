@@ -44,6 +44,9 @@ type Options struct {
 	Sizes   []float64 // tokens of the subsets; sorted here
 	Trained []float64 // parameters of the pilot models to be trained, for the pilots file
 	Out     string    // the pilots folder
+	// PoolTokens is the pool's tokens as a pick charges them, when the caller has counted them
+	// (run.PoolTokens); 0 has Make count them.
+	PoolTokens float64
 	// Started, when not nil, is called as each method's pick starts, for progress.
 	Started func(method string)
 }
@@ -212,15 +215,17 @@ func Make(ctx context.Context, opt Options) (*Result, error) {
 	if err := atomicdir.CheckOut(opt.Out, Folder(), opt.inputs(), index.Folder(), run.Folder(), plan.Folder(), Folder()); err != nil {
 		return nil, err
 	}
-	pool, err := run.PoolTokens(opt.Pick.Index)
-	if err != nil {
-		return nil, err
-	}
 	ix, err := index.Open(opt.Pick.Index)
 	if err != nil {
 		return nil, err
 	}
 	defer ix.Close()
+	pool := opt.PoolTokens
+	if pool == 0 {
+		if pool, err = run.IndexTokens(ix); err != nil {
+			return nil, err
+		}
+	}
 	tmp, err := atomicdir.Temp(opt.Out)
 	if err != nil {
 		return nil, err

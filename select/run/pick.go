@@ -519,12 +519,17 @@ func PoolTokens(dir string) (float64, error) {
 		return 0, err
 	}
 	defer ix.Close()
+	return IndexTokens(ix)
+}
+
+// IndexTokens is PoolTokens of an index already open.
+func IndexTokens(ix *index.Index) (float64, error) {
 	var t int64
 	for r := 0; r < ix.NumRows(); r++ {
 		t += rowTokens(ix, r)
 	}
 	if t == 0 {
-		return 0, fmt.Errorf("index %s holds no tokens", dir)
+		return 0, fmt.Errorf("index %s holds no tokens", ix.Dir())
 	}
 	return float64(t), nil
 }
