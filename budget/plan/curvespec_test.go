@@ -70,3 +70,14 @@ func TestParseBudgets(t *testing.T) {
 		}
 	}
 }
+
+func TestLambdaUnit(t *testing.T) {
+	for _, tc := range []struct {
+		lambda float64 // per token
+		unit   string
+	}{{4e-9, "1B"}, {9.99e-7, "1B"}, {2e-4, "1M"}, {0.5, "1k"}, {3, "1"}} {
+		if _, u := lambdaUnit([]Curve{{Lambda: tc.lambda / 10}, {Lambda: tc.lambda}}); u != tc.unit {
+			t.Errorf("λ %g a token: per %s tokens, want per %s", tc.lambda, u, tc.unit)
+		}
+	}
+}

@@ -38,7 +38,8 @@ func (p *Plan) WriteText(w io.Writer) error {
 
 func (p *Plan) writeFits(b *strings.Builder) {
 	fmt.Fprintf(b, "fits (P(k) = P̄ - (P̄ - P0)·exp(-λ·k), k in tokens; ± one standard error):\n")
-	fmt.Fprintf(b, "  %-14s %-17s %8s  %-17s %-17s %-21s %6s\n", "method", "cost", "selector", "P0", "Pbar", "lambda per 1B tok", "R2")
+	scale, unit := lambdaUnit(p.Curves)
+	fmt.Fprintf(b, "  %-14s %-17s %8s  %-17s %-17s %-21s %6s\n", "method", "cost", "selector", "P0", "Pbar", "lambda per "+unit+" tok", "R2")
 	for _, c := range p.Curves {
 		cost := c.Cost
 		if c.FlopsPerPoolToken > 0 {
@@ -50,8 +51,27 @@ func (p *Plan) writeFits(b *strings.Builder) {
 		}
 		fmt.Fprintf(b, "  %-14s %-17s %8s  %-17s %-17s %-21s %6s\n", c.Method, cost, budget.FormatCount(c.SelectorParams),
 			metric(c.P0)+" ± "+metric(c.P0SE), metric(c.Pbar)+" ± "+metric(c.PbarSE),
-			strconv.FormatFloat(c.Lambda*1e9, 'f', 3, 64)+" ± "+strconv.FormatFloat(c.LambdaSE*1e9, 'f', 3, 64), r2)
+			strconv.FormatFloat(c.Lambda*scale, 'f', 3, 64)+" ± "+strconv.FormatFloat(c.LambdaSE*scale, 'f', 3, 64), r2)
 	}
+}
+
+// lambdaUnit is the count of tokens the fits' rates are shown per: 1B, as pools of billions of
+// tokens read best, or less where a rate per 1B would run to thousands (a small pool's curves
+// bend within a few million tokens).
+func lambdaUnit(curves []Curve) (float64, string) {
+	top := 0.0
+	for _, c := range curves {
+		top = max(top, c.Lambda)
+	}
+	for _, u := range []struct {
+		scale float64
+		name  string
+	}{{1e9, "1B"}, {1e6, "1M"}, {1e3, "1k"}} {
+		if top*u.scale < 1000 {
+			return u.scale, u.name
+		}
+	}
+	return 1, "1"
 }
 
 // writeTrends shows how each method's curve moves with the trained size, where pilots cover two
