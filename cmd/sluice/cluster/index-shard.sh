@@ -1,7 +1,8 @@
 #!/usr/bin/env bash
 # Indexes shard K of N of a pool: the K-th of N contiguous runs of the files listed in $FILES (one
-# path a line, in pool order), into the segment $WORK/seg-KKKK.idx. Contiguous runs in order keep
-# the segments' rows in the pool's order, so a set of them scores exactly as one index would.
+# absolute path a line, in pool order, since jobs run in other folders), into the segment
+# $WORK/seg-KKKK.idx. Contiguous runs in order keep the segments' rows in the pool's order, so a set
+# of them scores exactly as one index would.
 # Used by the Slurm array job and the Kubernetes indexed job beside this script.
 #
 #   FILES=files.txt WORK=/shared/pool TEXT=prompt,completion index-shard.sh K N

@@ -9,7 +9,7 @@
 set -euo pipefail
 here=$(cd "$(dirname "$0")" && pwd)
 root=$(cd "$here/../../../.." && pwd)
-shared=${1:-$root/../shared}
+shared=$(cd "${1:-$root/../shared}" 2>/dev/null && pwd || echo "${1:-$root/../shared}")
 files=$(ls "$shared"/data/t0-train-50k-per-template/data_per_template/*.jsonl 2>/dev/null | head -n 21 || true)
 if [ -z "$files" ]; then
 	echo "slurm test: $shared/data is absent; skipped"
