@@ -1,6 +1,7 @@
 package main
 
 import (
+	"encoding/json"
 	"fmt"
 	"os"
 	"path/filepath"
@@ -74,6 +75,23 @@ func TestSeveralTargetsFromTheCommandLine(t *testing.T) {
 			t.Errorf("%s: exit %d\n%s%s", args[0], code, stdout, stderr)
 		}
 	}
+	// Kept rows in one schema name the set that kept them, as scores.jsonl does.
+	text := filepath.Join(dir, "two-text")
+	if code, _, stderr := sluice(t, append(base, "--weights", "7,3", "--kept-format", "text", "--out", text)...); code != 0 {
+		t.Fatal(stderr)
+	}
+	setOf := map[string]string{}
+	for _, line := range strings.Split(strings.TrimSpace(readFile(t, filepath.Join(text, "scores.jsonl"))), "\n") {
+		var r struct{ ID, Set string }
+		json.Unmarshal([]byte(line), &r)
+		setOf[r.ID] = r.Set
+	}
+	for _, line := range strings.Split(strings.TrimSpace(readFile(t, filepath.Join(text, "kept.jsonl"))), "\n") {
+		var r struct{ ID, Set string }
+		if err := json.Unmarshal([]byte(line), &r); err != nil || r.Set == "" || r.Set != setOf[r.ID] {
+			t.Fatalf("kept row %q names set %q, scores.jsonl %q (%v)", r.ID, r.Set, setOf[r.ID], err)
+		}
+	}
 	// The report has a row per set, its kept rows as the manifest says.
 	page, _ := os.ReadFile(filepath.Join(dir, "two.html"))
 	m, err := run.ReadManifest(out)
@@ -85,4 +103,13 @@ func TestSeveralTargetsFromTheCommandLine(t *testing.T) {
 			t.Errorf("report: no %s", want)
 		}
 	}
+}
+
+func readFile(t *testing.T, path string) string {
+	t.Helper()
+	b, err := os.ReadFile(path)
+	if err != nil {
+		t.Fatal(err)
+	}
+	return string(b)
 }

@@ -16,8 +16,8 @@ import (
 // schema, for trainers that read one.
 const (
 	KeptRows = "rows" // byte for byte
-	KeptText = "text" // {"text", "source", "id", "score", "rank"}
-	KeptChat = "chat" // {"messages": [{"role", "content"}...], "source", "id", "score", "rank"}
+	KeptText = "text" // {"text", "source", "id", "score", "rank"}, and "set" with several target sets
+	KeptChat = "chat" // {"messages": [{"role", "content"}...], "source", "id", "score", "rank"}, and "set"
 )
 
 // KeptFormats lists the kept formats, the default first.
@@ -38,7 +38,8 @@ func CheckFormats(compress, kept string) error {
 // alternative of the index's text spec the row has in full, its fields joined by a blank line for
 // text, and for chat every field but the last as the user's turn and the last as the assistant's
 // (a row read from one field is one assistant turn; from one array path, its strings are turns in
-// turn, user first). Beside the text: the pool file the row came from, its id, score and rank.
+// turn, user first). Beside the text: the pool file the row came from, its id, score and rank, and
+// with several target sets the set that kept it.
 type uniform struct {
 	p      *picked
 	format string
@@ -130,6 +131,10 @@ func (u *uniform) row(r int, line []byte) error {
 	}
 	b = append(b, `,"rank":`...)
 	b = strconv.AppendInt(b, int64(u.p.dec[r].Rank), 10)
+	if u.p.rowSet != nil {
+		b = append(b, `,"set":`...)
+		b = AppendJSONString(b, u.p.sets[u.p.rowSet[r]].ref.Name)
+	}
 	b = append(b, "}\n"...)
 	u.b = b
 	_, err = u.w.Write(b)
