@@ -76,8 +76,9 @@ func (c *sliceCursor) Next(end int, rows, tfs []uint32) ([]uint32, []uint32, err
 	return rows, tfs, nil
 }
 
-// Reading the lists span by span through cursors gives the same results as
-// keeping them all. Internal property: no reference values.
+// Reading the lists chunk by chunk through cursors gives the same results as
+// keeping them all, whatever the chunks and workers. Internal property: no
+// reference values.
 func TestStreamPassesMatchRowPasses(t *testing.T) {
 	c, q := zipfSetup(7, 9*rowBlock+5, 30, 3000, 60, 20)
 	for _, p := range allParams() {
@@ -85,14 +86,14 @@ func TestStreamPassesMatchRowPasses(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		for _, workers := range []int{1, 3} {
-			// A bound this small makes spans of one block.
-			p.Workers, p.CacheBytes = workers, 1<<10
-			got, err := Score(context.Background(), cursorCorpus{zipfCorpus: c}, q, p)
+		for _, tc := range []struct{ workers, chunk int }{{1, 0}, {3, 0}, {2, 1}, {1, 7}, {3, 3*rowBlock + 1}, {2, 100 * rowBlock}} {
+			// A bound this small makes chunks of one block, unless a chunk is given.
+			p.Workers, p.CacheBytes = tc.workers, 1<<10
+			got, err := scoreBlocks(context.Background(), cursorCorpus{zipfCorpus: c}, q, p, maxRowTargets, tc.chunk)
 			if err != nil {
 				t.Fatal(err)
 			}
-			name := fmt.Sprintf("%v/%v workers %d", p.Method, p.Aggregate, workers)
+			name := fmt.Sprintf("%v/%v workers %d chunk %d", p.Method, p.Aggregate, tc.workers, tc.chunk)
 			for r := range got.Scores {
 				if math.Float64bits(got.Scores[r]) != math.Float64bits(want.Scores[r]) || got.Best[r] != want.Best[r] {
 					t.Fatalf("%s: row %d: score %v best %d, cached %v best %d", name, r, got.Scores[r], got.Best[r], want.Scores[r], want.Best[r])
@@ -137,12 +138,12 @@ func TestTargetBlocksMatchOneBlock(t *testing.T) {
 	cc := cursorCorpus{zipfCorpus: c}
 	for _, p := range allParams() {
 		p.CacheBytes = 1 << 12
-		want, err := scoreBlocks(context.Background(), cc, q, p, maxRowTargets)
+		want, err := scoreBlocks(context.Background(), cc, q, p, maxRowTargets, 0)
 		if err != nil {
 			t.Fatal(err)
 		}
 		for _, block := range []int{1, 7, 10, 64} {
-			got, err := scoreBlocks(context.Background(), cc, q, p, block)
+			got, err := scoreBlocks(context.Background(), cc, q, p, block, 0)
 			if err != nil {
 				t.Fatal(err)
 			}

@@ -116,8 +116,8 @@ type Params struct {
 	// 0 means runtime.GOMAXPROCS(0).
 	Workers int
 	// CacheBytes bounds the memory Score spends on decoded postings. A
-	// CursorCorpus is read span of pool rows by span, each list once, the
-	// postings of one span (16 bytes each) within the bound; 0 means
+	// CursorCorpus is read chunk of pool rows by chunk, each list once, a
+	// few chunks in flight (20 bytes a posting) within the bound; 0 means
 	// DefaultSpanBytes. Another Corpus has the query terms' lists kept
 	// (12 bytes a posting) so that each is read once; lists past the bound
 	// are read again on every pass that needs them, the lists used by the
@@ -133,9 +133,9 @@ type Params struct {
 // DefaultCacheBytes is the posting cache bound used when Params.CacheBytes is 0.
 const DefaultCacheBytes = 512 << 20
 
-// DefaultSpanBytes bounds a span's postings when Params.CacheBytes is 0 and
-// the corpus is a CursorCorpus. Larger spans are no faster: on a 790k-row
-// pool, spans of 16 and 64 MiB took the same time and 256 MiB a third more.
+// DefaultSpanBytes bounds the chunks in flight when Params.CacheBytes is 0
+// and the corpus is a CursorCorpus. Chunks are sized for the cache
+// (chunkPostings), far below it, unless the terms are very many.
 const DefaultSpanBytes = 64 << 20
 
 // DefaultParams returns BM25 with Sum aggregation and k1 = 1.2, b = 0.75
@@ -202,7 +202,7 @@ type Result struct {
 //
 // The per-target passes (and the combined pass) are turned around into one
 // walk over the pool rows that keeps an accumulator per target row: for a
-// CursorCorpus span by span through cursors (streamPasses), taking the target
+// CursorCorpus chunk by chunk through cursors (streamPasses), taking the target
 // rows 4,096 at a time, so that memory grows with neither the pool nor the
 // target set; for another Corpus, when every list fits the cache and there
 // are at most 4,096 target rows (rowPasses). The sums are the same, term by
@@ -215,11 +215,12 @@ type Result struct {
 // number of workers. c is only ever used by one goroutine at a time. ctx is
 // checked before every posting list read and every pass.
 func Score(ctx context.Context, c Corpus, q []Query, p Params) (*Result, error) {
-	return scoreBlocks(ctx, c, q, p, maxRowTargets)
+	return scoreBlocks(ctx, c, q, p, maxRowTargets, 0)
 }
 
-// scoreBlocks is Score with the streamed scorer taking up to block target rows at a time.
-func scoreBlocks(ctx context.Context, c Corpus, q []Query, p Params, block int) (*Result, error) {
+// scoreBlocks is Score with the streamed scorer taking up to block target rows at a time and,
+// unless chunkRows is 0, chunks of chunkRows pool rows.
+func scoreBlocks(ctx context.Context, c Corpus, q []Query, p Params, block, chunkRows int) (*Result, error) {
 	if err := p.Validate(); err != nil {
 		return nil, err
 	}
@@ -239,7 +240,7 @@ func scoreBlocks(ctx context.Context, c Corpus, q []Query, p Params, block int) 
 	if len(pl.vocab) == 0 {
 		return res, nil
 	}
-	s := &scorer{c: c, p: p, pl: pl, k1p1: p.K1 + 1}
+	s := &scorer{c: c, p: p, pl: pl, k1p1: p.K1 + 1, chunkRows: chunkRows}
 	rowWise := !p.SkipBest && len(q) <= block
 	// The row-at-a-time scorers find each row's best target row at once, so with Sum and one block
 	// of target rows they keep no best score per row (nil); with Max the best score is the score.
@@ -249,7 +250,7 @@ func scoreBlocks(ctx context.Context, c Corpus, q []Query, p Params, block int) 
 	}
 	if cc, ok := c.(CursorCorpus); ok && !p.SkipBest && p.CacheBytes >= 0 {
 		// Target rows are taken a block at a time, each block one more read of its terms' lists,
-		// so that memory grows with neither the target set nor, past a span, the pool.
+		// so that memory grows with neither the target set nor, past a chunk, the pool.
 		if !rowWise && rowBest == nil {
 			rowBest = make([]float64, n)
 		}
@@ -296,17 +297,18 @@ type scorer struct {
 	p    Params
 	pl   *plan
 	k1p1 float64
-	// factor holds per pool row from factorLo the BM25 length normaliser
+	// factor holds per pool row the BM25 length normaliser
 	// k1·(1−b+b·len/avglen) or the TF-IDF row norm, for the rows some query
-	// term reaches: every row for prepare (which fills it before any worker
-	// starts; it is read-only afterwards), a span's rows for streamPasses.
-	factor   []float64
-	factorLo int
+	// term reaches; prepare fills it before any worker starts, and it is
+	// read-only afterwards.
+	factor []float64
 	// cache holds per vocab term its postings and tf parts, or nil rows when
 	// the term did not fit the bound and must be read again.
 	cache     []cachedList
 	allCached bool
 	fetched   int64
+	total     int64 // postings of the lists streamPasses reads
+	chunkRows int   // rows a chunk of streamPasses takes; 0 lets chunkSize choose (tests set it)
 }
 
 type cachedList struct {
@@ -400,15 +402,15 @@ func (s *scorer) fetch(term string, rows, tfs []uint32) ([]uint32, []uint32, err
 func (s *scorer) tfParts(parts []float64, rows, tfs []uint32) []float64 {
 	parts = parts[:len(rows)]
 	tfs = tfs[:len(rows)]
-	factor, lo := s.factor, uint32(s.factorLo)
+	factor := s.factor
 	if s.p.Method == BM25 {
 		k1p1 := s.k1p1
 		for i, r := range rows {
-			parts[i] = bm25Part(float64(tfs[i]), k1p1, factor[r-lo])
+			parts[i] = bm25Part(float64(tfs[i]), k1p1, factor[r])
 		}
 	} else {
 		for i, r := range rows {
-			parts[i] = tfidfPart(float64(tfs[i]), factor[r-lo])
+			parts[i] = tfidfPart(float64(tfs[i]), factor[r])
 		}
 	}
 	return parts
