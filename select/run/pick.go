@@ -69,6 +69,8 @@ type Options struct {
 	Command    []string  // the command line, for the manifest
 	Version    string    // sluice's version, for the manifest
 	Stdin      io.Reader // read for a Target of "-"; nil is os.Stdin
+
+	scoreBatch int // rows of scores.jsonl formatted at a time; 0 for scoreBatch (tests set it)
 }
 
 // Result is what a pick did, for a summary; the run folder holds all of it and more.

@@ -9,6 +9,7 @@ import (
 	"io"
 	"math"
 	"path/filepath"
+	"runtime"
 	"strconv"
 	"strings"
 	"sync"
@@ -160,68 +161,130 @@ func writeHashed(path, shown string, fill func(w *bufio.Writer) error) (string, 
 
 // writeScores writes one line per indexed row in input order, in the schema of Score. Scores are
 // printed with the fewest digits that read back to the same float64, so the file agrees with
-// explanations to the bit.
+// explanations to the bit. Lines are formatted a batch of rows at a time on every core and written
+// in order.
 func (p *picked) writeScores(w *bufio.Writer) error {
-	// Target ids and reasons repeat on many lines: quote each once.
-	targets := make([][]byte, len(p.targets))
-	for i, t := range p.targets {
-		targets[i] = AppendJSONString(nil, t.ID)
+	f := p.scoreFormat()
+	n := len(p.dec)
+	size := scoreBatch
+	if p.opt.scoreBatch > 0 {
+		size = p.opt.scoreBatch
 	}
-	var sets [][]byte
-	for _, s := range p.sets {
-		sets = append(sets, AppendJSONString(nil, s.ref.Name))
+	nw := max(1, min(runtime.GOMAXPROCS(0), (n+size-1)/size))
+	type batch struct {
+		lo  int
+		out chan []byte
 	}
-	reasons := map[selection.Reason][]byte{}
-	var plain [256]bool // the bytes that stand in a JSON string as they are
-	for c := range plain {
-		plain[c] = jsonPlain([]byte{byte(c)})
-	}
-	var b []byte
-	for r, d := range p.dec {
-		b = append(b[:0], `{"id":`...)
-		b = appendJSONID(b, p.ix, r, &plain)
-		b = append(b, `,"score":`...)
-		if s := p.scores[r]; math.IsNaN(s) {
-			b = append(b, "null"...) // a barred row the method did not score
-		} else {
-			b = strconv.AppendFloat(b, s, 'g', -1, 64)
-		}
-		b = append(b, `,"rank":`...)
-		b = strconv.AppendInt(b, int64(d.Rank), 10)
-		b = append(b, `,"kept":`...)
-		b = strconv.AppendBool(b, d.Kept)
-		if !d.Kept {
-			q, ok := reasons[d.Reason]
-			if !ok {
-				q = AppendJSONString(nil, d.Reason.String())
-				reasons[d.Reason] = q
+	jobs := make(chan batch, 2*nw)
+	order := make(chan chan []byte, 2*nw)
+	free := make(chan []byte, 3*nw)
+	var wg sync.WaitGroup
+	for range nw {
+		wg.Go(func() {
+			reasons := map[selection.Reason][]byte{}
+			for j := range jobs {
+				var b []byte
+				select {
+				case b = <-free:
+				default:
+				}
+				for r := j.lo; r < min(n, j.lo+size); r++ {
+					b = p.appendScoreLine(b, r, f, reasons)
+				}
+				j.out <- b
 			}
-			b = append(b, `,"reason":`...)
-			b = append(b, q...)
-			b = p.appendGuard(b, r, d.Reason, &plain)
+		})
+	}
+	go func() {
+		defer close(order)
+		defer close(jobs)
+		for lo := 0; lo < n; lo += size {
+			j := batch{lo, make(chan []byte, 1)}
+			jobs <- j
+			order <- j.out
 		}
-		b = append(b, `,"tokens":`...)
-		b = strconv.AppendInt(b, p.tokens(r), 10)
-		b = append(b, `,"target":`...)
-		if p.best == nil {
-			b = append(b, "null"...) // not asked for (--attribute=false), or not a lexical method
-		} else if t := p.best[r]; t >= 0 {
-			b = append(b, targets[t]...)
-		} else {
-			b = append(b, "null"...)
+	}()
+	var err error
+	for out := range order {
+		b := <-out
+		if err == nil {
+			_, err = w.Write(b)
 		}
-		if p.rowSet != nil {
-			b = append(b, `,"set":`...)
-			b = append(b, sets[p.rowSet[r]]...)
-		}
-		b = append(b, `,"ledger":`...)
-		b = strconv.AppendFloat(b, d.LedgerAfter, 'g', -1, 64)
-		b = append(b, "}\n"...)
-		if _, err := w.Write(b); err != nil {
-			return err
+		select {
+		case free <- b[:0]:
+		default:
 		}
 	}
-	return nil
+	wg.Wait()
+	return err
+}
+
+// scoreBatch is how many rows' lines of scores.jsonl one goroutine formats at a time.
+const scoreBatch = 4096
+
+// scoreFormat is what every line of scores.jsonl draws on, quoted once: the target ids and set
+// names, and which bytes stand in a JSON string as they are.
+type scoreFormat struct {
+	targets, sets [][]byte
+	plain         [256]bool
+}
+
+func (p *picked) scoreFormat() *scoreFormat {
+	f := &scoreFormat{targets: make([][]byte, len(p.targets))}
+	for i, t := range p.targets {
+		f.targets[i] = AppendJSONString(nil, t.ID)
+	}
+	for _, s := range p.sets {
+		f.sets = append(f.sets, AppendJSONString(nil, s.ref.Name))
+	}
+	for c := range f.plain {
+		f.plain[c] = jsonPlain([]byte{byte(c)})
+	}
+	return f
+}
+
+// appendScoreLine appends row r's line of scores.jsonl; reasons holds the reasons quoted so far.
+func (p *picked) appendScoreLine(b []byte, r int, f *scoreFormat, reasons map[selection.Reason][]byte) []byte {
+	d := &p.dec[r]
+	b = append(b, `{"id":`...)
+	b = appendJSONID(b, p.ix, r, &f.plain)
+	b = append(b, `,"score":`...)
+	if s := p.scores[r]; math.IsNaN(s) {
+		b = append(b, "null"...) // a barred row the method did not score
+	} else {
+		b = strconv.AppendFloat(b, s, 'g', -1, 64)
+	}
+	b = append(b, `,"rank":`...)
+	b = strconv.AppendInt(b, int64(d.Rank), 10)
+	b = append(b, `,"kept":`...)
+	b = strconv.AppendBool(b, d.Kept)
+	if !d.Kept {
+		q, ok := reasons[d.Reason]
+		if !ok {
+			q = AppendJSONString(nil, d.Reason.String())
+			reasons[d.Reason] = q
+		}
+		b = append(b, `,"reason":`...)
+		b = append(b, q...)
+		b = p.appendGuard(b, r, d.Reason, &f.plain)
+	}
+	b = append(b, `,"tokens":`...)
+	b = strconv.AppendInt(b, p.tokens(r), 10)
+	b = append(b, `,"target":`...)
+	if p.best == nil {
+		b = append(b, "null"...) // not asked for (--attribute=false), or not a lexical method
+	} else if t := p.best[r]; t >= 0 {
+		b = append(b, f.targets[t]...)
+	} else {
+		b = append(b, "null"...)
+	}
+	if p.rowSet != nil {
+		b = append(b, `,"set":`...)
+		b = append(b, f.sets[p.rowSet[r]]...)
+	}
+	b = append(b, `,"ledger":`...)
+	b = strconv.AppendFloat(b, d.LedgerAfter, 'g', -1, 64)
+	return append(b, "}\n"...)
 }
 
 // appendJSONID appends the id of row r of ix as a JSON string, quoting it in place when all its
