@@ -12,7 +12,7 @@ import (
 
 // benchRows returns up to max rows of real text: the prompt and completion of T0 rows from
 // ../shared/data when it is there, else the fixture's rows (outside text too, but few and short).
-func benchRows(b *testing.B, max int) ([][]byte, string) {
+func benchRows(b testing.TB, max int) ([][]byte, string) {
 	b.Helper()
 	files, _ := filepath.Glob("../../../shared/data/t0-train-50k-per-template/data_per_template/*.jsonl")
 	var rows [][]byte

@@ -88,9 +88,10 @@ func (d *Detector) Add(dst []Pair, row int, sig Signature) ([]Pair, error) {
 	}
 	self := uint32(len(d.rows))
 	d.rows = append(d.rows, uint32(row))
-	d.sketch = slices.Grow(d.sketch, d.k)
-	for _, v := range sig {
-		d.sketch = append(d.sketch, byte(v))
+	n := len(d.sketch)
+	d.sketch = slices.Grow(d.sketch, d.k)[:n+d.k]
+	for i, v := range sig {
+		d.sketch[n+i] = byte(v)
 	}
 	d.seen = d.seen[:0]
 	for j := 0; j < d.b; j++ {

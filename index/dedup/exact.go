@@ -2,9 +2,11 @@ package dedup
 
 import (
 	"crypto/sha256"
+	"encoding/binary"
 	"fmt"
 	"hash"
 	"math"
+	"slices"
 	"unicode/utf8"
 )
 
@@ -65,40 +67,99 @@ func (n *normalizer) write(p []byte) {
 	// The state lives in locals in the ASCII loop, the common case, and in n elsewhere.
 	out, space, started := n.out, n.space, n.started
 	for i := 0; i < len(p); {
-		c := p[i]
-		if c >= utf8.RuneSelf {
-			n.out, n.space, n.started = out, space, started
-			if !utf8.FullRune(p[i:]) {
-				n.keep(p[i:])
-				return
+		// Eight bytes at a time while they are plain ASCII text (see ascii8), the common case.
+		for started && len(p)-i >= 8 {
+			if cap(out)-len(out) < 9 {
+				if n.d != nil {
+					break
+				}
+				out = slices.Grow(out, 64)
 			}
-			r, raw, size := decode(p[i:])
-			n.rune(r, raw)
-			i += size
-			out, space, started = n.out, n.space, n.started
-			continue
+			x := binary.LittleEndian.Uint64(p[i:])
+			lower, sp, ok := ascii8(x)
+			if !ok || space && sp&0x80 != 0 {
+				break
+			}
+			if space {
+				out = append(out, ' ')
+			}
+			binary.LittleEndian.PutUint64(out[len(out):cap(out)], lower)
+			// A space last is kept pending, as the next bytes may carry on its run.
+			last := int(sp >> 63)
+			space = last != 0
+			out = out[:len(out)+8-last]
+			i += 8
+			if len(out) >= limit {
+				n.out = out
+				n.flush()
+				out = n.out
+			}
 		}
-		i++
-		if c == ' ' || '\t' <= c && c <= '\r' {
-			space = started
-			continue
-		}
-		if 'A' <= c && c <= 'Z' {
-			c += 'a' - 'A'
-		}
-		if space {
-			out = append(out, ' ')
-			space = false
-		}
-		out = append(out, c)
-		started = true
-		if len(out) >= limit {
-			n.out = out
-			n.flush()
-			out = n.out
+		// Then up to eight bytes one at a time, past what stopped the loop above.
+		for end := min(len(p), i+8); i < end; {
+			c := p[i]
+			if c >= utf8.RuneSelf {
+				n.out, n.space, n.started = out, space, started
+				if !utf8.FullRune(p[i:]) {
+					n.keep(p[i:])
+					return
+				}
+				r, raw, size := decode(p[i:])
+				n.rune(r, raw)
+				i += size
+				out, space, started = n.out, n.space, n.started
+				continue
+			}
+			i++
+			if c == ' ' || '\t' <= c && c <= '\r' {
+				space = started
+				continue
+			}
+			if 'A' <= c && c <= 'Z' {
+				c += 'a' - 'A'
+			}
+			if space {
+				out = append(out, ' ')
+				space = false
+			}
+			out = append(out, c)
+			started = true
+			if len(out) >= limit {
+				n.out = out
+				n.flush()
+				out = n.out
+			}
 		}
 	}
 	n.out, n.space, n.started = out, space, started
+}
+
+// SWAR constants: a byte's high bit, and 1 in every byte.
+const (
+	highBits = 0x8080808080808080
+	oneBytes = 0x0101010101010101
+)
+
+// ascii8 looks at eight bytes of text, the first in the low byte of x, and reports ok when they
+// are ASCII without control characters and without two spaces side by side: text whose normalised
+// form is the bytes themselves with capitals made small (lower), but for the spaces, which sp
+// marks with the high bit of their byte. Each test is a subtraction per byte that never borrows
+// across bytes, since every byte is below 0x80 once the high bits are known to be clear.
+func ascii8(x uint64) (lower, sp uint64, ok bool) {
+	if x&highBits != 0 {
+		return 0, 0, false
+	}
+	hx := x | highBits
+	// The high bit of a byte stays set in hx − c·oneBytes when the byte is at least c.
+	if (hx-' '*oneBytes)&highBits != highBits {
+		return 0, 0, false // a control character: tabs, newlines and the like are white space
+	}
+	sp = ^(hx - (' '+1)*oneBytes) & highBits // at least ' ' and not above it
+	if sp&(sp<<8) != 0 {
+		return 0, 0, false
+	}
+	upper := (hx - 'A'*oneBytes) &^ (hx - ('Z'+1)*oneBytes) & highBits
+	return x | upper>>2, sp, true
 }
 
 // rune writes one rune that is not ASCII, or an invalid byte (raw != 0).

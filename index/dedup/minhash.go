@@ -204,14 +204,18 @@ type Signer struct {
 	runes
 	word   uint64 // FNV-1a state of the current word
 	inWord bool
-	ring   []uint64 // hashes of the last k words, oldest at ring[pos] once n ≥ k
-	pos    int      // n mod k, kept apart since a division per word costs more than the rest
+	// words holds the hashes of the row's words not yet made into shingles, after the last k − 1
+	// of those that were: shingles are hashed a chunk of words at a time, in one tight loop.
+	words  []uint64
 	n      int      // words so far in the row
 	buf    []uint64 // the row's shingle hashes, at most maxBuffered
 	filled int      // bins of sig holding a value
 	sig    []uint32
 	work   Work
 }
+
+// wordChunk is how many word hashes a Signer gathers before it hashes their shingles.
+const wordChunk = 1 << 10
 
 // NewSigner returns a Signer for p.
 func NewSigner(p Params) (*Signer, error) {
@@ -222,7 +226,7 @@ func NewSigner(p Params) (*Signer, error) {
 	s := &Signer{
 		k:     p.Shingle,
 		seeds: make([]uint64, 2*p.Hashes),
-		ring:  make([]uint64, p.Shingle),
+		words: make([]uint64, 0, max(wordChunk, p.Shingle)),
 		sig:   make([]uint32, p.Hashes),
 		shift: 32 - uint(bits.Len(uint(2*p.Hashes))),
 	}
@@ -238,13 +242,28 @@ func NewSigner(p Params) (*Signer, error) {
 // Reset drops the text written since the last Sum.
 func (s *Signer) Reset() {
 	s.npend = 0
-	s.word, s.inWord, s.n, s.pos = fnvOffset, false, 0, 0
+	s.word, s.inWord, s.n = fnvOffset, false, 0
+	s.words = s.words[:0]
 	s.buf = s.buf[:0]
 	s.filled = 0
 	for i := range s.sig {
 		s.sig[i] = math.MaxUint32
 	}
 }
+
+// wordByte maps an ASCII byte to itself case folded when it belongs in a word, and to 0 when it
+// separates words.
+var wordByte = func() (t [utf8.RuneSelf]byte) {
+	for c := range t {
+		switch {
+		case 'a' <= c && c <= 'z' || '0' <= c && c <= '9':
+			t[c] = byte(c)
+		case 'A' <= c && c <= 'Z':
+			t[c] = byte(c + 'a' - 'A')
+		}
+	}
+	return t
+}()
 
 // Write adds p to the text of the current row, as if concatenated with what was written before:
 // write a space between parts whose words should not run together. It always returns len(p),
@@ -253,32 +272,33 @@ func (s *Signer) Write(p []byte) (int, error) {
 	n := len(p)
 	s.work.Bytes += int64(n)
 	p = s.feed(p, s.rune)
-	for i := 0; i < len(p); {
+	// The word's state lives in locals in the ASCII loop, the common case, and in s elsewhere.
+	word, inWord := s.word, s.inWord
+	for i := 0; i < len(p); i++ {
 		c := p[i]
 		if c >= utf8.RuneSelf {
+			s.word, s.inWord = word, inWord
 			if !utf8.FullRune(p[i:]) {
 				s.keep(p[i:])
-				break
+				return n, nil
 			}
 			r, raw, size := decode(p[i:])
 			s.rune(r, raw)
-			i += size
+			i += size - 1
+			word, inWord = s.word, s.inWord
 			continue
 		}
-		i++
-		switch {
-		case 'a' <= c && c <= 'z' || '0' <= c && c <= '9':
-		case 'A' <= c && c <= 'Z':
-			c += 'a' - 'A'
-		default:
-			if s.inWord {
-				s.endWord()
+		if c = wordByte[c]; c == 0 {
+			if inWord {
+				s.addWord(word)
+				word, inWord = fnvOffset, false
 			}
 			continue
 		}
-		s.word = (s.word ^ uint64(c)) * fnvPrime
-		s.inWord = true
+		word = (word ^ uint64(c)) * fnvPrime
+		inWord = true
 	}
+	s.word, s.inWord = word, inWord
 	return n, nil
 }
 
@@ -302,31 +322,37 @@ func (s *Signer) endWord() {
 	s.word, s.inWord = fnvOffset, false
 }
 
-// addWord takes the next word's hash and, once there are k words, the shingle that it ends.
+// addWord takes the next word's hash.
 func (s *Signer) addWord(h uint64) {
-	s.ring[s.pos] = h
+	s.words = append(s.words, h)
 	s.n++
-	if s.pos++; s.pos == s.k {
-		s.pos = 0
-	}
-	if s.n >= s.k {
-		s.addShingle(s.pos, s.k)
+	if len(s.words) == cap(s.words) {
+		s.shingles()
 	}
 }
 
-// addShingle hashes the m words that start at ring[start] into a shingle hash.
-func (s *Signer) addShingle(start, m int) {
-	h := uint64(0x243F6A8885A308D3) // digits of π: any fixed value serves
-	// The words from start to the end of the ring, then from its start: no division per word.
-	for j, i := 0, start; j < m; j++ {
-		h = (h ^ s.ring[i]) * 0x9E3779B97F4A7C15
-		h ^= h >> 29
-		if i++; i == s.k {
-			i = 0
-		}
+// shingles hashes every shingle of k words that ends within words and keeps the last k − 1 words
+// for the shingles that end after them.
+func (s *Signer) shingles() {
+	w, k := s.words, s.k
+	if len(w) < k {
+		return
 	}
-	s.addHash(mix64(h ^ uint64(m)))
-	s.work.ShingleWords += int64(m)
+	for i := 0; i+k <= len(w); i++ {
+		s.addHash(shingleHash(w[i : i+k]))
+	}
+	s.work.ShingleWords += int64((len(w) - k + 1) * k)
+	s.words = w[:copy(w, w[len(w)-k+1:])]
+}
+
+// shingleHash hashes the words of one shingle, in order, into a shingle hash.
+func shingleHash(w []uint64) uint64 {
+	h := uint64(0x243F6A8885A308D3) // digits of π: any fixed value serves
+	for _, x := range w {
+		h = (h ^ x) * 0x9E3779B97F4A7C15
+		h ^= h >> 29
+	}
+	return mix64(h ^ uint64(len(w)))
 }
 
 // addHash takes the hash of one shingle of the row. Past maxBuffered it takes part in round 0 now
@@ -359,7 +385,9 @@ func (s *Signer) put(i int, x uint64) {
 	}
 }
 
-// round is put for every buffered shingle in round i < K, written out in one loop.
+// round is put for every buffered shingle in round i < K, written out in one loop without a
+// branch on the data: a value below 2³²−1 always replaces 2³²−1, so a bin is filled exactly when
+// it held that.
 func (s *Signer) round(i int) {
 	sig := s.sig
 	k := uint64(len(sig))
@@ -369,15 +397,15 @@ func (s *Signer) round(i int) {
 		z := mix64(x ^ seed)
 		bin := uint64(uint32(z)) * k >> 32
 		v := base | uint32(z>>32)>>shift
-		if old := sig[bin]; v < old {
-			if old == math.MaxUint32 {
-				filled++
-			}
-			sig[bin] = v
-		}
+		old := sig[bin]
+		filled += isMax(old)
+		sig[bin] = min(old, v)
 	}
 	s.filled = filled
 }
+
+// isMax is 1 for 2³²−1, the value of an empty bin, and 0 otherwise, without a branch.
+func isMax(v uint32) int { return int((uint64(v) + 1) >> 32) }
 
 // sketch runs the rounds over the row's shingles until every bin holds a value. A row without
 // shingles leaves every value 2³²−1.
@@ -406,7 +434,11 @@ func (s *Signer) Sum(dst Signature) Signature {
 		s.endWord()
 	}
 	if 0 < s.n && s.n < s.k {
-		s.addShingle(0, s.n)
+		// A short row is one shingle of all its words, which are all in words.
+		s.addHash(shingleHash(s.words[:s.n]))
+		s.work.ShingleWords += int64(s.n)
+	} else {
+		s.shingles()
 	}
 	s.sketch()
 	dst = append(dst[:0], s.sig...)
