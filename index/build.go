@@ -405,6 +405,10 @@ func (b *builder) run(ctx context.Context) (*Stats, error) {
 	var wg sync.WaitGroup
 	var werr error
 	var werrOnce sync.Once
+	var seen *seenKeys
+	if b.dups != nil {
+		seen = newSeenKeys()
+	}
 	for i := 0; i < b.opt.Workers; i++ {
 		a, _ := analysis.New(b.opt.Analyzer)
 		w := &worker{gen: 1, free: func(bt *batch) {
@@ -418,7 +422,7 @@ func (b *builder) run(ctx context.Context) (*Stats, error) {
 		}
 		var err error
 		if b.dups != nil {
-			if w.sign, err = newSignRow(b.dups.prm); err != nil {
+			if w.sign, err = newSignRow(b.dups.prm, seen); err != nil {
 				return nil, fmt.Errorf("build index: %w", err)
 			}
 		}

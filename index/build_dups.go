@@ -8,6 +8,7 @@ import (
 	"math/bits"
 	"os"
 	"slices"
+	"sync"
 
 	"sluice/index/dedup"
 )
@@ -165,31 +166,22 @@ func (f *dupFinder) write(b *builder, rows int64, work dedup.Work) error {
 }
 
 // signRow is a worker's hashing of one row: the row's text parts, a newline between parts as a
-// pick joins them, are gathered, keyed, and signed unless the worker has met the key before.
+// pick joins them, are gathered, keyed, and signed unless an earlier row is known to have the key.
 type signRow struct {
 	hasher dedup.Hasher
 	signer *dedup.Signer
-	k      int    // values per signature
-	text   []byte // the row's text
+	seen   *seenKeys // shared by the workers
+	k      int       // values per signature
+	text   []byte    // the row's text
 	parts  int
-	// seen holds keys of the worker's earlier rows, a slot each by the key's first bits (have
-	// marks the slots filled). A worker's batches come in input order, so a row whose key is
-	// there is not the first of its exact duplicates, and the collector will not need its
-	// signature: the cache saves signing it, and a key evicted costs only a signature made.
-	seen []dedup.Key
-	have []bool
 }
 
-// seenSlots is the size of a worker's cache of keys: 512 KiB of keys, made when the worker keys
-// its first row.
-const seenSlots = 1 << 15
-
-func newSignRow(prm dedup.Params) (*signRow, error) {
+func newSignRow(prm dedup.Params, seen *seenKeys) (*signRow, error) {
 	sg, err := dedup.NewSigner(prm)
 	if err != nil {
 		return nil, err
 	}
-	return &signRow{signer: sg, k: prm.Hashes}, nil
+	return &signRow{signer: sg, seen: seen, k: prm.Hashes}, nil
 }
 
 func (s *signRow) reset() {
@@ -205,22 +197,17 @@ func (s *signRow) write(part []byte) {
 	s.parts++
 }
 
-// sum appends the row's key, and its signature unless the worker met the key before, to the
+// sum appends the row's key, and its signature unless an earlier row has the key, to the
 // batch's.
 func (s *signRow) sum(o *batchOut) {
 	s.hasher.Write(s.text)
 	key := s.hasher.Sum()
 	o.keys = append(o.keys, key)
-	if s.seen == nil {
-		s.seen, s.have = make([]dedup.Key, seenSlots), make([]bool, seenSlots)
-	}
-	slot := binary.LittleEndian.Uint32(key[:4]) % seenSlots
-	if s.have[slot] && s.seen[slot] == key {
+	if !s.seen.claim(key, o.seq) {
 		o.signed = append(o.signed, false)
 		s.reset()
 		return
 	}
-	s.seen[slot], s.have[slot] = key, true
 	o.signed = append(o.signed, true)
 	before := s.signer.Work()
 	s.signer.Write(s.text)
@@ -230,6 +217,58 @@ func (s *signRow) sum(o *batchOut) {
 	o.sigs = o.sigs[:n+s.k]
 	o.signWork = append(o.signWork, s.signer.Work().Minus(before))
 	s.reset()
+}
+
+// seenKeys is the workers' shared memory of the keys they have met, with the batch of each: a
+// row whose key it holds from an earlier batch, or from its own batch (an earlier row: a batch is
+// one worker's, in order), is not the first of its exact duplicates, and the collector will not
+// need its signature. It saves signing the repeats of a pool, however far apart and whichever
+// workers their batches fall to. It is a cache of fixed size, seenSets sets of seenWays keys:
+// a key that finds its set full takes the place of one in it, and a key forgotten costs only a
+// signature made. The first row of a key is always signed: nothing before it put the key there.
+type seenKeys struct {
+	mu    sync.Mutex
+	slots []seenSlot
+}
+
+type seenSlot struct {
+	key dedup.Key
+	seq int // the batch's number plus one; 0 for an empty slot
+}
+
+// The cache's size: 2¹⁷ keys, 3 MiB, made once a build.
+const (
+	seenSets = 1 << 15
+	seenWays = 4
+)
+
+func newSeenKeys() *seenKeys { return &seenKeys{slots: make([]seenSlot, seenSets*seenWays)} }
+
+// claim records that a row of batch seq has key k and reports whether the row must be signed: it
+// need not when an earlier batch, or an earlier row of its own, had the key.
+func (c *seenKeys) claim(k dedup.Key, seq int) bool {
+	// Keys are SHA-256 bits: any of them pick a set evenly.
+	set := binary.LittleEndian.Uint32(k[:4]) % seenSets
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	ways := c.slots[set*seenWays : (set+1)*seenWays]
+	for i := range ways {
+		w := &ways[i]
+		switch {
+		case w.seq == 0:
+			// Slots fill in order and are never emptied: the key is not in the set.
+			w.key, w.seq = k, seq+1
+			return true
+		case w.key == k:
+			if w.seq-1 <= seq {
+				return false
+			}
+			w.seq = seq + 1
+			return true
+		}
+	}
+	ways[k[4]%seenWays] = seenSlot{key: k, seq: seq + 1}
+	return true
 }
 
 // work is the keying the worker did, every row's; its signing is counted by the collector.

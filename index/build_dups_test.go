@@ -118,3 +118,43 @@ func TestDupsMatchDetector(t *testing.T) {
 		t.Errorf("NoDups: dups file: %v", err)
 	}
 }
+
+// TestSeenKeys checks which rows the workers' shared cache of keys lets go unsigned: those with a
+// key met in an earlier batch or earlier in their own, never the first row of a key.
+func TestSeenKeys(t *testing.T) {
+	c := newSeenKeys()
+	k := dedup.Key{1, 2, 3, 4, 5}
+	for _, step := range []struct {
+		seq  int
+		sign bool
+	}{
+		{5, true},  // the first met
+		{5, false}, // a later row of the same batch
+		{7, false}, // a later batch
+		{3, true},  // an earlier batch, met later: it may be the first
+		{4, false}, // after batch 3
+		{3, false},
+	} {
+		if got := c.claim(k, step.seq); got != step.sign {
+			t.Errorf("batch %d: sign %v, want %v", step.seq, got, step.sign)
+		}
+	}
+	// A full set forgets one key for a new one: that key is then signed again.
+	var keys []dedup.Key
+	for i := range seenWays + 1 {
+		key := dedup.Key{9, 9, 9, 9, byte(i)}
+		keys = append(keys, key)
+		if !c.claim(key, 1) {
+			t.Errorf("key %d: not signed when first met", i)
+		}
+	}
+	signed := 0
+	for _, key := range keys {
+		if c.claim(key, 2) {
+			signed++
+		}
+	}
+	if signed == 0 {
+		t.Errorf("%d keys in a set of %d: none forgotten", seenWays+1, seenWays)
+	}
+}

@@ -251,9 +251,9 @@ func (s *Signer) Reset() {
 	}
 }
 
-// wordByte maps an ASCII byte to itself case folded when it belongs in a word, and to 0 when it
-// separates words.
-var wordByte = func() (t [utf8.RuneSelf]byte) {
+// wordByte maps a byte to itself case folded when it is ASCII and belongs in a word, and to 0
+// otherwise: when it separates words, or starts a rune that is not ASCII.
+var wordByte = func() (t [256]byte) {
 	for c := range t {
 		switch {
 		case 'a' <= c && c <= 'z' || '0' <= c && c <= '9':
@@ -272,31 +272,39 @@ func (s *Signer) Write(p []byte) (int, error) {
 	n := len(p)
 	s.work.Bytes += int64(n)
 	p = s.feed(p, s.rune)
-	// The word's state lives in locals in the ASCII loop, the common case, and in s elsewhere.
+	// The word's state lives in locals in the ASCII loops, the common case, and in s elsewhere.
 	word, inWord := s.word, s.inWord
-	for i := 0; i < len(p); i++ {
-		c := p[i]
-		if c >= utf8.RuneSelf {
-			s.word, s.inWord = word, inWord
-			if !utf8.FullRune(p[i:]) {
-				s.keep(p[i:])
-				return n, nil
+	for i := 0; i < len(p); {
+		// The bytes of an ASCII word, in a loop of their own.
+		if c := wordByte[p[i]]; c != 0 {
+			word = (word ^ uint64(c)) * fnvPrime
+			for i++; i < len(p); i++ {
+				c := wordByte[p[i]]
+				if c == 0 {
+					break
+				}
+				word = (word ^ uint64(c)) * fnvPrime
 			}
-			r, raw, size := decode(p[i:])
-			s.rune(r, raw)
-			i += size - 1
-			word, inWord = s.word, s.inWord
+			inWord = true
 			continue
 		}
-		if c = wordByte[c]; c == 0 {
+		if c := p[i]; c < utf8.RuneSelf {
+			i++
 			if inWord {
 				s.addWord(word)
 				word, inWord = fnvOffset, false
 			}
 			continue
 		}
-		word = (word ^ uint64(c)) * fnvPrime
-		inWord = true
+		s.word, s.inWord = word, inWord
+		if !utf8.FullRune(p[i:]) {
+			s.keep(p[i:])
+			return n, nil
+		}
+		r, raw, size := decode(p[i:])
+		s.rune(r, raw)
+		i += size
+		word, inWord = s.word, s.inWord
 	}
 	s.word, s.inWord = word, inWord
 	return n, nil
@@ -389,6 +397,10 @@ func (s *Signer) put(i int, x uint64) {
 // branch on the data: a value below 2³²−1 always replaces 2³²−1, so a bin is filled exactly when
 // it held that.
 func (s *Signer) round(i int) {
+	if len(s.sig) == DefaultHashes {
+		s.filled += roundDefault((*[DefaultHashes]uint32)(s.sig), s.buf, s.seeds[i], uint32(i)<<s.shift)
+		return
+	}
 	sig := s.sig
 	k := uint64(len(sig))
 	seed, base, shift := s.seeds[i], uint32(i)<<s.shift, 32-s.shift
@@ -402,6 +414,21 @@ func (s *Signer) round(i int) {
 		sig[bin] = min(old, v)
 	}
 	s.filled = filled
+}
+
+// roundDefault is round for K = DefaultHashes, 128, whose constants let the compiler keep every
+// value in a register: the bin is the top 7 bits of the low word, and the value's random part the
+// top 23 bits of the high word (32 − q with q = 9 bits for 2K = 256 rounds). It returns the bins
+// filled.
+func roundDefault(sig *[DefaultHashes]uint32, buf []uint64, seed uint64, base uint32) int {
+	filled := 0
+	for _, x := range buf {
+		z := mix64(x ^ seed)
+		old := sig[uint32(z)>>25]
+		filled += isMax(old)
+		sig[uint32(z)>>25] = min(old, base|uint32(z>>41))
+	}
+	return filled
 }
 
 // isMax is 1 for 2³²−1, the value of an empty bin, and 0 otherwise, without a branch.
