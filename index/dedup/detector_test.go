@@ -3,6 +3,7 @@ package dedup
 import (
 	"errors"
 	"math"
+	"math/rand/v2"
 	"slices"
 	"testing"
 )
@@ -208,7 +209,42 @@ func TestTable(t *testing.T) {
 			t.Fatalf("key %d: %d, %v", i, v, found)
 		}
 	}
-	if tb.n != 5000 || 4*tb.n > 3*len(tb.keys) {
-		t.Errorf("%d keys in %d slots", tb.n, len(tb.keys))
+	if tb.n != 5000 || 4*tb.n > 3*tb.len() {
+		t.Errorf("%d keys in %d slots", tb.n, tb.len())
+	}
+}
+
+// TestEstimateCountsBytes checks the eight-at-a-time count of agreeing sketch bytes against a
+// count byte by byte, for a K that is a multiple of 8 and one that is not.
+func TestEstimateCountsBytes(t *testing.T) {
+	rng := rand.New(rand.NewPCG(11, 12))
+	for _, k := range []int{128, 12} {
+		d, err := NewDetector(Params{Hashes: k, Bands: 4})
+		if err != nil {
+			t.Fatal(err)
+		}
+		sig := make(Signature, k)
+		for row := range 50 {
+			for i := range sig {
+				// Few distinct low bytes, so that many agree.
+				sig[i] = uint32(rng.IntN(3))<<8 | uint32(rng.IntN(3))
+			}
+			if _, err := d.Add(nil, row, sig); err != nil {
+				t.Fatal(err)
+			}
+		}
+		for x := range uint32(50) {
+			for y := range uint32(50) {
+				m := 0
+				for i := range k {
+					if d.sketch[int(x)*k+i] == d.sketch[int(y)*k+i] {
+						m++
+					}
+				}
+				if got, want := d.estimate(x, y), sketchSimilarity(m, k); got != want {
+					t.Fatalf("K=%d rows %d, %d: estimate %v, want %v", k, x, y, got, want)
+				}
+			}
+		}
 	}
 }

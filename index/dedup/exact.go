@@ -134,9 +134,10 @@ func (n *normalizer) write(p []byte) {
 	n.out, n.space, n.started = out, space, started
 }
 
-// SWAR constants: a byte's high bit, and 1 in every byte.
+// SWAR constants: the high bit of every byte, the other bits, and 1 in every byte.
 const (
 	highBits = 0x8080808080808080
+	lowBits  = 0x7f7f7f7f7f7f7f7f
 	oneBytes = 0x0101010101010101
 )
 

@@ -346,8 +346,14 @@ func (s *Signer) shingles() {
 	if len(w) < k {
 		return
 	}
-	for i := 0; i+k <= len(w); i++ {
-		s.addHash(shingleHash(w[i : i+k]))
+	if k == DefaultShingle {
+		for i := 0; i+DefaultShingle <= len(w); i++ {
+			s.addHash(shingleHash5((*[DefaultShingle]uint64)(w[i : i+DefaultShingle])))
+		}
+	} else {
+		for i := 0; i+k <= len(w); i++ {
+			s.addHash(shingleHash(w[i : i+k]))
+		}
 	}
 	s.work.ShingleWords += int64((len(w) - k + 1) * k)
 	s.words = w[:copy(w, w[len(w)-k+1:])]
@@ -361,6 +367,23 @@ func shingleHash(w []uint64) uint64 {
 		h ^= h >> 29
 	}
 	return mix64(h ^ uint64(len(w)))
+}
+
+// shingleHash5 is shingleHash for a shingle of DefaultShingle words, written out.
+func shingleHash5(w *[DefaultShingle]uint64) uint64 {
+	const m = 0x9E3779B97F4A7C15
+	h := uint64(0x243F6A8885A308D3)
+	h = (h ^ w[0]) * m
+	h ^= h >> 29
+	h = (h ^ w[1]) * m
+	h ^= h >> 29
+	h = (h ^ w[2]) * m
+	h ^= h >> 29
+	h = (h ^ w[3]) * m
+	h ^= h >> 29
+	h = (h ^ w[4]) * m
+	h ^= h >> 29
+	return mix64(h ^ DefaultShingle)
 }
 
 // addHash takes the hash of one shingle of the row. Past maxBuffered it takes part in round 0 now
