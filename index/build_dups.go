@@ -223,12 +223,14 @@ func (s *signRow) sum(o *batchOut) {
 // row whose key it holds from an earlier batch, or from its own batch (an earlier row: a batch is
 // one worker's, in order), is not the first of its exact duplicates, and the collector will not
 // need its signature. It saves signing the repeats of a pool, however far apart and whichever
-// workers their batches fall to. It is a cache of fixed size, seenSets sets of seenWays keys:
-// a key that finds its set full takes the place of one in it, and a key forgotten costs only a
-// signature made. The first row of a key is always signed: nothing before it put the key there.
+// workers their batches fall to. It is a cache in sets of seenWays keys that doubles each time it is
+// 3/8 full, up to seenMaxSlots (3 MiB), so that a small build holds little; then a key that finds its set full takes the place of one in it, and
+// a key forgotten costs only a signature made. The first row of a key is always signed: nothing
+// before it put the key there.
 type seenKeys struct {
 	mu    sync.Mutex
 	slots []seenSlot
+	n     int // keys held
 }
 
 type seenSlot struct {
@@ -236,28 +238,30 @@ type seenSlot struct {
 	seq int // the batch's number plus one; 0 for an empty slot
 }
 
-// The cache's size: 2¹⁷ keys, 3 MiB, made once a build.
 const (
-	seenSets = 1 << 15
-	seenWays = 4
+	seenWays     = 8
+	seenMinSlots = 1 << 12
+	seenMaxSlots = 1 << 17
 )
 
-func newSeenKeys() *seenKeys { return &seenKeys{slots: make([]seenSlot, seenSets*seenWays)} }
+func newSeenKeys() *seenKeys { return &seenKeys{slots: make([]seenSlot, seenMinSlots)} }
 
 // claim records that a row of batch seq has key k and reports whether the row must be signed: it
 // need not when an earlier batch, or an earlier row of its own, had the key.
 func (c *seenKeys) claim(k dedup.Key, seq int) bool {
-	// Keys are SHA-256 bits: any of them pick a set evenly.
-	set := binary.LittleEndian.Uint32(k[:4]) % seenSets
 	c.mu.Lock()
 	defer c.mu.Unlock()
-	ways := c.slots[set*seenWays : (set+1)*seenWays]
+	if 8*c.n >= 3*len(c.slots) && len(c.slots) < seenMaxSlots {
+		c.grow()
+	}
+	ways := c.set(k)
 	for i := range ways {
 		w := &ways[i]
 		switch {
 		case w.seq == 0:
 			// Slots fill in order and are never emptied: the key is not in the set.
 			w.key, w.seq = k, seq+1
+			c.n++
 			return true
 		case w.key == k:
 			if w.seq-1 <= seq {
@@ -269,6 +273,30 @@ func (c *seenKeys) claim(k dedup.Key, seq int) bool {
 	}
 	ways[k[4]%seenWays] = seenSlot{key: k, seq: seq + 1}
 	return true
+}
+
+// set returns the slots of k's set. Keys are SHA-256 bits: any of them pick a set evenly.
+func (c *seenKeys) set(k dedup.Key) []seenSlot {
+	set := int(binary.LittleEndian.Uint32(k[:4]) % uint32(len(c.slots)/seenWays))
+	return c.slots[set*seenWays : (set+1)*seenWays]
+}
+
+// grow doubles the cache, keeping its keys (but for the rare one whose new set is already full).
+func (c *seenKeys) grow() {
+	old := c.slots
+	c.slots = make([]seenSlot, 2*len(old))
+	for _, w := range old {
+		if w.seq == 0 {
+			continue
+		}
+		ways := c.set(w.key)
+		for i := range ways {
+			if ways[i].seq == 0 {
+				ways[i] = w
+				break
+			}
+		}
+	}
 }
 
 // work is the keying the worker did, every row's; its signing is counted by the collector.

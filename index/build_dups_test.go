@@ -2,8 +2,10 @@ package index
 
 import (
 	"bytes"
+	"crypto/sha256"
 	"os"
 	"path/filepath"
+	"strconv"
 	"testing"
 
 	"sluice/index/dedup"
@@ -156,5 +158,23 @@ func TestSeenKeys(t *testing.T) {
 	}
 	if signed == 0 {
 		t.Errorf("%d keys in a set of %d: none forgotten", seenWays+1, seenWays)
+	}
+	// Growing keeps the keys: a pool of 3/8 as many distinct keys as the most slots (the T0 pool has
+	// 50,000) has its repeats known but for a few.
+	c = newSeenKeys()
+	var many []dedup.Key
+	for i := range seenMaxSlots * 3 / 8 {
+		h := sha256.Sum256([]byte(strconv.Itoa(i)))
+		many = append(many, dedup.Key(h[:16]))
+		c.claim(many[i], 1)
+	}
+	forgot := 0 // a few at most: sets of eight at 3/8 full rarely overflow
+	for _, key := range many {
+		if c.claim(key, 2) {
+			forgot++
+		}
+	}
+	if len(c.slots) != seenMaxSlots || forgot > len(many)/100 {
+		t.Errorf("%d slots; %d of %d keys forgotten", len(c.slots), forgot, len(many))
 	}
 }
