@@ -16,7 +16,6 @@ import (
 	"os"
 	"path/filepath"
 	"runtime"
-	"slices"
 	"strconv"
 	"strings"
 	"sync"
@@ -364,9 +363,8 @@ type builder struct {
 	held     map[int]*heldHead
 
 	workers     []*worker
-	freeBatches chan *batch   // batches workers are done with; its capacity bounds how many exist
-	freeSigs    chan []uint32 // signature buffers the collector is done with
-	batches     int           // batches made so far
+	freeBatches chan *batch // batches workers are done with; its capacity bounds how many exist
+	batches     int         // batches made so far
 	maxBatches  int
 	base        []int64 // first row number of each batch
 	srcRows     map[int]int64
@@ -404,9 +402,6 @@ func (b *builder) run(ctx context.Context) (*Stats, error) {
 	// reader.
 	b.maxBatches = b.opt.Workers*3 + 2
 	b.freeBatches = make(chan *batch, b.maxBatches)
-	// The batches' signature buffers (most of a megabyte each) are reused like the batches,
-	// rather than left to the garbage collector.
-	b.freeSigs = make(chan []uint32, b.maxBatches)
 	var wg sync.WaitGroup
 	var werr error
 	var werrOnce sync.Once
@@ -430,7 +425,6 @@ func (b *builder) run(ctx context.Context) (*Stats, error) {
 			if w.sign, err = newSignRow(b.dups.prm, seen); err != nil {
 				return nil, fmt.Errorf("build index: %w", err)
 			}
-			w.freeSigs = b.freeSigs
 		}
 		if w.ex, err = jsonl.NewExtractor(b.spec, b.opt.ID, b.opt.Tokens); err != nil {
 			return nil, fmt.Errorf("build index: %w", err)
@@ -1006,7 +1000,6 @@ type worker struct {
 	tok      *tokens.Tokenizer // counts the tokens of each row's text fields; nil to take tokField
 	cut      []byte            // text with long runs cut, see cutLongRuns
 	sign     *signRow          // hashes rows for duplicates; nil without
-	freeSigs chan []uint32     // signature buffers the collector is done with, for reuse
 }
 
 func (w *worker) work(ctx context.Context, in <-chan *batch, out chan<- *batchOut, paths []string) error {
@@ -1050,12 +1043,7 @@ func (w *worker) do(bt *batch, paths []string) (*batchOut, error) {
 		// At most a row a line: made once, not grown row by row.
 		o.keys = make([]dedup.Key, 0, len(bt.lines))
 		o.signed = make([]bool, 0, len(bt.lines))
-		var buf []uint32
-		select {
-		case buf = <-w.freeSigs:
-		default:
-		}
-		o.sigs = slices.Grow(buf[:0], len(bt.lines)*w.sign.k)
+		o.sigs = make([]uint32, 0, len(bt.lines)*w.sign.k)
 	}
 	file := paths[bt.src]
 	local := uint64(0)

@@ -312,11 +312,6 @@ func (b *builder) addDups(o *batchOut) error {
 	if err := b.dups.add(b.meta.Rows, o.keys, o.signed, o.sigs, o.signWork); err != nil {
 		return err
 	}
-	select {
-	case b.freeSigs <- o.sigs:
-	default:
-	}
-	o.sigs = nil
 	n := b.dups.bytes()
 	b.dupMem.Store(n)
 	b.dupPeak = max(b.dupPeak, n)
