@@ -100,22 +100,7 @@ func writeSet(path string, dirs []string, allowOverlap bool) (Meta, error) {
 	}
 	m := ix.Meta()
 	ix.Close()
-	f, err := atomicdir.TempFile(path)
-	if err != nil {
-		return Meta{}, err
-	}
-	_, err = f.Write(buf.Bytes())
-	if err == nil {
-		err = f.Sync()
-	}
-	if cerr := f.Close(); err == nil {
-		err = cerr
-	}
-	if err == nil {
-		err = os.Rename(f.Name(), path)
-	}
-	if err != nil {
-		os.Remove(f.Name())
+	if err := atomicdir.ReplaceFile(path, buf.Bytes()); err != nil {
 		return Meta{}, err
 	}
 	return m, nil

@@ -87,6 +87,30 @@ func TempFile(path string) (*os.File, error) {
 	return nil, &os.PathError{Op: "open", Path: prefix + "*", Err: fs.ErrExist}
 }
 
+// ReplaceFile writes b to a new file beside path (TempFile), syncs it and renames it onto path, so
+// path holds its old bytes or all of b, never part of them. The caller decides first whether path
+// may be replaced.
+func ReplaceFile(path string, b []byte) error {
+	f, err := TempFile(path)
+	if err != nil {
+		return err
+	}
+	_, err = f.Write(b)
+	if err == nil {
+		err = f.Sync()
+	}
+	if cerr := f.Close(); err == nil {
+		err = cerr
+	}
+	if err == nil {
+		err = os.Rename(f.Name(), path)
+	}
+	if err != nil {
+		os.Remove(f.Name())
+	}
+	return err
+}
+
 // lockWorking locks the working folder made and renames it to its final name, which adds the number
 // of the descriptor holding the lock: "pid-random-descriptor". Publish and Discard, given only the
 // folder's path, find the descriptor there to release the lock; a folder named "pid-random" is one

@@ -7,7 +7,6 @@ import (
 	"fmt"
 	"html/template"
 	"math"
-	"os"
 	"path/filepath"
 	"sort"
 	"strconv"
@@ -514,22 +513,7 @@ func (rep *Page) WriteFile(out string) error {
 	if err := reportPage.Execute(&buf, rep); err != nil {
 		return fmt.Errorf("report: %w", err)
 	}
-	f, err := atomicdir.TempFile(out)
-	if err != nil {
-		return fmt.Errorf("write %s: %w", out, err)
-	}
-	_, err = f.Write(buf.Bytes())
-	if err == nil {
-		err = f.Sync()
-	}
-	if cerr := f.Close(); err == nil {
-		err = cerr
-	}
-	if err == nil {
-		err = os.Rename(f.Name(), out)
-	}
-	if err != nil {
-		os.Remove(f.Name())
+	if err := atomicdir.ReplaceFile(out, buf.Bytes()); err != nil {
 		return fmt.Errorf("write %s: %w", out, err)
 	}
 	return nil
