@@ -65,6 +65,8 @@ type Options struct {
 	Command []string
 
 	batchRows int // rows per batch handed to a worker; tests make it small to force many spills
+	// trace, when set, is told when the merge starts ("merge") and ends ("merged"); benchmarks time it.
+	trace func(event string)
 }
 
 // Defaults for Options.

@@ -2,6 +2,7 @@ package index
 
 import (
 	"bufio"
+	"bytes"
 	"context"
 	"encoding/binary"
 	"encoding/json"
@@ -104,31 +105,43 @@ type runFile struct {
 // from the data or the number of cores, so the bytes written depend on neither.
 const mergeSplit = "m"
 
-// runCursor reads one run term by term, from a file or from memory.
+// runCursor reads one run term by term, from a file or from memory. Of the current term it holds
+// the bytes and df, and hands out its postings a window at a time (window, consume).
 type runCursor struct {
-	end  int // for a run in memory: where its part of the terms ends
-	f    *os.File
-	r    *bufio.Reader
-	mem  *memRun
-	i    int    // next term of mem
-	buf  []byte // the rest of the current term's postings, for a run in memory
-	path string
-	term []byte
-	df   uint64
-	left uint64 // postings of the current term not yet read
-	key  uint64
-	tf   uint64
-	done bool
+	path   string // names the run in errors
+	worker int    // the worker that made the run
+	ord    int    // the run's place among all runs: by worker, then in the order they were made
+	term   []byte
+	df     uint64
+	done   bool
+	// A run in memory: its dictionary, the next of its terms in order and where its part ends, and
+	// the current term's postings not yet consumed.
+	mem    *memRun
+	i, end int
+	post   []byte
+	// A run file: the bytes [off, stop) of f are not yet read; buf[r:w] are read and not consumed,
+	// and left bytes of the current term's postings are not yet consumed.
+	f         *os.File
+	off, stop int64
+	buf       []byte
+	r, w      int
+	left      int64
 }
 
+// maxEntryHead bounds a run entry's bytes before its postings: length, term, df, byte length.
+const maxEntryHead = 3*binary.MaxVarintLen64 + MaxTermBytes
+
+// maxPosting bounds the bytes of one posting in a run: key delta and tf.
+const maxPosting = 2 * binary.MaxVarintLen64
+
 // openRun opens the bytes [from, to) of a run file, which hold whole terms, read through a buffer of
-// bufSize bytes.
+// bufSize bytes (at least maxEntryHead) with one pread per refill.
 func openRun(rf runFile, from, to int64, bufSize int) (*runCursor, error) {
 	f, err := os.Open(rf.path)
 	if err != nil {
 		return nil, fmt.Errorf("build index: read run %s: %w", rf.shown, bareErr(err))
 	}
-	c := &runCursor{f: f, r: bufio.NewReaderSize(io.NewSectionReader(f, from, to-from), bufSize), path: rf.shown}
+	c := &runCursor{f: f, off: from, stop: to, buf: make([]byte, max(bufSize, maxEntryHead)), path: rf.shown}
 	return c, c.next()
 }
 
@@ -145,6 +158,22 @@ func openMemRun(m *memRun, lo, hi, name string) (*runCursor, error) {
 	return c, c.next()
 }
 
+// fill moves the unconsumed bytes to the front of buf and reads as many more as fit.
+func (c *runCursor) fill() error {
+	c.w = copy(c.buf, c.buf[c.r:c.w])
+	c.r = 0
+	for c.w < len(c.buf) && c.off < c.stop {
+		n, err := c.f.ReadAt(c.buf[c.w:c.w+int(min(int64(len(c.buf)-c.w), c.stop-c.off))], c.off)
+		c.w += n
+		c.off += int64(n)
+		if err != nil && !(err == io.EOF && n > 0) {
+			return c.bad(err)
+		}
+	}
+	return nil
+}
+
+// next moves to the run's next term, skipping what is left of the current term's postings.
 func (c *runCursor) next() error {
 	if c.mem != nil {
 		if c.i == c.end {
@@ -154,66 +183,82 @@ func (c *runCursor) next() error {
 		id := c.mem.order[c.i]
 		c.i++
 		c.term = append(c.term[:0], c.mem.terms[id]...)
-		c.df, c.left, c.key = uint64(c.mem.st[id].df), uint64(c.mem.st[id].df), 0
-		c.buf = c.mem.st[id].post
+		c.df = uint64(c.mem.st[id].df)
+		c.post = c.mem.st[id].post
 		return nil
 	}
-	for c.left > 0 { // skip what the merge did not read
-		if err := c.posting(); err != nil {
+	for c.left > 0 {
+		if c.r == c.w {
+			if err := c.fill(); err != nil {
+				return err
+			}
+			if c.r == c.w {
+				return c.bad(io.ErrUnexpectedEOF)
+			}
+		}
+		k := int(min(c.left, int64(c.w-c.r)))
+		c.r += k
+		c.left -= int64(k)
+	}
+	if c.w-c.r < maxEntryHead && c.off < c.stop {
+		if err := c.fill(); err != nil {
 			return err
 		}
 	}
-	n, err := binary.ReadUvarint(c.r)
-	if err == io.EOF {
+	if c.r == c.w {
 		c.done = true
-		return c.f.Close()
+		err := c.f.Close()
+		c.f = nil
+		return err
 	}
-	if err != nil {
-		return c.bad(err)
+	b := c.buf[c.r:c.w]
+	n, k := binary.Uvarint(b)
+	if k <= 0 || n > MaxTermBytes || uint64(len(b)-k) < n {
+		return c.bad(io.ErrUnexpectedEOF)
 	}
-	c.term = slices.Grow(c.term[:0], int(n))[:n]
-	if _, err := io.ReadFull(c.r, c.term); err != nil {
-		return c.bad(err)
+	c.term = append(c.term[:0], b[k:k+int(n)]...)
+	at := k + int(n)
+	df, k := binary.Uvarint(b[at:])
+	if k <= 0 {
+		return c.bad(io.ErrUnexpectedEOF)
 	}
-	if c.df, err = binary.ReadUvarint(c.r); err != nil {
-		return c.bad(err)
+	at += k
+	size, k := binary.Uvarint(b[at:])
+	if k <= 0 || size > math.MaxInt64 {
+		return c.bad(io.ErrUnexpectedEOF)
 	}
-	if _, err = binary.ReadUvarint(c.r); err != nil {
-		return c.bad(err)
-	}
-	c.left, c.key = c.df, 0
+	c.r += at + k
+	c.df, c.left = df, int64(size)
 	return nil
 }
 
-// posting reads the next posting of the current term into key and tf.
-func (c *runCursor) posting() error {
+// window returns the current term's postings read and not yet consumed, and whether they are all
+// of them; a window that is not the last holds at least maxPosting bytes, so a posting that starts
+// within maxPosting of its end is read from the next window.
+func (c *runCursor) window() ([]byte, bool, error) {
 	if c.mem != nil {
-		d, k := binary.Uvarint(c.buf)
-		if k <= 0 {
-			return c.bad(io.ErrUnexpectedEOF)
+		return c.post, true, nil
+	}
+	if int64(c.w-c.r) < min(c.left, maxPosting) {
+		if err := c.fill(); err != nil {
+			return nil, false, err
 		}
-		tf, k2 := binary.Uvarint(c.buf[k:])
-		if k2 <= 0 {
-			return c.bad(io.ErrUnexpectedEOF)
+		if int64(c.w-c.r) < min(c.left, maxPosting) {
+			return nil, false, c.bad(io.ErrUnexpectedEOF)
 		}
-		c.buf = c.buf[k+k2:]
-		c.key += d
-		c.tf = tf
-		c.left--
-		return nil
 	}
-	d, err := binary.ReadUvarint(c.r)
-	if err != nil {
-		return c.bad(err)
+	n := min(c.left, int64(c.w-c.r))
+	return c.buf[c.r : c.r+int(n)], n == c.left, nil
+}
+
+// consume marks the first n bytes of the last window as read.
+func (c *runCursor) consume(n int) {
+	if c.mem != nil {
+		c.post = c.post[n:]
+		return
 	}
-	tf, err := binary.ReadUvarint(c.r)
-	if err != nil {
-		return c.bad(err)
-	}
-	c.key += d
-	c.tf = tf
-	c.left--
-	return nil
+	c.r += n
+	c.left -= int64(n)
 }
 
 func (c *runCursor) bad(err error) error {
@@ -223,11 +268,132 @@ func (c *runCursor) bad(err error) error {
 	return fmt.Errorf("build index: read run %s: %w", c.path, bareErr(err))
 }
 
+// termHeap orders the cursors by term, then by their place among the runs, so the runs holding the
+// least term come off it by worker and, within a worker, in the order they were made.
+type termHeap []*runCursor
+
+func (h termHeap) less(i, j int) bool {
+	if c := bytes.Compare(h[i].term, h[j].term); c != 0 {
+		return c < 0
+	}
+	return h[i].ord < h[j].ord
+}
+
+func (h *termHeap) push(c *runCursor) {
+	*h = append(*h, c)
+	s := *h
+	for i := len(s) - 1; i > 0; {
+		p := (i - 1) / 2
+		if !s.less(i, p) {
+			break
+		}
+		s[i], s[p] = s[p], s[i]
+		i = p
+	}
+}
+
+func (h *termHeap) pop() *runCursor {
+	s := *h
+	top := s[0]
+	last := len(s) - 1
+	s[0] = s[last]
+	s[last] = nil
+	s = s[:last]
+	for i := 0; ; {
+		l, m := 2*i+1, i
+		if l < len(s) && s.less(l, m) {
+			m = l
+		}
+		if r := l + 1; r < len(s) && s.less(r, m) {
+			m = r
+		}
+		if m == i {
+			break
+		}
+		s[i], s[m] = s[m], s[i]
+		i = m
+	}
+	*h = s
+	return top
+}
+
+// postStream is one worker's postings of a term: the term's postings in each of the worker's runs
+// that hold it, one after another. A worker takes batches in input order, so its runs hold rows in
+// that order and the stream is ascending without any merge within it.
+type postStream struct {
+	cs    []*runCursor
+	ci    int    // the cursor being read
+	chunk []byte // its window
+	final bool   // whether the window is the last of the cursor's postings of the term
+	p     int    // read up to here in chunk
+	acc   uint64 // the key of the cursor's last posting read
+	n     uint64 // postings read over all cursors
+	key   uint64 // the head posting
+	tf    uint64
+}
+
+// start points the stream at the first posting of its first cursor.
+func (s *postStream) start() (bool, error) {
+	s.ci, s.p, s.acc, s.n = 0, 0, 0, 0
+	var err error
+	if s.chunk, s.final, err = s.cs[0].window(); err != nil {
+		return false, err
+	}
+	return s.advance()
+}
+
+// advance reads the next posting into key and tf, and says whether there was one.
+func (s *postStream) advance() (bool, error) {
+	for {
+		if s.p < len(s.chunk) && (s.final || s.p+maxPosting <= len(s.chunk)) {
+			b := s.chunk[s.p:]
+			var d, tf uint64
+			var k int
+			if b[0] < 0x80 {
+				d, k = uint64(b[0]), 1
+			} else if d, k = binary.Uvarint(b); k <= 0 {
+				return false, s.cs[s.ci].bad(io.ErrUnexpectedEOF)
+			}
+			if k < len(b) && b[k] < 0x80 {
+				tf, k = uint64(b[k]), k+1
+			} else {
+				t, k2 := binary.Uvarint(b[k:])
+				if k2 <= 0 {
+					return false, s.cs[s.ci].bad(io.ErrUnexpectedEOF)
+				}
+				tf, k = t, k+k2
+			}
+			s.p += k
+			s.acc += d
+			s.key, s.tf = s.acc, tf
+			s.n++
+			return true, nil
+		}
+		c := s.cs[s.ci]
+		c.consume(s.p)
+		s.p = 0
+		if s.final {
+			if s.ci++; s.ci == len(s.cs) {
+				return false, nil
+			}
+			c, s.acc = s.cs[s.ci], 0
+		}
+		var err error
+		if s.chunk, s.final, err = c.window(); err != nil {
+			return false, err
+		}
+	}
+}
+
 // merge k-way merges every worker's runs into the lexicon and postings, translating batch-local
 // keys into row numbers, and computes each row's TF-IDF norm once document frequencies are final.
 // The terms below mergeSplit and those from it on are merged by two goroutines into files of their
 // own, which are then joined: lexicon entries hold lengths, not offsets, so the parts just follow.
 func (b *builder) merge(ctx context.Context) (*Stats, error) {
+	if b.opt.trace != nil {
+		b.opt.trace("merge")
+		defer b.opt.trace("merged")
+	}
 	st := &Stats{}
 	for _, w := range b.workers {
 		st.Runs += len(w.runs)
@@ -294,11 +460,16 @@ type mergePart struct {
 	err             error
 }
 
+// mergePart takes the terms off a heap of every run's cursor, least first. A term's postings are
+// each worker's runs concatenated (postStream) and the workers' streams merged by key: a worker's
+// keys are ascending and batches are whole to one worker, so the merge moves from one worker to
+// another only where a batch of the other comes first. The work per posting is the same whatever
+// the number of runs.
 func (b *builder) mergePart(ctx context.Context, p *mergePart) error {
-	var cursors []*runCursor
+	var all []*runCursor
 	defer func() {
-		for _, c := range cursors {
-			if !c.done && c.f != nil {
+		for _, c := range all {
+			if c.f != nil {
 				c.f.Close()
 			}
 		}
@@ -311,26 +482,34 @@ func (b *builder) mergePart(ctx context.Context, p *mergePart) error {
 	}
 	bufSize := 1 << 20
 	if runs > 0 {
-		bufSize = int(min(max(b.opt.Mem/int64(2*runs), 4<<10), 1<<20))
+		bufSize = int(min(max(b.opt.Mem/int64(2*runs), 16<<10), 1<<20))
 	}
-	for _, w := range b.workers {
+	var h termHeap
+	for wi, w := range b.workers {
+		add := func(c *runCursor, err error) error {
+			if err != nil {
+				return err
+			}
+			c.worker, c.ord = wi, len(all)
+			all = append(all, c)
+			if !c.done {
+				h.push(c)
+			}
+			return nil
+		}
 		for _, rf := range w.runs {
 			from, to := int64(0), rf.split
 			if p.lo != "" {
 				from, to = rf.split, rf.size
 			}
-			c, err := openRun(rf, from, to, bufSize)
-			if err != nil {
+			if err := add(openRun(rf, from, to, bufSize)); err != nil {
 				return err
 			}
-			cursors = append(cursors, c)
 		}
 		if w.memRun != nil {
-			c, err := openMemRun(w.memRun, p.lo, p.hi, fmt.Sprintf("worker %d in memory", w.id))
-			if err != nil {
+			if err := add(openMemRun(w.memRun, p.lo, p.hi, fmt.Sprintf("worker %d in memory", w.id))); err != nil {
 				return err
 			}
-			cursors = append(cursors, c)
 		}
 	}
 	lex, err := b.wd.create(p.lex)
@@ -347,84 +526,104 @@ func (b *builder) mergePart(ctx context.Context, p *mergePart) error {
 	n := b.meta.Rows
 	norm2 := make([]float64, n)
 	p.norm2 = norm2
+	base := b.base
 	var vb [3 * binary.MaxVarintLen64]byte
 	var same []*runCursor
+	streams := make([]postStream, len(b.workers))
+	var live []*postStream
 	var cur, pb []byte
 	const mask = 1<<localBits - 1
-	for terms := 0; ; terms++ {
+	for terms := 0; len(h) > 0; terms++ {
 		if terms%4096 == 0 {
 			if err := ctx.Err(); err != nil {
 				return err
 			}
 		}
-		same = same[:0]
-		cur = cur[:0]
-		for _, c := range cursors {
-			if c.done {
-				continue
-			}
-			switch {
-			case len(same) == 0:
-				same = append(same, c)
-				cur = append(cur[:0], c.term...)
-			default:
-				switch cmp := strings.Compare(string(c.term), string(cur)); {
-				case cmp < 0:
-					same = append(same[:0], c)
-					cur = append(cur[:0], c.term...)
-				case cmp == 0:
-					same = append(same, c)
-				}
-			}
+		same = append(same[:0], h.pop())
+		cur = append(cur[:0], same[0].term...)
+		for len(h) > 0 && bytes.Equal(h[0].term, cur) {
+			same = append(same, h.pop())
 		}
-		if len(same) == 0 {
-			break
-		}
+		// One stream per worker holding the term, its runs in the order they were made.
 		var df uint64
-		for _, c := range same {
-			df += c.df
-			if err := c.posting(); err != nil {
+		live = live[:0]
+		for i := 0; i < len(same); {
+			j := i + 1
+			for j < len(same) && same[j].worker == same[i].worker {
+				j++
+			}
+			s := &streams[len(live)]
+			s.cs = same[i:j]
+			for _, c := range s.cs {
+				df += c.df
+			}
+			ok, err := s.start()
+			if err != nil {
 				return err
 			}
+			if ok {
+				live = append(live, s)
+			}
+			i = j
 		}
 		// Smooth idf as in score's TF-IDF: ln((1+N)/(1+df)) + 1.
 		idf := math.Log(float64(1+n)/float64(1+int64(df))) + 1
 		start := post.n
 		prev := int64(-1)
-		for postings := 1; ; postings++ {
+		var got uint64
+		for switches := 1; len(live) > 0; switches++ {
 			// A term held by most rows has as many postings: look at ctx within it too.
-			if postings%(1<<20) == 0 {
+			if switches%1024 == 0 {
 				if err := ctx.Err(); err != nil {
 					return err
 				}
 			}
-			var best *runCursor
-			for _, c := range same {
-				if c.tf == 0 {
-					continue // exhausted for this term
-				}
-				if best == nil || c.key < best.key {
-					best = c
+			bi := 0
+			for i := 1; i < len(live); i++ {
+				if live[i].key < live[bi].key {
+					bi = i
 				}
 			}
-			if best == nil {
-				break
+			bound := uint64(math.MaxUint64)
+			for i, s := range live {
+				if i != bi {
+					bound = min(bound, s.key)
+				}
 			}
-			seq := best.key >> localBits
-			if seq >= uint64(len(b.base)) {
-				return fmt.Errorf("build index: run %s: batch %d out of range", best.path, seq)
-			}
-			row := b.base[seq] + int64(best.key&mask)
-			if row <= prev || row >= n {
-				return fmt.Errorf("build index: run %s: posting order broken at row %d", best.path, row)
-			}
-			tf := best.tf
-			// A term's postings are encoded into one buffer and written at once: a write of one to
-			// three bytes per posting costs more than encoding it.
-			if tf == 1 {
-				pb = binary.AppendUvarint(pb, uint64(row-prev)<<1|1)
-			} else {
-				pb = binary.AppendUvarint(binary.AppendUvarint(pb, uint64(row-prev)<<1), tf)
+			s := live[bi]
+			for {
+				seq := s.key >> localBits
+				if seq >= uint64(len(base)) {
+					return fmt.Errorf("build index: run %s: batch %d out of range", s.cs[s.ci].path, seq)
+				}
+				row := base[seq] + int64(s.key&mask)
+				if row <= prev || row >= n {
+					return fmt.Errorf("build index: run %s: posting order broken at row %d", s.cs[s.ci].path, row)
+				}
+				tf := s.tf
+				// A term's postings are encoded into one buffer and written at once: a write of one
+				// to three bytes per posting costs more than encoding it.
+				if tf == 1 {
+					pb = binary.AppendUvarint(pb, uint64(row-prev)<<1|1)
+				} else {
+					pb = binary.AppendUvarint(binary.AppendUvarint(pb, uint64(row-prev)<<1), tf)
+				}
+				w := float64(tf) * idf
+				norm2[row] += w * w
+				prev = row
+				ok, err := s.advance()
+				if err != nil {
+					return err
+				}
+				if !ok {
+					got += s.n
+					live[bi] = live[len(live)-1]
+					live = live[:len(live)-1]
+					break
+				}
+				if s.key >= bound {
+					break
+				}
 			}
 			if len(pb) >= 1<<20 {
 				if err := post.write(pb); err != nil {
@@ -432,16 +631,9 @@ func (b *builder) mergePart(ctx context.Context, p *mergePart) error {
 				}
 				pb = pb[:0]
 			}
-			w := float64(tf) * idf
-			norm2[row] += w * w
-			prev = row
-			if best.left > 0 {
-				if err := best.posting(); err != nil {
-					return err
-				}
-			} else {
-				best.tf = 0
-			}
+		}
+		if got != df {
+			return fmt.Errorf("build index: runs of term %q: %d postings, df %d", cur, got, df)
 		}
 		if err := post.write(pb); err != nil {
 			return err
@@ -460,6 +652,9 @@ func (b *builder) mergePart(ctx context.Context, p *mergePart) error {
 		for _, c := range same {
 			if err := c.next(); err != nil {
 				return err
+			}
+			if !c.done {
+				h.push(c)
 			}
 		}
 	}
