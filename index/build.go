@@ -398,8 +398,10 @@ func (b *builder) run(ctx context.Context) (*Stats, error) {
 		}
 		defer b.dups.abort()
 	}
-	// A worker's share of Options.Mem is what the duplicate finder leaves, split evenly.
-	share := func() int64 { return max(0, b.opt.Mem-b.dupMem.Load()) / int64(b.opt.Workers) }
+	// A worker's share of Options.Mem is what the duplicate finder leaves of half of it, split
+	// evenly: Go's collector lets the heap grow to about twice what is live (GOGC=100), so
+	// dictionaries filled to all of Options.Mem would take the process to twice it.
+	share := func() int64 { return max(0, b.opt.Mem/2-b.dupMem.Load()) / int64(b.opt.Workers) }
 	// Enough batches for every worker to hold one and the channel to it two each, and one for the
 	// reader.
 	b.maxBatches = b.opt.Workers*3 + 2
