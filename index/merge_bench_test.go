@@ -61,3 +61,27 @@ func BenchmarkMerge(b *testing.B) {
 		})
 	}
 }
+
+// BenchmarkBuildPool builds $SLUICE_BENCH_POOL (else the T0 files) with the default options, as
+// `sluice index` does, and BenchmarkDryRunPool reads, parses and analyses it alone: with
+// -cpuprofile, where a build's time goes beside its floor.
+func BenchmarkBuildPool(b *testing.B) {
+	files, size := benchPool(b)
+	dir := filepath.Join(b.TempDir(), "idx")
+	b.SetBytes(size)
+	for b.Loop() {
+		if _, err := Build(context.Background(), dir, files, Options{}); err != nil {
+			b.Fatal(err)
+		}
+	}
+}
+
+func BenchmarkDryRunPool(b *testing.B) {
+	files, size := benchPool(b)
+	b.SetBytes(size)
+	for b.Loop() {
+		if _, err := Build(context.Background(), "", files, Options{DryRun: true}); err != nil {
+			b.Fatal(err)
+		}
+	}
+}

@@ -2,8 +2,11 @@ package index
 
 import (
 	"crypto/sha256"
+	"encoding/binary"
 	"encoding/hex"
+	"errors"
 	"fmt"
+	"io"
 	"math/rand/v2"
 	"os"
 	"path/filepath"
@@ -95,5 +98,85 @@ func TestMergeBytesUnchanged(t *testing.T) {
 				}
 			}
 		})
+	}
+}
+
+// TestRunCursorWindows writes a run as spill does and reads it back through buffers from the
+// smallest allowed up, so that entries and postings straddle refills, skipping some terms'
+// postings unread; a run cut short is an error naming it, never a panic or a short read.
+func TestRunCursorWindows(t *testing.T) {
+	type entry struct {
+		term      string
+		keys, tfs []uint64
+	}
+	r := rand.New(rand.NewPCG(7, 9))
+	var entries []entry
+	var data []byte
+	for i := range 300 {
+		e := entry{term: fmt.Sprintf("%s%05d", strings.Repeat("x", r.IntN(MaxTermBytes-5)), i)}
+		key := uint64(0)
+		var post []byte
+		for range 1 + r.IntN(1+i*i/16) {
+			d := 1 + uint64(r.IntN(1<<r.IntN(30)))
+			tf := 1 + uint64(r.IntN(1<<r.IntN(20)))
+			key += d
+			e.keys, e.tfs = append(e.keys, key), append(e.tfs, tf)
+			post = binary.AppendUvarint(binary.AppendUvarint(post, d), tf)
+		}
+		data = binary.AppendUvarint(data, uint64(len(e.term)))
+		data = append(data, e.term...)
+		data = binary.AppendUvarint(binary.AppendUvarint(data, uint64(len(e.keys))), uint64(len(post)))
+		data = append(data, post...)
+		entries = append(entries, e)
+	}
+	path := filepath.Join(t.TempDir(), "run")
+	if err := os.WriteFile(path, data, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	for _, size := range []int{maxEntryHead, maxEntryHead + 7, 4 << 10, 1 << 20} {
+		c, err := openRun(runFile{path: path, shown: "run", size: int64(len(data))}, 0, int64(len(data)), size)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for i, e := range entries {
+			if c.done || string(c.term) != e.term || c.df != uint64(len(e.keys)) {
+				t.Fatalf("buffer %d, term %d: %q df %d done %v, want %q df %d", size, i, c.term, c.df, c.done, e.term, len(e.keys))
+			}
+			if i%3 != 2 { // every third term's postings are left for next to skip
+				s := postStream{cs: []*runCursor{c}}
+				ok, err := s.start()
+				for j := 0; ok; j++ {
+					if j >= len(e.keys) || s.key != e.keys[j] || s.tf != e.tfs[j] {
+						t.Fatalf("buffer %d, term %d, posting %d: key %d tf %d", size, i, j, s.key, s.tf)
+					}
+					ok, err = s.advance()
+				}
+				if err != nil || s.n != uint64(len(e.keys)) {
+					t.Fatalf("buffer %d, term %d: %d postings, %v", size, i, s.n, err)
+				}
+			}
+			if err := c.next(); err != nil {
+				t.Fatal(err)
+			}
+		}
+		if !c.done {
+			t.Fatalf("buffer %d: terms after the last", size)
+		}
+	}
+	for _, cut := range []int{1, 2, 5, 100, len(data) / 2} {
+		c, err := openRun(runFile{path: path, shown: "run-cut"}, 0, int64(len(data)-cut), maxEntryHead)
+		for err == nil && !c.done {
+			s := postStream{cs: []*runCursor{c}}
+			ok, e := s.start()
+			for ok && e == nil {
+				ok, e = s.advance()
+			}
+			if err = e; err == nil {
+				err = c.next()
+			}
+		}
+		if !errors.Is(err, io.ErrUnexpectedEOF) || !strings.Contains(err.Error(), "run-cut") {
+			t.Errorf("cut %d bytes: %v, want an unexpected EOF naming the run", cut, err)
+		}
 	}
 }
