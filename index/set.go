@@ -280,18 +280,22 @@ func (s *segSet) detectedText() (jsonl.Spec, error) {
 	return spec, nil
 }
 
-// terms walks the union of the segments' lexicons in byte order, calling fn with each term and
-// the segments holding it.
-func (s *segSet) terms(fn func(term []byte, in []int) error) error {
+// terms walks the union of the segments' lexicons in byte order, calling fn with each term, the
+// segments holding it and each one's entry for it (in[k]'s entry is at ents[in[k]]): one pass over
+// every lexicon, with no lookups.
+func (s *segSet) terms(fn func(term []byte, in []int, ents []termEntry) error) error {
 	rest := make([][]byte, len(s.segs))
 	heads := make([][]byte, len(s.segs))
+	ents := make([]termEntry, len(s.segs))
 	for i, g := range s.segs {
 		rest[i] = g.lex.b
 	}
 	advance := func(i int) {
 		heads[i] = nil
-		if t, _, _, r, ok := nextEntry(rest[i]); ok {
+		if t, df, pl, r, ok := nextEntry(rest[i]); ok {
 			heads[i], rest[i] = t, r
+			post := ents[i].postEnd
+			ents[i] = termEntry{df: df, post: post, postEnd: post + pl}
 		}
 	}
 	for i := range s.segs {
@@ -315,7 +319,7 @@ func (s *segSet) terms(fn func(term []byte, in []int) error) error {
 		if cur == nil {
 			return nil
 		}
-		if err := fn(cur, in); err != nil {
+		if err := fn(cur, in, ents); err != nil {
 			return err
 		}
 		for _, i := range in {
@@ -326,7 +330,7 @@ func (s *segSet) terms(fn func(term []byte, in []int) error) error {
 
 func (s *segSet) countTerms() int {
 	n := 0
-	s.terms(func([]byte, []int) error { n++; return nil })
+	s.terms(func([]byte, []int, []termEntry) error { n++; return nil })
 	return n
 }
 
@@ -343,19 +347,20 @@ func (s *segSet) rowNorm(row int, n int64) float64 {
 	s.normOnce.Do(func() {
 		parts := [2][]float64{make([]float64, n), make([]float64, n)}
 		var rows, tfs []uint32
-		err := s.terms(func(term []byte, in []int) error {
-			df := 0
+		err := s.terms(func(term []byte, in []int, ents []termEntry) error {
+			var df uint64
 			for _, i := range in {
-				df += s.segs[i].DF(string(term))
+				df += ents[i].df
 			}
-			idf := math.Log(float64(1+n)/float64(1+int64(df))) + 1
+			idf := math.Log(float64(1+n)/float64(1+int64(df))) + 1 // as the build's merge computes it
 			acc := parts[0]
 			if string(term) >= mergeSplit {
 				acc = parts[1]
 			}
 			for _, i := range in {
 				var err error
-				if rows, tfs, err = s.segs[i].Postings(string(term), rows[:0], tfs[:0]); err != nil {
+				c := s.segs[i].cursorAt(ents[i], string(term))
+				if rows, tfs, err = c.Next(math.MaxInt, rows[:0], tfs[:0]); err != nil {
 					return err
 				}
 				for k, r := range rows {
