@@ -15,6 +15,12 @@ func sharedPool(tb testing.TB) ([]string, int64) {
 	if len(files) == 0 {
 		tb.Skip("../shared/data is absent: benchmark needs the shared T0 corpus")
 	}
+	return files, totalSize(tb, files)
+}
+
+// totalSize is the bytes of files together.
+func totalSize(tb testing.TB, files []string) int64 {
+	tb.Helper()
 	var size int64
 	for _, f := range files {
 		fi, err := os.Stat(f)
@@ -23,7 +29,7 @@ func sharedPool(tb testing.TB) ([]string, int64) {
 		}
 		size += fi.Size()
 	}
-	return files, size
+	return size
 }
 
 // BenchmarkBuild and BenchmarkFloor run on the same files; their MB/s ratio is the share of the

@@ -18,15 +18,7 @@ func benchPool(tb testing.TB) ([]string, int64) {
 		return sharedPool(tb)
 	}
 	files := strings.Split(env, ",")
-	var size int64
-	for _, f := range files {
-		fi, err := os.Stat(f)
-		if err != nil {
-			tb.Fatal(err)
-		}
-		size += fi.Size()
-	}
-	return files, size
+	return files, totalSize(tb, files)
 }
 
 // BenchmarkMerge builds the same pool at memory bounds that spill from no runs to many, and reports
