@@ -213,76 +213,117 @@ func Pick(scores []float64, costs []float64, opt Options) ([]Decision, Summary, 
 	}
 	order := ranked(scores)
 	dec := make([]Decision, len(scores))
-	total := opt.Fixed
-	var count float64 // with Unit, the kept counts so far
-	var spent []float64
-	if opt.Caps != nil {
-		spent = make([]float64, len(opt.Caps))
-	}
-	fits := func(c float64) (float64, bool) {
-		if opt.Unit > 0 {
-			t := opt.Fixed + opt.Unit*(count+c)
-			return t, t <= opt.Budget
-		}
-		return total + c, total+c <= opt.Budget
-	}
-	sum := Summary{Stop: StopExhausted}
-	if opt.Fixed > opt.Budget {
-		sum.Stop = StopFixedOverBudget
-	}
-	stopped := sum.Stop != StopExhausted
-	byScore := false // the walk ended on a score limit, so later rows are judged by score
-	for r, k := range order {
+	w := NewWalker(opt)
+	for _, k := range order {
 		i := int(k.row)
-		d := &dec[i]
-		d.Rank = uint32(r + 1)
-		next, fit := fits(costs[i])
-		switch {
-		case opt.Barred != nil && opt.Barred[i] != Kept:
-			d.Reason = opt.Barred[i]
-		case byScore:
-			d.Reason = scoreReason(scores[i], opt)
-		case stopped:
-			d.Reason = BelowCut
-		case opt.MaxRows > 0 && sum.Kept == opt.MaxRows:
-			d.Reason = MaxRows
-			sum.Stop, sum.StopRank, stopped = StopMaxRows, int(d.Rank), true
-		case scoreReason(scores[i], opt) != Kept:
-			d.Reason = scoreReason(scores[i], opt)
-			sum.Stop, sum.StopRank, stopped, byScore = StopNoMatch, int(d.Rank), true, true
-			if d.Reason == MinScore {
-				sum.Stop = StopMinScore
-			}
-		case spent != nil && spent[opt.Group[i]]+costs[i] > opt.Caps[opt.Group[i]]:
-			d.Reason = GroupCap
-		case opt.MaxCount > 0 && count+costs[i] > opt.MaxCount:
-			d.Reason = MaxCount
-			if !opt.Fill {
-				sum.Stop, sum.StopRank, stopped = StopMaxCount, int(d.Rank), true
-			}
-		case fit:
-			total = next
-			count += costs[i]
-			if spent != nil {
-				spent[opt.Group[i]] += costs[i]
-			}
-			d.Kept = true
-			sum.Kept++
-			sum.KeptCost += costs[i]
-		default:
-			d.Reason = Budget
-			if !opt.Fill {
-				sum.Stop, sum.StopRank, stopped = StopBudget, int(d.Rank), true
-			}
+		barred, group := Kept, int32(0)
+		if opt.Barred != nil {
+			barred = opt.Barred[i]
 		}
-		d.LedgerAfter = total
+		if opt.Group != nil {
+			group = opt.Group[i]
+		}
+		dec[i] = w.Step(scores[i], costs[i], barred, group)
 	}
-	sum.Total = total
-	sum.Left = opt.Budget - total
-	if opt.Unit > 0 {
-		sum.KeptCost = opt.Unit * count
+	return dec, w.Summary(), nil
+}
+
+// A Walker makes Pick's decisions one row at a time, for rows given to it in the order Order
+// ranks them: Pick is a Walker over its rows, so rows that come from elsewhere in that order (the
+// merged rankings of several shards, say) are decided to the bit as Pick would decide them. Its
+// memory is Options.Caps' and nothing per row; Options.Barred and Options.Group are not read
+// (Step takes a row's bar and group), and the rows' checks Pick makes are the caller's.
+type Walker struct {
+	opt     Options
+	total   float64
+	count   float64   // with Unit, the kept counts so far
+	spent   []float64 // per group, with Caps
+	sum     Summary
+	stopped bool
+	byScore bool // the walk ended on a score limit, so later rows are judged by score
+	rank    uint32
+}
+
+// NewWalker starts a walk within opt's limits.
+func NewWalker(opt Options) *Walker {
+	w := &Walker{opt: opt, total: opt.Fixed, sum: Summary{Stop: StopExhausted}}
+	if opt.Caps != nil {
+		w.spent = make([]float64, len(opt.Caps))
 	}
-	return dec, sum, nil
+	if opt.Fixed > opt.Budget {
+		w.sum.Stop = StopFixedOverBudget
+	}
+	w.stopped = w.sum.Stop != StopExhausted
+	return w
+}
+
+// fits returns the ledger total were a row of cost c kept, and whether it is within the budget.
+func (w *Walker) fits(c float64) (float64, bool) {
+	if w.opt.Unit > 0 {
+		t := w.opt.Fixed + w.opt.Unit*(w.count+c)
+		return t, t <= w.opt.Budget
+	}
+	return w.total + c, w.total+c <= w.opt.Budget
+}
+
+// Step decides the next row of the ranking: its score, cost, the reason it is barred (Kept if it
+// is not) and its group (read only with Caps).
+func (w *Walker) Step(score, cost float64, barred Reason, group int32) Decision {
+	opt := &w.opt
+	w.rank++
+	d := Decision{Rank: w.rank}
+	next, fit := w.fits(cost)
+	switch {
+	case barred != Kept:
+		d.Reason = barred
+	case w.byScore:
+		d.Reason = scoreReason(score, *opt)
+	case w.stopped:
+		d.Reason = BelowCut
+	case opt.MaxRows > 0 && w.sum.Kept == opt.MaxRows:
+		d.Reason = MaxRows
+		w.sum.Stop, w.sum.StopRank, w.stopped = StopMaxRows, int(d.Rank), true
+	case scoreReason(score, *opt) != Kept:
+		d.Reason = scoreReason(score, *opt)
+		w.sum.Stop, w.sum.StopRank, w.stopped, w.byScore = StopNoMatch, int(d.Rank), true, true
+		if d.Reason == MinScore {
+			w.sum.Stop = StopMinScore
+		}
+	case w.spent != nil && w.spent[group]+cost > opt.Caps[group]:
+		d.Reason = GroupCap
+	case opt.MaxCount > 0 && w.count+cost > opt.MaxCount:
+		d.Reason = MaxCount
+		if !opt.Fill {
+			w.sum.Stop, w.sum.StopRank, w.stopped = StopMaxCount, int(d.Rank), true
+		}
+	case fit:
+		w.total = next
+		w.count += cost
+		if w.spent != nil {
+			w.spent[group] += cost
+		}
+		d.Kept = true
+		w.sum.Kept++
+		w.sum.KeptCost += cost
+	default:
+		d.Reason = Budget
+		if !opt.Fill {
+			w.sum.Stop, w.sum.StopRank, w.stopped = StopBudget, int(d.Rank), true
+		}
+	}
+	d.LedgerAfter = w.total
+	return d
+}
+
+// Summary totals the walk so far.
+func (w *Walker) Summary() Summary {
+	sum := w.sum
+	sum.Total = w.total
+	sum.Left = w.opt.Budget - w.total
+	if w.opt.Unit > 0 {
+		sum.KeptCost = w.opt.Unit * w.count
+	}
+	return sum
 }
 
 // scoreReason is the reason a score alone bars a row, or Kept if it does not.
