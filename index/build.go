@@ -16,6 +16,7 @@ import (
 	"os"
 	"path/filepath"
 	"runtime"
+	"slices"
 	"strconv"
 	"strings"
 	"sync"
@@ -54,6 +55,9 @@ type Options struct {
 	// Within lists kinds of folder the index may not be made inside, besides an index (a run, say,
 	// whose owner would find a stranger in it).
 	Within []atomicdir.Kind
+	// Inputs lists the command's inputs other than the pool files, which the index may not replace
+	// or hold either: the segments of an index set being indexed again as one, say.
+	Inputs []string
 	// NearDup is the Jaccard similarity at or above which rows are near duplicates, in (0, 1]; 0
 	// takes DefaultNearDup. The build finds exact and near duplicates as a pick would (see
 	// dedup.ForThreshold) and stores each row's cluster, so that picks at the same threshold need not
@@ -289,7 +293,7 @@ func Build(ctx context.Context, dir string, sources []string, opt Options) (*Sta
 	}
 	if opt.DryRun && dir == "" {
 		dir = filepath.Join(os.TempDir(), "sluice-dry-run")
-	} else if err := atomicdir.CheckOut(dir, Folder(), sources, append(opt.Within, Folder())...); err != nil {
+	} else if err := atomicdir.CheckOut(dir, Folder(), append(slices.Clone(sources), opt.Inputs...), append(opt.Within, Folder())...); err != nil {
 		return nil, fmt.Errorf("build index: %w", err)
 	}
 	var tok *tokens.Tokenizer

@@ -4,6 +4,7 @@ import (
 	"errors"
 	"fmt"
 	"os"
+	"slices"
 )
 
 // Rebuild returns the pool files, in order, and the build options that make in one build the index
@@ -34,6 +35,13 @@ func (ix *Index) Rebuild(o Options) ([]string, Options, error) {
 		opt.NearDup = d0.Threshold
 	}
 	var files []string
+	// The segments and the set file are inputs of the build: it may not replace them.
+	opt.Inputs = append(slices.Clone(o.Inputs), ix.dir)
+	for _, g := range segs {
+		if g != ix {
+			opt.Inputs = append(opt.Inputs, g.dir)
+		}
+	}
 	for _, g := range segs {
 		if d := g.meta.Dups; (d == nil) != (d0 == nil) || d != nil && d.Threshold != d0.Threshold {
 			return nil, opt, fmt.Errorf("rebuild %s: segments %s and %s found duplicates differently (%s and %s): %w",

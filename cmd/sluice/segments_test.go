@@ -126,3 +126,25 @@ func withoutCommand(t *testing.T, meta []byte) []byte {
 	b, _ := json.Marshal(m)
 	return b
 }
+
+// TestIndexFromSetKeepsInputs checks that index --from refuses to write over a segment of the set
+// it reads, or over the set file, and leaves both as they were.
+func TestIndexFromSetKeepsInputs(t *testing.T) {
+	_, idx, _ := demoIndex(t)
+	set := filepath.Join(t.TempDir(), "pool.set")
+	if code, _, stderr := sluice(t, "segments", "--out", set, idx); code != 0 {
+		t.Fatal(stderr)
+	}
+	before, _ := os.ReadFile(filepath.Join(idx, "meta.json"))
+	for _, out := range []string{idx, set} {
+		if code, _, stderr := sluice(t, "index", "--quiet", "--out", out, "--from", set); code == 0 || !strings.Contains(stderr, "input") {
+			t.Errorf("--out %s, a segment or the set: exit %d: %s", out, code, stderr)
+		}
+	}
+	if after, _ := os.ReadFile(filepath.Join(idx, "meta.json")); !bytes.Equal(before, after) {
+		t.Error("the segment was replaced")
+	}
+	if b, _ := os.ReadFile(set); !strings.HasPrefix(string(b), "sluice-index-set 1\n") {
+		t.Error("the set file was replaced")
+	}
+}
