@@ -116,3 +116,10 @@ func errOr(err error, s string) error {
 	}
 	return errors.New(s)
 }
+
+// same reports whether a and b name the same file.
+func same(a, b string) bool {
+	x, err1 := os.Stat(a)
+	y, err2 := os.Stat(b)
+	return err1 == nil && err2 == nil && os.SameFile(x, y)
+}

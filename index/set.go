@@ -48,6 +48,10 @@ type segSet struct {
 // path naming them, relative to its folder where they are below it, and returns the set's metadata.
 // An existing path is replaced only when it is a set file itself.
 func WriteSet(path string, dirs []string, allowOverlap bool) (Meta, error) {
+	isSet := func(b []byte) bool { return bytes.HasPrefix(b, []byte(SetMagic+"\n")) }
+	if err := atomicdir.CheckFile(path, "set file", isSet, dirs); err != nil {
+		return Meta{}, err
+	}
 	m, err := writeSet(path, dirs, allowOverlap)
 	if err != nil {
 		return Meta{}, fmt.Errorf("write index set %s: %w", path, err)
@@ -56,21 +60,6 @@ func WriteSet(path string, dirs []string, allowOverlap bool) (Meta, error) {
 }
 
 func writeSet(path string, dirs []string, allowOverlap bool) (Meta, error) {
-	if fi, err := os.Stat(path); err == nil && fi.IsDir() {
-		return Meta{}, errors.New("a folder is there; the set is a file")
-	}
-	if b, err := os.ReadFile(path); err == nil {
-		if !bytes.HasPrefix(b, []byte(SetMagic+"\n")) {
-			return Meta{}, errors.New("the file exists and is not an index set; not replaced")
-		}
-	} else if !errors.Is(err, os.ErrNotExist) {
-		return Meta{}, err
-	}
-	for _, d := range dirs {
-		if same(d, path) {
-			return Meta{}, errors.New("it is also one of the segments")
-		}
-	}
 	var buf bytes.Buffer
 	buf.WriteString(SetMagic + "\n")
 	if allowOverlap {
@@ -104,13 +93,6 @@ func writeSet(path string, dirs []string, allowOverlap bool) (Meta, error) {
 		return Meta{}, err
 	}
 	return m, nil
-}
-
-// same reports whether a and b name the same file.
-func same(a, b string) bool {
-	x, err1 := os.Stat(a)
-	y, err2 := os.Stat(b)
-	return err1 == nil && err2 == nil && os.SameFile(x, y)
 }
 
 // isSetFile reports whether path is a regular file that starts as an index set does.

@@ -177,8 +177,8 @@ func TestSetRefuses(t *testing.T) {
 		{"another analyzer", "", []string{a, mk(Options{Text: "prompt,completion", Analyzer: "plain"})}, ErrIncompatible, "analyzer"},
 		{"other text fields", "", []string{a, mk(Options{Text: "prompt"})}, ErrIncompatible, `"prompt"`},
 		{"a file twice", "", []string{a, a}, ErrOverlap, "pool.jsonl is in"},
-		{"not a set file", notSet, []string{a}, nil, "not an index set"},
-		{"a folder", a, []string{a}, nil, "a folder is there"},
+		{"not a set file", notSet, []string{a}, nil, "did not write as a set file"},
+		{"a folder", a, []string{a}, nil, "is a folder"},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			out := tc.out
