@@ -14,21 +14,15 @@
 # (apt-get install python3-sklearn python3-xapian); the 4 GB part needs about 6 GB free in $TMPDIR.
 # The references are run by build_refs.py beside this script.
 set -euo pipefail
-root=$(cd "$(dirname "$0")/../.." && pwd)
-shared=${1:-$root/../shared}
 rounds=${ROUNDS:-3}
 py=/usr/bin/python3
-refs=$root/testdata/bench/build_refs.py
 "$py" -c 'import sklearn, xapian' 2>/dev/null || {
 	echo "needs Debian's python3-sklearn and python3-xapian: apt-get install python3-sklearn python3-xapian" >&2
 	exit 1
 }
-work=$(mktemp -d "${TMPDIR:-/tmp}/build-vs-refs.XXXXXX")
-trap 'rm -rf "$work"' EXIT
-cd "$root"
-go build -o "$work/sluice" ./cmd/sluice
-S=$work/sluice
-t0=$shared/data/t0-train-50k-per-template/data_per_template
+source "$(dirname "$0")/lib.sh"
+bench_setup "${1:-}"
+refs=$root/testdata/bench/build_refs.py
 python3 "$shared/scripts/t0-split.py" sentiment "$work/split" --target-rows 1000 >/dev/null
 pool=$work/split/pool.jsonl
 target=$work/split/target.jsonl

@@ -9,19 +9,10 @@
 # SHARED_DIR defaults to ../shared beside the checkout; the pool is the T0 files concatenated COPIES
 # times (default 1, about 60 MB; 17 makes the 1 GB pool of index-vs-floor.sh). Needs GNU time, bc.
 set -euo pipefail
-root=$(cd "$(dirname "$0")/../.." && pwd)
-shared=${1:-$root/../shared}
 copies=${2:-1}
-work=$(mktemp -d)
-trap 'rm -rf "$work"' EXIT
-cd "$root"
-go build -o "$work/sluice" ./cmd/sluice
-S=$work/sluice
-
-t0=$shared/data/t0-train-50k-per-template/data_per_template
-cat "$t0"/*.jsonl > "$work/t0.jsonl"
-for _ in $(seq 1 "$copies"); do cat "$work/t0.jsonl"; done > "$work/pool.jsonl"
-rm "$work/t0.jsonl"
+source "$(dirname "$0")/lib.sh"
+bench_setup "${1:-}"
+t0_pool "$copies" "$work/pool.jsonl"
 mb=$(echo "scale=1; $(stat -c %s "$work/pool.jsonl") / 1000000" | bc)
 
 # run prints "wall user rss_kb" of one process.

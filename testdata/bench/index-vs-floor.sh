@@ -9,15 +9,8 @@
 #
 # Needs python3 (for the shared split script and to turn the JSON arrays into JSONL) and GNU time.
 set -euo pipefail
-root=$(cd "$(dirname "$0")/../.." && pwd)
-shared=${1:-$root/../shared}
-work=$(mktemp -d)
-trap 'rm -rf "$work"' EXIT
-cd "$root"
-go build -o "$work/sluice" ./cmd/sluice
-S=$work/sluice
-
-t0=$shared/data/t0-train-50k-per-template/data_per_template
+source "$(dirname "$0")/lib.sh"
+bench_setup "${1:-}"
 gpt=$shared/data/gpteacher
 python3 - "$gpt" "$work/gpteacher.jsonl" <<'PY'
 import json, sys, glob, os

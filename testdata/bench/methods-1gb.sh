@@ -16,20 +16,11 @@
 # Environment: ROUNDS (default 1): the methods run in turn this many times, each round its own ratios.
 # Needs /usr/bin/python3 with python3-numpy, GNU time, about 3.5 GB of free disk.
 set -euo pipefail
-root=$(cd "$(dirname "$0")/../.." && pwd)
-shared=${1:-$root/../shared}
 rounds=${ROUNDS:-1}
 py=${PY:-/usr/bin/python3}
-work=$(mktemp -d)
-trap 'rm -rf "$work"' EXIT
-cd "$root"
-go build -o "$work/sluice" ./cmd/sluice
-S=$work/sluice
-
-t0=$shared/data/t0-train-50k-per-template/data_per_template
-cat "$t0"/*.jsonl >"$work/t0.jsonl"
-for i in $(seq 1 17); do cat "$work/t0.jsonl"; done >"$work/big.jsonl"
-rm "$work/t0.jsonl"
+source "$(dirname "$0")/lib.sh"
+bench_setup "${1:-}"
+t0_pool 17 "$work/big.jsonl"
 "$py" "$shared/scripts/t0-split.py" sentiment "$work/split" --target-rows 1000 >/dev/null
 /usr/bin/time -f '%e %M' -o "$work/time" "$S" index --analyzer english --quiet --text prompt,completion --out "$work/big.idx" "$work/big.jsonl"
 read -r bs brss <"$work/time"

@@ -11,19 +11,11 @@
 #
 #   bash testdata/bench/segments-vs-one.sh [SHARED_DIR] [COPIES]
 set -euo pipefail
-root=$(cd "$(dirname "$0")/../.." && pwd)
-shared=${1:-$root/../shared}
 copies=${2:-1}
 rounds=${ROUNDS:-3}
-work=$(mktemp -d)
-trap 'rm -rf "$work"' EXIT
-cd "$root"
-go build -o "$work/sluice" ./cmd/sluice
-S=$work/sluice
-t0=$shared/data/t0-train-50k-per-template/data_per_template
-cat "$t0"/*.jsonl >"$work/t0.jsonl"
-for _ in $(seq 1 "$copies"); do cat "$work/t0.jsonl"; done >"$work/pool.jsonl"
-rm "$work/t0.jsonl"
+source "$(dirname "$0")/lib.sh"
+bench_setup "${1:-}"
+t0_pool "$copies" "$work/pool.jsonl"
 rows=$(wc -l <"$work/pool.jsonl")
 split -d -n l/4 --additional-suffix=.jsonl "$work/pool.jsonl" "$work/part-"
 head -n 1000 "$work/pool.jsonl" >"$work/target.jsonl"

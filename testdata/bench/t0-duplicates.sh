@@ -8,13 +8,8 @@
 #
 #   bash testdata/bench/t0-duplicates.sh [SHARED_DIR]
 set -euo pipefail
-root=$(cd "$(dirname "$0")/../.." && pwd)
-shared=${1:-$root/../shared}
-work=$(mktemp -d)
-trap 'rm -rf "$work"' EXIT
-cd "$root"
-go build -o "$work/sluice" ./cmd/sluice
-S=$work/sluice
+source "$(dirname "$0")/lib.sh"
+bench_setup "${1:-}"
 pct() { awk -v a="$1" -v b="$2" 'BEGIN { printf "%.1f %%", 100 * a / b }'; }
 clusters=$(cut -f3 "$shared/data/t0-train-50k-per-template/files.tsv" | tail -n +2 | sort -u)
 printf '| cluster | pool rows | rows with a better copy | their share of kept tokens without dedup | precision without dedup | precision with dedup |\n|---|---|---|---|---|---|\n'
