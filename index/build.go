@@ -490,7 +490,7 @@ func (b *builder) run(ctx context.Context) (*Stats, error) {
 	if b.dups != nil {
 		var work dedup.Work
 		for _, w := range b.workers {
-			work = work.Plus(w.sign.work())
+			work = work.Plus(w.sign.keyWork())
 		}
 		if err := b.dups.write(b, b.meta.Rows, work); err != nil {
 			return nil, err

@@ -4,6 +4,7 @@ import (
 	"bufio"
 	"encoding/binary"
 	"fmt"
+	"hash/maphash"
 	"io"
 	"math/bits"
 	"os"
@@ -174,6 +175,10 @@ type signRow struct {
 	k      int       // values per signature
 	text   []byte    // the row's text
 	parts  int
+	// work is the keying of every row, as if each were normalised and hashed: a row whose text the
+	// cache knows is counted as its first was, so meta.json does not depend on which worker met
+	// which row first.
+	work dedup.Work
 }
 
 func newSignRow(prm dedup.Params, seen *seenKeys) (*signRow, error) {
@@ -200,10 +205,19 @@ func (s *signRow) write(part []byte) {
 // sum appends the row's key, and its signature unless an earlier row has the key, to the
 // batch's.
 func (s *signRow) sum(o *batchOut) {
-	s.hasher.Write(s.text)
-	key := s.hasher.Sum()
+	raw := s.seen.rawKey(s.text)
+	key, hashed, sign, ok := s.seen.claimText(raw, o.seq)
+	if !ok {
+		before := s.hasher.Work()
+		s.hasher.Write(s.text)
+		key = s.hasher.Sum()
+		hashed = s.hasher.Work().Hashed - before.Hashed
+		sign = s.seen.claimKey(raw, key, hashed, o.seq)
+	}
+	s.work.Bytes += int64(len(s.text))
+	s.work.Hashed += hashed
 	o.keys = append(o.keys, key)
-	if !s.seen.claim(key, o.seq) {
+	if !sign {
 		o.signed = append(o.signed, false)
 		s.reset()
 		return
@@ -219,23 +233,105 @@ func (s *signRow) sum(o *batchOut) {
 	s.reset()
 }
 
-// seenKeys is the workers' shared memory of the keys they have met, with the batch of each: a
-// row whose key it holds from an earlier batch, or from its own batch (an earlier row: a batch is
-// one worker's, in order), is not the first of its exact duplicates, and the collector will not
-// need its signature. It saves signing the repeats of a pool, however far apart and whichever
-// workers their batches fall to. It is a cache in sets of seenWays keys that doubles each time it is
-// 3/8 full, up to seenMaxSlots (3 MiB), so that a small build holds little; then a key that finds its set full takes the place of one in it, and
-// a key forgotten costs only a signature made. The first row of a key is always signed: nothing
-// before it put the key there.
+// seenKeys is the workers' shared memory of the rows they have met. It saves work on the repeats
+// of a pool, however far apart and whichever workers their batches fall to, in two caches:
+//
+//   - keys: each key met, with its batch. A row whose key it holds from an earlier batch, or from
+//     its own batch (an earlier row: a batch is one worker's, in order), is not the first of its
+//     exact duplicates, and the collector will not need its signature. The first row of a key is
+//     always signed: nothing before it put the key there.
+//   - texts: the key and normalised length of each text met, by a 128-bit hash of the text as read
+//     (two 64-bit hash/maphash sums under seeds drawn for the build). Equal text has equal
+//     normalised text, so a row whose text is there is neither normalised nor hashed with SHA-256
+//     again. Two different texts share a hash with probability about n²/2¹²⁹ for n texts, the
+//     bound Key itself gives; the seeds are secret to the process, so no row can be made to
+//     collide on purpose, and nothing written depends on them.
+//
+// Each cache forgets: a key forgotten costs only a signature made, a text forgotten a key hashed.
 type seenKeys struct {
 	mu    sync.Mutex
-	slots []seenSlot
-	n     int // keys held
+	keys  setCache[dedup.Key, int] // the batch's number plus one
+	texts setCache[rawKey, textKey]
+	seeds [2]maphash.Seed
 }
 
-type seenSlot struct {
-	key dedup.Key
-	seq int // the batch's number plus one; 0 for an empty slot
+// rawKey is the hash of a row's text as read.
+type rawKey [2]uint64
+
+// textKey is what the texts cache holds of a text: its Key and the length of its normalised form,
+// for the work counted.
+type textKey struct {
+	key    dedup.Key
+	hashed int64
+}
+
+func newSeenKeys() *seenKeys {
+	return &seenKeys{
+		keys:  newSetCache[dedup.Key, int](func(k dedup.Key) uint32 { return binary.LittleEndian.Uint32(k[:4]) }),
+		texts: newSetCache[rawKey, textKey](func(r rawKey) uint32 { return uint32(r[0]) }),
+		seeds: [2]maphash.Seed{maphash.MakeSeed(), maphash.MakeSeed()},
+	}
+}
+
+func (c *seenKeys) rawKey(text []byte) rawKey {
+	return rawKey{maphash.Bytes(c.seeds[0], text), maphash.Bytes(c.seeds[1], text)}
+}
+
+// claimText looks the text up: when it is known, it returns its key and normalised length and
+// claims the key for a row of batch seq (as claim); ok is false when the text is not known.
+func (c *seenKeys) claimText(raw rawKey, seq int) (key dedup.Key, hashed int64, sign, ok bool) {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	tk, ok := c.texts.get(raw)
+	if !ok {
+		return dedup.Key{}, 0, false, false
+	}
+	return tk.key, tk.hashed, c.claimLocked(tk.key, seq), true
+}
+
+// claimKey records that the text raw has key and normalised length hashed and claims the key for
+// a row of batch seq (as claim).
+func (c *seenKeys) claimKey(raw rawKey, key dedup.Key, hashed int64, seq int) bool {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	c.texts.put(raw, textKey{key, hashed})
+	return c.claimLocked(key, seq)
+}
+
+// claim records that a row of batch seq has key k and reports whether the row must be signed: it
+// need not when an earlier batch, or an earlier row of its own, had the key.
+func (c *seenKeys) claim(k dedup.Key, seq int) bool {
+	c.mu.Lock()
+	defer c.mu.Unlock()
+	return c.claimLocked(k, seq)
+}
+
+func (c *seenKeys) claimLocked(k dedup.Key, seq int) bool {
+	if s := c.keys.find(k); s != nil {
+		if s.val-1 <= seq {
+			return false
+		}
+		s.val = seq + 1
+		return true
+	}
+	c.keys.put(k, seq+1)
+	return true
+}
+
+// setCache is a hash table in sets of seenWays slots that doubles each time it is 3/8 full, up to
+// seenMaxSlots, so that a small build holds little; then a key that finds its set full takes the
+// place of one in it. index spreads keys over sets; the keys here are hash bits, which any of
+// their bits do.
+type setCache[K comparable, V any] struct {
+	slots []setSlot[K, V]
+	n     int // keys held
+	index func(K) uint32
+}
+
+type setSlot[K comparable, V any] struct {
+	key  K
+	val  V
+	used bool
 }
 
 const (
@@ -244,54 +340,65 @@ const (
 	seenMaxSlots = 1 << 17
 )
 
-func newSeenKeys() *seenKeys { return &seenKeys{slots: make([]seenSlot, seenMinSlots)} }
+func newSetCache[K comparable, V any](index func(K) uint32) setCache[K, V] {
+	return setCache[K, V]{slots: make([]setSlot[K, V], seenMinSlots), index: index}
+}
 
-// claim records that a row of batch seq has key k and reports whether the row must be signed: it
-// need not when an earlier batch, or an earlier row of its own, had the key.
-func (c *seenKeys) claim(k dedup.Key, seq int) bool {
-	c.mu.Lock()
-	defer c.mu.Unlock()
+// find returns k's slot, or nil when k is not held.
+func (c *setCache[K, V]) find(k K) *setSlot[K, V] {
+	ways := c.set(k)
+	for i := range ways {
+		switch {
+		case !ways[i].used:
+			// Slots fill in order and are never emptied: the key is not in the set.
+			return nil
+		case ways[i].key == k:
+			return &ways[i]
+		}
+	}
+	return nil
+}
+
+func (c *setCache[K, V]) get(k K) (V, bool) {
+	if s := c.find(k); s != nil {
+		return s.val, true
+	}
+	var zero V
+	return zero, false
+}
+
+// put holds v for k, which must not be held already.
+func (c *setCache[K, V]) put(k K, v V) {
 	if 8*c.n >= 3*len(c.slots) && len(c.slots) < seenMaxSlots {
 		c.grow()
 	}
 	ways := c.set(k)
 	for i := range ways {
-		w := &ways[i]
-		switch {
-		case w.seq == 0:
-			// Slots fill in order and are never emptied: the key is not in the set.
-			w.key, w.seq = k, seq+1
+		if !ways[i].used {
+			ways[i] = setSlot[K, V]{k, v, true}
 			c.n++
-			return true
-		case w.key == k:
-			if w.seq-1 <= seq {
-				return false
-			}
-			w.seq = seq + 1
-			return true
+			return
 		}
 	}
-	ways[k[4]%seenWays] = seenSlot{key: k, seq: seq + 1}
-	return true
+	ways[c.index(k)>>24%seenWays] = setSlot[K, V]{k, v, true}
 }
 
-// set returns the slots of k's set. Keys are SHA-256 bits: any of them pick a set evenly.
-func (c *seenKeys) set(k dedup.Key) []seenSlot {
-	set := int(binary.LittleEndian.Uint32(k[:4]) % uint32(len(c.slots)/seenWays))
+func (c *setCache[K, V]) set(k K) []setSlot[K, V] {
+	set := int(c.index(k) % uint32(len(c.slots)/seenWays))
 	return c.slots[set*seenWays : (set+1)*seenWays]
 }
 
 // grow doubles the cache, keeping its keys (but for the rare one whose new set is already full).
-func (c *seenKeys) grow() {
+func (c *setCache[K, V]) grow() {
 	old := c.slots
-	c.slots = make([]seenSlot, 2*len(old))
+	c.slots = make([]setSlot[K, V], 2*len(old))
 	for _, w := range old {
-		if w.seq == 0 {
+		if !w.used {
 			continue
 		}
 		ways := c.set(w.key)
 		for i := range ways {
-			if ways[i].seq == 0 {
+			if !ways[i].used {
 				ways[i] = w
 				break
 			}
@@ -299,8 +406,8 @@ func (c *seenKeys) grow() {
 	}
 }
 
-// work is the keying the worker did, every row's; its signing is counted by the collector.
-func (s *signRow) work() dedup.Work { return s.hasher.Work() }
+// keyWork is the keying the worker did, every row's; its signing is counted by the collector.
+func (s *signRow) keyWork() dedup.Work { return s.work }
 
 var newline = []byte{'\n'}
 

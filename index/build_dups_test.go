@@ -92,6 +92,10 @@ func TestDupsMatchDetector(t *testing.T) {
 		if d.ExactDuplicates == 0 || int64(dupRows) == d.ExactDuplicates {
 			t.Errorf("the pool should hold exact and near duplicates: %+v", d)
 		}
+		// Repeated texts take their key from the workers' cache, but are counted as hashed.
+		if d.Work.Hashed != h.Work().Hashed {
+			t.Errorf("workers %d: %d bytes hashed, want %d, every row's", tc.workers, d.Work.Hashed, h.Work().Hashed)
+		}
 		if d.Work.MinHashes == 0 || d.FLOPs != d.Work.FLOPs() {
 			t.Errorf("work %+v, flops %v", d.Work, d.FLOPs)
 		}
@@ -174,7 +178,32 @@ func TestSeenKeys(t *testing.T) {
 			forgot++
 		}
 	}
-	if len(c.slots) != seenMaxSlots || forgot > len(many)/100 {
-		t.Errorf("%d slots; %d of %d keys forgotten", len(c.slots), forgot, len(many))
+	if len(c.keys.slots) != seenMaxSlots || forgot > len(many)/100 {
+		t.Errorf("%d slots; %d of %d keys forgotten", len(c.keys.slots), forgot, len(many))
+	}
+}
+
+// TestSeenTexts checks the cache of texts: a text met once gives its key and normalised length
+// back, and claims the key as claim does; a text not met, or one that differs by a byte, is not
+// known.
+func TestSeenTexts(t *testing.T) {
+	c := newSeenKeys()
+	text := []byte("Rate the review:\nFive stars.")
+	raw := c.rawKey(text)
+	if _, _, _, ok := c.claimText(raw, 1); ok {
+		t.Fatal("a text never met is known")
+	}
+	var h dedup.Hasher
+	h.Write(text)
+	key := h.Sum()
+	if !c.claimKey(raw, key, h.Work().Hashed, 1) {
+		t.Error("the first row of a key is not signed")
+	}
+	k, hashed, sign, ok := c.claimText(c.rawKey(bytes.Clone(text)), 2)
+	if !ok || k != key || hashed != h.Work().Hashed || sign {
+		t.Errorf("known text: key %x, hashed %d, sign %v, ok %v; want %x, %d, false, true", k, hashed, sign, ok, key, h.Work().Hashed)
+	}
+	if _, _, _, ok := c.claimText(c.rawKey([]byte("Rate the review:\nFive stars!")), 2); ok {
+		t.Error("a text one byte away is known")
 	}
 }
