@@ -258,11 +258,12 @@ type seenKeys struct {
 // rawKey is the hash of a row's text as read.
 type rawKey [2]uint64
 
-// textKey is what the texts cache holds of a text: its Key and the length of its normalised form,
-// for the work counted.
+// textKey is what the texts cache holds of a text: its Key, the length of its normalised form, for
+// the work counted, and the earliest batch met with the text, plus one.
 type textKey struct {
 	key    dedup.Key
 	hashed int64
+	seq    int
 }
 
 func newSeenKeys() *seenKeys {
@@ -282,11 +283,16 @@ func (c *seenKeys) rawKey(text []byte) rawKey {
 func (c *seenKeys) claimText(raw rawKey, seq int) (key dedup.Key, hashed int64, sign, ok bool) {
 	c.mu.Lock()
 	defer c.mu.Unlock()
-	tk, ok := c.texts.get(raw)
-	if !ok {
+	t := c.texts.find(raw)
+	if t == nil {
 		return dedup.Key{}, 0, false, false
 	}
-	return tk.key, tk.hashed, c.claimLocked(tk.key, seq), true
+	if t.val.seq-1 <= seq {
+		// A row with the same text, so the same key, came before: one look-up, not two.
+		return t.val.key, t.val.hashed, false, true
+	}
+	t.val.seq = seq + 1
+	return t.val.key, t.val.hashed, c.claimLocked(t.val.key, seq), true
 }
 
 // claimKey records that the text raw has key and normalised length hashed and claims the key for
@@ -294,7 +300,7 @@ func (c *seenKeys) claimText(raw rawKey, seq int) (key dedup.Key, hashed int64, 
 func (c *seenKeys) claimKey(raw rawKey, key dedup.Key, hashed int64, seq int) bool {
 	c.mu.Lock()
 	defer c.mu.Unlock()
-	c.texts.put(raw, textKey{key, hashed})
+	c.texts.put(raw, textKey{key, hashed, seq + 1})
 	return c.claimLocked(key, seq)
 }
 
@@ -357,14 +363,6 @@ func (c *setCache[K, V]) find(k K) *setSlot[K, V] {
 		}
 	}
 	return nil
-}
-
-func (c *setCache[K, V]) get(k K) (V, bool) {
-	if s := c.find(k); s != nil {
-		return s.val, true
-	}
-	var zero V
-	return zero, false
 }
 
 // put holds v for k, which must not be held already.

@@ -203,6 +203,19 @@ func TestSeenTexts(t *testing.T) {
 	if !ok || k != key || hashed != h.Work().Hashed || sign {
 		t.Errorf("known text: key %x, hashed %d, sign %v, ok %v; want %x, %d, false, true", k, hashed, sign, ok, key, h.Work().Hashed)
 	}
+	// A text met in batch 9, then in batch 7 (which may hold the key's first row), then in 8.
+	other := []byte("Rate the review:\nOne star.")
+	h.Write(other)
+	okey := h.Sum()
+	c.claimKey(c.rawKey(other), okey, 1, 9)
+	for _, step := range []struct {
+		seq  int
+		sign bool
+	}{{9, false}, {7, true}, {8, false}, {7, false}} {
+		if _, _, sign, _ := c.claimText(c.rawKey(other), step.seq); sign != step.sign {
+			t.Errorf("batch %d: sign %v, want %v", step.seq, sign, step.sign)
+		}
+	}
 	if _, _, _, ok := c.claimText(c.rawKey([]byte("Rate the review:\nFive stars!")), 2); ok {
 		t.Error("a text one byte away is known")
 	}
