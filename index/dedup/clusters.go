@@ -101,24 +101,30 @@ func (c *Clusters) Keep(scores []float64) ([]int, error) {
 	if len(scores) < len(c.parent) {
 		return nil, fmt.Errorf("keep one row per cluster: %d scores for %d rows: %w", len(scores), len(c.parent), ErrLength)
 	}
-	best := make([]uint32, len(c.parent))
-	for i := range best {
-		best[i] = math.MaxUint32
-	}
-	for i := range c.parent {
-		r := c.root(uint32(i))
-		if b := best[r]; b == math.MaxUint32 || better(scores[i], scores[b]) {
-			best[r] = uint32(i)
-		}
-	}
+	keepers := Keepers(len(scores), c.Find, func(r int) float64 { return scores[r] })
 	kept := make([]int, len(scores))
 	for i := range kept {
-		kept[i] = i
-		if i < len(c.parent) {
-			kept[i] = int(best[c.root(uint32(i))])
-		}
+		kept[i] = int(keepers[c.Find(i)])
 	}
 	return kept, nil
+}
+
+// Keepers picks one row per cluster among rows [0, n), as Keep does, for clusters given by
+// cluster, which names each row's cluster by one of its rows (such as its first, as an index's
+// dups file does), and scores given by score. It returns, at the row naming each cluster, the row
+// kept; other entries are 2³²−1. It holds 4 bytes a row, where Keep's answer takes 8.
+func Keepers(n int, cluster func(int) int, score func(int) float64) []uint32 {
+	keepers := make([]uint32, n)
+	for i := range keepers {
+		keepers[i] = math.MaxUint32
+	}
+	for r := range n {
+		c := cluster(r)
+		if k := keepers[c]; k == math.MaxUint32 || better(score(r), score(int(k))) {
+			keepers[c] = uint32(r)
+		}
+	}
+	return keepers
 }
 
 // better reports whether score x beats y, which comes from an earlier row: strictly greater, or a

@@ -51,7 +51,10 @@ func chooseBands(t float64) int { return dedup.ForThreshold(t).Bands }
 
 // guarded is what the guards found in one pass over the pool.
 type guarded struct {
-	clusters  *dedup.Clusters
+	// cluster names each row's cluster of exact and near duplicates by one of its rows; nil when
+	// duplicates are kept. groups counts the clusters of two rows or more.
+	cluster   func(row int) int
+	groups    int
 	exactDups int                  // rows whose normalised text an earlier row has
 	contam    map[int]decontam.Hit // by row
 	evalFiles []string
@@ -86,7 +89,7 @@ func (p *picked) guard(ctx context.Context) error {
 	var exact dedup.Exact
 	targetKeys := p.targetKeys()
 	if d := p.indexDups(); d != nil {
-		gd.clusters, gd.inPool = p.indexClusters(targetKeys)
+		gd.cluster, gd.inPool = p.indexClusters(targetKeys)
 		gd.exactDups, gd.bands, gd.built = int(d.ExactDuplicates), d.Bands, d
 	} else if !g.KeepDuplicates {
 		fp := dedup.ForThreshold(orDefault(g.NearDup, DefaultNearDup))
@@ -97,6 +100,7 @@ func (p *picked) guard(ctx context.Context) error {
 		}
 	}
 	if det == nil && set == nil {
+		gd.groups = countGroups(p.ix.NumRows(), gd.cluster)
 		p.guards = gd
 		p.chargeGuards()
 		return nil
@@ -132,9 +136,10 @@ func (p *picked) guard(ctx context.Context) error {
 		return fmt.Errorf("look for duplicates and evaluation rows: %w", err)
 	}
 	if det != nil {
-		gd.clusters = det.Clusters()
+		gd.cluster = det.Clusters().Find
 		gd.work = work.Plus(det.Work())
 	}
+	gd.groups = countGroups(p.ix.NumRows(), gd.cluster)
 	p.guards = gd
 	p.chargeGuards()
 	return nil
@@ -153,25 +158,41 @@ func (p *picked) indexDups() *index.Dups {
 	return d
 }
 
-// indexClusters reads the clusters the index stores, and the ids of the pool rows whose key a
-// target row has, in row order, as the pick's own pass would find them.
-func (p *picked) indexClusters(targetKeys map[dedup.Key]bool) (*dedup.Clusters, []string) {
-	c := &dedup.Clusters{}
+// indexClusters returns the clusters the index stores, each named by its first row, and the ids of
+// the pool rows whose key a target row has, in row order, as the pick's own pass would find them.
+// The clusters are read from the index as they are needed, not held.
+func (p *picked) indexClusters(targetKeys map[dedup.Key]bool) (func(int) int, []string) {
 	var inPool []string
-	n := p.ix.NumRows()
+	ix := p.ix
+	if len(targetKeys) > 0 {
+		for r := range ix.NumRows() {
+			if k, _ := ix.DupKey(r); targetKeys[k] {
+				inPool = append(inPool, ix.RowID(r))
+			}
+		}
+	}
+	// Open has checked that every row's first is itself or an earlier first.
+	return func(r int) int { f, _ := ix.DupFirst(r); return f }, inPool
+}
+
+// countGroups counts the clusters of two rows or more among rows [0, n) in one pass, marking each
+// cluster's row once in a bitmap: an eighth of a byte a row, where listing the groups took a slice of
+// every row.
+func countGroups(n int, cluster func(int) int) int {
+	if cluster == nil {
+		return 0
+	}
+	marked := make([]uint64, (n+63)/64)
+	groups := 0
 	for r := range n {
-		// Open has checked that every row's first is itself or an earlier first.
-		if f, _ := p.ix.DupFirst(r); f != r {
-			_ = c.Union(f, r)
+		c := cluster(r)
+		if c == r || marked[c/64]&(1<<(c%64)) != 0 {
+			continue
 		}
-		if k, _ := p.ix.DupKey(r); targetKeys[k] {
-			inPool = append(inPool, p.ix.RowID(r))
-		}
+		marked[c/64] |= 1 << (c % 64)
+		groups++
 	}
-	if n > 0 {
-		_ = c.Union(n-1, n-1) // cover every row, as a Detector given them all does
-	}
-	return c, inPool
+	return groups
 }
 
 // targetKeys are the exact-duplicate keys of the target rows, of every set, so that target rows
@@ -282,7 +303,7 @@ func readEvalRows(path string, fn func(line int64, text string) error) (int, err
 // chargeGuards enters the guards' work in the ledger.
 func (p *picked) chargeGuards() {
 	gd := p.guards
-	if gd.clusters != nil && gd.built == nil {
+	if gd.cluster != nil && gd.built == nil {
 		p.led.AddSelection(fmt.Sprintf("find duplicates: exact keys and MinHash signatures (%d hashes, %d bands)", minhashes, gd.bands), "FLOP", gd.work.FLOPs(), 1,
 			"the hashing work counted as index/dedup states it: bytes read and hashed, shingles, MinHash evaluations, band probes, sketches compared")
 	}
@@ -312,30 +333,26 @@ func (p *picked) applyGuards() error {
 	for r := range gd.contam {
 		bar(r, selection.Contaminated)
 	}
-	if gd.clusters == nil {
+	if gd.cluster == nil {
 		return nil
 	}
-	// A contaminated row is never kept, so it must not stand for its cluster either.
-	s := make([]float64, n)
-	for r, v := range p.scores {
-		s[r] = v
+	// Each cluster keeps its best-scored row, the earliest on a tie. A contaminated row is never
+	// kept, so it must not stand for its cluster either: it scores as NaN, below every number.
+	score := func(r int) float64 {
 		if p.barred != nil && p.barred[r] != selection.Kept {
-			s[r] = math.NaN()
+			return math.NaN()
 		}
+		return p.scores[r]
 	}
-	kept, err := gd.clusters.Keep(s)
-	if err != nil {
-		return err
-	}
-	for r, k := range kept {
-		if k != r {
-			if p.dupOf == nil {
-				p.dupOf = map[int]int{}
-			}
-			p.dupOf[r] = k
+	keeper := dedup.Keepers(n, gd.cluster, score)
+	p.dropped = 0
+	for r := range n {
+		if k := int(keeper[gd.cluster(r)]); k != r {
+			p.dropped++
 			bar(r, selection.Duplicate)
 		}
 	}
+	p.dupOf = func(r int) int { return int(keeper[gd.cluster(r)]) }
 	return nil
 }
 
@@ -391,15 +408,10 @@ func (p *picked) guardNotes() []string {
 		return nil
 	}
 	var notes []string
-	if gd.clusters != nil {
-		groups := 0
-		for _, grp := range gd.clusters.Groups() {
-			if len(grp) > 1 {
-				groups++
-			}
-		}
+	if gd.cluster != nil {
+		groups := gd.groups
 		notes = append(notes, fmt.Sprintf("duplicates: %d rows have an exact duplicate earlier in the pool; %d clusters of exact or near duplicates (Jaccard of word 5-gram shingles >= %g, %d MinHash values in %d bands); %d rows dropped for a better-scored row of their cluster",
-			gd.exactDups, groups, orDefault(p.opt.Guards.NearDup, DefaultNearDup), minhashes, gd.bands, len(p.dupOf)))
+			gd.exactDups, groups, orDefault(p.opt.Guards.NearDup, DefaultNearDup), minhashes, gd.bands, p.dropped))
 	}
 	if d := gd.built; d != nil {
 		notes = append(notes, fmt.Sprintf("duplicates were found when the index was built, which paid their hashing once for every pick at this --near-dup: %s FLOP-equivalents as index/dedup counts it (meta.json's duplicates); this pick charges none of it", budget.FormatFLOPs(d.FLOPs)))

@@ -10,6 +10,7 @@ import (
 	"runtime"
 	"runtime/debug"
 	"runtime/metrics"
+	"strings"
 	"sync/atomic"
 	"testing"
 	"time"
@@ -19,7 +20,10 @@ import (
 
 // writeRows writes n invented rows of about a dozen words drawn from a skewed vocabulary of 5,000
 // made-up words, each with an id, as a pool or a target for the memory benchmarks.
-func writeRows(tb testing.TB, path string, n int, seed uint64) {
+func writeRows(tb testing.TB, path string, n int, seed uint64) { writeCopies(tb, path, n, seed, 1) }
+
+// writeCopies is writeRows with each text written copies times in a row, under ids of their own.
+func writeCopies(tb testing.TB, path string, n int, seed uint64, copies int) {
 	f, err := os.Create(path)
 	if err != nil {
 		tb.Fatal(err)
@@ -27,15 +31,18 @@ func writeRows(tb testing.TB, path string, n int, seed uint64) {
 	w := bufio.NewWriter(f)
 	rng := rand.New(rand.NewPCG(seed, 1))
 	z := rand.NewZipf(rng, 1.1, 2, 4999)
-	for i := range n {
-		fmt.Fprintf(w, `{"id":"r%d","text":"`, i)
+	var text []byte
+	for i := 0; i < n; i += copies {
+		text = text[:0]
 		for j := range 8 + rng.IntN(10) {
 			if j > 0 {
-				w.WriteByte(' ')
+				text = append(text, ' ')
 			}
-			fmt.Fprintf(w, "w%x", z.Uint64())
+			text = fmt.Appendf(text, "w%x", z.Uint64())
 		}
-		w.WriteString("\"}\n")
+		for c := range min(copies, n-i) {
+			fmt.Fprintf(w, `{"id":"r%d","text":"%s"}`+"\n", i+c, text)
+		}
 	}
 	if err := w.Flush(); err != nil {
 		tb.Fatal(err)
@@ -85,13 +92,22 @@ func peakHeap(fn func() error) (int64, error) {
 func BenchmarkPickMemory(b *testing.B) {
 	dir := b.TempDir()
 	const rows0, rows1, targets0, targets1 = 100_000, 300_000, 500, 8_500
-	var idx [2]string
+	// copies holds pools of the same sizes whose every text is written four times, so that most
+	// rows are dropped for a copy kept.
+	var idx, copies [2]string
 	for i, n := range []int{rows0, rows1} {
-		pool := filepath.Join(dir, fmt.Sprintf("pool%d.jsonl", i))
-		writeRows(b, pool, n, 1)
-		idx[i] = filepath.Join(dir, fmt.Sprintf("idx%d", i))
-		if _, err := index.Build(context.Background(), idx[i], []string{pool}, index.Options{ID: "id"}); err != nil {
-			b.Fatal(err)
+		for _, c := range []int{1, 4} {
+			pool := filepath.Join(dir, fmt.Sprintf("pool%d-%d.jsonl", i, c))
+			writeCopies(b, pool, n, 1, c)
+			at := filepath.Join(dir, fmt.Sprintf("idx%d-%d", i, c))
+			if _, err := index.Build(context.Background(), at, []string{pool}, index.Options{ID: "id"}); err != nil {
+				b.Fatal(err)
+			}
+			if c == 1 {
+				idx[i] = at
+			} else {
+				copies[i] = at
+			}
 		}
 	}
 	var target [2]string
@@ -99,11 +115,15 @@ func BenchmarkPickMemory(b *testing.B) {
 		target[i] = filepath.Join(dir, fmt.Sprintf("target%d.jsonl", i))
 		writeRows(b, target[i], n, 2)
 	}
-	for _, agg := range []string{"sum", "max", "sum+duplicates"} {
+	for _, agg := range []string{"sum", "max", "sum+duplicates", "sum+duplicates,copies"} {
 		b.Run(agg, func(b *testing.B) {
+			idx := idx
+			if agg == "sum+duplicates,copies" {
+				idx = copies
+			}
 			peak := func(ix, tg string) int64 {
 				opt := demoOptions(ix, tg, filepath.Join(dir, "run"))
-				opt.Guards.KeepDuplicates = agg != "sum+duplicates"
+				opt.Guards.KeepDuplicates = !strings.HasPrefix(agg, "sum+duplicates")
 				opt.Params.CacheBytes = 1 << 20 // the span, --mem, bounded apart from the rows
 				if agg == "max" {
 					opt.Params.Aggregate = 1

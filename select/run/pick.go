@@ -124,12 +124,13 @@ type picked struct {
 	survivors int                // rows that passed the prefilter
 	dec       []selection.Decision
 	out       Result
-	guards    *guarded     // what the guards found; nil when none ran
-	dupOf     map[int]int  // a dropped duplicate's row -> the row kept instead
-	tmp       string       // the run's working folder, once made
-	target    string       // where the target is read from: opt.Target, or its copy in tmp
-	sets      []*targetSet // with several target sets, each; nil for one
-	rowSet    []uint8      // with several target sets, the set each row's line of scores.jsonl shows
+	guards    *guarded          // what the guards found; nil when none ran
+	dupOf     func(row int) int // a dropped duplicate's row -> the row kept instead
+	dropped   int               // rows whose cluster keeps another row
+	tmp       string            // the run's working folder, once made
+	target    string            // where the target is read from: opt.Target, or its copy in tmp
+	sets      []*targetSet      // with several target sets, each; nil for one
+	rowSet    []uint8           // with several target sets, the set each row's line of scores.jsonl shows
 }
 
 // TargetCopy is the name a target that could be read only once (stdin, a pipe) is kept under in

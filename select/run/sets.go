@@ -55,7 +55,7 @@ type targetSet struct {
 	scores  []float64
 	best    []int32
 	barred  []selection.Reason
-	dupOf   map[int]int
+	dupOf   func(row int) int
 }
 
 // SetNames names target sets as scores.jsonl and summaries show them: each file's base name less
@@ -230,10 +230,10 @@ func (p *picked) keepSets() error {
 		sets[i] = selection.Set{Scores: s.scores, Weight: s.ref.Weight, Barred: s.barred, MinScore: s.ref.MinScore}
 	}
 	var cluster []int32
-	if p.guards != nil && p.guards.clusters != nil {
+	if p.guards != nil && p.guards.cluster != nil {
 		cluster = make([]int32, len(costs))
 		for r := range cluster {
-			cluster[r] = int32(p.guards.clusters.Find(r))
+			cluster[r] = int32(p.guards.cluster(r))
 		}
 	}
 	decs, sums, sum, err := selection.PickSets(sets, costs, cluster, so)
@@ -299,16 +299,18 @@ func (p *picked) view(decs [][]selection.Decision, cluster []int32) {
 			keptIn[cluster[r]] = r
 		}
 	}
-	p.dupOf = map[int]int{}
+	p.dropped = 0
 	for r := range n {
-		if p.dec[r].Reason != selection.Duplicate {
-			continue
+		if p.dec[r].Reason == selection.Duplicate {
+			p.dropped++
 		}
+	}
+	sets, rowSet := p.sets, p.rowSet
+	p.dupOf = func(r int) int {
 		if k, ok := keptIn[cluster[r]]; ok {
-			p.dupOf[r] = k
-		} else {
-			p.dupOf[r] = p.sets[p.rowSet[r]].dupOf[r]
+			return k
 		}
+		return sets[rowSet[r]].dupOf(r)
 	}
 }
 

@@ -330,7 +330,7 @@ func (p *picked) appendGuard(b []byte, r int, why selection.Reason, plain *[256]
 	switch why {
 	case selection.Duplicate:
 		b = append(b, `,"duplicate_of":`...)
-		return appendJSONID(b, p.ix, p.dupOf[r], plain)
+		return appendJSONID(b, p.ix, p.dupOf(r), plain)
 	case selection.Contaminated:
 		hit := p.guards.contam[r]
 		b = append(b, `,"contaminated":`...)
