@@ -336,7 +336,12 @@ func (ix *Index) Dir() string { return ix.dir }
 func (ix *Index) NewAnalyzer() (*analysis.Analyzer, error) { return analysis.New(ix.meta.Analyzer) }
 
 // NumRows returns the number of indexed rows.
-func (ix *Index) NumRows() int { return int(ix.meta.Rows) }
+func (ix *Index) NumRows() int {
+	if ix.set != nil && ix.set.only >= 0 {
+		return int(ix.set.segs[ix.set.only].meta.Rows)
+	}
+	return int(ix.meta.Rows)
+}
 
 // AvgLen returns the mean analysed length of a row.
 func (ix *Index) AvgLen() float64 { return ix.meta.AvgLen }

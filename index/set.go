@@ -39,6 +39,9 @@ type segSet struct {
 	segs    []*Index
 	base    []int // first row of each segment, then the row count
 	srcBase []int // first source of each segment
+	// only, when not -1, is the one segment whose rows the Index holds (OpenShard), numbered from 0;
+	// the other segments are open for their statistics alone.
+	only int
 
 	normOnce sync.Once
 	norms    []float64 // the TF-IDF norms under the set's document frequencies, made when first asked
@@ -147,7 +150,7 @@ func readSet(path string) (dirs []string, allowOverlap bool, err error) {
 
 // openSet opens every segment and makes the Index that reads them as one.
 func openSet(path string, dirs []string, allowOverlap bool) (ix *Index, err error) {
-	s := &segSet{base: []int{0}}
+	s := &segSet{base: []int{0}, only: -1}
 	sources := 0
 	defer func() {
 		if err != nil {
@@ -318,6 +321,9 @@ func (s *segSet) countTerms() int {
 
 // seg returns the segment holding row and the row's number in it.
 func (s *segSet) seg(row int) (*Index, int, int) {
+	if s.only >= 0 {
+		return s.segs[s.only], row, s.only
+	}
 	i := sort.SearchInts(s.base[1:], row+1)
 	return s.segs[i], row - s.base[i], i
 }
@@ -327,7 +333,12 @@ func (s *segSet) seg(row int) (*Index, int, int) {
 // is the bits a build of all the files in one go would have written.
 func (s *segSet) rowNorm(row int, n int64) float64 {
 	s.normOnce.Do(func() {
-		parts := [2][]float64{make([]float64, n), make([]float64, n)}
+		normed := n // the rows normed, numbered from base: every segment's, or one shard's from 0
+		base := s.base
+		if s.only >= 0 {
+			normed, base = int64(s.base[s.only+1]-s.base[s.only]), make([]int, len(s.segs))
+		}
+		parts := [2][]float64{make([]float64, normed), make([]float64, normed)}
 		var rows, tfs []uint32
 		err := s.terms(func(term []byte, in []int, ents []termEntry) error {
 			var df uint64
@@ -340,6 +351,9 @@ func (s *segSet) rowNorm(row int, n int64) float64 {
 				acc = parts[1]
 			}
 			for _, i := range in {
+				if s.only >= 0 && i != s.only {
+					continue // counted in df; its rows are not this shard's
+				}
 				var err error
 				c := s.segs[i].cursorAt(ents[i], string(term))
 				if rows, tfs, err = c.Next(math.MaxInt, rows[:0], tfs[:0]); err != nil {
@@ -347,7 +361,7 @@ func (s *segSet) rowNorm(row int, n int64) float64 {
 				}
 				for k, r := range rows {
 					w := float64(tfs[k]) * idf
-					acc[s.base[i]+int(r)] += w * w
+					acc[base[i]+int(r)] += w * w
 				}
 			}
 			return nil
@@ -365,6 +379,9 @@ func (s *segSet) rowNorm(row int, n int64) float64 {
 
 // postings appends term's postings from every segment, rows renumbered into the set's.
 func (s *segSet) postings(term string, rows, tfs []uint32) ([]uint32, []uint32, error) {
+	if s.only >= 0 {
+		return s.segs[s.only].Postings(term, rows, tfs)
+	}
 	for i, g := range s.segs {
 		from := len(rows)
 		var err error
@@ -380,6 +397,9 @@ func (s *segSet) postings(term string, rows, tfs []uint32) ([]uint32, []uint32, 
 
 // cursor is term's cursor over every segment in turn.
 func (s *segSet) cursor(ix *Index, term string) *Cursor {
+	if s.only >= 0 {
+		return s.segs[s.only].NewCursor(term)
+	}
 	c := &Cursor{ix: ix, term: term, row: -1, next: -1}
 	for _, g := range s.segs {
 		c.parts = append(c.parts, g.NewCursor(term))
@@ -413,6 +433,9 @@ func (c *Cursor) nextParts(end int, rows, tfs []uint32) ([]uint32, []uint32, err
 
 // copyRows copies rows segment by segment, in input order.
 func (s *segSet) copyRows(w io.Writer, rows []int) error {
+	if s.only >= 0 {
+		return s.segs[s.only].CopyRows(w, rows)
+	}
 	rows = slices.Clone(rows)
 	slices.Sort(rows)
 	rows = slices.Compact(rows)

@@ -81,6 +81,7 @@ type plan struct {
 	avg      float64
 	vocab    []string  // distinct target terms present in the pool, ascending bytes
 	df       []int     // per vocab term
+	partDF   []int     // per vocab term, the rows scored holding it: df but for a PartCorpus
 	idf      []float64 // per vocab term, for the method
 	targets  []query   // one per target row
 	combined query     // the whole target set as one query (Sum only)
@@ -109,14 +110,20 @@ func (qu *query) factor(i int, idf []float64) float64 {
 }
 
 func newPlan(c Corpus, q []Query, p Params) (*plan, error) {
-	n := c.NumRows()
-	if n < 0 || uint64(n) > math.MaxUint32+1 {
-		return nil, fmt.Errorf("score: corpus has %d rows: %w", n, ErrBadCorpus)
+	rows := c.NumRows()
+	if rows < 0 || uint64(rows) > math.MaxUint32+1 {
+		return nil, fmt.Errorf("score: corpus has %d rows: %w", rows, ErrBadCorpus)
 	}
 	if len(q) > math.MaxInt32 {
 		return nil, fmt.Errorf("score: %d target rows, at most %d allowed: %w", len(q), math.MaxInt32, ErrInvalidParams)
 	}
-	pl := &plan{n: n, targets: make([]query, len(q))}
+	n, part := rows, PartCorpus(nil) // the rows the statistics are taken over, and the part scored
+	if pc, ok := c.(PartCorpus); ok {
+		if n, part = pc.WholeRows(), pc; n < rows {
+			return nil, fmt.Errorf("score: a part of %d rows of a corpus of %d: %w", rows, n, ErrBadCorpus)
+		}
+	}
+	pl := &plan{n: rows, targets: make([]query, len(q))}
 	if p.Method == BM25 {
 		pl.avg = c.AvgLen()
 		if math.IsNaN(pl.avg) || math.IsInf(pl.avg, 0) || pl.avg < 0 {
@@ -149,6 +156,14 @@ func newPlan(c Corpus, q []Query, p Params) (*plan, error) {
 		index[t] = int32(len(pl.vocab))
 		pl.vocab = append(pl.vocab, t)
 		pl.df = append(pl.df, df)
+		pdf := df
+		if part != nil {
+			pdf = part.PartDF(t)
+		}
+		if pdf < 0 || pdf > df || pdf > rows {
+			return nil, fmt.Errorf("score: df(%q) = %d in a part of %d rows, %d in the whole: %w", t, pdf, rows, df, ErrBadCorpus)
+		}
+		pl.partDF = append(pl.partDF, pdf)
 		if p.Method == BM25 {
 			pl.idf = append(pl.idf, bm25IDF(n, df))
 		} else {

@@ -24,6 +24,16 @@ type Corpus interface {
 	Postings(term string, rows, tfs []uint32) ([]uint32, []uint32, error)
 }
 
+// A PartCorpus is one part of a larger corpus (one segment of an index set, say) scored with the
+// whole's statistics: its NumRows rows are scored, DF and AvgLen are the whole's, WholeRows is the
+// whole's row count for the idf, and PartDF counts this part's rows holding a term, for the work
+// done. Scores are then to the bit those of the same rows scored with the whole, and the Work of
+// the parts sums to the whole's (Passes and TargetTokens aside, which each part repeats).
+type PartCorpus interface {
+	WholeRows() int
+	PartDF(term string) int
+}
+
 // Errors reported by this package; test with errors.Is.
 var (
 	// ErrInvalidParams reports an unknown method or aggregate name or out-of-range parameters.

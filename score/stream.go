@@ -37,7 +37,7 @@ type CursorCorpus interface {
 func (s *scorer) streamPasses(ctx context.Context, cc CursorCorpus, res *Result, bestScore []float64, tlo, thi int) error {
 	pl := s.pl
 	n := pl.n
-	h, combined := s.rowSetup(&res.Work, tlo, thi, func(k int) int64 { return int64(pl.df[k]) })
+	h, combined := s.rowSetup(&res.Work, tlo, thi, func(k int) int64 { return int64(pl.partDF[k]) })
 	curs := make([]PostingCursor, len(pl.vocab))
 	var active []int32 // the terms read, ascending
 	var total int64
@@ -51,7 +51,7 @@ func (s *scorer) streamPasses(ctx context.Context, cc CursorCorpus, res *Result,
 		}
 		curs[k] = c
 		active = append(active, int32(k))
-		total += int64(pl.df[k])
+		total += int64(pl.partDF[k])
 	}
 	nw := s.p.Workers
 	if nw == 0 {
