@@ -359,11 +359,24 @@ func (p *picked) applyGuards() error {
 // groupCaps turns MaxShare into token caps per source for the selection, from the training budget
 // left once selection is paid.
 func (p *picked) groupCaps(unit, fixed float64) ([]int32, []float64, error) {
+	caps, err := p.caps(unit, fixed)
+	if caps == nil || err != nil {
+		return nil, nil, err
+	}
+	group := make([]int32, p.ix.NumRows())
+	for r := range group {
+		group[r] = int32(p.ix.RowLocation(r).Source)
+	}
+	return group, caps, nil
+}
+
+// caps are the token caps per source of MaxShare, nil without it.
+func (p *picked) caps(unit, fixed float64) ([]float64, error) {
 	shares := p.opt.Guards.MaxShare
 	if len(shares) == 0 {
-		return nil, nil, nil
+		return nil, nil
 	}
-	srcs := p.ix.Meta().Sources
+	srcs := p.meta().Sources
 	byPath := map[string]int{}
 	for i, s := range srcs {
 		byPath[s.Path] = i
@@ -380,7 +393,7 @@ func (p *picked) groupCaps(unit, fixed float64) ([]int32, []float64, error) {
 		for _, s := range srcs {
 			have = append(have, s.Path)
 		}
-		return nil, nil, fmt.Errorf("--max-share names %s, which the index does not hold; its files are %s", strings.Join(unknown, ", "), strings.Join(have, ", "))
+		return nil, fmt.Errorf("--max-share names %s, which the index does not hold; its files are %s", strings.Join(unknown, ", "), strings.Join(have, ", "))
 	}
 	tokens := (p.opt.Budget - fixed) / unit
 	caps := make([]float64, len(srcs))
@@ -394,11 +407,7 @@ func (p *picked) groupCaps(unit, fixed float64) ([]int32, []float64, error) {
 		}
 		caps[i] = math.Floor(share * tokens)
 	}
-	group := make([]int32, p.ix.NumRows())
-	for r := range group {
-		group[r] = int32(p.ix.RowLocation(r).Source)
-	}
-	return group, caps, nil
+	return caps, nil
 }
 
 // guardNotes say in the ledger what the guards found.

@@ -151,10 +151,15 @@ func (p *picked) lexical(ctx context.Context, prm score.Params, stage string) (*
 	if err != nil {
 		return nil, err
 	}
-	w := res.Work
+	p.work = res.Work
+	p.chargeLexical(prm, stage, res.Work)
+	return res, nil
+}
+
+// chargeLexical charges lexical scoring's work to the ledger.
+func (p *picked) chargeLexical(prm score.Params, stage string, w score.Work) {
 	p.led.AddSelection(fmt.Sprintf("%sscore pool (%s, %s): postings visited", stage, prm.Method, prm.Aggregate), "posting", float64(w.Postings), budget.FLOPsPerPosting,
 		fmt.Sprintf("%d FLOPs x %d postings in %d passes", budget.FLOPsPerPosting, w.Postings, w.Passes))
-	return res, nil
 }
 
 // prefilter scores every row lexically and returns the rows, ascending, that go on to the pick's

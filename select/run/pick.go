@@ -131,6 +131,32 @@ type picked struct {
 	target    string            // where the target is read from: opt.Target, or its copy in tmp
 	sets      []*targetSet      // with several target sets, each; nil for one
 	rowSet    []uint8           // with several target sets, the set each row's line of scores.jsonl shows
+	work      score.Work        // what the last lexical scoring did
+	// cut, for the cut of a sharded pick, which opens no index, holds the set's metadata and the
+	// target rows counted by the shards; nil otherwise.
+	cut *cutInputs
+}
+
+// cutInputs is what the cut of a sharded pick knows of the index and the target from the shards.
+type cutInputs struct {
+	meta                     index.Meta
+	targets, targetsRejected int
+}
+
+// meta is the index's metadata: the set's.
+func (p *picked) meta() index.Meta {
+	if p.cut != nil {
+		return p.cut.meta
+	}
+	return p.ix.Meta()
+}
+
+// targetCounts are the target rows used and quarantined.
+func (p *picked) targetCounts() (int, int) {
+	if p.cut != nil {
+		return p.cut.targets, p.cut.targetsRejected
+	}
+	return len(p.targets), len(p.trej)
 }
 
 // TargetCopy is the name a target that could be read only once (stdin, a pipe) is kept under in
@@ -344,21 +370,29 @@ func (p *picked) keep() error {
 // costs are every row's training cost for the selection, in tokens at unit FLOPs each; they
 // refuse a selection that alone passes the budget.
 func (p *picked) costs() (float64, []float64, error) {
-	opt, led := p.opt, p.led
-	if led.Selection() > opt.Budget {
-		// Nothing can be kept, and a run folder would show a ledger over its budget: say so instead.
-		return 0, nil, fmt.Errorf("the selection cost alone, %s FLOPs (%s), exceeds the budget of %s FLOPs: raise the budget; nothing was written",
-			budget.FormatFLOPs(led.Selection()), strings.Join(selectionWords(led), " + "), budget.FormatFLOPs(opt.Budget))
+	unit, err := p.unit()
+	if err != nil {
+		return 0, nil, err
 	}
-	// Costs are tokens at one price per token over every epoch, so that the fit test and the
-	// ledger's training line are the same product and the ledger never passes its budget by a
-	// rounding.
-	unit := budget.TrainFLOPs(opt.TrainParams, 1, opt.Epochs)
 	costs := make([]float64, p.ix.NumRows())
 	for r := range costs {
 		costs[r] = float64(p.tokens(r))
 	}
 	return unit, costs, nil
+}
+
+// unit is the FLOPs of training on one token; it refuses a selection that alone passes the budget.
+func (p *picked) unit() (float64, error) {
+	opt, led := p.opt, p.led
+	if led.Selection() > opt.Budget {
+		// Nothing can be kept, and a run folder would show a ledger over its budget: say so instead.
+		return 0, fmt.Errorf("the selection cost alone, %s FLOPs (%s), exceeds the budget of %s FLOPs: raise the budget; nothing was written",
+			budget.FormatFLOPs(led.Selection()), strings.Join(selectionWords(led), " + "), budget.FormatFLOPs(opt.Budget))
+	}
+	// Costs are tokens at one price per token over every epoch, so that the fit test and the
+	// ledger's training line are the same product and the ledger never passes its budget by a
+	// rounding.
+	return budget.TrainFLOPs(opt.TrainParams, 1, opt.Epochs), nil
 }
 
 // tally counts what p.dec kept and dropped, in all and by pool file.
@@ -388,7 +422,9 @@ func (p *picked) tally() {
 
 // finish completes the ledger, with the training of the kept rows and the notes, and the result.
 func (p *picked) finish(unit float64, sum selection.Summary) {
-	opt, m, led, r, n := p.opt, p.ix.Meta(), p.led, &p.out, p.ix.NumRows()
+	opt, m, led, r := p.opt, p.meta(), p.led, &p.out
+	n := int(m.Rows)
+	targets, trej := p.targetCounts()
 	led.AddTraining(fmt.Sprintf("train %s-parameter model on kept rows", budget.FormatCount(opt.TrainParams)), "token", float64(r.KeptTokens), unit,
 		fmt.Sprintf("6 x %g parameters x %d tokens x %g epochs", opt.TrainParams, r.KeptTokens, opt.Epochs))
 	tokSrc := "UTF-8 bytes of the text fields / 4, rounded up (rule of thumb for English, common practice)"
@@ -402,7 +438,7 @@ func (p *picked) finish(unit float64, sum selection.Summary) {
 		"budget: "+opt.BudgetHow,
 		"tokens per row: "+tokSrc,
 		"selection cost is charged over the whole pool before any row is kept",
-		reconciliation(m, len(p.targets), len(p.trej)),
+		reconciliation(m, targets, trej),
 	)
 	r.Notes = p.guardNotes()
 	led.Notes = append(led.Notes, r.Notes...)
@@ -415,7 +451,7 @@ func (p *picked) finish(unit float64, sum selection.Summary) {
 	}
 	r.Settings = p.settings()
 	r.Index, r.Out = opt.Index, opt.Out
-	r.Meta, r.Rows, r.Targets, r.TargetsRejected = m, n, len(p.targets), len(p.trej)
+	r.Meta, r.Rows, r.Targets, r.TargetsRejected = m, n, targets, trej
 	r.Ledger, r.Summary = led, sum
 }
 
@@ -423,7 +459,7 @@ func (p *picked) finish(unit float64, sum selection.Summary) {
 func (p *picked) settings() Settings {
 	o := p.opt
 	st := Settings{
-		Analyzer: p.ix.Meta().Analyzer, TargetText: p.spec, TargetID: p.tid,
+		Analyzer: p.meta().Analyzer, TargetText: p.spec, TargetID: p.tid,
 		Method: o.method(), Aggregate: o.Params.Aggregate.String(),
 		K1: o.Params.K1, B: o.Params.B, Attribute: !o.Params.SkipBest,
 		Budget: o.Budget, BudgetHow: o.BudgetHow, TrainParams: o.TrainParams, Epochs: o.Epochs,

@@ -14,9 +14,7 @@ import (
 	"strings"
 	"sync"
 
-	"github.com/klauspost/compress/gzip"
-	"github.com/klauspost/compress/zstd"
-
+	"sluice/budget"
 	"sluice/index"
 	"sluice/index/atomicdir"
 	selection "sluice/select"
@@ -40,23 +38,8 @@ func (p *picked) write() error {
 	}{
 		{KeptName(opt.Compress), p.copyKept},
 		{ScoresFile, p.writeScores},
-		{LedgerFile, func(w *bufio.Writer) error {
-			b, err := json.MarshalIndent(p.out.Ledger, "", "  ")
-			if err != nil {
-				return err
-			}
-			_, err = w.Write(append(b, '\n'))
-			return err
-		}},
-		{RejectedFile, func(w *bufio.Writer) error {
-			enc := json.NewEncoder(w)
-			for i := range p.trej {
-				if err := enc.Encode(&p.trej[i]); err != nil {
-					return err
-				}
-			}
-			return nil
-		}},
+		{LedgerFile, func(w *bufio.Writer) error { return writeLedger(w, p.out.Ledger) }},
+		{RejectedFile, p.writeRejected},
 	}
 	sums := make([]string, len(outs))
 	errs := make([]error, len(outs))
@@ -122,25 +105,7 @@ func (p *picked) copyKept(w *bufio.Writer) error {
 		}
 		return p.ix.CopyRows(w, kept)
 	}
-	switch p.opt.Compress {
-	case "gzip":
-		zw := gzip.NewWriter(w)
-		if err := write(zw); err != nil {
-			return err
-		}
-		return zw.Close()
-	case "zstd":
-		zw, err := zstd.NewWriter(w)
-		if err != nil {
-			return err
-		}
-		if err := write(zw); err != nil {
-			zw.Close()
-			return err
-		}
-		return zw.Close()
-	}
-	return write(w)
+	return compressed(w, p.opt.Compress, write)
 }
 
 // writeFileBytes writes b to path and fsyncs it; errors name it as shown.
@@ -339,4 +304,25 @@ func (p *picked) appendGuard(b []byte, r int, why selection.Reason, plain *[256]
 		return AppendJSONString(b, strings.Join(hit.Words, " "))
 	}
 	return b
+}
+
+// writeLedger writes ledger.json's bytes.
+func writeLedger(w *bufio.Writer, l *budget.Ledger) error {
+	b, err := json.MarshalIndent(l, "", "  ")
+	if err != nil {
+		return err
+	}
+	_, err = w.Write(append(b, '\n'))
+	return err
+}
+
+// writeRejected writes the quarantined target rows, rejected.jsonl.
+func (p *picked) writeRejected(w *bufio.Writer) error {
+	enc := json.NewEncoder(w)
+	for i := range p.trej {
+		if err := enc.Encode(&p.trej[i]); err != nil {
+			return err
+		}
+	}
+	return nil
 }

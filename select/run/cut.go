@@ -1,0 +1,397 @@
+package run
+
+import (
+	"bufio"
+	"cmp"
+	"container/heap"
+	"context"
+	"crypto/sha256"
+	"encoding/binary"
+	"encoding/hex"
+	"encoding/json"
+	"fmt"
+	"hash"
+	"io"
+	"math"
+	"os"
+	"path/filepath"
+	"slices"
+
+	"sluice/budget"
+	"sluice/index"
+	"sluice/index/atomicdir"
+	"sluice/score"
+	selection "sluice/select"
+)
+
+// cutFile is cut.json: what the cut decided, for the steps after it.
+type cutFile struct {
+	Format     string            `json:"format"`
+	Sluice     string            `json:"sluice"`
+	Identity   string            `json:"identity"`
+	Options    string            `json:"options"`
+	Of         int               `json:"of"`
+	Rows       int               `json:"rows"`
+	Kept       int               `json:"kept"`
+	KeptTokens int64             `json:"kept_tokens"`
+	Stop       string            `json:"stop"`
+	Settings   Settings          `json:"settings"`
+	Files      map[string]string `json:"files"` // SHA-256 of ledger.json and each shard's decisions
+}
+
+func cutKind() atomicdir.Kind {
+	return shardKind("cut", cutMark, func(n string) bool {
+		var i int
+		_, err := fmt.Sscanf(n, "decisions-%04d", &i)
+		return n == LedgerFile || (err == nil && n == decisionsName(i))
+	})
+}
+
+// readShards reads every shard's summary and refuses, naming the shard, one that is missing or
+// damaged, or that ran another pick, over another set or with other statistics than shard 0.
+func readShards(work, key, ident string) ([]*shardFile, error) {
+	var heads []*shardFile
+	var meta0 []byte
+	for i := 0; i == 0 || i < heads[0].Of; i++ {
+		sf := &shardFile{}
+		what := fmt.Sprintf("shard %d", i)
+		if i > 0 {
+			what = fmt.Sprintf("shard %d of %d", i, heads[0].Of)
+		}
+		if _, err := readJSON(filepath.Join(shardFolder(work, i), shardMark), what+" (run its score step)", sf); err != nil {
+			return nil, err
+		}
+		meta, _ := json.Marshal(sf.Meta)
+		switch {
+		case sf.Format != shardFormat || sf.Shard != i:
+			return nil, shardErrorf("%s: %s is not shard %d's summary", what, shardFolder(work, i), i)
+		case sf.Identity != ident:
+			return nil, shardErrorf("%s was scored over another index set (identity %.12s; the set is now %.12s): score it again", what, sf.Identity, ident)
+		case sf.Options != key:
+			return nil, shardErrorf("%s was scored with other flags or another target: give every step the same pick flags", what)
+		case i > 0 && sf.Of != heads[0].Of:
+			return nil, shardErrorf("%s says the set has %d segments", what, sf.Of)
+		case i > 0 && (sf.Stats != heads[0].Stats || string(meta) != string(meta0)):
+			return nil, shardErrorf("%s used other statistics of the set than shard 0 (rows, lengths or document frequencies): score both again", what)
+		case i > 0 && (sf.Work.Passes != heads[0].Work.Passes || sf.Targets != heads[0].Targets || !slices.Equal(sf.Lines, heads[0].Lines)):
+			return nil, shardErrorf("%s read the target otherwise than shard 0: score both again", what)
+		case i > 0 && sf.FirstRow != heads[i-1].FirstRow+heads[i-1].Rows:
+			return nil, shardErrorf("%s starts at row %d, not after shard %d's rows", what, sf.FirstRow, i-1)
+		}
+		if i == 0 {
+			meta0 = meta
+		}
+		heads = append(heads, sf)
+	}
+	if last := heads[len(heads)-1]; int64(last.FirstRow+last.Rows) != heads[0].Meta.Rows {
+		return nil, shardErrorf("the shards hold %d rows, the set %d", last.FirstRow+last.Rows, heads[0].Meta.Rows)
+	}
+	return heads, nil
+}
+
+// rankHead is one shard's next row in the merge.
+type rankHead struct {
+	score  float64
+	row    uint32
+	source uint32
+	tokens uint64
+	shard  int
+}
+
+// merge streams the shards' rankings as one, ranked as Pick ranks (score descending, NaN last,
+// then row ascending): a heap of one head per shard, so its memory grows with shards, not rows.
+type merge struct {
+	files []*recordFile
+	heap  rankHeap
+}
+
+type rankHeap []rankHead
+
+func (h rankHeap) Len() int { return len(h) }
+func (h rankHeap) Less(i, j int) bool {
+	return cmp.Or(cmp.Compare(h[j].score, h[i].score), cmp.Compare(h[i].row, h[j].row)) < 0
+}
+func (h rankHeap) Swap(i, j int) { h[i], h[j] = h[j], h[i] }
+func (h *rankHeap) Push(x any)   { *h = append(*h, x.(rankHead)) }
+func (h *rankHeap) Pop() any {
+	old := *h
+	x := old[len(old)-1]
+	*h = old[:len(old)-1]
+	return x
+}
+
+// mergeBuf is each ranking's read buffer.
+const mergeBuf = 64 << 10
+
+func openMerge(work string, heads []*shardFile) (*merge, error) {
+	m := &merge{}
+	for i, sf := range heads {
+		rf, err := openRecords(filepath.Join(shardFolder(work, i), rankingFile), "sluiceRK", i, sf.Of, sf.Rows, rankRecSize, sf.Files[rankingFile], mergeBuf)
+		if err != nil {
+			m.Close()
+			return nil, err
+		}
+		m.files = append(m.files, rf)
+		if err := m.advance(i); err != nil {
+			m.Close()
+			return nil, err
+		}
+	}
+	heap.Init(&m.heap)
+	return m, nil
+}
+
+// advance pushes shard i's next row, if it has one.
+func (m *merge) advance(i int) error {
+	rf := m.files[i]
+	ok, err := rf.next()
+	if !ok || err != nil {
+		return err
+	}
+	b := rf.rec
+	h := rankHead{score: math.Float64frombits(binary.LittleEndian.Uint64(b)), row: binary.LittleEndian.Uint32(b[8:]),
+		source: binary.LittleEndian.Uint32(b[12:]), tokens: binary.LittleEndian.Uint64(b[16:]), shard: i}
+	heap.Push(&m.heap, h)
+	return nil
+}
+
+// next returns the best row left, or false when every ranking is spent (and checked).
+func (m *merge) next() (rankHead, bool, error) {
+	if len(m.heap) == 0 {
+		return rankHead{}, false, nil
+	}
+	h := heap.Pop(&m.heap).(rankHead)
+	if err := m.advance(h.shard); err != nil {
+		return h, false, err
+	}
+	return h, true, nil
+}
+
+func (m *merge) Close() {
+	for _, f := range m.files {
+		f.Close()
+	}
+}
+
+// CutShards is a sharded pick's second step: it reads every shard's summary, merges their rankings
+// and walks them as Pick walks its ranking, and writes the work folder's cut: each shard's
+// decisions, in its ranking's order, and the ledger.
+func CutShards(ctx context.Context, opt Options, work string) (*ShardReport, error) {
+	if err := CheckShardable(opt); err != nil {
+		return nil, err
+	}
+	key, err := shardOptions(&opt)
+	if err != nil {
+		return nil, err
+	}
+	ident, err := index.Identity(opt.Index)
+	if err != nil {
+		return nil, err
+	}
+	heads, err := readShards(work, key, ident)
+	if err != nil {
+		return nil, err
+	}
+	h0 := heads[0]
+	p := &picked{opt: &opt, spec: h0.Spec, tid: h0.TargetID, cut: &cutInputs{meta: h0.Meta, targets: h0.Targets, targetsRejected: h0.TargetsRejected}}
+	p.led = &budget.Ledger{Budget: opt.Budget, Lines: slices.Clone(h0.Lines)}
+	w := score.Work{Passes: h0.Work.Passes}
+	for _, sf := range heads {
+		w.Postings += sf.Work.Postings
+	}
+	p.chargeLexical(opt.Params, "", w)
+	unit, err := p.unit()
+	if err != nil {
+		return nil, err
+	}
+	so := opt.Select
+	so.Budget, so.Fixed, so.Unit = opt.Budget, p.led.Selection(), unit
+	if so.Caps, err = p.caps(unit, so.Fixed); err != nil {
+		return nil, err
+	}
+	if opt.MinScore.Kind != "" {
+		if so.MinScore, err = cutMinScore(work, heads, opt.MinScore); err != nil {
+			return nil, err
+		}
+		opt.Select.MinScore = so.MinScore
+		p.led.Notes = append(p.led.Notes, fmt.Sprintf("min-score: %s of the scored rows, %v", opt.MinScore, so.MinScore))
+	}
+	dir := filepath.Join(work, cutName)
+	cf := &cutFile{Format: shardFormat, Sluice: opt.Version, Identity: ident, Options: key, Of: h0.Of, Rows: int(h0.Meta.Rows), Files: map[string]string{}}
+	err = publishWork(dir, cutKind(), []string{opt.Index, opt.Target}, func(tmp string) error {
+		sum, err := p.walkShards(ctx, work, tmp, heads, so, cf)
+		if err != nil {
+			return err
+		}
+		p.led.Stop = stopText(sum, so)
+		if sum.Stop == selection.StopMinScore && opt.MinScore.Kind != "" {
+			p.led.Stop += " (" + opt.MinScore.String() + ")"
+		}
+		p.finish(unit, sum)
+		cf.Kept, cf.KeptTokens, cf.Stop, cf.Settings = sum.Kept, p.out.KeptTokens, p.led.Stop, p.out.Settings
+		if cf.Files[LedgerFile], err = writeHashed(filepath.Join(tmp, LedgerFile), filepath.Join(dir, LedgerFile),
+			func(w *bufio.Writer) error { return writeLedger(w, p.led) }); err != nil {
+			return err
+		}
+		return writeJSON(filepath.Join(tmp, cutMark), filepath.Join(dir, cutMark), cf)
+	})
+	if err != nil {
+		return nil, err
+	}
+	return &ShardReport{Of: h0.Of, Rows: cf.Rows, Kept: cf.Kept, KeptTokens: cf.KeptTokens, Stop: cf.Stop, Wrote: dir}, nil
+}
+
+// walkShards walks the merged rankings with a Walker, writing each row's decision to its shard's
+// decisions file in tmp and tallying what was kept, as tally does for a pick.
+func (p *picked) walkShards(ctx context.Context, work, tmp string, heads []*shardFile, so selection.Options, cf *cutFile) (selection.Summary, error) {
+	m, err := openMerge(work, heads)
+	if err != nil {
+		return selection.Summary{}, err
+	}
+	defer m.Close()
+	outs := make([]*hashedFile, len(heads))
+	defer func() {
+		for _, o := range outs {
+			if o != nil {
+				o.f.Close()
+			}
+		}
+	}()
+	for i, sf := range heads {
+		if outs[i], err = createHashed(filepath.Join(tmp, decisionsName(i))); err != nil {
+			return selection.Summary{}, err
+		}
+		outs[i].w.Write(fileHead("sluiceDC", i, sf.Of, sf.Rows, sf.FirstRow))
+	}
+	r := &p.out
+	r.Sources = make([]SourceTally, len(p.cut.meta.Sources))
+	for i, src := range p.cut.meta.Sources {
+		r.Sources[i].File = src.Path
+	}
+	r.Dropped = map[string]int{}
+	walker := selection.NewWalker(so)
+	var rec [decRecSize]byte
+	for n := 0; ; n++ {
+		if n%(1<<16) == 0 && ctx.Err() != nil {
+			return selection.Summary{}, fmt.Errorf("cut: %w", ctx.Err())
+		}
+		h, ok, err := m.next()
+		if err != nil {
+			return selection.Summary{}, err
+		}
+		if !ok {
+			break
+		}
+		if int(h.source) >= len(r.Sources) || int(h.row) >= cf.Rows {
+			return selection.Summary{}, shardErrorf("shard %d: its ranking names row %d of source %d, which the set does not have", h.shard, h.row, h.source)
+		}
+		d := walker.Step(h.score, float64(h.tokens), selection.Kept, int32(h.source))
+		st := &r.Sources[h.source]
+		st.Rows++
+		st.Tokens += int64(h.tokens)
+		if d.Kept {
+			r.KeptTokens += int64(h.tokens)
+			st.KeptRows++
+			st.KeptTokens += int64(h.tokens)
+		} else {
+			r.Dropped[d.Reason.String()]++
+		}
+		binary.LittleEndian.PutUint32(rec[0:], h.row-uint32(heads[h.shard].FirstRow))
+		binary.LittleEndian.PutUint32(rec[4:], d.Rank)
+		rec[8] = byte(d.Reason)
+		binary.LittleEndian.PutUint64(rec[9:], math.Float64bits(d.LedgerAfter))
+		outs[h.shard].w.Write(rec[:])
+	}
+	for i, o := range outs {
+		sum, err := o.finish()
+		if err != nil {
+			return selection.Summary{}, fmt.Errorf("write %s: %w", filepath.Join(work, cutName, decisionsName(i)), err)
+		}
+		cf.Files[decisionsName(i)] = sum
+	}
+	return walker.Summary(), nil
+}
+
+// cutMinScore resolves a floor given relative to the scores, as MinScore.resolve does over every
+// row, from the shards' counts and one more pass over the merged rankings: a lexical pick's
+// floor is taken over the rows scoring above 0, which lead the ranking.
+func cutMinScore(work string, heads []*shardFile, ms MinScore) (float64, error) {
+	n, best, lo := 0, math.Inf(-1), math.Inf(1)
+	for _, sf := range heads {
+		n += sf.Matched
+		if sf.Matched > 0 {
+			lo = min(lo, sf.Lowest)
+		}
+	}
+	if n == 0 {
+		return math.Inf(1), nil
+	}
+	m, err := openMerge(work, heads)
+	if err != nil {
+		return 0, err
+	}
+	defer m.Close()
+	at, minD := 0.0, math.Inf(1)
+	want := -1 // the percentile's place from the top
+	if ms.Kind == "percentile" {
+		want = n - 1 - int(math.Floor(ms.Value/100*float64(n-1)))
+	}
+	for i := 0; i < n; i++ {
+		h, ok, err := m.next()
+		if err != nil {
+			return 0, err
+		}
+		if !ok || !(h.score > 0) {
+			return 0, shardErrorf("the shards' rankings hold fewer rows scoring above 0 than their summaries say")
+		}
+		if i == 0 {
+			best = h.score
+		}
+		switch ms.Kind {
+		case "share":
+			return ms.Value * best, nil // the best is above 0 here
+		case "percentile":
+			if i == want {
+				return h.score, nil
+			}
+		case "knee":
+			if n < 3 || best == lo {
+				return lo, nil
+			}
+			if d := float64(i)/float64(n-1) + (h.score-lo)/(best-lo); d < minD {
+				minD, at = d, h.score
+			}
+		}
+	}
+	return at, nil
+}
+
+// hashedFile is a file written through a buffer and a SHA-256.
+type hashedFile struct {
+	f *os.File
+	w *bufio.Writer
+	h hash.Hash
+}
+
+func createHashed(path string) (*hashedFile, error) {
+	f, err := os.Create(path)
+	if err != nil {
+		return nil, err
+	}
+	hf := &hashedFile{f: f, h: sha256.New()}
+	hf.w = bufio.NewWriterSize(io.MultiWriter(f, hf.h), mergeBuf)
+	return hf, nil
+}
+
+// finish flushes, syncs and closes the file, and returns its SHA-256 in hex.
+func (hf *hashedFile) finish() (string, error) {
+	err := hf.w.Flush()
+	if err == nil {
+		err = hf.f.Sync()
+	}
+	if e := hf.f.Close(); err == nil {
+		err = e
+	}
+	hf.f = nil
+	return hex.EncodeToString(hf.h.Sum(nil)), err
+}

@@ -1,0 +1,398 @@
+package run
+
+import (
+	"bufio"
+	"context"
+	"crypto/sha256"
+	"encoding/binary"
+	"encoding/hex"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"hash"
+	"io"
+	"math"
+	"os"
+	"path/filepath"
+	"slices"
+
+	"sluice/budget"
+	"sluice/index"
+	"sluice/index/atomicdir"
+	"sluice/score"
+	selection "sluice/select"
+)
+
+// A sharded pick is a pick over an index set whose segments are scored on machines of their own,
+// in four steps sharing a work folder, each a process of its own:
+//
+//   - ScoreShard, once per segment: the segment's rows scored with the set's statistics
+//     (index.OpenShard), written as a ranking sorted as Pick sorts (score descending, then row), their
+//     scores and best target rows in input order, and a summary (shard-NNNN);
+//   - CutShards, once: the shards' rankings merged as a stream, a heap of one head per shard, and
+//     walked by a selection.Walker, which keeps what Pick over all rows keeps; it writes each
+//     shard's decisions and the ledger (cut);
+//   - WriteShard, once per segment: its lines of scores.jsonl and its kept rows (part-NNNN);
+//   - JoinShards, once: the parts joined in segment order into an ordinary run folder.
+//
+// With the flags a sharded pick takes (CheckShardable), the run folder's scores.jsonl, kept file,
+// ledger.json and rejected.jsonl are byte for byte those `pick` over the set writes, and its
+// manifest differs in the command line alone.
+
+// ErrShard is matched (errors.Is) by every refusal of a sharded pick's flags and of its work
+// folder's files: a missing, damaged or disagreeing shard, or a flag it cannot honour.
+var ErrShard = errors.New("sharded pick refused")
+
+type shardError string
+
+func (e shardError) Error() string   { return string(e) }
+func (shardError) Is(err error) bool { return err == ErrShard }
+
+func shardErrorf(format string, a ...any) error { return shardError(fmt.Sprintf(format, a...)) }
+
+// CheckShardable refuses, before any work and naming the flag, what a sharded pick cannot do to
+// the bit as a pick over the whole set does: anything needing every row at once or read twice.
+func CheckShardable(opt Options) error {
+	switch m := opt.method(); {
+	case !lexical(m):
+		return shardErrorf("--method %s: a sharded pick scores by bm25 or tfidf, from each segment's postings with the set's statistics; pick over the whole set for %s", m, m)
+	case len(opt.ExtraTargets) > 0:
+		return shardErrorf("--target given %d times: a sharded pick takes one target set", 1+len(opt.ExtraTargets))
+	case !opt.Guards.KeepDuplicates:
+		return shardErrorf("duplicates cross segments, and finding them needs every row at once: give --keep-duplicates for a sharded pick (or pick over the whole set)")
+	case len(opt.Guards.Exclude) > 0:
+		return shardErrorf("--exclude: a sharded pick does not check rows against evaluation files; pick over the whole set")
+	case opt.Prefilter.active():
+		return shardErrorf("--prefilter goes before a model-based method, which a sharded pick does not run")
+	case opt.Target == "-":
+		return shardErrorf("--target -: every step of a sharded pick reads the target again; give a file")
+	}
+	if fi, err := os.Stat(opt.Target); err != nil {
+		return fmt.Errorf("read target %s: %w", opt.Target, err)
+	} else if !fi.Mode().IsRegular() {
+		return shardErrorf("--target %s is not a regular file: every step of a sharded pick reads it again", opt.Target)
+	}
+	return nil
+}
+
+// The names in a sharded pick's work folder.
+const (
+	shardFormat  = "sluice shard 1"
+	shardMark    = "shard.json"
+	rankingFile  = "ranking"
+	shardRows    = "rows"
+	cutName      = "cut"
+	cutMark      = "cut.json"
+	partMark     = "part.json"
+	rankRecSize  = 24 // score, row among the set's, source among the set's, tokens
+	rowRecSize   = 12 // score, best target row
+	decRecSize   = 17 // row in the shard, rank, reason, ledger after
+	fileHeadSize = 32 // magic, shard, of, rows, first row
+)
+
+func shardFolder(work string, i int) string { return filepath.Join(work, fmt.Sprintf("shard-%04d", i)) }
+func partFolder(work string, i int) string  { return filepath.Join(work, fmt.Sprintf("part-%04d", i)) }
+func decisionsName(i int) string            { return fmt.Sprintf("decisions-%04d", i) }
+
+// shardKind is a folder of a sharded pick's work: its mark file, written by sluice with format
+// shardFormat, and the names it may hold.
+func shardKind(name, mark string, holds func(string) bool) atomicdir.Kind {
+	return atomicdir.Kind{Name: name, Mark: mark,
+		IsOur: func(b []byte) bool {
+			var h struct{ Format string }
+			return json.Unmarshal(b, &h) == nil && h.Format == shardFormat
+		},
+		Holds: func(n string) bool { return n == mark || holds(n) }}
+}
+
+func scoredKind() atomicdir.Kind {
+	return shardKind("shard's scores", shardMark, func(n string) bool { return n == rankingFile || n == shardRows || n == RejectedFile })
+}
+
+// shardFile is shard.json: what the cut and the later steps check a shard's files against.
+type shardFile struct {
+	Format   string `json:"format"`
+	Sluice   string `json:"sluice"`
+	Identity string `json:"identity"` // the set's (index.Identity)
+	Options  string `json:"options"`  // the pick's options (shardOptions)
+	Shard    int    `json:"shard"`
+	Of       int    `json:"of"`
+	FirstRow int    `json:"first_row"`
+	Rows     int    `json:"rows"`
+	// Stats is the SHA-256 of the statistics the scores used: the set's rows, average length and
+	// each target term's document frequency.
+	Stats string     `json:"stats"`
+	Meta  index.Meta `json:"meta"` // the set's
+	// Lines are the ledger's lines before scoring; Work is the scoring's, over this shard's rows.
+	Lines           []budget.Line     `json:"lines"`
+	Work            score.Work        `json:"work"`
+	Spec            string            `json:"spec"`      // the target's text spec, as read
+	TargetID        string            `json:"target_id"` // the target's id field, as read
+	Targets         int               `json:"targets"`
+	TargetsRejected int               `json:"targets_rejected"`
+	Matched         int               `json:"matched"` // rows scoring above 0
+	Lowest          float64           `json:"lowest"`  // the lowest score above 0; 0 when none
+	Files           map[string]string `json:"files"`   // SHA-256 of each other file
+}
+
+// shardOptions is a fingerprint of everything in opt that decides a row's score or fate, so that
+// every step of a sharded pick is sure to run the same pick: the target's content, not its path,
+// and nothing of where the run is written or how much memory a step may take.
+func shardOptions(opt *Options) (string, error) {
+	sum, err := sha256File(opt.Target)
+	if err != nil {
+		return "", fmt.Errorf("read target %s: %w", opt.Target, err)
+	}
+	k := *opt
+	k.Index, k.Target, k.Out, k.Command, k.Version, k.Stdin, k.MaxMem, k.scoreBatch = "", "", "", nil, "", nil, 0, 0
+	k.Params.Workers, k.Params.CacheBytes = 0, 0
+	h := sha256.New()
+	fmt.Fprintf(h, "%s\n%+v", sum, k)
+	return hex.EncodeToString(h.Sum(nil)), nil
+}
+
+// statsKey is the SHA-256 of the statistics a shard's scores used.
+func (p *picked) statsKey() string {
+	h := sha256.New()
+	fmt.Fprintf(h, "%d %x\n", p.ix.WholeRows(), math.Float64bits(p.ix.AvgLen()))
+	var terms []string
+	for _, t := range p.targets {
+		terms = append(terms, t.Terms...)
+	}
+	slices.Sort(terms)
+	for _, t := range slices.Compact(terms) {
+		fmt.Fprintf(h, "%q %d\n", t, p.ix.DF(t))
+	}
+	return hex.EncodeToString(h.Sum(nil))
+}
+
+// ShardReport is what a step of a sharded pick did, for a line of its summary.
+type ShardReport struct {
+	Shard, Of  int
+	Rows       int    // rows of the shard (score, write) or of the set (cut)
+	Kept       int    // rows kept (cut, write)
+	KeptTokens int64  // (cut)
+	Stop       string // why the walk stopped (cut)
+	Wrote      string // the folder written
+}
+
+// ScoreShard is a sharded pick's first step: segment shard of the index set opt.Index scored with
+// the set's statistics, its ranking, rows and summary written to the work folder's shard-NNNN.
+func ScoreShard(ctx context.Context, opt Options, work string, shard int) (*ShardReport, error) {
+	if err := CheckShardable(opt); err != nil {
+		return nil, err
+	}
+	if err := CheckOut(opt); err != nil {
+		return nil, err
+	}
+	key, err := shardOptions(&opt)
+	if err != nil {
+		return nil, err
+	}
+	ident, err := index.Identity(opt.Index)
+	if err != nil {
+		return nil, err
+	}
+	ix, err := index.OpenShard(opt.Index, shard)
+	if err != nil {
+		return nil, err
+	}
+	defer ix.Close()
+	p := &picked{opt: &opt, ix: ix, target: opt.Target}
+	if err := p.readTargets(opt.Target); err != nil {
+		return nil, err
+	}
+	if err := p.checkMemory(); err != nil {
+		return nil, err
+	}
+	if err := p.score(ctx); err != nil {
+		return nil, err
+	}
+	_, of := ix.Shard()
+	sf := &shardFile{Format: shardFormat, Sluice: opt.Version, Identity: ident, Options: key, Shard: shard, Of: of,
+		FirstRow: ix.FirstRow(), Rows: ix.NumRows(), Stats: p.statsKey(), Meta: ix.Meta(),
+		Lines: p.led.Lines[:len(p.led.Lines)-1], Work: p.work, Spec: p.spec, TargetID: p.tid, Targets: len(p.targets), TargetsRejected: len(p.trej),
+		Files: map[string]string{}}
+	for _, s := range p.scores {
+		if s > 0 {
+			sf.Matched++
+			if sf.Lowest == 0 || s < sf.Lowest {
+				sf.Lowest = s
+			}
+		}
+	}
+	dir := shardFolder(work, shard)
+	err = publishWork(dir, scoredKind(), []string{opt.Index, opt.Target}, func(tmp string) error {
+		for _, f := range []struct {
+			name string
+			fill func(*bufio.Writer) error
+		}{{rankingFile, p.writeRanking}, {shardRows, p.writeShardRows}, {RejectedFile, p.writeRejected}} {
+			sum, err := writeHashed(filepath.Join(tmp, f.name), filepath.Join(dir, f.name), f.fill)
+			if err != nil {
+				return err
+			}
+			sf.Files[f.name] = sum
+		}
+		return writeJSON(filepath.Join(tmp, shardMark), filepath.Join(dir, shardMark), sf)
+	})
+	if err != nil {
+		return nil, err
+	}
+	return &ShardReport{Shard: shard, Of: of, Rows: sf.Rows, Wrote: dir}, nil
+}
+
+// publishWork writes a folder of the work with fill, in a working folder published when complete.
+func publishWork(dir string, k atomicdir.Kind, inputs []string, fill func(tmp string) error) error {
+	if err := os.MkdirAll(filepath.Dir(dir), 0o777); err != nil {
+		return fmt.Errorf("make the work folder: %w", err)
+	}
+	if err := atomicdir.CheckOut(dir, k, inputs); err != nil {
+		return err
+	}
+	tmp, err := atomicdir.Temp(dir)
+	if err != nil {
+		return err
+	}
+	if err := fill(tmp); err != nil {
+		atomicdir.Discard(tmp)
+		return err
+	}
+	if err := atomicdir.Publish(tmp, dir); err != nil {
+		atomicdir.Discard(tmp)
+		return err
+	}
+	return nil
+}
+
+// writeJSON writes v as indented JSON to path, synced; errors name it as shown.
+func writeJSON(path, shown string, v any) error {
+	b, err := json.MarshalIndent(v, "", "  ")
+	if err != nil {
+		return fmt.Errorf("write %s: %w", shown, err)
+	}
+	return writeFileBytes(path, shown, append(b, '\n'))
+}
+
+// readJSON reads path into v; a missing file is reported as what, with the step that makes it.
+func readJSON(path, what string, v any) ([]byte, error) {
+	b, err := os.ReadFile(path)
+	if errors.Is(err, os.ErrNotExist) {
+		return nil, shardErrorf("%s: %s is missing", what, path)
+	}
+	if err != nil {
+		return nil, fmt.Errorf("%s: %w", what, err)
+	}
+	if err := json.Unmarshal(b, v); err != nil {
+		return nil, shardErrorf("%s: %s is damaged: %v", what, path, err)
+	}
+	return b, nil
+}
+
+// fileHead starts every binary file of the work: what it is, the shard, the shards and its rows.
+func fileHead(magic string, shard, of, rows, first int) []byte {
+	b := make([]byte, fileHeadSize)
+	copy(b, magic)
+	binary.LittleEndian.PutUint32(b[8:], uint32(shard))
+	binary.LittleEndian.PutUint32(b[12:], uint32(of))
+	binary.LittleEndian.PutUint64(b[16:], uint64(rows))
+	binary.LittleEndian.PutUint64(b[24:], uint64(first))
+	return b
+}
+
+// writeRanking writes the shard's rows in the order Pick ranks them: per row its score, its number
+// among the set's rows, its source among the set's and its tokens.
+func (p *picked) writeRanking(w *bufio.Writer) error {
+	shard, of := p.ix.Shard()
+	first := p.ix.FirstRow()
+	if _, err := w.Write(fileHead("sluiceRK", shard, of, len(p.scores), first)); err != nil {
+		return err
+	}
+	var b [rankRecSize]byte
+	for _, r := range selection.Order(p.scores) {
+		binary.LittleEndian.PutUint64(b[0:], math.Float64bits(p.scores[r]))
+		binary.LittleEndian.PutUint32(b[8:], uint32(first+r))
+		binary.LittleEndian.PutUint32(b[12:], uint32(p.ix.RowLocation(r).Source))
+		binary.LittleEndian.PutUint64(b[16:], uint64(p.tokens(r)))
+		if _, err := w.Write(b[:]); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// writeShardRows writes each row's score and best target row (-1 for none), in input order.
+func (p *picked) writeShardRows(w *bufio.Writer) error {
+	shard, of := p.ix.Shard()
+	if _, err := w.Write(fileHead("sluiceRW", shard, of, len(p.scores), p.ix.FirstRow())); err != nil {
+		return err
+	}
+	var b [rowRecSize]byte
+	for r, s := range p.scores {
+		best := int32(-1)
+		if p.best != nil {
+			best = p.best[r]
+		}
+		binary.LittleEndian.PutUint64(b[0:], math.Float64bits(s))
+		binary.LittleEndian.PutUint32(b[8:], uint32(best))
+		if _, err := w.Write(b[:]); err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// recordFile reads a binary file of the work a record at a time, checking its head and, at the end,
+// its SHA-256 against what its summary says.
+type recordFile struct {
+	f     *os.File
+	r     *bufio.Reader
+	h     hash.Hash
+	path  string
+	want  string
+	left  int
+	rec   []byte
+	shard int
+}
+
+// openRecords opens path, a file of rows records of size bytes with the head magic, shard and of.
+func openRecords(path, magic string, shard, of, rows, size int, sum string, buf int) (*recordFile, error) {
+	f, err := os.Open(path)
+	if err != nil {
+		if errors.Is(err, os.ErrNotExist) {
+			return nil, shardErrorf("shard %d of %d: %s is missing", shard, of, path)
+		}
+		return nil, fmt.Errorf("shard %d of %d: %w", shard, of, err)
+	}
+	rf := &recordFile{f: f, r: bufio.NewReaderSize(f, buf), h: sha256.New(), path: path, want: sum, left: rows, rec: make([]byte, size), shard: shard}
+	head := make([]byte, fileHeadSize)
+	if _, err := io.ReadFull(rf.r, head); err != nil || string(head[:8]) != magic ||
+		binary.LittleEndian.Uint32(head[8:]) != uint32(shard) || binary.LittleEndian.Uint32(head[12:]) != uint32(of) ||
+		binary.LittleEndian.Uint64(head[16:]) != uint64(rows) {
+		f.Close()
+		return nil, shardErrorf("shard %d of %d: %s is damaged or another shard's: its head does not match its summary", shard, of, path)
+	}
+	rf.h.Write(head)
+	return rf, nil
+}
+
+// next reads the next record into rf.rec, or reports false at the end, where a sum that differs
+// from the summary's is an error.
+func (rf *recordFile) next() (bool, error) {
+	if rf.left == 0 {
+		if n, _ := rf.r.Read(rf.rec[:1]); n > 0 {
+			return false, shardErrorf("shard %d: %s is damaged: it runs on past its rows", rf.shard, rf.path)
+		}
+		if got := hex.EncodeToString(rf.h.Sum(nil)); got != rf.want {
+			return false, shardErrorf("shard %d: %s is damaged: SHA-256 %.12s, its summary says %.12s", rf.shard, rf.path, got, rf.want)
+		}
+		return false, nil
+	}
+	if _, err := io.ReadFull(rf.r, rf.rec); err != nil {
+		return false, shardErrorf("shard %d: %s is damaged: it ends %d rows short (%v)", rf.shard, rf.path, rf.left, err)
+	}
+	rf.h.Write(rf.rec)
+	rf.left--
+	return true, nil
+}
+
+func (rf *recordFile) Close() error { return rf.f.Close() }

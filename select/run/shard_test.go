@@ -1,0 +1,271 @@
+package run
+
+import (
+	"bytes"
+	"context"
+	"encoding/json"
+	"errors"
+	"fmt"
+	"math/rand/v2"
+	"os"
+	"path/filepath"
+	"strings"
+	"testing"
+
+	"sluice/index"
+	"sluice/score"
+)
+
+// t0Set builds one index segment per part of files, cut at cuts, and a set naming them. The last
+// segment holds a copy of the first file too (the set allows the overlap), so that rows of the
+// first and last shards tie on every score, and the tie must go to the lower row.
+func t0Set(t *testing.T, dir string, files []string, cuts []int) string {
+	t.Helper()
+	b, err := os.ReadFile(files[0])
+	if err != nil {
+		t.Fatal(err)
+	}
+	again := filepath.Join(dir, "again.jsonl")
+	if err := os.WriteFile(again, b, 0o644); err != nil {
+		t.Fatal(err)
+	}
+	var segs []string
+	from := 0
+	for i, to := range append(cuts, len(files)) {
+		seg := filepath.Join(dir, fmt.Sprintf("seg%d", i))
+		part := files[from:to:to]
+		if to == len(files) {
+			part = append(part, again)
+		}
+		if _, err := index.Build(context.Background(), seg, part, index.Options{Text: "prompt,completion", NoDups: true}); err != nil {
+			t.Fatal(err)
+		}
+		segs, from = append(segs, seg), to
+	}
+	set := filepath.Join(dir, "pool.set")
+	if _, err := index.WriteSet(set, segs, true); err != nil {
+		t.Fatal(err)
+	}
+	return set
+}
+
+// t0Files are a few T0 files (real rows) and a target of rows from another, or the test skips.
+func t0Files(t *testing.T, n int) ([]string, string) {
+	t.Helper()
+	files, _ := filepath.Glob("../../../shared/data/t0-train-50k-per-template/data_per_template/*.jsonl")
+	if len(files) < 3*n {
+		t.Skip("../shared/data is absent: the test reads the shared T0 corpus")
+	}
+	var pool []string
+	for i := range n {
+		pool = append(pool, files[3*i])
+	}
+	b, err := os.ReadFile(files[3*n-1])
+	if err != nil {
+		t.Fatal(err)
+	}
+	lines := strings.SplitAfter(string(b), "\n")
+	target := filepath.Join(t.TempDir(), "target.jsonl")
+	if err := os.WriteFile(target, []byte(strings.Join(lines[:min(40, len(lines))], "")), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	return pool, target
+}
+
+// shardedPick runs the four steps of a sharded pick of opt over its set of shards segments.
+func shardedPick(t *testing.T, opt Options, work string, shards int) error {
+	t.Helper()
+	ctx := context.Background()
+	for i := range shards {
+		if _, err := ScoreShard(ctx, opt, work, i); err != nil {
+			return fmt.Errorf("score shard %d: %w", i, err)
+		}
+	}
+	if _, err := CutShards(ctx, opt, work); err != nil {
+		return fmt.Errorf("cut: %w", err)
+	}
+	for i := range shards {
+		if _, err := WriteShard(ctx, opt, work, i); err != nil {
+			return fmt.Errorf("write shard %d: %w", i, err)
+		}
+	}
+	_, err := JoinShards(ctx, opt, work)
+	return err
+}
+
+// shardConfigs are the picks a sharded pick must match: both lexical methods and aggregates, every
+// stop, relative floors, source caps, attribution off, compression and the uniform kept format.
+func shardConfigs(set, target string) map[string]Options {
+	base := func() Options {
+		o := Options{Index: set, Target: target, Params: score.DefaultParams(), Budget: 2e16, BudgetHow: "test",
+			TrainParams: 1e9, Epochs: 1, Version: "test"}
+		o.Guards.KeepDuplicates = true
+		return o
+	}
+	c := map[string]Options{"bm25-sum": base()}
+	o := base()
+	o.Params.Method, o.Params.Aggregate = score.TFIDF, score.Max
+	o.Select.Fill, o.Compress = true, "gzip"
+	c["tfidf-max-fill-gzip"] = o
+	o = base()
+	o.MinScore, o.MinScoreSet, o.Params.SkipBest = MinScore{Kind: "percentile", Value: 80}, true, true
+	c["bm25-p80-no-attribution"] = o
+	o = base()
+	o.Params.Method = score.TFIDF
+	o.MinScore, o.MinScoreSet, o.KeptFormat = MinScore{Kind: "share", Value: 0.4}, true, KeptText
+	c["tfidf-share-text"] = o
+	o = base()
+	o.MinScore, o.MinScoreSet = MinScore{Kind: "knee"}, true
+	o.Guards.MaxShare = map[string]float64{"": 0.3}
+	c["bm25-knee-caps"] = o
+	o = base()
+	o.Select.MaxRows, o.Compress = 500, "zstd"
+	c["bm25-max-rows-zstd"] = o
+	return c
+}
+
+// TestShardedPickMatchesPick checks the sharded pick's run folder against `pick` over the same set,
+// byte for byte: scores.jsonl, the kept file, ledger.json and rejected.jsonl, and the manifest but
+// for its command line (the one field that must differ). The T0 pool is cut 1, 2, 3 and 7 ways and
+// at random places.
+func TestShardedPickMatchesPick(t *testing.T) {
+	files, target := t0Files(t, 14)
+	splits := map[string][]int{"1 way": nil, "2 ways": {7}, "3 ways": {5, 9}, "7 ways": {2, 4, 6, 8, 10, 12}}
+	rng := rand.New(rand.NewPCG(3, 5))
+	for i := range 2 {
+		var cuts []int
+		for c := 1; c < len(files); c++ {
+			if rng.IntN(3) == 0 {
+				cuts = append(cuts, c)
+			}
+		}
+		splits[fmt.Sprintf("random %d: %v", i, cuts)] = cuts
+	}
+	for name, cuts := range splits {
+		t.Run(name, func(t *testing.T) {
+			dir := t.TempDir()
+			set := t0Set(t, dir, files, cuts)
+			configs := shardConfigs(set, target)
+			if testing.Short() || len(cuts) != 2 {
+				configs = map[string]Options{"bm25-sum": configs["bm25-sum"], "tfidf-max-fill-gzip": configs["tfidf-max-fill-gzip"]}
+			}
+			for cname, opt := range configs {
+				one := opt
+				one.Out = filepath.Join(dir, "one-"+cname)
+				if _, err := Pick(context.Background(), one); err != nil {
+					t.Fatal(err)
+				}
+				opt.Out = filepath.Join(dir, "sharded-"+cname)
+				if err := shardedPick(t, opt, filepath.Join(dir, "work-"+cname), len(cuts)+1); err != nil {
+					t.Fatalf("%s: %v", cname, err)
+				}
+				sameRun(t, cname, one.Out, opt.Out)
+			}
+		})
+	}
+}
+
+// sameRun compares two run folders: every file byte for byte, the manifest without its command.
+func sameRun(t *testing.T, name, a, b string) {
+	t.Helper()
+	ea, _ := os.ReadDir(a)
+	eb, _ := os.ReadDir(b)
+	if len(ea) != len(eb) {
+		t.Fatalf("%s: %d files against %d", name, len(ea), len(eb))
+	}
+	for _, e := range ea {
+		x, err := os.ReadFile(filepath.Join(a, e.Name()))
+		if err != nil {
+			t.Fatal(err)
+		}
+		y, err := os.ReadFile(filepath.Join(b, e.Name()))
+		if err != nil {
+			t.Fatalf("%s: %v", name, err)
+		}
+		if e.Name() == ManifestFile {
+			x, y = withoutCommand(t, x), withoutCommand(t, y)
+		}
+		if !bytes.Equal(x, y) {
+			t.Errorf("%s: %s differs between pick over the set and the sharded pick", name, e.Name())
+		}
+	}
+}
+
+// withoutCommand is a manifest with its command line taken out: a sharded pick is run by other commands.
+func withoutCommand(t *testing.T, b []byte) []byte {
+	t.Helper()
+	var m map[string]any
+	if err := json.Unmarshal(b, &m); err != nil {
+		t.Fatal(err)
+	}
+	delete(m, "command")
+	out, _ := json.Marshal(m)
+	return out
+}
+
+// TestShardedPickRefuses checks the bad inputs: flags a sharded pick cannot honour, named; a
+// missing shard, a damaged ranking, a shard scored with other flags, and a shard whose set changed.
+func TestShardedPickRefuses(t *testing.T) {
+	files, target := t0Files(t, 4)
+	dir := t.TempDir()
+	set := t0Set(t, dir, files, []int{2})
+	opt := shardConfigs(set, target)["bm25-sum"]
+	opt.Out = filepath.Join(dir, "out")
+	ctx := context.Background()
+	for _, c := range []struct {
+		name string
+		edit func(o *Options)
+		want string
+	}{
+		{"duplicates", func(o *Options) { o.Guards.KeepDuplicates = false }, "--keep-duplicates"},
+		{"ngram", func(o *Options) { o.Method = MethodNgram }, "--method ngram"},
+		{"several sets", func(o *Options) { o.ExtraTargets = []string{target} }, "--target given 2 times"},
+		{"exclude", func(o *Options) { o.Guards.Exclude = []string{target} }, "--exclude"},
+		{"stdin", func(o *Options) { o.Target = "-" }, "--target -"},
+	} {
+		o := opt
+		c.edit(&o)
+		_, err := ScoreShard(ctx, o, filepath.Join(dir, "work"), 0)
+		if !errors.Is(err, ErrShard) || !strings.Contains(err.Error(), c.want) {
+			t.Errorf("%s: %v, want a refusal naming %s", c.name, err, c.want)
+		}
+	}
+	work := filepath.Join(dir, "work")
+	if _, err := ScoreShard(ctx, opt, work, 0); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := CutShards(ctx, opt, work); !errors.Is(err, ErrShard) || !strings.Contains(err.Error(), "shard 1 of 2") {
+		t.Errorf("a missing shard: %v", err)
+	}
+	other := opt
+	other.Select.Fill = true
+	if _, err := ScoreShard(ctx, other, work, 1); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := CutShards(ctx, opt, work); !errors.Is(err, ErrShard) || !strings.Contains(err.Error(), "shard 1 of 2 was scored with other flags") {
+		t.Errorf("a shard of another pick: %v", err)
+	}
+	if _, err := ScoreShard(ctx, opt, work, 1); err != nil {
+		t.Fatal(err)
+	}
+	ranking := filepath.Join(shardFolder(work, 1), rankingFile)
+	b, _ := os.ReadFile(ranking)
+	b[len(b)-1] ^= 1
+	os.WriteFile(ranking, b, 0o644)
+	if _, err := CutShards(ctx, opt, work); !errors.Is(err, ErrShard) || !strings.Contains(err.Error(), "shard 1: "+ranking+" is damaged") {
+		t.Errorf("a damaged ranking: %v", err)
+	}
+	if _, err := os.Stat(filepath.Join(work, cutName)); !os.IsNotExist(err) {
+		t.Errorf("a cut was published from a damaged ranking")
+	}
+	// A segment rebuilt after shard 0 was scored: the set is another.
+	if _, err := index.Build(ctx, filepath.Join(dir, "seg1"), files[2:4], index.Options{Text: "prompt,completion", NoDups: true}); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := ScoreShard(ctx, opt, work, 1); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := CutShards(ctx, opt, work); !errors.Is(err, ErrShard) || !strings.Contains(err.Error(), "shard 0 was scored over another index set") {
+		t.Errorf("shards of two versions of the set: %v", err)
+	}
+}
