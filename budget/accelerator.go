@@ -1,7 +1,9 @@
 package budget
 
 import (
+	"errors"
 	"fmt"
+	"math"
 	"sort"
 	"strings"
 )
@@ -94,4 +96,25 @@ func ParseRate(s string) (float64, string, error) {
 		return 0, "", fmt.Errorf("%w; or name an accelerator: %s", perr, strings.Join(names, ", "))
 	}
 	return a.PeakFLOPs, fmt.Sprintf("%s (%s peak %s FLOP/s, data sheet)", a.Name, a.Precision, FormatFLOPs(a.PeakFLOPs)), nil
+}
+
+// CheckGiven refuses GPU time given incompletely or twice over, in the words of sluice's flags
+// (--gpu-hours, --gpus, --hours, --gpu-flops, --mfu); given reports whether a flag was given at
+// all, so that --mfu 0 is a bad MFU rather than a missing one.
+func (g GPUTime) CheckGiven(given func(flag string) bool) error {
+	switch {
+	case given("gpu-hours") && (given("gpus") || given("hours")):
+		return errors.New("give --gpu-hours (in total) or --gpus with --hours (wall-clock), not both")
+	case given("gpus") != given("hours"):
+		return errors.New("--gpus and --hours go together: the wall-clock hours on that many GPUs")
+	case !given("gpu-hours") && !given("gpus"):
+		return errors.New("GPU time needs --gpu-hours, or --gpus with --hours")
+	case !given("gpu-flops") || !given("mfu"):
+		return errors.New("GPU time needs --gpu-flops and --mfu too (there are no defaults for them)")
+	case !(g.MFU > 0 && g.MFU <= 1):
+		return fmt.Errorf("--mfu %v: must be a fraction above 0 and at most 1", g.MFU)
+	case given("gpu-hours") && !(g.GPUHours > 0 && !math.IsInf(g.GPUHours, 0)):
+		return fmt.Errorf("--gpu-hours %v: must be a finite number above 0", g.GPUHours)
+	}
+	return nil
 }

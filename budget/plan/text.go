@@ -1,6 +1,7 @@
 package plan
 
 import (
+	"bufio"
 	"fmt"
 	"io"
 	"strconv"
@@ -236,4 +237,20 @@ func (p *Plan) PickCommand() string {
 	}
 	return fmt.Sprintf("  sluice pick --index %s --target TARGET.jsonl %s --budget %s --train-params %s --epochs %g --out RUN\n",
 		idx, method, strconv.FormatFloat(s.Budget, 'g', -1, 64), strconv.FormatFloat(p.Config.TrainParams, 'g', -1, 64), p.Config.Epochs)
+}
+
+// WriteSummary writes what a plan command prints once the folder out is written with names: the
+// plan (WriteText), the pick command at the asked budget, the notes and the files written.
+func (p *Plan) WriteSummary(w io.Writer, out string, names []string) error {
+	bw := bufio.NewWriter(w)
+	if err := p.WriteText(bw); err != nil {
+		return err
+	}
+	fmt.Fprint(bw, p.PickCommand())
+	for _, n := range p.Notes {
+		fmt.Fprintf(bw, "note: %s\n", n)
+	}
+	wrote := strings.Join(names[:len(names)-1], ", ") + " and " + names[len(names)-1]
+	fmt.Fprintf(bw, "wrote %s to %s\n", wrote, out)
+	return bw.Flush()
 }

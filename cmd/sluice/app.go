@@ -73,31 +73,21 @@ func noArgs(fs *pflag.FlagSet, what string) string {
 }
 
 func commands() []command {
-	return []command{&indexCmd{}, &pickCmd{}, &whyCmd{}, &diffCmd{}, &verifyCmd{}, &reportCmd{}, &demoCmd{}, &pilotsCmd{}, &planCmd{}, &segmentsCmd{}}
+	return []command{&indexCmd{}, &pickCmd{}, &whyCmd{}, &diffCmd{}, &verifyCmd{}, &reportCmd{}, &demoCmd{}, &pilotsCmd{}, &planCmd{}, &segmentsCmd{}, &shardCmd{}}
 }
 
-const intro = `sluice chooses the rows of a large JSONL instruction pool that are most like a small set of
-target-task rows, as many as a FLOP budget allows once the cost of choosing them is paid.
-
-Usage:
-  sluice <command> [flags]
-
-Commands:
-%s  help        show help for a command
-
-Run 'sluice help <command>' or 'sluice <command> --help' for its flags and examples.
-
-Before you train on what sluice keeps: pools carry other people's licences and personal data, a
-selected subset narrows what the model sees, lexical scores measure overlap with the target rows and
-not quality, and evaluation sets must be removed from the pool (decontaminated) before selection.
-`
+// intro is the overview of every command (help/sluice.txt), their list in place of its %s.
+func intro(cmds []command) string {
+	b, _ := helpFiles.ReadFile("help/sluice.txt") // TestHelpFiles checks it is there
+	return fmt.Sprintf(string(b), commandList(cmds))
+}
 
 // dispatch runs the command named by args[0] and returns the exit status: 0 done, 1 failed, 2 a
 // mistake in the command line.
 func dispatch(ctx context.Context, args []string, e *env) int {
 	cmds := commands()
 	if len(args) == 0 {
-		fmt.Fprintf(e.stderr, intro, commandList(cmds))
+		fmt.Fprint(e.stderr, intro(cmds))
 		return 2
 	}
 	e.args = args
@@ -115,7 +105,7 @@ func dispatch(ctx context.Context, args []string, e *env) int {
 		}
 	}
 	fmt.Fprintf(e.stderr, "sluice: no command %q\n\n", name)
-	fmt.Fprintf(e.stderr, intro, commandList(cmds))
+	fmt.Fprint(e.stderr, intro(cmds))
 	return 2
 }
 
@@ -145,7 +135,7 @@ func help(cmds []command, args []string, e *env) int {
 		fmt.Fprintf(e.stderr, "sluice: no command %q\n", args[1])
 		return 2
 	}
-	fmt.Fprintf(e.stdout, intro, commandList(cmds))
+	fmt.Fprint(e.stdout, intro(cmds))
 	return 0
 }
 

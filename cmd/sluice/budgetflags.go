@@ -1,7 +1,6 @@
 package main
 
 import (
-	"math"
 	"strings"
 
 	"github.com/spf13/pflag"
@@ -55,19 +54,8 @@ func budgetFlags(fs *pflag.FlagSet) (float64, string, error) {
 	g.Rate, _ = fs.GetString("gpu-flops")
 	g.MFU, _ = fs.GetFloat64("mfu")
 	// Changed, not the values, says what was given: --mfu 0 is a bad MFU, not a missing one.
-	switch {
-	case fs.Changed("gpu-hours") && (fs.Changed("gpus") || fs.Changed("hours")):
-		return 0, "", usagef("give --gpu-hours (in total) or --gpus with --hours (wall-clock), not both")
-	case fs.Changed("gpus") != fs.Changed("hours"):
-		return 0, "", usagef("--gpus and --hours go together: the wall-clock hours on that many GPUs")
-	case !fs.Changed("gpu-hours") && !fs.Changed("gpus"):
-		return 0, "", usagef("GPU time needs --gpu-hours, or --gpus with --hours")
-	case !fs.Changed("gpu-flops") || !fs.Changed("mfu"):
-		return 0, "", usagef("GPU time needs --gpu-flops and --mfu too (there are no defaults for them)")
-	case !(g.MFU > 0 && g.MFU <= 1):
-		return 0, "", usagef("--mfu %v: must be a fraction above 0 and at most 1", g.MFU)
-	case fs.Changed("gpu-hours") && !(g.GPUHours > 0 && !math.IsInf(g.GPUHours, 0)):
-		return 0, "", usagef("--gpu-hours %v: must be a finite number above 0", g.GPUHours)
+	if err := g.CheckGiven(fs.Changed); err != nil {
+		return 0, "", usagef("%v", err)
 	}
 	if _, _, err := budget.ParseRate(g.Rate); err != nil {
 		return 0, "", usagef("--gpu-flops: %v", err)

@@ -25,7 +25,11 @@ func (*pickCmd) summary() string {
 }
 
 func (*pickCmd) flags() *pflag.FlagSet {
-	fs := newFlags("pick")
+	return addPickFlags(newFlags("pick"))
+}
+
+// addPickFlags declares every flag of a pick.
+func addPickFlags(fs *pflag.FlagSet) *pflag.FlagSet {
 	addPickInputFlags(fs)
 	addMethodFlags(fs)
 	addBudgetFlags(fs)

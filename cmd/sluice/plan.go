@@ -1,10 +1,7 @@
 package main
 
 import (
-	"bufio"
 	"context"
-	"fmt"
-	"strings"
 
 	"github.com/spf13/pflag"
 
@@ -150,15 +147,5 @@ func writePlan(e *env, out string, p *plan.Plan, residuals bool) error {
 	if err != nil {
 		return err
 	}
-	wrote := strings.Join(names[:len(names)-1], ", ") + " and " + names[len(names)-1]
-	w := bufio.NewWriter(e.stdout)
-	if err := p.WriteText(w); err != nil {
-		return err
-	}
-	fmt.Fprint(w, p.PickCommand())
-	for _, n := range p.Notes {
-		fmt.Fprintf(w, "note: %s\n", n)
-	}
-	fmt.Fprintf(w, "wrote %s to %s\n", wrote, out)
-	return w.Flush()
+	return p.WriteSummary(e.stdout, out, names)
 }

@@ -238,7 +238,7 @@ func CutShards(ctx context.Context, opt Options, work string) (*ShardReport, err
 	if err != nil {
 		return nil, err
 	}
-	return &ShardReport{Of: h0.Of, Rows: cf.Rows, Kept: cf.Kept, KeptTokens: cf.KeptTokens, Stop: cf.Stop, Wrote: dir}, nil
+	return &ShardReport{Step: "cut", Shard: -1, Of: h0.Of, Rows: cf.Rows, Kept: cf.Kept, KeptTokens: cf.KeptTokens, Stop: cf.Stop, Wrote: dir}, nil
 }
 
 // walkShards walks the merged rankings with a Walker, writing each row's decision to its shard's

@@ -119,7 +119,7 @@ func WriteShard(ctx context.Context, opt Options, work string, shard int) (*Shar
 	if err != nil {
 		return nil, err
 	}
-	return &ShardReport{Shard: shard, Of: cf.Of, Rows: sf.Rows, Kept: len(p.out.Kept), Wrote: dir}, nil
+	return &ShardReport{Step: "write", Shard: shard, Of: cf.Of, Rows: sf.Rows, Kept: len(p.out.Kept), Wrote: dir}, nil
 }
 
 // loadShard reads the shard's scores and best target rows, and the cut's decisions for its rows.
@@ -224,7 +224,7 @@ func JoinShards(ctx context.Context, opt Options, work string) (*ShardReport, er
 		return nil, err
 	}
 	defer atomicdir.Discard(tmp)
-	concat := func(name, part string) func(io.Writer) error {
+	concat := func(part string) func(io.Writer) error {
 		return func(w io.Writer) error {
 			for i := range parts {
 				if err := copyChecked(w, filepath.Join(partFolder(work, i), part), parts[i].Files[part]); err != nil {
@@ -239,9 +239,9 @@ func JoinShards(ctx context.Context, opt Options, work string) (*ShardReport, er
 		fill func(w *bufio.Writer) error
 	}{
 		{KeptName(opt.Compress), func(w *bufio.Writer) error {
-			return compressed(w, opt.Compress, concat(KeptName(opt.Compress), partKept))
+			return compressed(w, opt.Compress, concat(partKept))
 		}},
-		{ScoresFile, func(w *bufio.Writer) error { return concat(ScoresFile, ScoresFile)(w) }},
+		{ScoresFile, func(w *bufio.Writer) error { return concat(ScoresFile)(w) }},
 		{LedgerFile, func(w *bufio.Writer) error {
 			return copyChecked(w, filepath.Join(work, cutName, LedgerFile), cf.Files[LedgerFile])
 		}},
@@ -263,7 +263,7 @@ func JoinShards(ctx context.Context, opt Options, work string) (*ShardReport, er
 	if err := atomicdir.Publish(tmp, opt.Out); err != nil {
 		return nil, err
 	}
-	return &ShardReport{Of: cf.Of, Rows: cf.Rows, Kept: cf.Kept, KeptTokens: cf.KeptTokens, Stop: cf.Stop, Wrote: opt.Out}, nil
+	return &ShardReport{Step: "join", Shard: -1, Of: cf.Of, Rows: cf.Rows, Kept: cf.Kept, KeptTokens: cf.KeptTokens, Stop: cf.Stop, Wrote: opt.Out}, nil
 }
 
 // copyChecked copies the file path to w and refuses it unless its SHA-256 is sum.

@@ -3,9 +3,11 @@ package run
 import (
 	"encoding/json"
 	"fmt"
+	"io"
 	"os"
 	"path/filepath"
 	"sort"
+	"strings"
 
 	"sluice/index"
 )
@@ -265,4 +267,28 @@ func short(h string) string {
 		return h[:12]
 	}
 	return h
+}
+
+// VerifyRuns verifies each run folder of dirs (Verify), its inputs looked for where in says,
+// writes a line to w for each that is as it was left, and returns every difference found.
+func VerifyRuns(w io.Writer, dirs []string, in Inputs) error {
+	var bad []string
+	for _, dir := range dirs {
+		m, err := ReadManifest(dir)
+		if err != nil {
+			return err
+		}
+		in.Apply(m)
+		diffs := Verify(dir, m)
+		for _, d := range diffs {
+			bad = append(bad, dir+": "+d)
+		}
+		if len(diffs) == 0 {
+			fmt.Fprintf(w, "%s: ok (%d files, target and index as used)\n", dir, len(m.Files))
+		}
+	}
+	if len(bad) > 0 {
+		return fmt.Errorf("%d difference(s):\n  %s", len(bad), strings.Join(bad, "\n  "))
+	}
+	return nil
 }

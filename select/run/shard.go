@@ -15,6 +15,7 @@ import (
 	"os"
 	"path/filepath"
 	"slices"
+	"strings"
 
 	"sluice/budget"
 	"sluice/index"
@@ -168,6 +169,7 @@ func (p *picked) statsKey() string {
 
 // ShardReport is what a step of a sharded pick did, for a line of its summary.
 type ShardReport struct {
+	Step       string // score, cut, write or join
 	Shard, Of  int
 	Rows       int    // rows of the shard (score, write) or of the set (cut)
 	Kept       int    // rows kept (cut, write)
@@ -238,7 +240,7 @@ func ScoreShard(ctx context.Context, opt Options, work string, shard int) (*Shar
 	if err != nil {
 		return nil, err
 	}
-	return &ShardReport{Shard: shard, Of: of, Rows: sf.Rows, Wrote: dir}, nil
+	return &ShardReport{Step: "score", Shard: shard, Of: of, Rows: sf.Rows, Wrote: dir}, nil
 }
 
 // publishWork writes a folder of the work with fill, in a working folder published when complete.
@@ -396,3 +398,44 @@ func (rf *recordFile) next() (bool, error) {
 }
 
 func (rf *recordFile) Close() error { return rf.f.Close() }
+
+// ShardSteps are the steps of a sharded pick, in the order they run.
+func ShardSteps() []string { return []string{"score", "cut", "write", "join"} }
+
+// ShardStep runs the step of a sharded pick that args name, one of ShardSteps; shard is the
+// segment the score and write steps take, and must be -1 for the others.
+func ShardStep(ctx context.Context, args []string, opt Options, work string, shard int) (*ShardReport, error) {
+	if len(args) != 1 {
+		return nil, shardErrorf("give one step (score, cut, write or join), not %q", strings.Join(args, " "))
+	}
+	step := args[0]
+	perShard := step == "score" || step == "write"
+	switch {
+	case !slices.Contains(ShardSteps(), step):
+		return nil, shardErrorf("no step %q: give score, cut, write or join", step)
+	case perShard && shard < 0:
+		return nil, shardErrorf("the %s step takes --shard, the segment of the set it works on (from 0)", step)
+	case !perShard && shard >= 0:
+		return nil, shardErrorf("the %s step takes every shard at once: drop --shard", step)
+	}
+	switch step {
+	case "score":
+		return ScoreShard(ctx, opt, work, shard)
+	case "cut":
+		return CutShards(ctx, opt, work)
+	case "write":
+		return WriteShard(ctx, opt, work, shard)
+	}
+	return JoinShards(ctx, opt, work)
+}
+
+// String is the step's summary line.
+func (r *ShardReport) String() string {
+	switch r.Step {
+	case "score":
+		return fmt.Sprintf("shard %d of %d: scored %d rows; wrote %s", r.Shard, r.Of, r.Rows, r.Wrote)
+	case "write":
+		return fmt.Sprintf("shard %d of %d: %d kept rows and %d lines of scores; wrote %s", r.Shard, r.Of, r.Kept, r.Rows, r.Wrote)
+	}
+	return fmt.Sprintf("%s: kept %d of %d rows (%d tokens) from %d shards; stopped: %s; wrote %s", r.Step, r.Kept, r.Rows, r.KeptTokens, r.Of, r.Stop, r.Wrote)
+}
