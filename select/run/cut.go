@@ -3,7 +3,6 @@ package run
 import (
 	"bufio"
 	"cmp"
-	"container/heap"
 	"context"
 	"crypto/sha256"
 	"encoding/binary"
@@ -100,31 +99,23 @@ type rankHead struct {
 
 // merge streams the shards' rankings as one, ranked as Pick ranks (score descending, NaN last,
 // then row ascending): a heap of one head per shard, so its memory grows with shards, not rows.
+// The heap is kept by hand rather than through container/heap, whose interface would box a row at
+// every step.
 type merge struct {
 	files []*recordFile
-	heap  rankHeap
+	heap  []rankHead
 }
 
-type rankHeap []rankHead
-
-func (h rankHeap) Len() int { return len(h) }
-func (h rankHeap) Less(i, j int) bool {
-	return cmp.Or(cmp.Compare(h[j].score, h[i].score), cmp.Compare(h[i].row, h[j].row)) < 0
-}
-func (h rankHeap) Swap(i, j int) { h[i], h[j] = h[j], h[i] }
-func (h *rankHeap) Push(x any)   { *h = append(*h, x.(rankHead)) }
-func (h *rankHeap) Pop() any {
-	old := *h
-	x := old[len(old)-1]
-	*h = old[:len(old)-1]
-	return x
+// before reports whether a ranks ahead of b.
+func before(a, b *rankHead) bool {
+	return cmp.Or(cmp.Compare(b.score, a.score), cmp.Compare(a.row, b.row)) < 0
 }
 
 // mergeBuf is each ranking's read buffer.
 const mergeBuf = 64 << 10
 
 func openMerge(work string, heads []*shardFile) (*merge, error) {
-	m := &merge{}
+	m := &merge{heap: make([]rankHead, 0, len(heads))}
 	for i, sf := range heads {
 		rf, err := openRecords(filepath.Join(shardFolder(work, i), rankingFile), "sluiceRK", i, sf.Of, sf.Rows, rankRecSize, sf.Files[rankingFile], mergeBuf)
 		if err != nil {
@@ -132,27 +123,53 @@ func openMerge(work string, heads []*shardFile) (*merge, error) {
 			return nil, err
 		}
 		m.files = append(m.files, rf)
-		if err := m.advance(i); err != nil {
+		var h rankHead
+		ok, err := m.read(i, &h)
+		if err != nil {
 			m.Close()
 			return nil, err
 		}
+		if ok {
+			m.heap = append(m.heap, h)
+		}
 	}
-	heap.Init(&m.heap)
+	for i := len(m.heap)/2 - 1; i >= 0; i-- {
+		m.down(i)
+	}
 	return m, nil
 }
 
-// advance pushes shard i's next row, if it has one.
-func (m *merge) advance(i int) error {
+// read reads shard i's next row into h, or reports false when its ranking is spent (and checked).
+func (m *merge) read(i int, h *rankHead) (bool, error) {
 	rf := m.files[i]
 	ok, err := rf.next()
 	if !ok || err != nil {
-		return err
+		return false, err
 	}
 	b := rf.rec
-	h := rankHead{score: math.Float64frombits(binary.LittleEndian.Uint64(b)), row: binary.LittleEndian.Uint32(b[8:]),
+	*h = rankHead{score: math.Float64frombits(binary.LittleEndian.Uint64(b)), row: binary.LittleEndian.Uint32(b[8:]),
 		source: binary.LittleEndian.Uint32(b[12:]), tokens: binary.LittleEndian.Uint64(b[16:]), shard: i}
-	heap.Push(&m.heap, h)
-	return nil
+	return true, nil
+}
+
+// down moves the head at i down to its place.
+func (m *merge) down(i int) {
+	h := m.heap
+	for {
+		l := 2*i + 1
+		if l >= len(h) {
+			return
+		}
+		c := l
+		if r := l + 1; r < len(h) && before(&h[r], &h[l]) {
+			c = r
+		}
+		if !before(&h[c], &h[i]) {
+			return
+		}
+		h[i], h[c] = h[c], h[i]
+		i = c
+	}
 }
 
 // next returns the best row left, or false when every ranking is spent (and checked).
@@ -160,11 +177,18 @@ func (m *merge) next() (rankHead, bool, error) {
 	if len(m.heap) == 0 {
 		return rankHead{}, false, nil
 	}
-	h := heap.Pop(&m.heap).(rankHead)
-	if err := m.advance(h.shard); err != nil {
-		return h, false, err
+	top := m.heap[0]
+	ok, err := m.read(top.shard, &m.heap[0])
+	if err != nil {
+		return top, false, err
 	}
-	return h, true, nil
+	if !ok {
+		last := len(m.heap) - 1
+		m.heap[0] = m.heap[last]
+		m.heap = m.heap[:last]
+	}
+	m.down(0)
+	return top, true, nil
 }
 
 func (m *merge) Close() {
