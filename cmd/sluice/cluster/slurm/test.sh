@@ -3,7 +3,10 @@
 # array and the dependent pick of submit.sh, over shared T0 files split 3 and 7 ways, must give the
 # bytes of one machine's `sluice index` and `sluice pick` of the same files: scores.jsonl, kept.jsonl
 # and ledger.json with duplicates kept, and kept.jsonl with duplicates dropped (the default; the
-# set's pick then pays for finding them itself, so its ledger differs by that line alone).
+# set's pick then pays for finding them itself, so its ledger differs by that line alone). Then the
+# sharded pick of shards.sh over the same segments (an array scoring a segment a task, the cut, an
+# array writing, the join) must give one machine's scores.jsonl, kept.jsonl, ledger.json and
+# rejected.jsonl with duplicates kept.
 #
 #   bash cmd/sluice/cluster/slurm/test.sh [SHARED_DIR]
 set -euo pipefail
@@ -74,5 +77,17 @@ for n in 3 7; do
 		fail=1
 	fi
 	ls "$WORK"/seg-*.idx -d | wc -l | xargs echo "  segments made:"
+	# The sharded pick: wait for its last job, the join, which a failed step before it cancels.
+	read -r -a jobs < <(bash "$here/shards.sh" "$n" "${flags[@]}" --keep-duplicates --out "$WORK/run-shard")
+	wait_done "${jobs[-1]}"
+	for f in scores.jsonl kept.jsonl ledger.json rejected.jsonl; do
+		if cmp -s "$work/one-keep/$f" "$WORK/run-shard/$f"; then
+			echo "slurm, $n shards, sharded pick: $f: same bytes as one machine"
+		else
+			echo "slurm, $n shards, sharded pick: $f DIFFERS from one machine" >&2
+			fail=1
+		fi
+	done
+	"$SLUICE" verify "$WORK/run-shard" || fail=1
 done
 exit $fail
