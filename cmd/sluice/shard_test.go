@@ -54,7 +54,7 @@ func TestShardFromCommandLine(t *testing.T) {
 		}
 		return stdout + stderr
 	}
-	if out := step(2, "cut", "--work", work); !strings.Contains(out, "shard 0") || !strings.Contains(out, "missing") {
+	if out := step(1, "cut", "--work", work); !strings.Contains(out, "shard 0") || !strings.Contains(out, "missing") {
 		t.Errorf("a cut before any score step: %s", out)
 	}
 	for _, i := range []string{"2", "0", "1"} {

@@ -63,19 +63,19 @@ func readShards(work, key, ident string) ([]*shardFile, error) {
 		meta, _ := json.Marshal(sf.Meta)
 		switch {
 		case sf.Format != shardFormat || sf.Shard != i:
-			return nil, shardErrorf("%s: %s is not shard %d's summary", what, shardFolder(work, i), i)
+			return nil, workErrorf("%s: %s is not shard %d's summary", what, shardFolder(work, i), i)
 		case sf.Identity != ident:
-			return nil, shardErrorf("%s was scored over another index set (identity %.12s; the set is now %.12s): score it again", what, sf.Identity, ident)
+			return nil, workErrorf("%s was scored over another index set (identity %.12s; the set is now %.12s): score it again", what, sf.Identity, ident)
 		case sf.Options != key:
-			return nil, shardErrorf("%s was scored with other flags or another target: give every step the same pick flags", what)
+			return nil, workErrorf("%s was scored with other flags or another target: give every step the same pick flags", what)
 		case i > 0 && sf.Of != heads[0].Of:
-			return nil, shardErrorf("%s says the set has %d segments", what, sf.Of)
+			return nil, workErrorf("%s says the set has %d segments", what, sf.Of)
 		case i > 0 && (sf.Stats != heads[0].Stats || string(meta) != string(meta0)):
-			return nil, shardErrorf("%s used other statistics of the set than shard 0 (rows, lengths or document frequencies): score both again", what)
+			return nil, workErrorf("%s used other statistics of the set than shard 0 (rows, lengths or document frequencies): score both again", what)
 		case i > 0 && (sf.Work.Passes != heads[0].Work.Passes || sf.Targets != heads[0].Targets || !slices.Equal(sf.Lines, heads[0].Lines)):
-			return nil, shardErrorf("%s read the target otherwise than shard 0: score both again", what)
+			return nil, workErrorf("%s read the target otherwise than shard 0: score both again", what)
 		case i > 0 && sf.FirstRow != heads[i-1].FirstRow+heads[i-1].Rows:
-			return nil, shardErrorf("%s starts at row %d, not after shard %d's rows", what, sf.FirstRow, i-1)
+			return nil, workErrorf("%s starts at row %d, not after shard %d's rows", what, sf.FirstRow, i-1)
 		}
 		if i == 0 {
 			meta0 = meta
@@ -83,7 +83,7 @@ func readShards(work, key, ident string) ([]*shardFile, error) {
 		heads = append(heads, sf)
 	}
 	if last := heads[len(heads)-1]; int64(last.FirstRow+last.Rows) != heads[0].Meta.Rows {
-		return nil, shardErrorf("the shards hold %d rows, the set %d", last.FirstRow+last.Rows, heads[0].Meta.Rows)
+		return nil, workErrorf("the shards hold %d rows, the set %d", last.FirstRow+last.Rows, heads[0].Meta.Rows)
 	}
 	return heads, nil
 }
@@ -103,7 +103,9 @@ type rankHead struct {
 // every step.
 type merge struct {
 	files []*recordFile
+	heads []*shardFile
 	heap  []rankHead
+	last  []rankHead // each shard's row read last, which the next must rank after
 }
 
 // before reports whether a ranks ahead of b.
@@ -115,7 +117,7 @@ func before(a, b *rankHead) bool {
 const mergeBuf = 64 << 10
 
 func openMerge(work string, heads []*shardFile) (*merge, error) {
-	m := &merge{heap: make([]rankHead, 0, len(heads))}
+	m := &merge{heads: heads, heap: make([]rankHead, 0, len(heads)), last: make([]rankHead, len(heads))}
 	for i, sf := range heads {
 		rf, err := openRecords(filepath.Join(shardFolder(work, i), rankingFile), "sluiceRK", i, sf.Of, sf.Rows, rankRecSize, sf.Files[rankingFile], mergeBuf)
 		if err != nil {
@@ -149,6 +151,14 @@ func (m *merge) read(i int, h *rankHead) (bool, error) {
 	b := rf.rec
 	*h = rankHead{score: math.Float64frombits(binary.LittleEndian.Uint64(b)), row: binary.LittleEndian.Uint32(b[8:]),
 		source: binary.LittleEndian.Uint32(b[12:]), tokens: binary.LittleEndian.Uint64(b[16:]), shard: i}
+	// A file whose sum matches may still have been made otherwise than by the score step: its rows
+	// must be the shard's, each ranked after the one before, or the merge would walk them wrongly.
+	sf := m.heads[i]
+	if int64(h.row) < int64(sf.FirstRow) || int64(h.row) >= int64(sf.FirstRow+sf.Rows) || math.IsNaN(h.score) ||
+		(rf.left < sf.Rows-1 && !before(&m.last[i], h)) {
+		return false, workErrorf("shard %d: %s is not a ranking of its rows: row %d (score %v) is out of place", i, rf.path, h.row, h.score)
+	}
+	m.last[i] = *h
 	return true, nil
 }
 
@@ -307,7 +317,7 @@ func (p *picked) walkShards(ctx context.Context, work, tmp string, heads []*shar
 			break
 		}
 		if int(h.source) >= len(r.Sources) || int(h.row) >= cf.Rows {
-			return selection.Summary{}, shardErrorf("shard %d: its ranking names row %d of source %d, which the set does not have", h.shard, h.row, h.source)
+			return selection.Summary{}, workErrorf("shard %d: its ranking names row %d of source %d, which the set does not have", h.shard, h.row, h.source)
 		}
 		d := walker.Step(h.score, float64(h.tokens), selection.Kept, int32(h.source))
 		st := &r.Sources[h.source]
@@ -366,7 +376,7 @@ func cutMinScore(work string, heads []*shardFile, ms MinScore) (float64, error) 
 			return 0, err
 		}
 		if !ok || !(h.score > 0) {
-			return 0, shardErrorf("the shards' rankings hold fewer rows scoring above 0 than their summaries say")
+			return 0, workErrorf("the shards' rankings hold fewer rows scoring above 0 than their summaries say")
 		}
 		if i == 0 {
 			best = h.score

@@ -11,6 +11,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"slices"
 
 	"github.com/klauspost/compress/gzip"
 	"github.com/klauspost/compress/zstd"
@@ -48,11 +49,11 @@ func readCut(work, key, ident string) (*cutFile, string, error) {
 	}
 	switch {
 	case cf.Format != shardFormat:
-		return nil, "", shardErrorf("%s is not a cut's summary", filepath.Join(work, cutName, cutMark))
+		return nil, "", workErrorf("%s is not a cut's summary", filepath.Join(work, cutName, cutMark))
 	case cf.Identity != ident:
-		return nil, "", shardErrorf("the cut was made over another index set (identity %.12s; the set is now %.12s)", cf.Identity, ident)
+		return nil, "", workErrorf("the cut was made over another index set (identity %.12s; the set is now %.12s)", cf.Identity, ident)
 	case cf.Options != key:
-		return nil, "", shardErrorf("the cut was made with other flags or another target: give every step the same pick flags")
+		return nil, "", workErrorf("the cut was made with other flags or another target: give every step the same pick flags")
 	}
 	sum := sha256.Sum256(b)
 	return cf, hex.EncodeToString(sum[:]), nil
@@ -84,7 +85,7 @@ func WriteShard(ctx context.Context, opt Options, work string, shard int) (*Shar
 		return nil, err
 	}
 	if sf.Identity != ident || sf.Options != key || sf.Shard != shard {
-		return nil, shardErrorf("shard %d of %d: its scores are not those the cut read: run the cut again", shard, cf.Of)
+		return nil, workErrorf("shard %d of %d: its scores are not those the cut read: run the cut again", shard, cf.Of)
 	}
 	ix, err := index.OpenShard(opt.Index, shard)
 	if err != nil {
@@ -126,7 +127,7 @@ func WriteShard(ctx context.Context, opt Options, work string, shard int) (*Shar
 func (p *picked) loadShard(work string, sf *shardFile, cf *cutFile) error {
 	n := p.ix.NumRows()
 	if n != sf.Rows {
-		return shardErrorf("shard %d of %d has %d rows, its summary says %d", sf.Shard, sf.Of, n, sf.Rows)
+		return workErrorf("shard %d of %d has %d rows, its summary says %d", sf.Shard, sf.Of, n, sf.Rows)
 	}
 	rows, err := openRecords(filepath.Join(shardFolder(work, sf.Shard), shardRows), "sluiceRW", sf.Shard, sf.Of, n, rowRecSize, sf.Files[shardRows], 1<<20)
 	if err != nil {
@@ -145,7 +146,7 @@ func (p *picked) loadShard(work string, sf *shardFile, cf *cutFile) error {
 		p.scores[r] = math.Float64frombits(binary.LittleEndian.Uint64(rows.rec))
 		p.best[r] = int32(binary.LittleEndian.Uint32(rows.rec[8:]))
 		if p.best[r] < -1 || int(p.best[r]) >= len(p.targets) {
-			return shardErrorf("shard %d of %d: %s names target row %d of %d", sf.Shard, sf.Of, rows.path, p.best[r], len(p.targets))
+			return workErrorf("shard %d of %d: %s names target row %d of %d", sf.Shard, sf.Of, rows.path, p.best[r], len(p.targets))
 		}
 	}
 	if p.opt.Params.SkipBest {
@@ -167,9 +168,12 @@ func (p *picked) loadShard(work string, sf *shardFile, cf *cutFile) error {
 			break
 		}
 		b := decs.rec
-		r := binary.LittleEndian.Uint32(b)
+		r, why := binary.LittleEndian.Uint32(b), selection.Reason(b[8])
+		if rank := binary.LittleEndian.Uint32(b[4:]); rank == 0 || int(rank) > cf.Rows || (why != selection.Kept && !slices.Contains(selection.Reasons(), why)) {
+			return workErrorf("shard %d of %d: %s is damaged: row %d has rank %d and reason %d", sf.Shard, sf.Of, decs.path, r, rank, b[8])
+		}
 		if int(r) >= n || p.dec[r].Rank != 0 {
-			return shardErrorf("shard %d of %d: %s decides row %d twice or past the shard's rows", sf.Shard, sf.Of, decs.path, r)
+			return workErrorf("shard %d of %d: %s decides row %d twice or past the shard's rows", sf.Shard, sf.Of, decs.path, r)
 		}
 		p.dec[r] = selection.Decision{Rank: binary.LittleEndian.Uint32(b[4:]), Reason: selection.Reason(b[8]),
 			Kept: b[8] == byte(selection.Kept), LedgerAfter: math.Float64frombits(binary.LittleEndian.Uint64(b[9:]))}
@@ -211,7 +215,7 @@ func JoinShards(ctx context.Context, opt Options, work string) (*ShardReport, er
 			return nil, err
 		}
 		if pf.Format != shardFormat || pf.Shard != i || pf.Cut != cutSum {
-			return nil, shardErrorf("shard %d of %d: %s was not written from this cut: run its write step again", i, cf.Of, partFolder(work, i))
+			return nil, workErrorf("shard %d of %d: %s was not written from this cut: run its write step again", i, cf.Of, partFolder(work, i))
 		}
 		parts[i] = pf
 	}
@@ -270,7 +274,7 @@ func JoinShards(ctx context.Context, opt Options, work string) (*ShardReport, er
 func copyChecked(w io.Writer, path, sum string) error {
 	f, err := os.Open(path)
 	if err != nil {
-		return shardErrorf("%s: %v", path, err)
+		return workErrorf("%s: %v", path, err)
 	}
 	defer f.Close()
 	h := sha256.New()
@@ -278,7 +282,7 @@ func copyChecked(w io.Writer, path, sum string) error {
 		return fmt.Errorf("read %s: %w", path, err)
 	}
 	if got := hex.EncodeToString(h.Sum(nil)); got != sum {
-		return shardErrorf("%s is damaged: SHA-256 %.12s, its summary says %.12s", path, got, sum)
+		return workErrorf("%s is damaged: SHA-256 %.12s, its summary says %.12s", path, got, sum)
 	}
 	return nil
 }

@@ -40,16 +40,30 @@ import (
 // ledger.json and rejected.jsonl are byte for byte those `pick` over the set writes, and its
 // manifest differs in the command line alone.
 
-// ErrShard is matched (errors.Is) by every refusal of a sharded pick's flags and of its work
-// folder's files: a missing, damaged or disagreeing shard, or a flag it cannot honour.
-var ErrShard = errors.New("sharded pick refused")
+// Errors of a sharded pick, matched with errors.Is: ErrShard by every refusal of its flags (a flag it
+// cannot honour, a step without the --shard it needs), ErrShardWork by every refusal of its work
+// folder's files (a shard's or the cut's summary or file missing, damaged, made by another pick,
+// over another version of the set or with other statistics).
+var (
+	ErrShard     = errors.New("sharded pick refused")
+	ErrShardWork = errors.New("sharded pick's work refused")
+)
 
-type shardError string
+type shardError struct {
+	msg  string
+	kind error
+}
 
-func (e shardError) Error() string   { return string(e) }
-func (shardError) Is(err error) bool { return err == ErrShard }
+func (e shardError) Error() string     { return e.msg }
+func (e shardError) Is(err error) bool { return err == e.kind }
 
-func shardErrorf(format string, a ...any) error { return shardError(fmt.Sprintf(format, a...)) }
+func shardErrorf(format string, a ...any) error {
+	return shardError{fmt.Sprintf(format, a...), ErrShard}
+}
+
+func workErrorf(format string, a ...any) error {
+	return shardError{fmt.Sprintf(format, a...), ErrShardWork}
+}
 
 // CheckShardable refuses, before any work and naming the flag, what a sharded pick cannot do to
 // the bit as a pick over the whole set does: anything needing every row at once or read twice.
@@ -279,13 +293,13 @@ func writeJSON(path, shown string, v any) error {
 func readJSON(path, what string, v any) ([]byte, error) {
 	b, err := os.ReadFile(path)
 	if errors.Is(err, os.ErrNotExist) {
-		return nil, shardErrorf("%s: %s is missing", what, path)
+		return nil, workErrorf("%s: %s is missing", what, path)
 	}
 	if err != nil {
 		return nil, fmt.Errorf("%s: %w", what, err)
 	}
 	if err := json.Unmarshal(b, v); err != nil {
-		return nil, shardErrorf("%s: %s is damaged: %v", what, path, err)
+		return nil, workErrorf("%s: %s is damaged: %v", what, path, err)
 	}
 	return b, nil
 }
@@ -361,7 +375,7 @@ func openRecords(path, magic string, shard, of, rows, size int, sum string, buf 
 	f, err := os.Open(path)
 	if err != nil {
 		if errors.Is(err, os.ErrNotExist) {
-			return nil, shardErrorf("shard %d of %d: %s is missing", shard, of, path)
+			return nil, workErrorf("shard %d of %d: %s is missing", shard, of, path)
 		}
 		return nil, fmt.Errorf("shard %d of %d: %w", shard, of, err)
 	}
@@ -371,7 +385,7 @@ func openRecords(path, magic string, shard, of, rows, size int, sum string, buf 
 		binary.LittleEndian.Uint32(head[8:]) != uint32(shard) || binary.LittleEndian.Uint32(head[12:]) != uint32(of) ||
 		binary.LittleEndian.Uint64(head[16:]) != uint64(rows) {
 		f.Close()
-		return nil, shardErrorf("shard %d of %d: %s is damaged or another shard's: its head does not match its summary", shard, of, path)
+		return nil, workErrorf("shard %d of %d: %s is damaged or another shard's: its head does not match its summary", shard, of, path)
 	}
 	rf.h.Write(head)
 	return rf, nil
@@ -382,15 +396,15 @@ func openRecords(path, magic string, shard, of, rows, size int, sum string, buf 
 func (rf *recordFile) next() (bool, error) {
 	if rf.left == 0 {
 		if n, _ := rf.r.Read(rf.rec[:1]); n > 0 {
-			return false, shardErrorf("shard %d: %s is damaged: it runs on past its rows", rf.shard, rf.path)
+			return false, workErrorf("shard %d: %s is damaged: it runs on past its rows", rf.shard, rf.path)
 		}
 		if got := hex.EncodeToString(rf.h.Sum(nil)); got != rf.want {
-			return false, shardErrorf("shard %d: %s is damaged: SHA-256 %.12s, its summary says %.12s", rf.shard, rf.path, got, rf.want)
+			return false, workErrorf("shard %d: %s is damaged: SHA-256 %.12s, its summary says %.12s", rf.shard, rf.path, got, rf.want)
 		}
 		return false, nil
 	}
 	if _, err := io.ReadFull(rf.r, rf.rec); err != nil {
-		return false, shardErrorf("shard %d: %s is damaged: it ends %d rows short (%v)", rf.shard, rf.path, rf.left, err)
+		return false, workErrorf("shard %d: %s is damaged: it ends %d rows short (%v)", rf.shard, rf.path, rf.left, err)
 	}
 	rf.h.Write(rf.rec)
 	rf.left--

@@ -94,7 +94,7 @@ func shardedPick(t *testing.T, opt Options, work string, shards int) error {
 }
 
 // shardConfigs are the picks a sharded pick must match: both lexical methods and aggregates, every
-// stop, relative floors, source caps, attribution off, compression and the uniform kept format.
+// stop (budget, max-rows, max-tokens, min-score), relative floors, source caps, attribution off, compression and the uniform kept format.
 func shardConfigs(set, target string) map[string]Options {
 	base := func() Options {
 		o := Options{Index: set, Target: target, Params: score.DefaultParams(), Budget: 2e16, BudgetHow: "test",
@@ -102,10 +102,14 @@ func shardConfigs(set, target string) map[string]Options {
 		o.Guards.KeepDuplicates = true
 		return o
 	}
-	c := map[string]Options{"bm25-sum": base()}
+	c := map[string]Options{}
 	o := base()
+	o.Budget = 6e14 // about 100k tokens: the budget stops the walk
+	o.Guards.MaxShare = map[string]float64{"": 0.15}
+	c["bm25-sum-caps"] = o
+	o = base()
 	o.Params.Method, o.Params.Aggregate = score.TFIDF, score.Max
-	o.Select.Fill, o.Compress = true, "gzip"
+	o.Select.Fill, o.Compress, o.Budget = true, "gzip", 9e14
 	c["tfidf-max-fill-gzip"] = o
 	o = base()
 	o.MinScore, o.MinScoreSet, o.Params.SkipBest = MinScore{Kind: "percentile", Value: 80}, true, true
@@ -121,6 +125,9 @@ func shardConfigs(set, target string) map[string]Options {
 	o = base()
 	o.Select.MaxRows, o.Compress = 500, "zstd"
 	c["bm25-max-rows-zstd"] = o
+	o = base()
+	o.Params.Method, o.Select.MaxCount, o.Select.Fill = score.TFIDF, 60_000, true
+	c["tfidf-max-tokens-fill"] = o
 	return c
 }
 
@@ -147,14 +154,16 @@ func TestShardedPickMatchesPick(t *testing.T) {
 			set := t0Set(t, dir, files, cuts)
 			configs := shardConfigs(set, target)
 			if testing.Short() || len(cuts) != 2 {
-				configs = map[string]Options{"bm25-sum": configs["bm25-sum"], "tfidf-max-fill-gzip": configs["tfidf-max-fill-gzip"]}
+				configs = map[string]Options{"bm25-sum-caps": configs["bm25-sum-caps"], "tfidf-max-fill-gzip": configs["tfidf-max-fill-gzip"]}
 			}
 			for cname, opt := range configs {
 				one := opt
 				one.Out = filepath.Join(dir, "one-"+cname)
-				if _, err := Pick(context.Background(), one); err != nil {
+				res, err := Pick(context.Background(), one)
+				if err != nil {
 					t.Fatal(err)
 				}
+				t.Logf("%s: kept %d of %d rows; %s; dropped %v", cname, len(res.Kept), res.Rows, res.Ledger.Stop, res.Dropped)
 				opt.Out = filepath.Join(dir, "sharded-"+cname)
 				if err := shardedPick(t, opt, filepath.Join(dir, "work-"+cname), len(cuts)+1); err != nil {
 					t.Fatalf("%s: %v", cname, err)
@@ -209,7 +218,7 @@ func TestShardedPickRefuses(t *testing.T) {
 	files, target := t0Files(t, 4)
 	dir := t.TempDir()
 	set := t0Set(t, dir, files, []int{2})
-	opt := shardConfigs(set, target)["bm25-sum"]
+	opt := shardConfigs(set, target)["bm25-sum-caps"]
 	opt.Out = filepath.Join(dir, "out")
 	ctx := context.Background()
 	for _, c := range []struct {
@@ -234,7 +243,7 @@ func TestShardedPickRefuses(t *testing.T) {
 	if _, err := ScoreShard(ctx, opt, work, 0); err != nil {
 		t.Fatal(err)
 	}
-	if _, err := CutShards(ctx, opt, work); !errors.Is(err, ErrShard) || !strings.Contains(err.Error(), "shard 1 of 2") {
+	if _, err := CutShards(ctx, opt, work); !errors.Is(err, ErrShardWork) || !strings.Contains(err.Error(), "shard 1 of 2") {
 		t.Errorf("a missing shard: %v", err)
 	}
 	other := opt
@@ -242,7 +251,7 @@ func TestShardedPickRefuses(t *testing.T) {
 	if _, err := ScoreShard(ctx, other, work, 1); err != nil {
 		t.Fatal(err)
 	}
-	if _, err := CutShards(ctx, opt, work); !errors.Is(err, ErrShard) || !strings.Contains(err.Error(), "shard 1 of 2 was scored with other flags") {
+	if _, err := CutShards(ctx, opt, work); !errors.Is(err, ErrShardWork) || !strings.Contains(err.Error(), "shard 1 of 2 was scored with other flags") {
 		t.Errorf("a shard of another pick: %v", err)
 	}
 	if _, err := ScoreShard(ctx, opt, work, 1); err != nil {
@@ -252,7 +261,7 @@ func TestShardedPickRefuses(t *testing.T) {
 	b, _ := os.ReadFile(ranking)
 	b[len(b)-1] ^= 1
 	os.WriteFile(ranking, b, 0o644)
-	if _, err := CutShards(ctx, opt, work); !errors.Is(err, ErrShard) || !strings.Contains(err.Error(), "shard 1: "+ranking+" is damaged") {
+	if _, err := CutShards(ctx, opt, work); !errors.Is(err, ErrShardWork) || !strings.Contains(err.Error(), "shard 1: "+ranking+" is damaged") {
 		t.Errorf("a damaged ranking: %v", err)
 	}
 	if _, err := os.Stat(filepath.Join(work, cutName)); !os.IsNotExist(err) {
@@ -265,7 +274,7 @@ func TestShardedPickRefuses(t *testing.T) {
 	if _, err := ScoreShard(ctx, opt, work, 1); err != nil {
 		t.Fatal(err)
 	}
-	if _, err := CutShards(ctx, opt, work); !errors.Is(err, ErrShard) || !strings.Contains(err.Error(), "shard 0 was scored over another index set") {
+	if _, err := CutShards(ctx, opt, work); !errors.Is(err, ErrShardWork) || !strings.Contains(err.Error(), "shard 0 was scored over another index set") {
 		t.Errorf("shards of two versions of the set: %v", err)
 	}
 }
