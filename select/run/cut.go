@@ -79,6 +79,8 @@ func readShards(work, key, ident string) ([]*shardFile, error) {
 		}
 		if i == 0 {
 			meta0 = meta
+		} else {
+			sf.Meta = index.Meta{} // the set's, as shard 0's: one copy, not one a shard
 		}
 		heads = append(heads, sf)
 	}
