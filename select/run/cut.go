@@ -213,14 +213,7 @@ func (m *merge) Close() {
 // and walks them as Pick walks its ranking, and writes the work folder's cut: each shard's
 // decisions, in its ranking's order, and the ledger.
 func CutShards(ctx context.Context, opt Options, work string) (*ShardReport, error) {
-	if err := CheckShardable(opt); err != nil {
-		return nil, err
-	}
-	key, err := shardOptions(&opt)
-	if err != nil {
-		return nil, err
-	}
-	ident, err := index.Identity(opt.Index)
+	key, ident, err := startStep(&opt, false)
 	if err != nil {
 		return nil, err
 	}

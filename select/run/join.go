@@ -62,14 +62,7 @@ func readCut(work, key, ident string) (*cutFile, string, error) {
 // WriteShard is a sharded pick's third step: segment shard's lines of scores.jsonl and its kept rows,
 // from its scores and the cut's decisions, written to the work folder's part-NNNN.
 func WriteShard(ctx context.Context, opt Options, work string, shard int) (*ShardReport, error) {
-	if err := CheckShardable(opt); err != nil {
-		return nil, err
-	}
-	key, err := shardOptions(&opt)
-	if err != nil {
-		return nil, err
-	}
-	ident, err := index.Identity(opt.Index)
+	key, ident, err := startStep(&opt, false)
 	if err != nil {
 		return nil, err
 	}
@@ -190,17 +183,7 @@ func (p *picked) loadShard(work string, sf *shardFile, cf *cutFile) error {
 // opt.Out, with the cut's ledger, written and published as a pick writes its run folder. Its
 // manifest differs from the manifest of `pick` over the set in the command line alone.
 func JoinShards(ctx context.Context, opt Options, work string) (*ShardReport, error) {
-	if err := CheckShardable(opt); err != nil {
-		return nil, err
-	}
-	if err := CheckOut(opt); err != nil {
-		return nil, err
-	}
-	key, err := shardOptions(&opt)
-	if err != nil {
-		return nil, err
-	}
-	ident, err := index.Identity(opt.Index)
+	key, ident, err := startStep(&opt, true)
 	if err != nil {
 		return nil, err
 	}

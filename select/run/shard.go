@@ -150,6 +150,27 @@ type shardFile struct {
 	Files           map[string]string `json:"files"`   // SHA-256 of each other file
 }
 
+// startStep checks what every step checks before it reads anything of the work folder: that opt
+// can be sharded and, for a step that writes the run folder or may refuse to (out), that opt.Out
+// may be written. It returns opt's fingerprint (shardOptions) and the set's identity.
+func startStep(opt *Options, out bool) (key, ident string, err error) {
+	if err := CheckShardable(*opt); err != nil {
+		return "", "", err
+	}
+	if out {
+		if err := CheckOut(*opt); err != nil {
+			return "", "", err
+		}
+	}
+	if key, err = shardOptions(opt); err != nil {
+		return "", "", err
+	}
+	if ident, err = index.Identity(opt.Index); err != nil {
+		return "", "", err
+	}
+	return key, ident, nil
+}
+
 // shardOptions is a fingerprint of everything in opt that decides a row's score or fate, so that
 // every step of a sharded pick is sure to run the same pick: the target's content, not its path,
 // and nothing of where the run is written or how much memory a step may take.
@@ -195,17 +216,7 @@ type ShardReport struct {
 // ScoreShard is a sharded pick's first step: segment shard of the index set opt.Index scored with
 // the set's statistics, its ranking, rows and summary written to the work folder's shard-NNNN.
 func ScoreShard(ctx context.Context, opt Options, work string, shard int) (*ShardReport, error) {
-	if err := CheckShardable(opt); err != nil {
-		return nil, err
-	}
-	if err := CheckOut(opt); err != nil {
-		return nil, err
-	}
-	key, err := shardOptions(&opt)
-	if err != nil {
-		return nil, err
-	}
-	ident, err := index.Identity(opt.Index)
+	key, ident, err := startStep(&opt, true)
 	if err != nil {
 		return nil, err
 	}
