@@ -49,10 +49,11 @@ type segSet struct {
 
 // WriteSet checks that the index folders dirs can be read as one index and writes the set file
 // path naming them, relative to its folder where they are below it, and returns the set's metadata.
-// An existing path is replaced only when it is a set file itself.
-func WriteSet(path string, dirs []string, allowOverlap bool) (Meta, error) {
+// An existing path is replaced only when it is a set file itself; a path inside an index folder,
+// or a folder of one of the kinds within, is refused.
+func WriteSet(path string, dirs []string, allowOverlap bool, within ...atomicdir.Kind) (Meta, error) {
 	isSet := func(b []byte) bool { return bytes.HasPrefix(b, []byte(SetMagic+"\n")) }
-	if err := atomicdir.CheckFile(path, "set file", isSet, dirs); err != nil {
+	if err := atomicdir.CheckFile(path, "set file", isSet, dirs, append(within, Folder())...); err != nil {
 		return Meta{}, err
 	}
 	m, err := writeSet(path, dirs, allowOverlap)

@@ -179,6 +179,7 @@ func TestSetRefuses(t *testing.T) {
 		{"a file twice", "", []string{a, a}, ErrOverlap, "pool.jsonl is in"},
 		{"not a set file", notSet, []string{a}, nil, "did not write as a set file"},
 		{"a folder", a, []string{a}, nil, "is a folder"},
+		{"inside another index", filepath.Join(mk(Options{Text: "prompt,completion"}), "pool.set"), []string{a}, nil, "is an index folder"},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			out := tc.out

@@ -7,6 +7,7 @@ import (
 	"github.com/spf13/pflag"
 
 	"sluice/index"
+	"sluice/select/run"
 )
 
 type segmentsCmd struct{}
@@ -29,7 +30,7 @@ func (*segmentsCmd) run(_ context.Context, e *env, fs *pflag.FlagSet) error {
 		return err
 	}
 	overlap, _ := fs.GetBool("allow-overlap")
-	m, err := index.WriteSet(out, fs.Args(), overlap)
+	m, err := index.WriteSet(out, fs.Args(), overlap, run.Folder())
 	if err != nil {
 		return err
 	}

@@ -183,11 +183,17 @@ func resolve(p string) (string, error) {
 
 // CheckFile reports, before any work is done, whether a file may be written at path: it does not
 // exist and its parent is a folder, or it is a regular file that ours says sluice wrote, and it is
-// none of inputs.
-func CheckFile(path, what string, ours func(b []byte) bool, inputs []string) error {
+// none of inputs. Like CheckOut, it refuses a path whose parent is a folder of one of the kinds in
+// within, which must hold only its own files.
+func CheckFile(path, what string, ours func(b []byte) bool, inputs []string, within ...Kind) error {
+	parent := filepath.Dir(filepath.Clean(path))
+	for _, w := range within {
+		if entries, err := os.ReadDir(parent); err == nil && w.isOurs(parent, entries) == nil {
+			return fmt.Errorf("write %s: %s is %s folder, which must hold only its own files: choose a folder outside it", path, parent, article(w.Name))
+		}
+	}
 	fi, err := os.Lstat(path)
 	if errors.Is(err, os.ErrNotExist) {
-		parent := filepath.Dir(filepath.Clean(path))
 		if pfi, perr := os.Stat(parent); perr != nil || !pfi.IsDir() {
 			return fmt.Errorf("write %s: parent folder %s does not exist", path, parent)
 		}
