@@ -8,13 +8,10 @@ import (
 	"strconv"
 	"strings"
 
-	"github.com/valyala/fastjson"
-
 	"sluice/budget"
 	"sluice/index"
 	"sluice/index/decontam"
 	"sluice/index/dedup"
-	"sluice/index/jsonl"
 	selection "sluice/select"
 )
 
@@ -222,82 +219,13 @@ func (p *picked) addTargetKeys(keys map[dedup.Key]bool, file string, targets []i
 	}
 }
 
-// jsonText is the text of an evaluation row: the string values of a JSON object, at any depth,
-// joined by newlines, or the line itself when it is not one.
-func jsonText(line string) string {
-	v, err := fastjson.Parse(line)
-	if err != nil || v.Type() != fastjson.TypeObject {
-		return line
-	}
-	var b strings.Builder
-	var walk func(v *fastjson.Value)
-	walk = func(v *fastjson.Value) {
-		switch v.Type() {
-		case fastjson.TypeString:
-			if b.Len() > 0 {
-				b.WriteByte('\n')
-			}
-			b.Write(v.GetStringBytes())
-		case fastjson.TypeArray:
-			for _, e := range v.GetArray() {
-				walk(e)
-			}
-		case fastjson.TypeObject:
-			v.GetObject().Visit(func(_ []byte, e *fastjson.Value) { walk(e) })
-		}
-	}
-	walk(v)
-	return b.String()
-}
-
 // evalSet reads the evaluation files' rows (every string field of each JSON object, or the whole
 // line when it is not one) into a set of their word n-grams.
 func evalSet(files []string, n int) (*decontam.Set, error) {
 	if n == 0 {
 		n = DefaultExcludeN
 	}
-	b, err := decontam.NewBuilder(n)
-	if err != nil {
-		return nil, err
-	}
-	for i, f := range files {
-		rows, err := readEvalRows(f, func(line int64, text string) error {
-			return b.Add(i, line, decontam.Words(nil, text))
-		})
-		if err != nil {
-			return nil, err
-		}
-		if rows == 0 {
-			return nil, fmt.Errorf("read evaluation file %s: it holds no rows: nothing to exclude; nothing was written", f)
-		}
-	}
-	return b.Set(), nil
-}
-
-// readEvalRows calls fn with the text of every non-blank line of an evaluation file: the string
-// values of a JSON object's fields, in any depth, or the line itself.
-func readEvalRows(path string, fn func(line int64, text string) error) (int, error) {
-	rc, _, err := jsonl.Open(path)
-	if err != nil {
-		return 0, fmt.Errorf("read evaluation file %s: %w", path, err)
-	}
-	defer rc.Close()
-	sc := jsonl.NewScanner(rc, index.DefaultMaxRowBytes)
-	rows := 0
-	for sc.Scan() {
-		line := strings.TrimSpace(string(sc.Bytes()))
-		if line == "" {
-			continue
-		}
-		rows++
-		if err := fn(sc.Line(), jsonText(line)); err != nil {
-			return rows, fmt.Errorf("read evaluation file %s:%d: %w", path, sc.Line(), err)
-		}
-	}
-	if err := sc.Err(); err != nil {
-		return rows, fmt.Errorf("read evaluation file %s: %w", path, err)
-	}
-	return rows, nil
+	return decontam.ReadFiles(files, n, index.DefaultMaxRowBytes)
 }
 
 // chargeGuards enters the guards' work in the ledger.
