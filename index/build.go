@@ -27,6 +27,7 @@ import (
 
 	"sluice/index/analysis"
 	"sluice/index/atomicdir"
+	"sluice/index/decontam"
 	"sluice/index/dedup"
 	"sluice/index/jsonl"
 	"sluice/index/tokens"
@@ -64,6 +65,12 @@ type Options struct {
 	// hash the pool again. NoDups finds none.
 	NearDup float64
 	NoDups  bool
+	// Exclude names evaluation files: every row is checked, as it is indexed, for a word n-gram of
+	// ExcludeN words (0 takes decontam.DefaultN) that a row of one of them has, and the rows that
+	// share one are recorded (contaminated.jsonl), so that a pick excluding the same files need not
+	// read the pool again. The files are inputs: the index may not replace them.
+	Exclude  []string
+	ExcludeN int
 	// Command, when set, is recorded in meta.json as the command line that made the index, so a
 	// run's manifest (which hashes meta.json) says how its index was built.
 	Command []string
@@ -214,6 +221,8 @@ type batchOut struct {
 	rejects []Reject
 	missing map[string]*missCount // by path of the text spec, the rows lacking it
 	blank   int64
+	words   int64       // words checked against the evaluation files
+	hits    []rowHit    // rows that share an n-gram with them
 	keys    []dedup.Key // by row, when duplicates are found
 	signed  []bool      // by row: whether the row has a signature in sigs
 	sigs    []uint32    // K values by row signed
@@ -241,6 +250,9 @@ func (opt Options) Check() error {
 	}
 	if t := opt.NearDup; !opt.NoDups && t != 0 && !(t > 0 && t <= 1) {
 		return fmt.Errorf("--near-dup %v: give a Jaccard similarity above 0 and at most 1", t)
+	}
+	if opt.ExcludeN < 0 {
+		return fmt.Errorf("--exclude-ngram %d: give a number of words, at least 1", opt.ExcludeN)
 	}
 	return nil
 }
@@ -293,7 +305,7 @@ func Build(ctx context.Context, dir string, sources []string, opt Options) (*Sta
 	}
 	if opt.DryRun && dir == "" {
 		dir = filepath.Join(os.TempDir(), "sluice-dry-run")
-	} else if err := atomicdir.CheckOut(dir, Folder(), append(slices.Clone(sources), opt.Inputs...), append(opt.Within, Folder())...); err != nil {
+	} else if err := atomicdir.CheckOut(dir, Folder(), slices.Concat(sources, opt.Inputs, opt.Exclude), append(opt.Within, Folder())...); err != nil {
 		return nil, fmt.Errorf("build index: %w", err)
 	}
 	var tok *tokens.Tokenizer
@@ -340,6 +352,11 @@ func Build(ctx context.Context, dir string, sources []string, opt Options) (*Sta
 	}
 	b.meta.Text = b.spec.String()
 	b.meta.Version = versionFor(b.spec)
+	if len(opt.Exclude) > 0 && !opt.DryRun {
+		if err := b.startExclude(); err != nil {
+			return nil, err
+		}
+	}
 	st, err := b.run(ctx)
 	if err != nil {
 		return nil, err
@@ -379,7 +396,8 @@ type builder struct {
 	quarantined []SourceQuarantine
 	idHashes    []uint64 // by row, to find repeated ids
 	firstDup    *Duplicate
-	dups        *dupFinder // nil without duplicates
+	dups        *dupFinder    // nil without duplicates
+	eval        *decontam.Set // the evaluation files' n-grams; nil without Options.Exclude
 	// dupMem is what dups holds, which the workers' dictionaries give up of Options.Mem.
 	dupMem  atomic.Int64
 	dupPeak int64
@@ -434,6 +452,7 @@ func (b *builder) run(ctx context.Context) (*Stats, error) {
 				return nil, fmt.Errorf("build index: %w", err)
 			}
 		}
+		w.eval = b.eval
 		if w.ex, err = jsonl.NewExtractor(b.spec, b.opt.ID, b.opt.Tokens); err != nil {
 			return nil, fmt.Errorf("build index: %w", err)
 		}
@@ -879,6 +898,13 @@ func (b *builder) collect(ctx context.Context, outs <-chan *batchOut) error {
 		return err
 	}
 	defer rejW.abort()
+	var contamW *fileWriter
+	if b.eval != nil {
+		if contamW, err = b.wd.create(b.wd.path(contamFile)); err != nil {
+			return err
+		}
+		defer contamW.abort()
+	}
 
 	pending := map[int]*batchOut{}
 	next := 0
@@ -942,6 +968,11 @@ func (b *builder) collect(ctx context.Context, outs <-chan *batchOut) error {
 					return err
 				}
 			}
+			if contamW != nil {
+				if err := b.addContam(o, b.meta.Rows, contamW); err != nil {
+					return err
+				}
+			}
 			n := int64(len(o.rows))
 			b.meta.Rows += n
 			srcRows[o.src] += n
@@ -960,7 +991,7 @@ func (b *builder) collect(ctx context.Context, outs <-chan *batchOut) error {
 	if b.meta.Rows > 0 {
 		b.meta.AvgLen = float64(b.meta.TotalLen) / float64(b.meta.Rows)
 	}
-	for _, w := range []*fileWriter{rowsW, idsW, rejW} {
+	for _, w := range []*fileWriter{rowsW, idsW, rejW, contamW} {
 		if w == nil {
 			continue
 		}
@@ -1008,6 +1039,12 @@ type worker struct {
 	tok      *tokens.Tokenizer // counts the tokens of each row's text fields; nil to take tokField
 	cut      []byte            // text with long runs cut, see cutLongRuns
 	sign     *signRow          // hashes rows for duplicates; nil without
+	eval     *decontam.Set     // checks rows against evaluation files; nil without
+	words    []string          // the row's words, for eval
+	// text is the row's text parts as extracted (before long runs are cut), a newline between
+	// parts: what a pick reads back, and what sign and eval take. Gathered only for them.
+	text  []byte
+	parts int
 }
 
 func (w *worker) work(ctx context.Context, in <-chan *batch, out chan<- *batchOut, paths []string) error {
@@ -1082,16 +1119,19 @@ func (w *worker) do(bt *batch, paths []string) (*batchOut, error) {
 		alen := 0
 		w.touched = w.touched[:0]
 		ntok := 0
-		if w.sign != nil {
-			w.sign.reset()
-		}
+		w.text, w.parts = w.text[:0], 0
+		needText := w.sign != nil || w.eval != nil
 		row, err := w.ex.Extract(line, func(part []byte) {
 			if w.tok != nil {
 				ntok += w.tok.Count(part)
 			}
-			if w.sign != nil {
-				// Before long runs are cut: a pick hashes the text as it stands.
-				w.sign.write(part)
+			if needText {
+				// Before long runs are cut: a pick reads the text as it stands.
+				if w.parts > 0 {
+					w.text = append(w.text, '\n')
+				}
+				w.text = append(w.text, part...)
+				w.parts++
 			}
 			part, w.cut = cutLongRuns(part, w.cut)
 			w.an.EachTagged(part, func(term []byte, tag *uint64) {
@@ -1188,7 +1228,10 @@ func (w *worker) do(bt *batch, paths []string) (*batchOut, error) {
 			o.ids = append(o.ids, append([]byte(nil), row.ID...))
 		}
 		if w.sign != nil {
-			w.sign.sum(o)
+			w.sign.sum(o, w.text)
+		}
+		if w.eval != nil {
+			w.checkEval(o, len(o.rows)-1, w.text)
 		}
 		local++
 		if !w.dry && w.dictBytes() >= max(w.memLimit(), midBatchSpill) {

@@ -173,8 +173,6 @@ type signRow struct {
 	signer *dedup.Signer
 	seen   *seenKeys // shared by the workers
 	k      int       // values per signature
-	text   []byte    // the row's text
-	parts  int
 	// work is the keying of every row, as if each were normalised and hashed: a row whose text the
 	// cache knows is counted as its first was, so meta.json does not depend on which worker met
 	// which row first.
@@ -189,48 +187,33 @@ func newSignRow(prm dedup.Params, seen *seenKeys) (*signRow, error) {
 	return &signRow{signer: sg, seen: seen, k: prm.Hashes}, nil
 }
 
-func (s *signRow) reset() {
-	s.text = s.text[:0]
-	s.parts = 0
-}
-
-func (s *signRow) write(part []byte) {
-	if s.parts > 0 {
-		s.text = append(s.text, '\n')
-	}
-	s.text = append(s.text, part...)
-	s.parts++
-}
-
 // sum appends the row's key, and its signature unless an earlier row has the key, to the
 // batch's.
-func (s *signRow) sum(o *batchOut) {
-	raw := s.seen.rawKey(s.text)
+func (s *signRow) sum(o *batchOut, text []byte) {
+	raw := s.seen.rawKey(text)
 	key, hashed, sign, ok := s.seen.claimText(raw, o.seq)
 	if !ok {
 		before := s.hasher.Work()
-		s.hasher.Write(s.text)
+		s.hasher.Write(text)
 		key = s.hasher.Sum()
 		hashed = s.hasher.Work().Hashed - before.Hashed
 		sign = s.seen.claimKey(raw, key, hashed, o.seq)
 	}
-	s.work.Bytes += int64(len(s.text))
+	s.work.Bytes += int64(len(text))
 	s.work.Hashed += hashed
 	o.keys = append(o.keys, key)
 	if !sign {
 		o.signed = append(o.signed, false)
-		s.reset()
 		return
 	}
 	o.signed = append(o.signed, true)
 	before := s.signer.Work()
-	s.signer.Write(s.text)
+	s.signer.Write(text)
 	n := len(o.sigs)
 	o.sigs = slices.Grow(o.sigs, s.k)
 	s.signer.Sum(o.sigs[n:n])
 	o.sigs = o.sigs[:n+s.k]
 	o.signWork = append(o.signWork, s.signer.Work().Minus(before))
-	s.reset()
 }
 
 // seenKeys is the workers' shared memory of the rows they have met. It saves work on the repeats

@@ -125,6 +125,14 @@ func (st *Stats) WriteSummary(w io.Writer, out string) {
 		fmt.Fprintf(w, "  duplicates    %d rows in %d clusters are not their cluster's first (%d exact; near: Jaccard of word %d-gram shingles >= %g, %d MinHash values in %d bands); hashing %.3g FLOPs, paid here for every pick at this threshold\n",
 			d.Duplicates, d.Clusters, d.ExactDuplicates, d.Shingle, d.Threshold, d.Hashes, d.Bands, d.FLOPs)
 	}
+	if x := m.Excluded; x != nil {
+		paths := make([]string, len(x.Files))
+		for i, f := range x.Files {
+			paths[i] = f.Path
+		}
+		fmt.Fprintf(w, "  evaluation    %d rows share a %d-word n-gram with %s (listed in %s/%s; picks excluding the same files take them, and keep none of them); %d words checked\n",
+			x.Rows, x.N, strings.Join(paths, ", "), out, contamFile, x.Words)
+	}
 	if m.RowsRejected > 0 {
 		fmt.Fprintf(w, "  quarantine    %s/rejected.jsonl\n", out)
 	}

@@ -63,7 +63,8 @@ const (
 	idsFile      = "ids"
 	rejectedFile = "rejected.jsonl"
 	dupsFile     = "dups"
-	stdinPrefix  = "stdin"
+	// contamFile (build_excl.go) is listed with these.
+	stdinPrefix = "stdin"
 )
 
 // Errors returned when opening an index; test with errors.Is.
@@ -106,6 +107,8 @@ type Meta struct {
 	Command         []string        `json:"command,omitempty"` // the command line that built it, when given
 	// Dups describes the dups file, when the build found duplicates.
 	Dups *Dups `json:"duplicates,omitempty"`
+	// Excluded describes contaminated.jsonl, when the build checked rows against evaluation files.
+	Excluded *Excluded `json:"excluded,omitempty"`
 }
 
 // Source is one pool file as it was when indexed.

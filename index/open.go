@@ -32,6 +32,7 @@ type Index struct {
 	rows     []byte   // mapped, rowRecSize per row
 	norms    []byte   // mapped, a little-endian float64 per row
 	dups     []byte   // mapped, dupRecSize bytes per row, when the build found duplicates
+	contam   []byte   // mapped contaminated.jsonl, when the build checked evaluation files
 	idOff    []uint64 // where row i·idStride's length-prefixed id starts in ids, when the index has an id field
 	ids      []byte
 	stored   map[string][]byte // mapped copies of sources read from a stream, by file name
@@ -208,6 +209,12 @@ func (ix *Index) load(d *os.File) error {
 			}
 		}
 		ix.dups = db
+	}
+	if m.Excluded != nil {
+		if _, listed := m.Files[contamFile]; !listed {
+			return fmt.Errorf("open index %s: meta.json lists no %s: %w", dir, contamFile, ErrDamaged)
+		}
+		ix.contam = data[contamFile]
 	}
 	if m.IDField != "" {
 		if err := ix.loadIDs(data[idsFile]); err != nil {

@@ -33,6 +33,8 @@ func (*indexCmd) flags() *pflag.FlagSet {
 	fs.Bool("strict", false, "stop at the first bad row (exit 1) instead of quarantining it")
 	fs.Float64("near-dup", index.DefaultNearDup, "find exact and near duplicates at this Jaccard similarity (word 5-gram shingles), for picks\nat the same --near-dup")
 	fs.Bool("no-dups", false, "find no duplicates (picks then find them themselves)")
+	fs.StringArray("exclude", nil, "an evaluation file (JSONL or text): record the rows sharing a word n-gram with any of its\nrows, so that picks excluding the same files need not read the pool again; repeatable")
+	fs.Int("exclude-ngram", run.DefaultExcludeN, "words in the n-grams --exclude compares (13 is common practice for benchmark decontamination)")
 	fs.String("from", "", "instead of pool files: the index set (or index) whose segments' files to index again as one,\nwith the settings they were built with")
 	fs.Bool("dry-run", false, "read, parse and analyse every row and report, but write no index")
 	fs.BoolP("quiet", "q", false, "print nothing but errors")
@@ -116,6 +118,10 @@ func indexOptions(fs *pflag.FlagSet) (index.Options, error) {
 		return opt, usagef("--near-dup has no use with --no-dups")
 	} else if opt.NearDup == 0 {
 		return opt, usagef("--near-dup 0: give a Jaccard similarity above 0 and at most 1, or --no-dups")
+	}
+	opt.Exclude, _ = fs.GetStringArray("exclude")
+	if opt.ExcludeN, _ = fs.GetInt("exclude-ngram"); opt.ExcludeN < 1 || opt.ExcludeN > 1000 {
+		return opt, usagef("--exclude-ngram %d: give 1 to 1000 words", opt.ExcludeN)
 	}
 	if err := opt.Check(); err != nil {
 		return opt, usagef("%v", err)
