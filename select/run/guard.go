@@ -57,9 +57,10 @@ type guarded struct {
 	evalFiles []string
 	bands     int
 	work      dedup.Work
-	built     *index.Dups // the index's clusters, when the pick takes them instead of hashing
-	evalWork  int64       // words checked against the evaluation set
-	inPool    []string    // ids of pool rows that are also target rows
+	built     *index.Dups     // the index's clusters, when the pick takes them instead of hashing
+	evalWork  int64           // words checked against the evaluation set
+	evalBuilt *index.Excluded // the index's check of the same files, when the pick takes it
+	inPool    []string        // ids of pool rows that are also target rows
 }
 
 // active reports whether the guards need a pass over the pool.
@@ -75,11 +76,16 @@ func (p *picked) guard(ctx context.Context) error {
 	gd := &guarded{contam: map[int]decontam.Hit{}}
 	var set *decontam.Set
 	if len(g.Exclude) > 0 {
-		var err error
-		if set, err = evalSet(g.Exclude, g.ExcludeN); err != nil {
+		gd.evalFiles = g.Exclude
+		ex, hits, err := p.indexExcluded()
+		if err != nil {
 			return err
 		}
-		gd.evalFiles = g.Exclude
+		if ex != nil {
+			gd.contam, gd.evalBuilt = hits, ex
+		} else if set, err = evalSet(g.Exclude, g.ExcludeN); err != nil {
+			return err
+		}
 	}
 	var prm *dedup.Params
 	var det *dedup.Detector
@@ -140,6 +146,27 @@ func (p *picked) guard(ctx context.Context) error {
 	p.guards = gd
 	p.chargeGuards()
 	return nil
+}
+
+// indexExcluded returns the index's check of the rows against evaluation files, when it was made
+// with the files the pick excludes, the same bytes in the same order, at the same n-gram length;
+// nil when the pick must check the rows itself.
+func (p *picked) indexExcluded() (*index.Excluded, map[int]decontam.Hit, error) {
+	g := p.opt.Guards
+	ex, hits, err := p.ix.Contamination()
+	if ex == nil || err != nil || ex.N != orDefaultInt(g.ExcludeN, DefaultExcludeN) || len(ex.Files) != len(g.Exclude) {
+		return nil, nil, err
+	}
+	for i, f := range g.Exclude {
+		sum, err := index.FileSHA256(f)
+		if err != nil {
+			return nil, nil, fmt.Errorf("read evaluation file %s: %w", f, err)
+		}
+		if sum != ex.Files[i].SHA256 {
+			return nil, nil, nil
+		}
+	}
+	return ex, hits, nil
 }
 
 // indexDups returns what the index says of its duplicates when they were found as this pick would
@@ -235,7 +262,7 @@ func (p *picked) chargeGuards() {
 		p.led.AddSelection(fmt.Sprintf("find duplicates: exact keys and MinHash signatures (%d hashes, %d bands)", minhashes, gd.bands), "FLOP", gd.work.FLOPs(), 1,
 			"the hashing work counted as index/dedup states it: bytes read and hashed, shingles, MinHash evaluations, band probes, sketches compared")
 	}
-	if gd.evalFiles != nil {
+	if gd.evalFiles != nil && gd.evalBuilt == nil {
 		per := float64(2 * budget.FLOPsPerToken) // each word hashed twice, one set look-up per n-gram
 		p.led.AddSelection("check pool rows against the evaluation files' n-grams", "word", float64(gd.evalWork), per,
 			fmt.Sprintf("%g FLOPs x %d words", per, gd.evalWork))
@@ -352,6 +379,10 @@ func (p *picked) guardNotes() []string {
 	}
 	if d := gd.built; d != nil {
 		notes = append(notes, fmt.Sprintf("duplicates were found when the index was built, which paid their hashing once for every pick at this --near-dup: %s FLOP-equivalents as index/dedup counts it (meta.json's duplicates); this pick charges none of it", budget.FormatFLOPs(d.FLOPs)))
+	}
+	if x := gd.evalBuilt; x != nil {
+		notes = append(notes, fmt.Sprintf("evaluation rows were checked when the index was built, against the same files: %d words, %s FLOP-equivalents at %d a word (meta.json's excluded); this pick charges none of it",
+			x.Words, budget.FormatFLOPs(float64(x.Words)*2*budget.FLOPsPerToken), 2*budget.FLOPsPerToken))
 	}
 	if gd.evalFiles != nil {
 		notes = append(notes, fmt.Sprintf("evaluation rows: %d pool rows share a %d-word n-gram with %s and are never kept", len(gd.contam), orDefaultInt(p.opt.Guards.ExcludeN, DefaultExcludeN), strings.Join(gd.evalFiles, ", ")))

@@ -156,3 +156,101 @@ func TestIndexDupsFallBack(t *testing.T) {
 		t.Error("a pick took clusters made by another version of dedup")
 	}
 }
+
+// TestIndexExcludeMatchesPickTime picks, excluding the demo's evaluation file, from an index that
+// checked every row against it at build time and from one that did not, whose pick checks the rows
+// itself: every line of scores.jsonl (its contaminated rows, evaluation lines and n-grams included)
+// and the kept rows are the same bytes but for each row's running ledger, apart by the check the
+// second pick charges and the first does not. Given other evaluation bytes or another n-gram length,
+// the first index is checked again, not trusted.
+func TestIndexExcludeMatchesPickTime(t *testing.T) {
+	dir := t.TempDir()
+	pool, target := filepath.Join(dir, "pool.jsonl"), filepath.Join(dir, "target.jsonl")
+	eval, other := filepath.Join(dir, "eval.jsonl"), filepath.Join(dir, "other.jsonl")
+	for f, b := range map[string][]byte{pool: demodata.Pool(), target: demodata.Target(), eval: demodata.Eval(), other: append(demodata.Eval(), "one more row\n"...)} {
+		if err := os.WriteFile(f, b, 0o644); err != nil {
+			t.Fatal(err)
+		}
+	}
+	pick := func(name string, idxOpt index.Options, exclude string, n int) (string, *Ledger) {
+		t.Helper()
+		idx := filepath.Join(dir, name+".idx")
+		if _, err := os.Stat(idx); err != nil {
+			idxOpt.ID = "id"
+			if _, err := index.Build(context.Background(), idx, []string{pool}, idxOpt); err != nil {
+				t.Fatal(err)
+			}
+		}
+		out := filepath.Join(dir, fmt.Sprintf("%s-%s-%d", name, filepath.Base(exclude), n))
+		opt := demoOptions(idx, target, out)
+		opt.Budget = 1e15
+		opt.Guards.Exclude, opt.Guards.ExcludeN = []string{exclude}, n
+		if _, err := Pick(context.Background(), opt); err != nil {
+			t.Fatal(err)
+		}
+		l, err := ReadLedger(out)
+		if err != nil {
+			t.Fatal(err)
+		}
+		return out, l
+	}
+	checkCharge := func(l *Ledger) float64 {
+		for _, ln := range l.Lines {
+			if strings.HasPrefix(ln.What, "check pool rows against the evaluation") {
+				return ln.FLOPs
+			}
+		}
+		return 0
+	}
+	built := index.Options{Exclude: []string{eval}, ExcludeN: DefaultExcludeN}
+	runs := [2]string{}
+	var ledgers [2]*Ledger
+	runs[0], ledgers[0] = pick("checked", built, eval, 0)
+	runs[1], ledgers[1] = pick("plain", index.Options{}, eval, 0)
+	charge := checkCharge(ledgers[1])
+	if checkCharge(ledgers[0]) != 0 || charge == 0 || !strings.Contains(strings.Join(ledgers[0].Notes, "\n"), "checked when the index was built") {
+		t.Fatalf("charges %v and %v; notes %q", checkCharge(ledgers[0]), charge, ledgers[0].Notes)
+	}
+	kept := [2][]byte{}
+	lines := [2][][]byte{}
+	for i, r := range runs {
+		kept[i], _ = os.ReadFile(filepath.Join(r, "kept.jsonl"))
+		s, _ := os.ReadFile(filepath.Join(r, "scores.jsonl"))
+		lines[i] = bytes.Split(s, []byte("\n"))
+	}
+	if !bytes.Equal(kept[0], kept[1]) || len(kept[0]) == 0 || len(lines[0]) != len(lines[1]) {
+		t.Fatalf("kept.jsonl %d and %d bytes, scores.jsonl %d and %d lines", len(kept[0]), len(kept[1]), len(lines[0]), len(lines[1]))
+	}
+	contaminated := 0
+	for j := range lines[0] {
+		if len(lines[0][j]) == 0 {
+			continue
+		}
+		var a, b map[string]any
+		json.Unmarshal(lines[0][j], &a)
+		json.Unmarshal(lines[1][j], &b)
+		if la, lb := a["ledger"].(float64), b["ledger"].(float64); math.Abs(lb-la-charge) > 1e-9*lb {
+			t.Errorf("line %d: ledger %v and %v, want apart by the check %v", j, la, lb, charge)
+		}
+		delete(a, "ledger")
+		delete(b, "ledger")
+		ja, _ := json.Marshal(a)
+		jb, _ := json.Marshal(b)
+		if !bytes.Equal(ja, jb) {
+			t.Fatalf("line %d differs:\n%s\n%s", j, ja, jb)
+		}
+		if a["reason"] == "contaminated" {
+			contaminated++
+		}
+	}
+	if contaminated == 0 {
+		t.Error("the demo's evaluation file leaks into its pool, but no row was refused")
+	}
+	// Other evaluation bytes, or another n-gram length: the pick checks the rows itself.
+	if _, l := pick("checked", built, other, 0); checkCharge(l) == 0 {
+		t.Error("a pick excluding another evaluation file took the index's check")
+	}
+	if _, l := pick("checked", built, eval, 8); checkCharge(l) == 0 {
+		t.Error("a pick at another n-gram length took the index's check")
+	}
+}
