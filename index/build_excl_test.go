@@ -122,3 +122,25 @@ func TestExcludeRefuses(t *testing.T) {
 		})
 	}
 }
+
+// FuzzContamination feeds contaminated.jsonl bytes to Contamination: it never panics, and a list
+// it accepts has rows in range and in order, files in range and as many rows as meta.json says.
+func FuzzContamination(f *testing.F) {
+	f.Add([]byte(`{"row":1,"file":0,"line":3,"at":2,"ngram":"a b c"}`+"\n"), int64(1))
+	f.Add([]byte(`{"row":4,"file":1,"line":1,"at":0,"ngram":"x"}`+"\n"+`{"row":2,"file":0,"line":1,"ngram":""}`+"\n"), int64(2))
+	f.Fuzz(func(t *testing.T, data []byte, rows int64) {
+		ix := &Index{meta: Meta{Rows: 10, Excluded: &Excluded{N: 3, Files: make([]ExcludedFile, 2), Rows: rows}}, contam: data}
+		_, hits, err := ix.Contamination()
+		if err != nil {
+			return
+		}
+		if int64(len(hits)) != rows {
+			t.Fatalf("%d rows accepted, meta.json says %d", len(hits), rows)
+		}
+		for r, h := range hits {
+			if r < 0 || r >= 10 || h.File < 0 || h.File > 1 || h.Line < 1 {
+				t.Fatalf("accepted row %d, file %d, line %d", r, h.File, h.Line)
+			}
+		}
+	})
+}
