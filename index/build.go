@@ -222,6 +222,7 @@ type batchOut struct {
 	missing map[string]*missCount // by path of the text spec, the rows lacking it
 	blank   int64
 	words   int64       // words checked against the evaluation files
+	longest int         // the most words a row had
 	hits    []rowHit    // rows that share an n-gram with them
 	keys    []dedup.Key // by row, when duplicates are found
 	signed  []bool      // by row: whether the row has a signature in sigs

@@ -22,6 +22,9 @@ type Excluded struct {
 	// the work a pick would charge for the check.
 	Rows  int64 `json:"rows"`
 	Words int64 `json:"words"`
+	// Longest is the most words a row had: an n-gram longer than every row matches only rows that
+	// equal an evaluation row whole, which the build warns of.
+	Longest int `json:"longest_row_words"`
 }
 
 // ExcludedFile is one evaluation file as the build read it.
@@ -73,6 +76,7 @@ func (b *builder) startExclude() error {
 func (w *worker) checkEval(o *batchOut, i int, text []byte) {
 	w.words = decontam.Words(w.words[:0], string(text))
 	o.words += int64(len(w.words))
+	o.longest = max(o.longest, len(w.words))
 	if hit, ok := w.eval.Check(w.words); ok {
 		hit.Words = append([]string(nil), hit.Words...)
 		o.hits = append(o.hits, rowHit{i, hit})
@@ -83,6 +87,7 @@ func (w *worker) checkEval(o *batchOut, i int, text []byte) {
 func (b *builder) addContam(o *batchOut, base int64, w *fileWriter) error {
 	ex := b.meta.Excluded
 	ex.Words += o.words
+	ex.Longest = max(ex.Longest, o.longest)
 	for _, h := range o.hits {
 		line, err := json.Marshal(contamLine{Row: base + int64(h.i), File: h.hit.File, Line: h.hit.Line, At: h.hit.At, NGram: strings.Join(h.hit.Words, " ")})
 		if err != nil {

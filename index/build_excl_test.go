@@ -43,7 +43,7 @@ func TestExcludeMatchesCheck(t *testing.T) {
 	}
 	want := map[int]decontam.Hit{}
 	var words int64
-	row := 0
+	row, longest := 0, 0
 	for _, line := range lines {
 		var r struct{ Prompt, Completion string }
 		if len(line) == 0 || json.Unmarshal(line, &r) != nil {
@@ -51,6 +51,7 @@ func TestExcludeMatchesCheck(t *testing.T) {
 		}
 		w := decontam.Words(nil, r.Prompt+"\n"+r.Completion)
 		words += int64(len(w))
+		longest = max(longest, len(w))
 		if hit, ok := set.Check(w); ok {
 			hit.Words = append([]string(nil), hit.Words...)
 			want[row] = hit
@@ -76,7 +77,7 @@ func TestExcludeMatchesCheck(t *testing.T) {
 			t.Fatal(err)
 		}
 		sum, _ := FileSHA256(eval)
-		if ex.N != n || len(ex.Files) != 1 || ex.Files[0] != (ExcludedFile{eval, sum}) || ex.Words != words || ex.Rows != int64(len(want)) {
+		if ex.N != n || len(ex.Files) != 1 || ex.Files[0] != (ExcludedFile{eval, sum}) || ex.Words != words || ex.Rows != int64(len(want)) || ex.Longest != longest {
 			t.Errorf("workers %d: meta %+v, want n %d, %s %s, %d words, %d rows", tc.workers, ex, n, eval, sum, words, len(want))
 		}
 		if !reflect.DeepEqual(got, want) {
@@ -88,6 +89,25 @@ func TestExcludeMatchesCheck(t *testing.T) {
 			ref = b
 		} else if !bytes.Equal(ref, b) {
 			t.Errorf("workers %d: contaminated.jsonl or meta.json differs from the first build", tc.workers)
+		}
+	}
+}
+
+// TestExcludeWarnsLongNGram: an n-gram longer than every row finds only rows equal to an
+// evaluation row, whole, and the build says so.
+func TestExcludeWarnsLongNGram(t *testing.T) {
+	pool := testPool(t, 30)
+	eval := filepath.Join(t.TempDir(), "eval.jsonl")
+	os.WriteFile(eval, []byte("tide engine bread oven\n"), 0o644)
+	for _, tc := range []struct {
+		n    int
+		warn bool
+	}{{3, false}, {40, true}} {
+		_, st := build(t, pool, Options{Text: "prompt,completion", Exclude: []string{eval}, ExcludeN: tc.n})
+		var b bytes.Buffer
+		st.WriteWarnings(&b)
+		if got := bytes.Contains(b.Bytes(), []byte("longer than every pool row")); got != tc.warn {
+			t.Errorf("n-gram %d: warned %v, want %v: %q", tc.n, got, tc.warn, b.String())
 		}
 	}
 }

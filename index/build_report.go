@@ -180,6 +180,9 @@ const exampleBytes = 200
 // rows of a file lack, with the fields those rows have, so that neither a pool mixing field names
 // nor a misspelt field goes by without a word.
 func (st *Stats) WriteWarnings(w io.Writer) {
+	if x := st.Excluded; x != nil && x.N > x.Longest {
+		fmt.Fprintf(w, "warning: --exclude-ngram %d is longer than every pool row (the longest has %d words): a row is found only when its words are an evaluation row's, whole; give a shorter n-gram\n", x.N, x.Longest)
+	}
 	if st.Mem > 0 && st.DupMem > st.Mem {
 		fmt.Fprintf(w, "warning: finding duplicates held %d MiB, more than --mem (%d MiB) by itself: the build passed the bound; give more --mem, or --no-dups and let picks find them\n", st.DupMem>>20, st.Mem>>20)
 	}

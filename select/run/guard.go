@@ -60,6 +60,7 @@ type guarded struct {
 	built     *index.Dups     // the index's clusters, when the pick takes them instead of hashing
 	evalWork  int64           // words checked against the evaluation set
 	evalBuilt *index.Excluded // the index's check of the same files, when the pick takes it
+	longest   int             // the most words a pool row had, checked against them
 	inPool    []string        // ids of pool rows that are also target rows
 }
 
@@ -82,7 +83,7 @@ func (p *picked) guard(ctx context.Context) error {
 			return err
 		}
 		if ex != nil {
-			gd.contam, gd.evalBuilt = hits, ex
+			gd.contam, gd.evalBuilt, gd.longest = hits, ex, ex.Longest
 		} else if set, err = evalSet(g.Exclude, g.ExcludeN); err != nil {
 			return err
 		}
@@ -116,6 +117,7 @@ func (p *picked) guard(ctx context.Context) error {
 			gd.contam[h.row] = h.hit
 		}
 		gd.evalWork += h.words
+		gd.longest = max(gd.longest, int(h.words))
 		if det == nil {
 			return nil
 		}
@@ -386,6 +388,9 @@ func (p *picked) guardNotes() []string {
 	}
 	if gd.evalFiles != nil {
 		notes = append(notes, fmt.Sprintf("evaluation rows: %d pool rows share a %d-word n-gram with %s and are never kept", len(gd.contam), orDefaultInt(p.opt.Guards.ExcludeN, DefaultExcludeN), strings.Join(gd.evalFiles, ", ")))
+	}
+	if n := orDefaultInt(p.opt.Guards.ExcludeN, DefaultExcludeN); gd.evalFiles != nil && n > gd.longest {
+		notes = append(notes, fmt.Sprintf("evaluation n-grams: --exclude-ngram %d is longer than every pool row (the longest has %d words): a row is found only when its words are an evaluation row's, whole", n, gd.longest))
 	}
 	if len(gd.inPool) > 0 {
 		notes = append(notes, fmt.Sprintf("target rows in the pool: %d pool rows are target rows, the first %s", len(gd.inPool), gd.inPool[0]))

@@ -253,4 +253,8 @@ func TestIndexExcludeMatchesPickTime(t *testing.T) {
 	if _, l := pick("checked", built, eval, 8); checkCharge(l) == 0 {
 		t.Error("a pick at another n-gram length took the index's check")
 	}
+	// An n-gram longer than every row is noted, as the summary warns of it.
+	if _, l := pick("plain", index.Options{}, eval, 900); !strings.Contains(strings.Join(l.Notes, "\n"), "longer than every pool row") {
+		t.Errorf("an n-gram of 900 words: notes %q", l.Notes)
+	}
 }

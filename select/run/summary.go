@@ -53,6 +53,9 @@ func (res *Result) WriteSummary(w io.Writer, took time.Duration) error {
 		if strings.HasPrefix(n, "target rows in the pool") {
 			fmt.Fprintf(&sb, "  warning    %s: the pick may learn the target set itself\n", n)
 		}
+		if strings.HasPrefix(n, "evaluation n-grams") {
+			fmt.Fprintf(&sb, "  warning    %s; give a shorter n-gram\n", n)
+		}
 	}
 	printSources(&sb, res)
 	if res.Meta.RowsRejected > 0 {
