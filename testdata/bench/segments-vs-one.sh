@@ -44,3 +44,27 @@ for r in $(seq 1 "$rounds"); do
 		printf '%-28s %6s %10s %10s %8s %10s\n' "$v" "$r" "$a" "$b" "$(echo "scale=2; $b / $a" | bc)" "$(echo "scale=2; $bm / $am" | bc)"
 	done
 done
+
+# The same picks as shards (sluice shard, duplicates kept), the four score and the four write steps
+# one after another on this machine: the sum of every step's time against the one-index pick, and
+# the most memory any one step held against the one pick's.
+printf '%-28s %6s %10s %10s %8s %10s\n' "sharded, steps in a row" round one_s steps_s ratio RSS_ratio
+for r in $(seq 1 "$rounds"); do
+	for m in bm25 tfidf; do
+		flags=(--index "$work/pool.set" --target "$work/target.jsonl" --budget 1e30 --train-params 1B --max-rows "$max" --method "$m" --keep-duplicates --out "$work/run-shard")
+		read -r a am < <(run "$S" pick --quiet --index "$work/one.idx" --target "$work/target.jsonl" --budget 1e30 --train-params 1B --max-rows "$max" --method "$m" --keep-duplicates --out "$work/run-one")
+		rm -rf "$work/shards"
+		total=0
+		peak=0
+		for step in "score 0" "score 1" "score 2" "score 3" "cut" "write 0" "write 1" "write 2" "write 3" "join"; do
+			read -r s i <<<"$step"
+			shard=()
+			[ -z "${i:-}" ] || shard=(--shard "$i")
+			read -r w k < <(run "$S" shard "$s" "${shard[@]}" --quiet --work "$work/shards" "${flags[@]}")
+			total=$(echo "$total + $w" | bc)
+			[ "$k" -gt "$peak" ] && peak=$k
+		done
+		cmp -s "$work/run-one/kept.jsonl" "$work/run-shard/kept.jsonl" || echo "kept rows differ for sharded $m" >&2
+		printf '%-28s %6s %10s %10s %8s %10s\n' "$m --keep-duplicates" "$r" "$a" "$total" "$(echo "scale=2; $total / $a" | bc)" "$(echo "scale=2; $peak / $am" | bc)"
+	done
+done
