@@ -67,44 +67,8 @@ func TestIndexDupsMatchPickTime(t *testing.T) {
 		if hashing == 0 || !strings.Contains(strings.Join(ledgers[0].Notes, "\n"), "found when the index was built") {
 			t.Errorf("charge %v; notes %q", hashing, ledgers[0].Notes)
 		}
-		kept := [2][]byte{}
-		lines := [2][][]byte{}
-		for i, r := range runs {
-			kept[i], _ = os.ReadFile(filepath.Join(r, "kept.jsonl"))
-			s, _ := os.ReadFile(filepath.Join(r, "scores.jsonl"))
-			lines[i] = bytes.Split(s, []byte("\n"))
-		}
-		if !bytes.Equal(kept[0], kept[1]) || len(kept[0]) == 0 {
-			t.Errorf("exclude %v: kept.jsonl differs (%d and %d bytes)", exclude, len(kept[0]), len(kept[1]))
-		}
-		if len(lines[0]) != len(lines[1]) {
-			t.Fatalf("scores.jsonl: %d and %d lines", len(lines[0]), len(lines[1]))
-		}
-		dups := 0
-		for j := range lines[0] {
-			if len(lines[0][j]) == 0 {
-				continue
-			}
-			var a, b map[string]any
-			json.Unmarshal(lines[0][j], &a)
-			json.Unmarshal(lines[1][j], &b)
-			la, lb := a["ledger"].(float64), b["ledger"].(float64)
-			if math.Abs(lb-la-hashing) > 1e-9*lb {
-				t.Errorf("line %d: ledger %v and %v, want apart by the hashing %v", j, la, lb, hashing)
-			}
-			delete(a, "ledger")
-			delete(b, "ledger")
-			ja, _ := json.Marshal(a)
-			jb, _ := json.Marshal(b)
-			if !bytes.Equal(ja, jb) {
-				t.Fatalf("line %d differs:\n%s\n%s", j, ja, jb)
-			}
-			if a["reason"] == "duplicate" {
-				dups++
-			}
-		}
-		if dups == 0 {
-			t.Errorf("the demo pool holds copies, but no row was dropped as a duplicate")
+		if sameButLedger(t, runs, hashing)["duplicate"] == 0 {
+			t.Errorf("exclude %v: the demo pool holds copies, but no row was dropped as a duplicate", exclude)
 		}
 	}
 }
@@ -211,39 +175,7 @@ func TestIndexExcludeMatchesPickTime(t *testing.T) {
 	if checkCharge(ledgers[0]) != 0 || charge == 0 || !strings.Contains(strings.Join(ledgers[0].Notes, "\n"), "checked when the index was built") {
 		t.Fatalf("charges %v and %v; notes %q", checkCharge(ledgers[0]), charge, ledgers[0].Notes)
 	}
-	kept := [2][]byte{}
-	lines := [2][][]byte{}
-	for i, r := range runs {
-		kept[i], _ = os.ReadFile(filepath.Join(r, "kept.jsonl"))
-		s, _ := os.ReadFile(filepath.Join(r, "scores.jsonl"))
-		lines[i] = bytes.Split(s, []byte("\n"))
-	}
-	if !bytes.Equal(kept[0], kept[1]) || len(kept[0]) == 0 || len(lines[0]) != len(lines[1]) {
-		t.Fatalf("kept.jsonl %d and %d bytes, scores.jsonl %d and %d lines", len(kept[0]), len(kept[1]), len(lines[0]), len(lines[1]))
-	}
-	contaminated := 0
-	for j := range lines[0] {
-		if len(lines[0][j]) == 0 {
-			continue
-		}
-		var a, b map[string]any
-		json.Unmarshal(lines[0][j], &a)
-		json.Unmarshal(lines[1][j], &b)
-		if la, lb := a["ledger"].(float64), b["ledger"].(float64); math.Abs(lb-la-charge) > 1e-9*lb {
-			t.Errorf("line %d: ledger %v and %v, want apart by the check %v", j, la, lb, charge)
-		}
-		delete(a, "ledger")
-		delete(b, "ledger")
-		ja, _ := json.Marshal(a)
-		jb, _ := json.Marshal(b)
-		if !bytes.Equal(ja, jb) {
-			t.Fatalf("line %d differs:\n%s\n%s", j, ja, jb)
-		}
-		if a["reason"] == "contaminated" {
-			contaminated++
-		}
-	}
-	if contaminated == 0 {
+	if sameButLedger(t, runs, charge)["contaminated"] == 0 {
 		t.Error("the demo's evaluation file leaks into its pool, but no row was refused")
 	}
 	// Other evaluation bytes, or another n-gram length: the pick checks the rows itself.
@@ -257,4 +189,44 @@ func TestIndexExcludeMatchesPickTime(t *testing.T) {
 	if _, l := pick("plain", index.Options{}, eval, 900); !strings.Contains(strings.Join(l.Notes, "\n"), "longer than every pool row") {
 		t.Errorf("an n-gram of 900 words: notes %q", l.Notes)
 	}
+}
+
+// sameButLedger checks that two runs kept the same rows, and that every line of their scores.jsonl
+// is the same but for the running ledger, the second's ahead by apart; it counts the first run's
+// rows by reason.
+func sameButLedger(t *testing.T, runs [2]string, apart float64) map[string]int {
+	t.Helper()
+	kept := [2][]byte{}
+	lines := [2][][]byte{}
+	for i, r := range runs {
+		kept[i], _ = os.ReadFile(filepath.Join(r, "kept.jsonl"))
+		s, _ := os.ReadFile(filepath.Join(r, "scores.jsonl"))
+		lines[i] = bytes.Split(s, []byte("\n"))
+	}
+	if !bytes.Equal(kept[0], kept[1]) || len(kept[0]) == 0 || len(lines[0]) != len(lines[1]) {
+		t.Fatalf("kept.jsonl %d and %d bytes, scores.jsonl %d and %d lines", len(kept[0]), len(kept[1]), len(lines[0]), len(lines[1]))
+	}
+	reasons := map[string]int{}
+	for j := range lines[0] {
+		if len(lines[0][j]) == 0 {
+			continue
+		}
+		var a, b map[string]any
+		json.Unmarshal(lines[0][j], &a)
+		json.Unmarshal(lines[1][j], &b)
+		if la, lb := a["ledger"].(float64), b["ledger"].(float64); math.Abs(lb-la-apart) > 1e-9*lb {
+			t.Errorf("line %d: ledger %v and %v, want apart by %v", j, la, lb, apart)
+		}
+		delete(a, "ledger")
+		delete(b, "ledger")
+		ja, _ := json.Marshal(a)
+		jb, _ := json.Marshal(b)
+		if !bytes.Equal(ja, jb) {
+			t.Fatalf("line %d differs:\n%s\n%s", j, ja, jb)
+		}
+		if r, ok := a["reason"].(string); ok {
+			reasons[r]++
+		}
+	}
+	return reasons
 }
