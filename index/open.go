@@ -279,14 +279,32 @@ func (ix *Index) DupFirst(row int) (int, bool) {
 }
 
 // DupKey returns row's exact-duplicate key (dedup.Key), and false when the build found no
-// duplicates.
+// duplicates. A set takes it from the row's segment.
 func (ix *Index) DupKey(row int) (dedup.Key, bool) {
 	var k dedup.Key
+	if ix.set != nil {
+		g, r, _ := ix.set.seg(row)
+		return g.DupKey(r)
+	}
 	if ix.dups == nil {
 		return k, false
 	}
 	copy(k[:], ix.dups[row*dupRecSize+4:])
 	return k, true
+}
+
+// HasKeys reports whether every row's exact-duplicate key is stored, made by this sluice's
+// dedup.Version (DupKey), in the index or in every segment of a set.
+func (ix *Index) HasKeys() bool {
+	if ix.set != nil {
+		for _, g := range ix.set.segs {
+			if !g.HasKeys() {
+				return false
+			}
+		}
+		return true
+	}
+	return ix.dups != nil && ix.meta.Dups != nil && ix.meta.Dups.Version == dedup.Version
 }
 
 // idStride is how many rows' ids lie between two offsets Open keeps: an offset per row would cost 8

@@ -61,6 +61,7 @@ type guarded struct {
 	evalWork  int64           // words checked against the evaluation set
 	evalBuilt *index.Excluded // the index's check of the same files, when the pick takes it
 	longest   int             // the most words a pool row had, checked against them
+	keyed     bool            // the exact keys were read from the index's segments, not hashed
 	inPool    []string        // ids of pool rows that are also target rows
 }
 
@@ -109,10 +110,17 @@ func (p *picked) guard(ctx context.Context) error {
 		p.chargeGuards()
 		return nil
 	}
+	plan := hashPlan{prm: prm, set: set}
+	if det != nil && p.ix.HasKeys() {
+		// The keys are stored (a set of segments that found duplicates): the repeats of a key are
+		// joined to its first row now, and only first rows are signed and given to the Detector,
+		// as a build does (TestDupsMatchDetector holds that the clusters are the same).
+		plan.repeat, gd.keyed = p.keyedRepeats(det.Clusters(), targetKeys, gd), true
+	}
 	var pairs []dedup.Pair
 	// Hashing, signing and checking words are per row and run on every core; the detector and the
 	// exact groups take the rows in order, as they must.
-	work, err := eachRowHashed(ctx, p.ix, prm, set, func(h *rowHashes) error {
+	work, err := eachRowHashed(ctx, p.ix, plan, func(h *rowHashes) error {
 		if h.contaminated {
 			gd.contam[h.row] = h.hit
 		}
@@ -120,6 +128,14 @@ func (p *picked) guard(ctx context.Context) error {
 		gd.longest = max(gd.longest, int(h.words))
 		if det == nil {
 			return nil
+		}
+		if plan.repeat != nil {
+			if h.sig == nil {
+				return nil // a repeat, joined to its first already
+			}
+			var err error
+			pairs, err = det.Add(pairs[:0], h.row, h.sig)
+			return err
 		}
 		if targetKeys[h.key] {
 			gd.inPool = append(gd.inPool, p.ix.RowID(h.row))
@@ -148,6 +164,28 @@ func (p *picked) guard(ctx context.Context) error {
 	p.guards = gd
 	p.chargeGuards()
 	return nil
+}
+
+// keyedRepeats reads every row's stored key in order, joins each row whose key an earlier row has to
+// that row in c, and returns them as a bitmap; it counts them, and names the pool rows a target row
+// has the key of, in gd.
+func (p *picked) keyedRepeats(c *dedup.Clusters, targetKeys map[dedup.Key]bool, gd *guarded) []uint64 {
+	n := p.ix.NumRows()
+	repeat := make([]uint64, (n+63)/64)
+	var exact dedup.Exact
+	for r := range n {
+		k, _ := p.ix.DupKey(r)
+		if targetKeys[k] {
+			gd.inPool = append(gd.inPool, p.ix.RowID(r))
+		}
+		// Rows are numbers below n, which Add and Union take.
+		if first, _ := exact.Add(r, k); first != r {
+			repeat[r/64] |= 1 << (r % 64)
+			gd.exactDups++
+			_ = c.Union(first, r)
+		}
+	}
+	return repeat
 }
 
 // indexExcluded returns the index's check of the rows against evaluation files, when it was made
@@ -378,6 +416,9 @@ func (p *picked) guardNotes() []string {
 		groups := gd.groups
 		notes = append(notes, fmt.Sprintf("duplicates: %d rows have an exact duplicate earlier in the pool; %d clusters of exact or near duplicates (Jaccard of word 5-gram shingles >= %g, %d MinHash values in %d bands); %d rows dropped for a better-scored row of their cluster",
 			gd.exactDups, groups, orDefault(p.opt.Guards.NearDup, DefaultNearDup), minhashes, gd.bands, p.dropped))
+	}
+	if gd.keyed {
+		notes = append(notes, "duplicates: the exact keys were read from the segments' dups files, and only the first row of each key was read again and signed")
 	}
 	if d := gd.built; d != nil {
 		notes = append(notes, fmt.Sprintf("duplicates were found when the index was built, which paid their hashing once for every pick at this --near-dup: %s FLOP-equivalents as index/dedup counts it (meta.json's duplicates); this pick charges none of it", budget.FormatFLOPs(d.FLOPs)))

@@ -230,3 +230,63 @@ func sameButLedger(t *testing.T, runs [2]string, apart float64) map[string]int {
 	}
 	return reasons
 }
+
+// TestSetKeysMatchHashing picks, duplicates dropped, over the demo pool cut into three segments,
+// once built with duplicates (the pick reads the stored keys and signs only each key's first row)
+// and once without (it hashes and signs every row): the same lines of scores.jsonl but for the
+// running ledger, apart by the hashing the second does and the first does not, and the same rows
+// kept.
+func TestSetKeysMatchHashing(t *testing.T) {
+	dir := t.TempDir()
+	lines := bytes.SplitAfter(demodata.Pool(), []byte("\n"))
+	var parts []string
+	for i, cut := range [][2]int{{0, 250}, {250, 500}, {500, len(lines)}} {
+		p := filepath.Join(dir, fmt.Sprintf("part%d.jsonl", i))
+		if err := os.WriteFile(p, bytes.Join(lines[cut[0]:cut[1]], nil), 0o644); err != nil {
+			t.Fatal(err)
+		}
+		parts = append(parts, p)
+	}
+	target := filepath.Join(dir, "target.jsonl")
+	os.WriteFile(target, demodata.Target(), 0o644)
+	var runs [2]string
+	var charges [2]float64
+	for i, noDups := range []bool{false, true} {
+		var segs []string
+		for j, p := range parts {
+			seg := filepath.Join(dir, fmt.Sprintf("seg%d-%v", j, noDups))
+			if _, err := index.Build(context.Background(), seg, []string{p}, index.Options{ID: "id", NoDups: noDups}); err != nil {
+				t.Fatal(err)
+			}
+			segs = append(segs, seg)
+		}
+		set := filepath.Join(dir, fmt.Sprintf("pool-%v.set", noDups))
+		if _, err := index.WriteSet(set, segs, false); err != nil {
+			t.Fatal(err)
+		}
+		runs[i] = filepath.Join(dir, fmt.Sprintf("run-%v", noDups))
+		opt := demoOptions(set, target, runs[i])
+		opt.Budget = 1e15
+		if _, err := Pick(context.Background(), opt); err != nil {
+			t.Fatal(err)
+		}
+		l, err := ReadLedger(runs[i])
+		if err != nil {
+			t.Fatal(err)
+		}
+		for _, ln := range l.Lines {
+			if strings.HasPrefix(ln.What, "find duplicates") {
+				charges[i] = ln.FLOPs
+			}
+		}
+		if keyed := strings.Contains(strings.Join(l.Notes, "\n"), "read from the segments' dups files"); keyed == noDups {
+			t.Errorf("segments with duplicates %v: the note on stored keys is there %v", !noDups, keyed)
+		}
+	}
+	if !(0 < charges[0] && charges[0] < charges[1]) {
+		t.Fatalf("hashing charged %v with stored keys, %v without", charges[0], charges[1])
+	}
+	if sameButLedger(t, runs, charges[1]-charges[0])["duplicate"] == 0 {
+		t.Error("the demo pool holds copies, but no row was dropped as a duplicate")
+	}
+}

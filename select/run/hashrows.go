@@ -34,10 +34,24 @@ type hashBatch struct {
 // hashBatchRows is how many rows a worker hashes at a time: enough to amortise the hand-over.
 const hashBatchRows = 256
 
-// eachRowHashed reads every row of the pool again and hashes it on every core (keys and
-// signatures when prm is set, n-gram checks when set is), then calls fn with the rows in order.
-// It returns the hashing work done.
-func eachRowHashed(ctx context.Context, ix *index.Index, prm *dedup.Params, set *decontam.Set, fn func(*rowHashes) error) (dedup.Work, error) {
+// hashPlan says what eachRowHashed does with each row.
+type hashPlan struct {
+	prm *dedup.Params // sign the rows, and key them but for repeat
+	set *decontam.Set // check the rows' words against it
+	// repeat, when set, marks the rows whose stored key (index.DupKey) an earlier row has: the
+	// stored keys are taken instead of hashing, and the rows marked are not signed (their signature
+	// is their first's), nor read at all unless set is.
+	repeat []uint64
+}
+
+func (h hashPlan) isRepeat(row int) bool {
+	return h.repeat != nil && h.repeat[row/64]&(1<<(row%64)) != 0
+}
+
+// eachRowHashed reads the rows of the pool again and hashes them on every core (keys and
+// signatures when plan.prm is set, n-gram checks when plan.set is), then calls fn with the rows in
+// order. It returns the hashing work done.
+func eachRowHashed(ctx context.Context, ix *index.Index, plan hashPlan, fn func(*rowHashes) error) (dedup.Work, error) {
 	nw := max(1, runtime.GOMAXPROCS(0))
 	jobs := make(chan *hashBatch, 2*nw)
 	order := make(chan *hashBatch, 4*nw)
@@ -47,7 +61,7 @@ func eachRowHashed(ctx context.Context, ix *index.Index, prm *dedup.Params, set 
 	defer cancel()
 	var wg sync.WaitGroup
 	for w := range nw {
-		wg.Go(func() { works[w], errs[w] = hashWorker(ctx, jobs, prm, set) })
+		wg.Go(func() { works[w], errs[w] = hashWorker(ctx, ix, jobs, plan) })
 	}
 	var readErr error
 	go func() {
@@ -71,7 +85,16 @@ func eachRowHashed(ctx context.Context, ix *index.Index, prm *dedup.Params, set 
 			b = newHashBatch(b.seq + 1)
 			return true
 		}
-		readErr = eachRowText(ctx, ix, nil, func(row int, text []byte) error {
+		var rows []int // nil for every row
+		if plan.repeat != nil && plan.set == nil {
+			rows = make([]int, 0, ix.NumRows())
+			for r := range ix.NumRows() {
+				if !plan.isRepeat(r) {
+					rows = append(rows, r)
+				}
+			}
+		}
+		readErr = eachRowText(ctx, ix, rows, func(row int, text []byte) error {
 			b.rows = append(b.rows, row)
 			b.text = append(b.text, text...)
 			b.ends = append(b.ends, len(b.text))
@@ -120,7 +143,8 @@ func newHashBatch(seq int) *hashBatch {
 }
 
 // hashWorker hashes batches until there are none, with hashers of its own.
-func hashWorker(ctx context.Context, jobs <-chan *hashBatch, prm *dedup.Params, set *decontam.Set) (dedup.Work, error) {
+func hashWorker(ctx context.Context, ix *index.Index, jobs <-chan *hashBatch, plan hashPlan) (dedup.Work, error) {
+	prm, set := plan.prm, plan.set
 	var hasher dedup.Hasher
 	var signer *dedup.Signer
 	if prm != nil {
@@ -154,7 +178,13 @@ func hashWorker(ctx context.Context, jobs <-chan *hashBatch, prm *dedup.Params, 
 					h.hit, h.contaminated = hit, true
 				}
 			}
-			if signer != nil {
+			switch {
+			case signer == nil || plan.isRepeat(row):
+			case plan.repeat != nil:
+				h.key, _ = ix.DupKey(row)
+				signer.Write(text)
+				h.sig = signer.Sum(sigs[i*prm.Hashes : i*prm.Hashes : (i+1)*prm.Hashes])
+			default:
 				hasher.Write(text)
 				h.key = hasher.Sum()
 				signer.Write(text)
