@@ -229,6 +229,9 @@ func CutShards(ctx context.Context, opt Options, work string) (*ShardReport, err
 		w.Postings += sf.Work.Postings
 	}
 	p.chargeLexical(opt.Params, "", w)
+	if err := p.cutGuards(work, heads); err != nil {
+		return nil, err
+	}
 	unit, err := p.unit()
 	if err != nil {
 		return nil, err
@@ -239,7 +242,7 @@ func CutShards(ctx context.Context, opt Options, work string) (*ShardReport, err
 		return nil, err
 	}
 	if opt.MinScore.Kind != "" {
-		if so.MinScore, err = cutMinScore(work, heads, opt.MinScore); err != nil {
+		if so.MinScore, err = cutMinScore(work, heads, opt.MinScore, p.guardBar); err != nil {
 			return nil, err
 		}
 		opt.Select.MinScore = so.MinScore
@@ -314,7 +317,7 @@ func (p *picked) walkShards(ctx context.Context, work, tmp string, heads []*shar
 		if int(h.source) >= len(r.Sources) || int(h.row) >= cf.Rows {
 			return selection.Summary{}, workErrorf("shard %d: its ranking names row %d of source %d, which the set does not have", h.shard, h.row, h.source)
 		}
-		d := walker.Step(h.score, float64(h.tokens), selection.Kept, int32(h.source))
+		d := walker.Step(h.score, float64(h.tokens), p.guardBar(int(h.row)), int32(h.source))
 		st := &r.Sources[h.source]
 		st.Rows++
 		st.Tokens += int64(h.tokens)
@@ -343,8 +346,8 @@ func (p *picked) walkShards(ctx context.Context, work, tmp string, heads []*shar
 
 // cutMinScore resolves a floor given relative to the scores, as MinScore.resolve does over every
 // row, from the shards' counts and one more pass over the merged rankings: a lexical pick's
-// floor is taken over the rows scoring above 0, which lead the ranking.
-func cutMinScore(work string, heads []*shardFile, ms MinScore) (float64, error) {
+// floor is taken over the rows scoring above 0 that are not barred (bar), which lead the ranking.
+func cutMinScore(work string, heads []*shardFile, ms MinScore, bar func(row int) selection.Reason) (float64, error) {
 	n, best, lo := 0, math.Inf(-1), math.Inf(1)
 	for _, sf := range heads {
 		n += sf.Matched
@@ -372,6 +375,10 @@ func cutMinScore(work string, heads []*shardFile, ms MinScore) (float64, error) 
 		}
 		if !ok || !(h.score > 0) {
 			return 0, workErrorf("the shards' rankings hold fewer rows scoring above 0 than their summaries say")
+		}
+		if bar(int(h.row)) != selection.Kept {
+			i--
+			continue
 		}
 		if i == 0 {
 			best = h.score

@@ -92,6 +92,9 @@ func WriteShard(ctx context.Context, opt Options, work string, shard int) (*Shar
 	if err := p.loadShard(work, sf, cf); err != nil {
 		return nil, err
 	}
+	if err := p.loadContam(work, sf); err != nil {
+		return nil, err
+	}
 	dir := partFolder(work, shard)
 	pf := &partFile{Format: shardFormat, Identity: ident, Options: key, Shard: shard, Of: cf.Of, Cut: cutSum, Files: map[string]string{}}
 	plain := opt

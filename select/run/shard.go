@@ -66,7 +66,10 @@ func workErrorf(format string, a ...any) error {
 }
 
 // CheckShardable refuses, before any work and naming the flag, what a sharded pick cannot do to
-// the bit as a pick over the whole set does: anything needing every row at once or read twice.
+// the bit as a pick over the whole set does: anything needing every row at once or read twice (the
+// default duplicate guard, whose clusters cross segments; model-based methods and the cascade;
+// several targets; a target from a pipe). --exclude is per row and is honoured: each score step
+// checks its own rows against the evaluation files.
 func CheckShardable(opt Options) error {
 	switch m := opt.method(); {
 	case !lexical(m):
@@ -75,8 +78,6 @@ func CheckShardable(opt Options) error {
 		return shardErrorf("--target given %d times: a sharded pick takes one target set", 1+len(opt.ExtraTargets))
 	case !opt.Guards.KeepDuplicates:
 		return shardErrorf("duplicates cross segments, and finding them needs every row at once: give --keep-duplicates for a sharded pick (or pick over the whole set)")
-	case len(opt.Guards.Exclude) > 0:
-		return shardErrorf("--exclude: a sharded pick does not check rows against evaluation files; pick over the whole set")
 	case opt.Prefilter.active():
 		return shardErrorf("--prefilter goes before a model-based method, which a sharded pick does not run")
 	case opt.Target == "-":
@@ -121,7 +122,7 @@ func shardKind(name, mark string, holds func(string) bool) atomicdir.Kind {
 }
 
 func scoredKind() atomicdir.Kind {
-	return shardKind("shard's scores", shardMark, func(n string) bool { return n == rankingFile || n == shardRows || n == RejectedFile })
+	return shardKind("shard's scores", shardMark, func(n string) bool { return n == rankingFile || n == shardRows || n == RejectedFile || n == contamFile })
 }
 
 // shardFile is shard.json: what the cut and the later steps check a shard's files against.
@@ -147,6 +148,11 @@ type shardFile struct {
 	TargetsRejected int               `json:"targets_rejected"`
 	Matched         int               `json:"matched"` // rows scoring above 0
 	Lowest          float64           `json:"lowest"`  // the lowest score above 0; 0 when none
+	// With --exclude: the words of the shard's rows checked against the evaluation files, and the
+	// rows found contaminated (listed in contamFile). Matched and Lowest leave those rows out, as
+	// a relative --min-score does.
+	EvalWords    int64             `json:"eval_words,omitempty"`
+	Contaminated int               `json:"contaminated,omitempty"`
 	Files           map[string]string `json:"files"`   // SHA-256 of each other file
 }
 
@@ -172,18 +178,31 @@ func startStep(opt *Options, out bool) (key, ident string, err error) {
 }
 
 // shardOptions is a fingerprint of everything in opt that decides a row's score or fate, so that
-// every step of a sharded pick is sure to run the same pick: the target's content, not its path,
-// and nothing of where the run is written or how much memory a step may take.
+// every step of a sharded pick is sure to run the same pick: the target's and the evaluation
+// files' content, not their paths, and nothing of where the run is written or how much memory a
+// step may take.
 func shardOptions(opt *Options) (string, error) {
 	sum, err := sha256File(opt.Target)
 	if err != nil {
 		return "", fmt.Errorf("read target %s: %w", opt.Target, err)
 	}
+	var evals []string
+	for _, f := range opt.Guards.Exclude {
+		s, err := sha256File(f)
+		if err != nil {
+			return "", fmt.Errorf("read evaluation file %s: %w", f, err)
+		}
+		evals = append(evals, s)
+	}
 	k := *opt
 	k.Index, k.Target, k.Out, k.Command, k.Version, k.Stdin, k.MaxMem, k.scoreBatch = "", "", "", nil, "", nil, 0, 0
 	k.Params.Workers, k.Params.CacheBytes = 0, 0
+	k.Guards.Exclude = nil
 	h := sha256.New()
 	fmt.Fprintf(h, "%s\n%+v", sum, k)
+	if len(evals) > 0 {
+		fmt.Fprintf(h, "\nexclude %s", strings.Join(evals, " "))
+	}
 	return hex.EncodeToString(h.Sum(nil)), nil
 }
 
@@ -235,13 +254,27 @@ func ScoreShard(ctx context.Context, opt Options, work string, shard int) (*Shar
 	if err := p.score(ctx); err != nil {
 		return nil, err
 	}
+	if err := p.checkEval(ctx); err != nil {
+		return nil, err
+	}
 	_, of := ix.Shard()
 	sf := &shardFile{Format: shardFormat, Sluice: opt.Version, Identity: ident, Options: key, Shard: shard, Of: of,
 		FirstRow: ix.FirstRow(), Rows: ix.NumRows(), Stats: p.statsKey(), Meta: ix.Meta(),
 		Lines: p.led.Lines[:len(p.led.Lines)-1], Work: p.work, Spec: p.spec, TargetID: p.tid, Targets: len(p.targets), TargetsRejected: len(p.trej),
 		Files: map[string]string{}}
-	for _, s := range p.scores {
-		if s > 0 {
+	fills := []struct {
+		name string
+		fill func(*bufio.Writer) error
+	}{{rankingFile, p.writeRanking}, {shardRows, p.writeShardRows}, {RejectedFile, p.writeRejected}}
+	if p.guards != nil {
+		sf.EvalWords, sf.Contaminated = p.guards.evalWork, len(p.guards.contam)
+		fills = append(fills, struct {
+			name string
+			fill func(*bufio.Writer) error
+		}{contamFile, p.writeContam})
+	}
+	for r, s := range p.scores {
+		if s > 0 && p.guardBar(r) == selection.Kept {
 			sf.Matched++
 			if sf.Lowest == 0 || s < sf.Lowest {
 				sf.Lowest = s
@@ -250,10 +283,7 @@ func ScoreShard(ctx context.Context, opt Options, work string, shard int) (*Shar
 	}
 	dir := shardFolder(work, shard)
 	err = publishWork(dir, scoredKind(), []string{opt.Index, opt.Target}, func(tmp string) error {
-		for _, f := range []struct {
-			name string
-			fill func(*bufio.Writer) error
-		}{{rankingFile, p.writeRanking}, {shardRows, p.writeShardRows}, {RejectedFile, p.writeRejected}} {
+		for _, f := range fills {
 			sum, err := writeHashed(filepath.Join(tmp, f.name), filepath.Join(dir, f.name), f.fill)
 			if err != nil {
 				return err

@@ -72,6 +72,27 @@ func t0Files(t *testing.T, n int) ([]string, string) {
 	return pool, target
 }
 
+// t0Eval writes an evaluation file of rows lines apart in pool file: those rows, and any sharing
+// a 13-word n-gram with them, are contaminated.
+func t0Eval(t *testing.T, pool string, every int) string {
+	t.Helper()
+	b, err := os.ReadFile(pool)
+	if err != nil {
+		t.Fatal(err)
+	}
+	var eval []string
+	for i, l := range strings.SplitAfter(string(b), "\n") {
+		if i%every == 0 && l != "" {
+			eval = append(eval, l)
+		}
+	}
+	path := filepath.Join(t.TempDir(), "eval.jsonl")
+	if err := os.WriteFile(path, []byte(strings.Join(eval, "")), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	return path
+}
+
 // shardedPick runs the four steps of a sharded pick of opt over its set of shards segments.
 func shardedPick(t *testing.T, opt Options, work string, shards int) error {
 	t.Helper()
@@ -95,7 +116,7 @@ func shardedPick(t *testing.T, opt Options, work string, shards int) error {
 
 // shardConfigs are the picks a sharded pick must match: both lexical methods and aggregates, every
 // stop (budget, max-rows, max-tokens, min-score), relative floors, source caps, attribution off, compression and the uniform kept format.
-func shardConfigs(set, target string) map[string]Options {
+func shardConfigs(set, target string, evals ...string) map[string]Options {
 	base := func() Options {
 		o := Options{Index: set, Target: target, Params: score.DefaultParams(), Budget: 2e16, BudgetHow: "test",
 			TrainParams: 1e9, Epochs: 1, Version: "test"}
@@ -128,15 +149,29 @@ func shardConfigs(set, target string) map[string]Options {
 	o = base()
 	o.Params.Method, o.Select.MaxCount, o.Select.Fill = score.TFIDF, 60_000, true
 	c["tfidf-max-tokens-fill"] = o
+	if len(evals) > 0 {
+		o = base()
+		o.Budget, o.Guards.Exclude = 6e14, evals
+		c["bm25-exclude"] = o
+		o = base()
+		o.Params.Method, o.Guards.Exclude, o.Guards.ExcludeN = score.TFIDF, evals[:1], 8
+		o.MinScore, o.MinScoreSet = MinScore{Kind: "percentile", Value: 50}, true
+		c["tfidf-exclude-8-p50"] = o
+		o = base()
+		o.MinScore, o.MinScoreSet, o.Guards.Exclude = MinScore{Kind: "knee"}, true, evals
+		o.Guards.MaxShare = map[string]float64{"": 0.3}
+		c["bm25-exclude-knee-caps"] = o
+	}
 	return c
 }
 
 // TestShardedPickMatchesPick checks the sharded pick's run folder against `pick` over the same set,
 // byte for byte: scores.jsonl, the kept file, ledger.json and rejected.jsonl, and the manifest but
 // for its command line (the one field that must differ). The T0 pool is cut 1, 2, 3 and 7 ways and
-// at random places.
+// at random places; the picks with --exclude check it against rows of two of its files.
 func TestShardedPickMatchesPick(t *testing.T) {
 	files, target := t0Files(t, 14)
+	evals := []string{t0Eval(t, files[3], 50), t0Eval(t, files[11], 200)}
 	splits := map[string][]int{"1 way": nil, "2 ways": {7}, "3 ways": {5, 9}, "7 ways": {2, 4, 6, 8, 10, 12}}
 	rng := rand.New(rand.NewPCG(3, 5))
 	for i := range 2 {
@@ -152,9 +187,10 @@ func TestShardedPickMatchesPick(t *testing.T) {
 		t.Run(name, func(t *testing.T) {
 			dir := t.TempDir()
 			set := t0Set(t, dir, files, cuts)
-			configs := shardConfigs(set, target)
+			configs := shardConfigs(set, target, evals...)
 			if testing.Short() || len(cuts) != 2 {
-				configs = map[string]Options{"bm25-sum-caps": configs["bm25-sum-caps"], "tfidf-max-fill-gzip": configs["tfidf-max-fill-gzip"]}
+				configs = map[string]Options{"bm25-sum-caps": configs["bm25-sum-caps"], "tfidf-max-fill-gzip": configs["tfidf-max-fill-gzip"],
+					"bm25-exclude": configs["bm25-exclude"]}
 			}
 			for cname, opt := range configs {
 				one := opt
@@ -229,7 +265,6 @@ func TestShardedPickRefuses(t *testing.T) {
 		{"duplicates", func(o *Options) { o.Guards.KeepDuplicates = false }, "--keep-duplicates"},
 		{"ngram", func(o *Options) { o.Method = MethodNgram }, "--method ngram"},
 		{"several sets", func(o *Options) { o.ExtraTargets = []string{target} }, "--target given 2 times"},
-		{"exclude", func(o *Options) { o.Guards.Exclude = []string{target} }, "--exclude"},
 		{"stdin", func(o *Options) { o.Target = "-" }, "--target -"},
 	} {
 		o := opt
@@ -253,6 +288,22 @@ func TestShardedPickRefuses(t *testing.T) {
 	}
 	if _, err := CutShards(ctx, opt, work); !errors.Is(err, ErrShardWork) || !strings.Contains(err.Error(), "shard 1 of 2 was scored with other flags") {
 		t.Errorf("a shard of another pick: %v", err)
+	}
+	// A shard checked against other evaluation rows: the files are the pick's by content.
+	eval, evalOther := t0Eval(t, files[1], 40), t0Eval(t, files[1], 41)
+	ex, exOther := opt, opt
+	ex.Guards.Exclude, exOther.Guards.Exclude = []string{eval}, []string{evalOther}
+	if _, err := ScoreShard(ctx, ex, work, 0); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := ScoreShard(ctx, exOther, work, 1); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := CutShards(ctx, ex, work); !errors.Is(err, ErrShardWork) || !strings.Contains(err.Error(), "shard 1 of 2 was scored with other flags") {
+		t.Errorf("a shard checked against other evaluation files: %v", err)
+	}
+	if _, err := ScoreShard(ctx, opt, work, 0); err != nil {
+		t.Fatal(err)
 	}
 	if _, err := ScoreShard(ctx, opt, work, 1); err != nil {
 		t.Fatal(err)
