@@ -13,7 +13,8 @@ import (
 // TestShardFromCommandLine runs a sharded pick step by step from the command line over a T0 pool cut
 // into three segments and checks the run folder against 'pick' over the same set: scores.jsonl,
 // kept.jsonl, ledger.json and rejected.jsonl byte for byte, the manifest but for its command line;
-// why, diff and verify read it. Flags it cannot honour, and a step run before the ones it needs,
+// why, diff and verify read it; once with --exclude against rows of two pool files, whose
+// contaminated rows must be named alike. Flags it cannot honour, and a step run before the ones it needs,
 // are usage errors naming what is wrong.
 func TestShardFromCommandLine(t *testing.T) {
 	files, _ := filepath.Glob("../../../shared/data/t0-train-50k-per-template/data_per_template/*.jsonl")
@@ -38,14 +39,52 @@ func TestShardFromCommandLine(t *testing.T) {
 	if code, _, stderr := sluice(t, append([]string{"segments", "--out", set}, segs...)...); code != 0 {
 		t.Fatal(stderr)
 	}
+	eval := filepath.Join(dir, "eval.jsonl")
+	var evalRows []string
+	for _, f := range []string{pool[1], pool[7]} {
+		b, _ := os.ReadFile(f)
+		evalRows = append(evalRows, strings.SplitAfter(string(b), "\n")[:30]...)
+	}
+	os.WriteFile(eval, []byte(strings.Join(evalRows, "")), 0o644)
+	var work string
+	for _, guard := range [][]string{nil, {"--exclude", eval, "--exclude-ngram", "10"}} {
+		work = shardCase(t, dir, set, target, guard)
+	}
 	flags := func(out string, extra ...string) []string {
 		return append([]string{"--index", set, "--target", target, "--budget", "3e16", "--train-params", "1e9",
 			"--keep-duplicates", "--min-score", "p50", "--out", filepath.Join(dir, out)}, extra...)
 	}
+	step := func(wantCode int, args ...string) string {
+		t.Helper()
+		code, stdout, stderr := sluice(t, append(append([]string{"shard"}, args...), flags("sharded")...)...)
+		if code != wantCode {
+			t.Fatalf("sluice shard %s: exit %d, want %d: %s%s", strings.Join(args, " "), code, wantCode, stdout, stderr)
+		}
+		return stdout + stderr
+	}
+	code, _, stderr := sluice(t, "shard", "score", "--shard", "0", "--work", work, "--index", set, "--target", target,
+		"--budget", "3e16", "--train-params", "1e9", "--out", filepath.Join(dir, "x"))
+	if code != 2 || !strings.Contains(stderr, "--keep-duplicates") {
+		t.Errorf("a sharded pick with the duplicate guard: exit %d: %s", code, stderr)
+	}
+	if out := step(2, "cut", "--shard", "1", "--work", work); !strings.Contains(out, "drop --shard") {
+		t.Errorf("a cut given --shard: %s", out)
+	}
+}
+
+// shardCase runs 'pick' and the sharded pick with guard's flags over set, compares their run
+// folders and reads the sharded one with why, verify and diff; it returns the work folder.
+func shardCase(t *testing.T, dir, set, target string, guard []string) string {
+	t.Helper()
+	name := strconv.Itoa(len(guard))
+	flags := func(out string, extra ...string) []string {
+		return append(append([]string{"--index", set, "--target", target, "--budget", "3e16", "--train-params", "1e9",
+			"--keep-duplicates", "--min-score", "p50", "--out", filepath.Join(dir, out+name)}, guard...), extra...)
+	}
 	if code, _, stderr := sluice(t, append([]string{"pick", "--quiet"}, flags("one")...)...); code != 0 {
 		t.Fatal(stderr)
 	}
-	work := filepath.Join(dir, "work")
+	work := filepath.Join(dir, "work"+name)
 	step := func(wantCode int, args ...string) string {
 		t.Helper()
 		code, stdout, stderr := sluice(t, append(append([]string{"shard"}, args...), flags("sharded")...)...)
@@ -69,7 +108,7 @@ func TestShardFromCommandLine(t *testing.T) {
 		step(0, "write", "--shard", i, "--work", work)
 	}
 	step(0, "join", "--work", work)
-	one, sharded := filepath.Join(dir, "one"), filepath.Join(dir, "sharded")
+	one, sharded := filepath.Join(dir, "one"+name), filepath.Join(dir, "sharded"+name)
 	for _, name := range []string{"scores.jsonl", "kept.jsonl", "ledger.json", "rejected.jsonl", "manifest.json"} {
 		a, _ := os.ReadFile(filepath.Join(one, name))
 		s, err := os.ReadFile(filepath.Join(sharded, name))
@@ -84,6 +123,9 @@ func TestShardFromCommandLine(t *testing.T) {
 		}
 	}
 	rows := readScores(t, filepath.Join(sharded, "scores.jsonl"))
+	if b, _ := os.ReadFile(filepath.Join(sharded, "scores.jsonl")); (len(guard) > 0) != bytes.Contains(b, []byte(`"reason":"contaminated","contaminated":`)) {
+		t.Errorf("with %q: contaminated rows named wrongly in scores.jsonl", guard)
+	}
 	if code, out, stderr := sluice(t, "why", "--run", sharded, rows[len(rows)-1].ID); code != 0 || !strings.Contains(out, "fate") {
 		t.Errorf("why on a sharded run: exit %d: %s%s", code, out, stderr)
 	}
@@ -93,14 +135,7 @@ func TestShardFromCommandLine(t *testing.T) {
 	if code, out, stderr := sluice(t, "diff", one, sharded); code != 0 {
 		t.Errorf("diff of the two runs: exit %d: %s%s", code, out, stderr)
 	}
-	code, _, stderr := sluice(t, "shard", "score", "--shard", "0", "--work", work, "--index", set, "--target", target,
-		"--budget", "3e16", "--train-params", "1e9", "--out", filepath.Join(dir, "x"))
-	if code != 2 || !strings.Contains(stderr, "--keep-duplicates") {
-		t.Errorf("a sharded pick with the duplicate guard: exit %d: %s", code, stderr)
-	}
-	if out := step(2, "cut", "--shard", "1", "--work", work); !strings.Contains(out, "drop --shard") {
-		t.Errorf("a cut given --shard: %s", out)
-	}
+	return work
 }
 
 // dropCommand is a manifest without its command line.

@@ -140,20 +140,20 @@ type shardFile struct {
 	Stats string     `json:"stats"`
 	Meta  index.Meta `json:"meta"` // the set's
 	// Lines are the ledger's lines before scoring; Work is the scoring's, over this shard's rows.
-	Lines           []budget.Line     `json:"lines"`
-	Work            score.Work        `json:"work"`
-	Spec            string            `json:"spec"`      // the target's text spec, as read
-	TargetID        string            `json:"target_id"` // the target's id field, as read
-	Targets         int               `json:"targets"`
-	TargetsRejected int               `json:"targets_rejected"`
-	Matched         int               `json:"matched"` // rows scoring above 0
-	Lowest          float64           `json:"lowest"`  // the lowest score above 0; 0 when none
+	Lines           []budget.Line `json:"lines"`
+	Work            score.Work    `json:"work"`
+	Spec            string        `json:"spec"`      // the target's text spec, as read
+	TargetID        string        `json:"target_id"` // the target's id field, as read
+	Targets         int           `json:"targets"`
+	TargetsRejected int           `json:"targets_rejected"`
+	Matched         int           `json:"matched"` // rows scoring above 0
+	Lowest          float64       `json:"lowest"`  // the lowest score above 0; 0 when none
 	// With --exclude: the words of the shard's rows checked against the evaluation files, and the
 	// rows found contaminated (listed in contamFile). Matched and Lowest leave those rows out, as
 	// a relative --min-score does.
 	EvalWords    int64             `json:"eval_words,omitempty"`
 	Contaminated int               `json:"contaminated,omitempty"`
-	Files           map[string]string `json:"files"`   // SHA-256 of each other file
+	Files        map[string]string `json:"files"` // SHA-256 of each other file
 }
 
 // startStep checks what every step checks before it reads anything of the work folder: that opt
