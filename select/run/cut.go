@@ -67,7 +67,7 @@ func readShards(work, key, ident string) ([]*shardFile, error) {
 		case sf.Identity != ident:
 			return nil, workErrorf("%s was scored over another index set (identity %.12s; the set is now %.12s): score it again", what, sf.Identity, ident)
 		case sf.Options != key:
-			return nil, workErrorf("%s was scored with other flags or another target: give every step the same pick flags", what)
+			return nil, workErrorf("%s was scored with other flags, another target or other evaluation files (--exclude, by content): give every step the same pick flags and files", what)
 		case i > 0 && sf.Of != heads[0].Of:
 			return nil, workErrorf("%s says the set has %d segments", what, sf.Of)
 		case i > 0 && (sf.Stats != heads[0].Stats || string(meta) != string(meta0)):

@@ -53,7 +53,7 @@ func readCut(work, key, ident string) (*cutFile, string, error) {
 	case cf.Identity != ident:
 		return nil, "", workErrorf("the cut was made over another index set (identity %.12s; the set is now %.12s)", cf.Identity, ident)
 	case cf.Options != key:
-		return nil, "", workErrorf("the cut was made with other flags or another target: give every step the same pick flags")
+		return nil, "", workErrorf("the cut was made with other flags, another target or other evaluation files (--exclude, by content): give every step the same pick flags and files")
 	}
 	sum := sha256.Sum256(b)
 	return cf, hex.EncodeToString(sum[:]), nil

@@ -299,8 +299,21 @@ func TestShardedPickRefuses(t *testing.T) {
 	if _, err := ScoreShard(ctx, exOther, work, 1); err != nil {
 		t.Fatal(err)
 	}
-	if _, err := CutShards(ctx, ex, work); !errors.Is(err, ErrShardWork) || !strings.Contains(err.Error(), "shard 1 of 2 was scored with other flags") {
+	if _, err := CutShards(ctx, ex, work); !errors.Is(err, ErrShardWork) || !strings.Contains(err.Error(), "shard 1 of 2 was scored with other flags, another target or other evaluation files") {
 		t.Errorf("a shard checked against other evaluation files: %v", err)
+	}
+	if _, err := ScoreShard(ctx, ex, work, 1); err != nil {
+		t.Fatal(err)
+	}
+	contam := filepath.Join(shardFolder(work, 1), contamFile)
+	if b, _ := os.ReadFile(contam); len(b) == 0 {
+		t.Fatalf("shard 1 has no contaminated rows of %s", eval)
+	} else {
+		b[len(b)/2] ^= 1
+		os.WriteFile(contam, b, 0o644)
+	}
+	if _, err := CutShards(ctx, ex, work); !errors.Is(err, ErrShardWork) || !strings.Contains(err.Error(), "shard 1: "+contam+" is damaged") {
+		t.Errorf("a damaged list of contaminated rows: %v", err)
 	}
 	if _, err := ScoreShard(ctx, opt, work, 0); err != nil {
 		t.Fatal(err)
