@@ -148,10 +148,11 @@ type shardFile struct {
 	TargetsRejected int           `json:"targets_rejected"`
 	Matched         int           `json:"matched"` // rows scoring above 0
 	Lowest          float64       `json:"lowest"`  // the lowest score above 0; 0 when none
-	// With --exclude: the words of the shard's rows checked against the evaluation files, and the
-	// rows found contaminated (listed in contamFile). Matched and Lowest leave those rows out, as
+	// With --exclude: the words of the shard's rows checked against the evaluation files, the most
+	// words one row had, and the rows found contaminated (listed in contamFile). Matched and Lowest leave those rows out, as
 	// a relative --min-score does.
 	EvalWords    int64             `json:"eval_words,omitempty"`
+	Longest      int               `json:"longest,omitempty"`
 	Contaminated int               `json:"contaminated,omitempty"`
 	Files        map[string]string `json:"files"` // SHA-256 of each other file
 }
@@ -267,7 +268,7 @@ func ScoreShard(ctx context.Context, opt Options, work string, shard int) (*Shar
 		fill func(*bufio.Writer) error
 	}{{rankingFile, p.writeRanking}, {shardRows, p.writeShardRows}, {RejectedFile, p.writeRejected}}
 	if p.guards != nil {
-		sf.EvalWords, sf.Contaminated = p.guards.evalWork, len(p.guards.contam)
+		sf.EvalWords, sf.Longest, sf.Contaminated = p.guards.evalWork, p.guards.longest, len(p.guards.contam)
 		fills = append(fills, struct {
 			name string
 			fill func(*bufio.Writer) error

@@ -158,7 +158,9 @@ func shardConfigs(set, target string, evals ...string) map[string]Options {
 		o.MinScore, o.MinScoreSet = MinScore{Kind: "percentile", Value: 50}, true
 		c["tfidf-exclude-8-p50"] = o
 		o = base()
-		o.MinScore, o.MinScoreSet, o.Guards.Exclude = MinScore{Kind: "knee"}, true, evals
+		// An n-gram longer than every row: only rows equal to an evaluation row, whole, are found,
+		// and the ledger notes the longest row, the most over the shards.
+		o.MinScore, o.MinScoreSet, o.Guards.Exclude, o.Guards.ExcludeN = MinScore{Kind: "knee"}, true, evals, 5000
 		o.Guards.MaxShare = map[string]float64{"": 0.3}
 		c["bm25-exclude-knee-caps"] = o
 	}
@@ -200,6 +202,9 @@ func TestShardedPickMatchesPick(t *testing.T) {
 					t.Fatal(err)
 				}
 				t.Logf("%s: kept %d of %d rows; %s; dropped %v", cname, len(res.Kept), res.Rows, res.Ledger.Stop, res.Dropped)
+				if len(opt.Guards.Exclude) > 0 && res.Dropped["contaminated"] == 0 {
+					t.Fatalf("%s: no row was found contaminated", cname)
+				}
 				opt.Out = filepath.Join(dir, "sharded-"+cname)
 				if err := shardedPick(t, opt, filepath.Join(dir, "work-"+cname), len(cuts)+1); err != nil {
 					t.Fatalf("%s: %v", cname, err)

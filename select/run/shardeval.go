@@ -40,11 +40,12 @@ func (p *picked) checkEval(ctx context.Context) error {
 		return err
 	}
 	gd := &guarded{contam: map[int]decontam.Hit{}, evalFiles: g.Exclude}
-	_, err = eachRowHashed(ctx, p.ix, nil, set, func(h *rowHashes) error {
+	_, err = eachRowHashed(ctx, p.ix, hashPlan{set: set}, func(h *rowHashes) error {
 		if h.contaminated {
 			gd.contam[h.row] = h.hit
 		}
 		gd.evalWork += h.words
+		gd.longest = max(gd.longest, int(h.words))
 		return nil
 	})
 	if err != nil {
@@ -108,7 +109,7 @@ func readContam(work string, sf *shardFile, files int, fn func(row int, hit deco
 }
 
 // cutGuards gathers the shards' contaminated rows, by row among the set's (without their hits,
-// which the write steps read), and words checked, and charges them as Pick's guard does.
+// which the write steps read), words checked and longest row, and charges them as Pick's guard does.
 func (p *picked) cutGuards(work string, heads []*shardFile) error {
 	ex := p.opt.Guards.Exclude
 	if len(ex) == 0 {
@@ -117,6 +118,7 @@ func (p *picked) cutGuards(work string, heads []*shardFile) error {
 	gd := &guarded{contam: map[int]decontam.Hit{}, evalFiles: ex}
 	for _, sf := range heads {
 		gd.evalWork += sf.EvalWords
+		gd.longest = max(gd.longest, sf.Longest)
 		err := readContam(work, sf, len(ex), func(r int, _ decontam.Hit) { gd.contam[sf.FirstRow+r] = decontam.Hit{} })
 		if err != nil {
 			return err
