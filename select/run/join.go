@@ -101,17 +101,7 @@ func WriteShard(ctx context.Context, opt Options, work string, shard int) (*Shar
 	plain.Compress = "none" // the join compresses the parts as one stream
 	p.opt = &plain
 	err = publishWork(dir, partKind(), []string{opt.Index, opt.Target}, func(tmp string) error {
-		for _, f := range []struct {
-			name string
-			fill func(*bufio.Writer) error
-		}{{ScoresFile, p.writeScores}, {partKept, p.copyKept}} {
-			sum, err := writeHashed(filepath.Join(tmp, f.name), filepath.Join(dir, f.name), f.fill)
-			if err != nil {
-				return err
-			}
-			pf.Files[f.name] = sum
-		}
-		return writeJSON(filepath.Join(tmp, partMark), filepath.Join(dir, partMark), pf)
+		return writeWork(tmp, dir, []workFill{{ScoresFile, p.writeScores}, {partKept, p.copyKept}}, pf.Files, partMark, pf)
 	})
 	if err != nil {
 		return nil, err

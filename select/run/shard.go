@@ -263,16 +263,10 @@ func ScoreShard(ctx context.Context, opt Options, work string, shard int) (*Shar
 		FirstRow: ix.FirstRow(), Rows: ix.NumRows(), Stats: p.statsKey(), Meta: ix.Meta(),
 		Lines: p.led.Lines[:len(p.led.Lines)-1], Work: p.work, Spec: p.spec, TargetID: p.tid, Targets: len(p.targets), TargetsRejected: len(p.trej),
 		Files: map[string]string{}}
-	fills := []struct {
-		name string
-		fill func(*bufio.Writer) error
-	}{{rankingFile, p.writeRanking}, {shardRows, p.writeShardRows}, {RejectedFile, p.writeRejected}}
+	fills := []workFill{{rankingFile, p.writeRanking}, {shardRows, p.writeShardRows}, {RejectedFile, p.writeRejected}}
 	if p.guards != nil {
 		sf.EvalWords, sf.Longest, sf.Contaminated = p.guards.evalWork, p.guards.longest, len(p.guards.contam)
-		fills = append(fills, struct {
-			name string
-			fill func(*bufio.Writer) error
-		}{contamFile, p.writeContam})
+		fills = append(fills, workFill{contamFile, p.writeContam})
 	}
 	for r, s := range p.scores {
 		if s > 0 && p.guardBar(r) == selection.Kept {
@@ -284,19 +278,31 @@ func ScoreShard(ctx context.Context, opt Options, work string, shard int) (*Shar
 	}
 	dir := shardFolder(work, shard)
 	err = publishWork(dir, scoredKind(), []string{opt.Index, opt.Target}, func(tmp string) error {
-		for _, f := range fills {
-			sum, err := writeHashed(filepath.Join(tmp, f.name), filepath.Join(dir, f.name), f.fill)
-			if err != nil {
-				return err
-			}
-			sf.Files[f.name] = sum
-		}
-		return writeJSON(filepath.Join(tmp, shardMark), filepath.Join(dir, shardMark), sf)
+		return writeWork(tmp, dir, fills, sf.Files, shardMark, sf)
 	})
 	if err != nil {
 		return nil, err
 	}
 	return &ShardReport{Step: "score", Shard: shard, Of: of, Rows: sf.Rows, Wrote: dir}, nil
+}
+
+// workFill is a file of a work folder and what writes it.
+type workFill struct {
+	name string
+	fill func(*bufio.Writer) error
+}
+
+// writeWork writes fills into tmp, recording each file's SHA-256 in sums, then mark, holding v, last:
+// the folder a step publishes at dir.
+func writeWork(tmp, dir string, fills []workFill, sums map[string]string, mark string, v any) error {
+	for _, f := range fills {
+		sum, err := writeHashed(filepath.Join(tmp, f.name), filepath.Join(dir, f.name), f.fill)
+		if err != nil {
+			return err
+		}
+		sums[f.name] = sum
+	}
+	return writeJSON(filepath.Join(tmp, mark), filepath.Join(dir, mark), v)
 }
 
 // publishWork writes a folder of the work with fill, in a working folder published when complete.
