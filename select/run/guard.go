@@ -38,7 +38,7 @@ const DefaultNearDup = 0.8
 
 // DefaultExcludeN is the n-gram length for decontamination: 13 words is common practice for
 // checking training data against benchmarks.
-const DefaultExcludeN = 13
+const DefaultExcludeN = decontam.DefaultN
 
 // minhashes is the signature length K (see dedup.ForThreshold).
 const minhashes = dedup.DefaultHashes
@@ -289,9 +289,6 @@ func (p *picked) addTargetKeys(keys map[dedup.Key]bool, file string, targets []i
 // evalSet reads the evaluation files' rows (every string field of each JSON object, or the whole
 // line when it is not one) into a set of their word n-grams.
 func evalSet(files []string, n int) (*decontam.Set, error) {
-	if n == 0 {
-		n = DefaultExcludeN
-	}
 	return decontam.ReadFiles(files, n, index.DefaultMaxRowBytes)
 }
 

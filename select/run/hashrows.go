@@ -61,7 +61,7 @@ func eachRowHashed(ctx context.Context, ix *index.Index, plan hashPlan, fn func(
 	defer cancel()
 	var wg sync.WaitGroup
 	for w := range nw {
-		wg.Go(func() { works[w], errs[w] = hashWorker(ctx, ix, jobs, plan) })
+		wg.Go(func() { works[w], errs[w] = hashWorker(ctx, jobs, plan) })
 	}
 	var readErr error
 	go func() {
@@ -143,7 +143,7 @@ func newHashBatch(seq int) *hashBatch {
 }
 
 // hashWorker hashes batches until there are none, with hashers of its own.
-func hashWorker(ctx context.Context, ix *index.Index, jobs <-chan *hashBatch, plan hashPlan) (dedup.Work, error) {
+func hashWorker(ctx context.Context, jobs <-chan *hashBatch, plan hashPlan) (dedup.Work, error) {
 	prm, set := plan.prm, plan.set
 	var hasher dedup.Hasher
 	var signer *dedup.Signer
@@ -180,8 +180,7 @@ func hashWorker(ctx context.Context, ix *index.Index, jobs <-chan *hashBatch, pl
 			}
 			switch {
 			case signer == nil || plan.isRepeat(row):
-			case plan.repeat != nil:
-				h.key, _ = ix.DupKey(row)
+			case plan.repeat != nil: // the key was read from the index; only the signature is made
 				signer.Write(text)
 				h.sig = signer.Sum(sigs[i*prm.Hashes : i*prm.Hashes : (i+1)*prm.Hashes])
 			default:
