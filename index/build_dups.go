@@ -287,14 +287,8 @@ func (c *seenKeys) claimKey(raw rawKey, key dedup.Key, hashed int64, seq int) bo
 	return c.claimLocked(key, seq)
 }
 
-// claim records that a row of batch seq has key k and reports whether the row must be signed: it
-// need not when an earlier batch, or an earlier row of its own, had the key.
-func (c *seenKeys) claim(k dedup.Key, seq int) bool {
-	c.mu.Lock()
-	defer c.mu.Unlock()
-	return c.claimLocked(k, seq)
-}
-
+// claimLocked records that a row of batch seq has key k and reports whether the row must be signed:
+// it need not when an earlier batch, or an earlier row of its own, had the key. c.mu is held.
 func (c *seenKeys) claimLocked(k dedup.Key, seq int) bool {
 	if s := c.keys.find(k); s != nil {
 		if s.val-1 <= seq {

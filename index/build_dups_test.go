@@ -128,7 +128,13 @@ func TestDupsMatchDetector(t *testing.T) {
 // TestSeenKeys checks which rows the workers' shared cache of keys lets go unsigned: those with a
 // key met in an earlier batch or earlier in their own, never the first row of a key.
 func TestSeenKeys(t *testing.T) {
-	c := newSeenKeys()
+	var c *seenKeys
+	claim := func(k dedup.Key, seq int) bool {
+		c.mu.Lock()
+		defer c.mu.Unlock()
+		return c.claimLocked(k, seq)
+	}
+	c = newSeenKeys()
 	k := dedup.Key{1, 2, 3, 4, 5}
 	for _, step := range []struct {
 		seq  int
@@ -141,7 +147,7 @@ func TestSeenKeys(t *testing.T) {
 		{4, false}, // after batch 3
 		{3, false},
 	} {
-		if got := c.claim(k, step.seq); got != step.sign {
+		if got := claim(k, step.seq); got != step.sign {
 			t.Errorf("batch %d: sign %v, want %v", step.seq, got, step.sign)
 		}
 	}
@@ -150,13 +156,13 @@ func TestSeenKeys(t *testing.T) {
 	for i := range seenWays + 1 {
 		key := dedup.Key{9, 9, 9, 9, byte(i)}
 		keys = append(keys, key)
-		if !c.claim(key, 1) {
+		if !claim(key, 1) {
 			t.Errorf("key %d: not signed when first met", i)
 		}
 	}
 	signed := 0
 	for _, key := range keys {
-		if c.claim(key, 2) {
+		if claim(key, 2) {
 			signed++
 		}
 	}
@@ -170,11 +176,11 @@ func TestSeenKeys(t *testing.T) {
 	for i := range seenMaxSlots * 3 / 8 {
 		h := sha256.Sum256([]byte(strconv.Itoa(i)))
 		many = append(many, dedup.Key(h[:16]))
-		c.claim(many[i], 1)
+		claim(many[i], 1)
 	}
 	forgot := 0 // a few at most: sets of eight at 3/8 full rarely overflow
 	for _, key := range many {
-		if c.claim(key, 2) {
+		if claim(key, 2) {
 			forgot++
 		}
 	}
