@@ -32,6 +32,10 @@ type Dups struct {
 	Duplicates      int64      `json:"duplicates"`
 	Work            dedup.Work `json:"work"`
 	FLOPs           float64    `json:"flops"` // Work.FLOPs()
+	// KeyWork is the part of Work spent keying every row (bytes read, bytes hashed), so that a set
+	// of segments can count the work of one build of them all; nil in an index built before the
+	// sketches file, which a set then cannot replay.
+	KeyWork *dedup.Work `json:"key_work,omitempty"`
 }
 
 // Params returns the parameters the clusters were found with. They are those of this sluice's
@@ -55,6 +59,7 @@ type dupFinder struct {
 	exact  dedup.Exact
 	pairs  []dedup.Pair
 	keys   *fileWriter // dedup.Key per row, in the runs folder until the dups file is written
+	sk     *sketchWriter
 	nexact int64
 	// signWork is the signing of the rows given to the Detector. Which other rows a worker signs
 	// depends on how batches fall to workers, so their work is not counted: meta.json must not
@@ -74,10 +79,18 @@ func newDupFinder(t float64, wd workDir, keys string) (*dupFinder, error) {
 	if err != nil {
 		return nil, err
 	}
-	return &dupFinder{prm: prm, det: det, keys: kw}, nil
+	sw, err := newSketchWriter(wd, det)
+	if err != nil {
+		kw.abort()
+		return nil, err
+	}
+	return &dupFinder{prm: prm, det: det, keys: kw, sk: sw}, nil
 }
 
-func (f *dupFinder) abort() { f.keys.abort() }
+func (f *dupFinder) abort() {
+	f.keys.abort()
+	f.sk.w.abort()
+}
 
 // add takes the rows of one batch, numbered from base: a key each and, for each row signed, K
 // signature values.
@@ -108,7 +121,11 @@ func (f *dupFinder) add(base int64, keys []dedup.Key, signed []bool, sigs []uint
 		if sig == nil {
 			return fmt.Errorf("build index: internal error: row %d, the first of its key, was not signed", row)
 		}
-		if f.pairs, err = f.det.Add(f.pairs[:0], row, sig); err != nil {
+		marks, err := f.sk.write(row, sig, w)
+		if err != nil {
+			return err
+		}
+		if f.pairs, err = f.det.AddMarks(f.pairs[:0], row, marks); err != nil {
 			return fmt.Errorf("build index: duplicates: %w", err)
 		}
 		f.signWork = f.signWork.Plus(w)
@@ -126,6 +143,9 @@ func (f *dupFinder) write(b *builder, rows int64, work dedup.Work) error {
 	if err := f.keys.closeNoSync(); err != nil {
 		return err
 	}
+	if err := f.sk.w.close(); err != nil {
+		return err
+	}
 	kf, err := os.Open(f.keys.path)
 	if err != nil {
 		return b.wd.err("build index: read back", err)
@@ -140,6 +160,8 @@ func (f *dupFinder) write(b *builder, rows int64, work dedup.Work) error {
 	defer w.abort()
 	cl := f.det.Clusters()
 	d := &Dups{Threshold: f.prm.Threshold, Shingle: f.prm.Shingle, Hashes: f.prm.Hashes, Bands: f.prm.Bands, Seed: f.prm.Seed, Version: dedup.Version, ExactDuplicates: f.nexact}
+	keyWork := work
+	d.KeyWork = &keyWork
 	work = work.Plus(f.signWork).Plus(f.det.Work())
 	d.Work, d.FLOPs = work, work.FLOPs()
 	var rec [dupRecSize]byte

@@ -30,7 +30,7 @@ func TestFullDisk(t *testing.T) {
 		t.Run(fmt.Sprintf("mem=%d/stdin=%v", tc.mem, tc.stdin), func(t *testing.T) {
 			failures := 0
 			for kb := 256; ; kb += tc.step {
-				if kb > 4096 {
+				if kb > 12288 {
 					t.Fatalf("the build fails even with %d KiB", kb)
 				}
 				if !buildOnFullDisk(t, pool, kb, tc.mem, tc.stdin) {

@@ -32,6 +32,7 @@ type Index struct {
 	rows     []byte   // mapped, rowRecSize per row
 	norms    []byte   // mapped, a little-endian float64 per row
 	dups     []byte   // mapped, dupRecSize bytes per row, when the build found duplicates
+	sketches []byte   // mapped sketches file, when the build wrote one
 	contam   []byte   // mapped contaminated.jsonl, when the build checked evaluation files
 	idOff    []uint64 // where row i·idStride's length-prefixed id starts in ids, when the index has an id field
 	ids      []byte
@@ -209,6 +210,14 @@ func (ix *Index) load(d *os.File) error {
 			}
 		}
 		ix.dups = db
+		if sk, listed := m.Files[sketchesFile]; listed {
+			// One record for every row that is the first of its key, of a size the settings give.
+			size := int64(sketchHead + 8*m.Dups.Bands + m.Dups.Hashes)
+			if m.Dups.Bands <= 0 || m.Dups.Hashes <= 0 || sk.Size != (n-m.Dups.ExactDuplicates)*size {
+				return fmt.Errorf("open index %s: %s holds %d bytes for %d rows first of their key: %w", dir, sketchesFile, sk.Size, n-m.Dups.ExactDuplicates, ErrDamaged)
+			}
+			ix.sketches = data[sketchesFile]
+		}
 	}
 	if m.Excluded != nil {
 		if _, listed := m.Files[contamFile]; !listed {
@@ -272,10 +281,40 @@ func (ix *Index) mapFile(d *os.File, name string, buf []byte) ([]byte, uint32, e
 // DupFirst returns the first row of row's cluster of duplicates (row itself when it is alone or
 // first), as found when the index was built, and false when the build found none (see Meta.Dups).
 func (ix *Index) DupFirst(row int) (int, bool) {
-	if ix.dups == nil { // a set has none: its segments' clusters stop at their edges
+	if ix.set != nil && ix.set.firsts != nil {
+		return int(ix.set.firsts[row]), true
+	}
+	if ix.dups == nil { // a set has none until Duplicates finds them across its segments
 		return row, false
 	}
 	return int(binary.LittleEndian.Uint32(ix.dups[row*dupRecSize:])), true
+}
+
+// Duplicates says how the index's duplicates were found and what was found (Meta.Dups), and nil
+// when the build found none. A set finds them across its segments the first time it is asked, from
+// their stored keys and sketches and with no text read, as one build of all their files would
+// find them (the same clusters, counts and work; DupFirst then answers from them), and returns nil
+// when a segment stored none, found them at other settings, or predates the sketches file; it
+// holds what a build's duplicate finder holds, and 4 bytes a row.
+func (ix *Index) Duplicates() (*Dups, error) {
+	s := ix.set
+	if s == nil {
+		return ix.meta.Dups, nil
+	}
+	if s.only >= 0 || !s.canReplay() {
+		return nil, nil
+	}
+	s.dupsOnce.Do(func() {
+		var d *Dups
+		var firsts []uint32
+		if d, firsts, s.dupsErr = s.findDups(); s.dupsErr == nil {
+			s.dups, s.firsts = d, firsts
+		}
+	})
+	if s.dupsErr != nil {
+		return nil, fmt.Errorf("index set %s: %w", ix.dir, s.dupsErr)
+	}
+	return s.dups, nil
 }
 
 // DupKey returns row's exact-duplicate key (dedup.Key), and false when the build found no

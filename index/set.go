@@ -45,6 +45,11 @@ type segSet struct {
 
 	normOnce sync.Once
 	norms    []float64 // the TF-IDF norms under the set's document frequencies, made when first asked
+
+	dupsOnce sync.Once
+	dups     *Dups    // the duplicates found across the segments, when first asked (Duplicates)
+	firsts   []uint32 // each row's cluster's first row, with dups
+	dupsErr  error
 }
 
 // WriteSet checks that the index folders dirs can be read as one index and writes the set file

@@ -355,7 +355,7 @@ func checkPicked(t *testing.T, tc poolCase) {
 	for _, f := range tc.files {
 		allowed[f] = true
 	}
-	for _, f := range []string{"meta.json", "lexicon", "postings", "rows", "norms", "ids", "rejected.jsonl", "dups"} {
+	for _, f := range []string{"meta.json", "lexicon", "postings", "rows", "norms", "ids", "rejected.jsonl", "dups", "sketches"} {
 		allowed[filepath.Join("idx", f)] = true
 	}
 	for _, f := range []string{"kept.jsonl", "scores.jsonl", "ledger.json", "rejected.jsonl", "manifest.json"} {

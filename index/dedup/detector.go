@@ -51,6 +51,7 @@ type Detector struct {
 	last     int      // the last row added, -1 before the first
 	clusters Clusters
 	seen     []uint32 // the current row's candidates, as indexes into rows
+	scratch  []byte   // Add's marks, kept for the next row
 	work     Work
 }
 
@@ -77,27 +78,54 @@ func (d *Detector) Work() Work { return d.work }
 // such as exact duplicates not signed, are fine), appends its candidate pairs with earlier rows to
 // dst, and returns the result. A row without words (see Signature) is never a candidate.
 func (d *Detector) Add(dst []Pair, row int, sig Signature) ([]Pair, error) {
-	if row <= d.last || row > MaxRow {
-		return dst, fmt.Errorf("near duplicates: row %d after row %d: %w", row, d.last, ErrRow)
-	}
 	if len(sig) != d.k {
 		return dst, fmt.Errorf("near duplicates: row %d: signature of %d values, want %d: %w", row, len(sig), d.k, ErrLength)
 	}
+	d.scratch = d.AppendMarks(d.scratch[:0], sig)
+	return d.AddMarks(dst, row, d.scratch)
+}
+
+// MarksLen is the length of a signature's marks (see AppendMarks): 8 bytes a band and a byte a
+// value.
+func (d *Detector) MarksLen() int { return 8*d.b + d.k }
+
+// AppendMarks appends to dst all that a Detector keeps of sig, a signature of K values, and
+// returns the result: each band's bucket key (8 bytes, little-endian), then the low byte of each
+// value. A row without words has no marks: nothing is appended. Marks stored when rows are first
+// signed let a later Detector take the rows again, by AddMarks, without their text or signatures.
+func (d *Detector) AppendMarks(dst []byte, sig Signature) []byte {
+	if len(sig) != d.k || sig.noWords() {
+		return dst
+	}
+	for j := 0; j < d.b; j++ {
+		dst = binary.LittleEndian.AppendUint64(dst, bandKey(j, sig[j*d.r:(j+1)*d.r]))
+	}
+	for _, v := range sig {
+		dst = append(dst, byte(v))
+	}
+	return dst
+}
+
+// AddMarks is Add for a row given by its marks (AppendMarks of its signature): the same pairs,
+// clusters and work. Empty marks are a row without words.
+func (d *Detector) AddMarks(dst []Pair, row int, marks []byte) ([]Pair, error) {
+	if row <= d.last || row > MaxRow {
+		return dst, fmt.Errorf("near duplicates: row %d after row %d: %w", row, d.last, ErrRow)
+	}
+	if len(marks) != 0 && len(marks) != d.MarksLen() {
+		return dst, fmt.Errorf("near duplicates: row %d: %d bytes of marks, want %d: %w", row, len(marks), d.MarksLen(), ErrLength)
+	}
 	d.last = row
 	d.clusters.grow(row)
-	if sig.noWords() {
+	if len(marks) == 0 {
 		return dst, nil
 	}
 	self := uint32(len(d.rows))
 	d.rows = append(d.rows, uint32(row))
-	n := len(d.sketch)
-	d.sketch = slices.Grow(d.sketch, d.k)[:n+d.k]
-	for i, v := range sig {
-		d.sketch[n+i] = byte(v)
-	}
+	d.sketch = append(d.sketch, marks[8*d.b:]...)
 	d.seen = d.seen[:0]
 	for j := 0; j < d.b; j++ {
-		f, found := d.buckets.getOrPut(bandKey(j, sig[j*d.r:(j+1)*d.r]), self)
+		f, found := d.buckets.getOrPut(binary.LittleEndian.Uint64(marks[8*j:]), self)
 		if !found || slices.Contains(d.seen, f) {
 			continue
 		}

@@ -248,3 +248,47 @@ func TestEstimateCountsBytes(t *testing.T) {
 		}
 	}
 }
+
+// TestAddMarksMatchesAdd feeds the rows of testdata/rows.json (and a row without words) to one
+// Detector by signature and to another by marks, as a set of stored segments replays them, and
+// asks for the same pairs, clusters and work.
+func TestAddMarksMatchesAdd(t *testing.T) {
+	texts, _ := loadFixture(t)
+	texts = append(texts, "", "!!")
+	prm := ForThreshold(DefaultThreshold)
+	s, err := NewSigner(prm)
+	if err != nil {
+		t.Fatal(err)
+	}
+	bySig, _ := NewDetector(prm)
+	byMarks, _ := NewDetector(prm)
+	var p1, p2 []Pair
+	var marks []byte
+	for i, text := range texts {
+		sig := sign(t, s, text)
+		marks = byMarks.AppendMarks(marks[:0], sig)
+		if len(marks) != 0 && len(marks) != byMarks.MarksLen() {
+			t.Fatalf("row %d: %d bytes of marks, want %d", i, len(marks), byMarks.MarksLen())
+		}
+		if p1, err = bySig.Add(p1[:0], 2*i, sig); err != nil {
+			t.Fatal(err)
+		}
+		if p2, err = byMarks.AddMarks(p2[:0], 2*i, marks); err != nil {
+			t.Fatal(err)
+		}
+		if !slices.Equal(p1, p2) {
+			t.Fatalf("row %d: pairs %v by signature, %v by marks", i, p1, p2)
+		}
+	}
+	for r := range bySig.Clusters().Len() {
+		if a, b := bySig.Clusters().Find(r), byMarks.Clusters().Find(r); a != b {
+			t.Errorf("row %d: cluster %d by signature, %d by marks", r, a, b)
+		}
+	}
+	if bySig.Work() != byMarks.Work() {
+		t.Errorf("work %+v by signature, %+v by marks", bySig.Work(), byMarks.Work())
+	}
+	if _, err := byMarks.AddMarks(nil, 1<<20, marks[:3]); !errors.Is(err, ErrLength) {
+		t.Errorf("3 bytes of marks: %v, want ErrLength", err)
+	}
+}

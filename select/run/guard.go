@@ -93,7 +93,11 @@ func (p *picked) guard(ctx context.Context) error {
 	var det *dedup.Detector
 	var exact dedup.Exact
 	targetKeys := p.targetKeys()
-	if d := p.indexDups(); d != nil {
+	d, err := p.indexDups()
+	if err != nil {
+		return err
+	}
+	if d != nil {
 		gd.cluster, gd.inPool = p.indexClusters(targetKeys)
 		gd.exactDups, gd.bands, gd.built = int(d.ExactDuplicates), d.Bands, d
 	} else if !g.KeepDuplicates {
@@ -212,14 +216,25 @@ func (p *picked) indexExcluded() (*index.Excluded, map[int]decontam.Hit, error) 
 // indexDups returns what the index says of its duplicates when they were found as this pick would
 // find them (dedup.ForThreshold of its --near-dup), and nil when the pick must find them itself: it
 // keeps duplicates, or the index was built without them, before them, at another threshold or by
-// another version of dedup.
-func (p *picked) indexDups() *index.Dups {
+// another version of dedup. A set finds them across its segments from what they stored.
+func (p *picked) indexDups() (*index.Dups, error) {
 	g := p.opt.Guards
-	d := p.ix.Meta().Dups
-	if g.KeepDuplicates || d == nil || d.Version != dedup.Version || d.Params() != dedup.ForThreshold(orDefault(g.NearDup, DefaultNearDup)) {
-		return nil
+	if g.KeepDuplicates {
+		return nil, nil
 	}
-	return d
+	d, err := p.ix.Duplicates()
+	if err != nil {
+		return nil, fmt.Errorf("look for duplicates: %w", err)
+	}
+	if !p.takesDups(d) {
+		return nil, nil
+	}
+	return d, nil
+}
+
+// takesDups reports whether duplicates found as d says are those this pick would find.
+func (p *picked) takesDups(d *index.Dups) bool {
+	return d != nil && !p.opt.Guards.KeepDuplicates && d.Version == dedup.Version && d.Params() == dedup.ForThreshold(orDefault(p.opt.Guards.NearDup, DefaultNearDup))
 }
 
 // indexClusters returns the clusters the index stores, each named by its first row, and the ids of

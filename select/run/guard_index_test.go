@@ -231,11 +231,13 @@ func sameButLedger(t *testing.T, runs [2]string, apart float64) map[string]int {
 	return reasons
 }
 
-// TestSetKeysMatchHashing picks, duplicates dropped, over the demo pool cut into three segments,
-// once built with duplicates (the pick reads the stored keys and signs only each key's first row)
-// and once without (it hashes and signs every row): the same lines of scores.jsonl but for the
-// running ledger, apart by the hashing the second does and the first does not, and the same rows
-// kept.
+// TestSetKeysMatchHashing picks, duplicates dropped, over the demo pool cut into three segments, in
+// three ways: built with duplicates and picked at their threshold (the set finds the clusters from
+// the segments' keys and sketches and charges nothing, as one index would); built with them and
+// picked at another threshold (the pick reads the stored keys and signs only each key's first
+// row); built without (it hashes and signs every row). The last two keep the same rows, with the
+// same lines of scores.jsonl but for the running ledger, apart by the hashing the third does and
+// the second does not.
 func TestSetKeysMatchHashing(t *testing.T) {
 	dir := t.TempDir()
 	lines := bytes.SplitAfter(demodata.Pool(), []byte("\n"))
@@ -249,24 +251,30 @@ func TestSetKeysMatchHashing(t *testing.T) {
 	}
 	target := filepath.Join(dir, "target.jsonl")
 	os.WriteFile(target, demodata.Target(), 0o644)
-	var runs [2]string
-	var charges [2]float64
-	for i, noDups := range []bool{false, true} {
+	var runs [3]string
+	var charges [3]float64
+	for i, c := range []struct {
+		noDups  bool
+		nearDup float64
+		note    string
+	}{{false, 0, "found when the index was built"}, {false, 0.7, "read from the segments' dups files"}, {true, 0.7, ""}} {
 		var segs []string
 		for j, p := range parts {
-			seg := filepath.Join(dir, fmt.Sprintf("seg%d-%v", j, noDups))
-			if _, err := index.Build(context.Background(), seg, []string{p}, index.Options{ID: "id", NoDups: noDups}); err != nil {
-				t.Fatal(err)
+			seg := filepath.Join(dir, fmt.Sprintf("seg%d-%v", j, c.noDups))
+			if _, err := os.Stat(seg); err != nil {
+				if _, err := index.Build(context.Background(), seg, []string{p}, index.Options{ID: "id", NoDups: c.noDups}); err != nil {
+					t.Fatal(err)
+				}
 			}
 			segs = append(segs, seg)
 		}
-		set := filepath.Join(dir, fmt.Sprintf("pool-%v.set", noDups))
+		set := filepath.Join(dir, fmt.Sprintf("pool-%d.set", i))
 		if _, err := index.WriteSet(set, segs, false); err != nil {
 			t.Fatal(err)
 		}
-		runs[i] = filepath.Join(dir, fmt.Sprintf("run-%v", noDups))
+		runs[i] = filepath.Join(dir, fmt.Sprintf("run-%d", i))
 		opt := demoOptions(set, target, runs[i])
-		opt.Budget = 1e15
+		opt.Budget, opt.Guards.NearDup = 1e15, c.nearDup
 		if _, err := Pick(context.Background(), opt); err != nil {
 			t.Fatal(err)
 		}
@@ -279,14 +287,17 @@ func TestSetKeysMatchHashing(t *testing.T) {
 				charges[i] = ln.FLOPs
 			}
 		}
-		if keyed := strings.Contains(strings.Join(l.Notes, "\n"), "read from the segments' dups files"); keyed == noDups {
-			t.Errorf("segments with duplicates %v: the note on stored keys is there %v", !noDups, keyed)
+		notes := strings.Join(l.Notes, "\n")
+		for _, n := range []string{"found when the index was built", "read from the segments' dups files"} {
+			if strings.Contains(notes, n) != (n == c.note) {
+				t.Errorf("pick %d: the note %q there: %v", i, n, !(n == c.note))
+			}
 		}
 	}
-	if !(0 < charges[0] && charges[0] < charges[1]) {
-		t.Fatalf("hashing charged %v with stored keys, %v without", charges[0], charges[1])
+	if !(charges[0] == 0 && 0 < charges[1] && charges[1] < charges[2]) {
+		t.Fatalf("hashing charged %v from sketches, %v with stored keys, %v without", charges[0], charges[1], charges[2])
 	}
-	if sameButLedger(t, runs, charges[1]-charges[0])["duplicate"] == 0 {
+	if sameButLedger(t, [2]string(runs[1:]), charges[2]-charges[1])["duplicate"] == 0 {
 		t.Error("the demo pool holds copies, but no row was dropped as a duplicate")
 	}
 }

@@ -74,7 +74,9 @@ func (p *picked) memoryNeed() (int64, []string) {
 	if k := int64(len(p.sets)); k > 1 {
 		parts = append(parts, memPart{fmt.Sprintf("%d target sets, %d B a pool row each", k, SetRowBytes), k * n * SetRowBytes})
 	}
-	if p.indexDups() != nil {
+	// A set's duplicates, found across its segments when the guard asks, take about what the guard's
+	// own would: the branch below.
+	if p.takesDups(p.ix.Meta().Dups) {
 		parts = append(parts, memPart{fmt.Sprintf("the index's clusters of duplicates, %d B a pool row", indexDupRowBytes), n * indexDupRowBytes})
 	} else if g := p.opt.Guards; !g.KeepDuplicates {
 		b := int64(chooseBands(orDefault(g.NearDup, DefaultNearDup)))

@@ -1,0 +1,190 @@
+package index
+
+import (
+	"encoding/binary"
+	"fmt"
+	"math/bits"
+
+	"sluice/index/dedup"
+)
+
+// sketchesFile holds, for every row a build gave its near-duplicate detector (the first row of
+// each exact key), what the detector kept of the row's signature and what signing it cost, in row
+// order, so that a set of segments finds its duplicates across segments as one build of all their
+// files would, without reading a row's text again. Each record is sketchHead bytes (the row,
+// uint32; flags, uint32, 1 for a row without words; the signing's dedup.Work Bytes, ShingleWords
+// and MinHashes, uint64 each; all little-endian) and then the row's marks (dedup.Detector's
+// AppendMarks), zeros for a row without words.
+const sketchesFile = "sketches"
+
+const sketchHead = 4 + 4 + 3*8
+
+const noWordsFlag = 1
+
+// sketchWriter writes the sketches file of a build.
+type sketchWriter struct {
+	w     *fileWriter
+	det   *dedup.Detector
+	rec   []byte
+	marks []byte
+}
+
+func newSketchWriter(wd workDir, det *dedup.Detector) (*sketchWriter, error) {
+	w, err := wd.create(wd.path(sketchesFile))
+	if err != nil {
+		return nil, err
+	}
+	return &sketchWriter{w: w, det: det, rec: make([]byte, sketchHead+det.MarksLen())}, nil
+}
+
+// write writes the record of row, signed as sig at the cost w, and returns the row's marks.
+func (s *sketchWriter) write(row int, sig dedup.Signature, w dedup.Work) ([]byte, error) {
+	s.marks = s.det.AppendMarks(s.marks[:0], sig)
+	rec := s.rec
+	clear(rec)
+	binary.LittleEndian.PutUint32(rec, uint32(row))
+	if len(s.marks) == 0 {
+		binary.LittleEndian.PutUint32(rec[4:], noWordsFlag)
+	}
+	binary.LittleEndian.PutUint64(rec[8:], uint64(w.Bytes))
+	binary.LittleEndian.PutUint64(rec[16:], uint64(w.ShingleWords))
+	binary.LittleEndian.PutUint64(rec[24:], uint64(w.MinHashes))
+	copy(rec[sketchHead:], s.marks)
+	return s.marks, s.w.write(rec)
+}
+
+// sketchRec is one record of a sketches file.
+type sketchRec struct {
+	row   int
+	work  dedup.Work
+	marks []byte // empty for a row without words
+}
+
+// sketchReader walks one index's sketches file.
+type sketchReader struct {
+	ix   *Index
+	b    []byte
+	size int
+	last int
+}
+
+func (ix *Index) sketchReader(marksLen int) sketchReader {
+	return sketchReader{ix: ix, b: ix.sketches, size: sketchHead + marksLen, last: -1}
+}
+
+// next returns the next record, or ok false after the last; a record out of order or of a row the
+// index does not have is an error.
+func (r *sketchReader) next() (rec sketchRec, ok bool, err error) {
+	if len(r.b) == 0 {
+		return rec, false, nil
+	}
+	if len(r.b) < r.size {
+		return rec, false, fmt.Errorf("index %s: %s ends within a record: %w", r.ix.dir, sketchesFile, ErrDamaged)
+	}
+	b := r.b[:r.size]
+	r.b = r.b[r.size:]
+	rec.row = int(binary.LittleEndian.Uint32(b))
+	if rec.row <= r.last || rec.row >= r.ix.NumRows() {
+		return rec, false, fmt.Errorf("index %s: %s: row %d after row %d of %d: %w", r.ix.dir, sketchesFile, rec.row, r.last, r.ix.NumRows(), ErrDamaged)
+	}
+	r.last = rec.row
+	rec.work = dedup.Work{
+		Bytes:        int64(binary.LittleEndian.Uint64(b[8:])),
+		ShingleWords: int64(binary.LittleEndian.Uint64(b[16:])),
+		MinHashes:    int64(binary.LittleEndian.Uint64(b[24:])),
+	}
+	if binary.LittleEndian.Uint32(b[4:])&noWordsFlag == 0 {
+		rec.marks = b[sketchHead:]
+	}
+	return rec, true, nil
+}
+
+// canReplay reports whether every segment of s stored its keys and sketches, made by this sluice's
+// dedup at the same settings, so that their duplicates can be found across the set without text.
+func (s *segSet) canReplay() bool {
+	d0 := s.segs[0].meta.Dups
+	for _, g := range s.segs {
+		d := g.meta.Dups
+		if !g.HasKeys() || g.sketches == nil && g.meta.Rows > 0 || d.KeyWork == nil || d.Params() != d0.Params() {
+			return false
+		}
+	}
+	return true
+}
+
+// findDups finds the set's exact and near duplicates from its segments' stored keys and sketches,
+// taking the rows in order exactly as one build of all the segments' files would take them: a row
+// whose key an earlier row has is joined to that row, and every other row is given to a detector
+// by its marks. The clusters, the counts and the work counted are those of that build
+// (TestSetDupsMatchBuild). It holds the exact groups and the detector, as a build does.
+func (s *segSet) findDups() (*Dups, []uint32, error) {
+	d0 := s.segs[0].meta.Dups
+	det, err := dedup.NewDetector(d0.Params())
+	if err != nil {
+		return nil, nil, err
+	}
+	ml := det.MarksLen()
+	var exact dedup.Exact
+	var keyWork, signWork dedup.Work
+	var nexact int64
+	var pairs []dedup.Pair
+	for i, g := range s.segs {
+		keyWork = keyWork.Plus(*g.meta.Dups.KeyWork)
+		rd := g.sketchReader(ml)
+		rec, more, err := rd.next()
+		if err != nil {
+			return nil, nil, err
+		}
+		for r := range g.NumRows() {
+			row := s.base[i] + r
+			key, _ := g.DupKey(r)
+			first, err := exact.Add(row, key)
+			if err != nil {
+				return nil, nil, fmt.Errorf("index set: duplicates: %w", err)
+			}
+			mine := more && rec.row == r
+			if first != row {
+				nexact++
+				if err := det.Clusters().Union(first, row); err != nil {
+					return nil, nil, fmt.Errorf("index set: duplicates: %w", err)
+				}
+			} else if !mine {
+				return nil, nil, fmt.Errorf("index %s: %s has no record of row %d, the first of its key: %w", g.dir, sketchesFile, r, ErrDamaged)
+			} else {
+				signWork = signWork.Plus(rec.work)
+				if pairs, err = det.AddMarks(pairs[:0], row, rec.marks); err != nil {
+					return nil, nil, fmt.Errorf("index %s: %s: %w: %w", g.dir, sketchesFile, err, ErrDamaged)
+				}
+			}
+			if mine {
+				if rec, more, err = rd.next(); err != nil {
+					return nil, nil, err
+				}
+			}
+		}
+		if more {
+			return nil, nil, fmt.Errorf("index %s: %s: a record of row %d, past the rows whose key came first: %w", g.dir, sketchesFile, rec.row, ErrDamaged)
+		}
+	}
+	n := s.base[len(s.base)-1]
+	d := &Dups{Threshold: d0.Threshold, Shingle: d0.Shingle, Hashes: d0.Hashes, Bands: d0.Bands, Seed: d0.Seed, Version: d0.Version, ExactDuplicates: nexact}
+	kw := keyWork
+	d.KeyWork = &kw
+	d.Work = keyWork.Plus(signWork).Plus(det.Work())
+	d.FLOPs = d.Work.FLOPs()
+	cl := det.Clusters()
+	firsts := make([]uint32, n)
+	marked := make([]uint64, (n+63)/64)
+	for r := range n {
+		f := cl.Find(r)
+		firsts[r] = uint32(f)
+		if f != r {
+			d.Duplicates++
+			marked[f/64] |= 1 << (f % 64)
+		}
+	}
+	for _, m := range marked {
+		d.Clusters += int64(bits.OnesCount64(m))
+	}
+	return d, firsts, nil
+}

@@ -1,0 +1,140 @@
+package index
+
+import (
+	"bytes"
+	"context"
+	"fmt"
+	"math/rand/v2"
+	"os"
+	"path/filepath"
+	"reflect"
+	"testing"
+)
+
+// TestSetDupsMatchBuild checks that a set finds, from its segments' stored keys and sketches, the
+// duplicates one build of all their files finds: meta.json's duplicates field for field (counts
+// and work) and every row's cluster. Two pools: a made-up one of a dozen words, dense with exact
+// and near duplicates, cut into six files, and T0 files with two of them repeated (so whole files
+// repeat across segments); each split 1, 2, 3 and all ways and at random places.
+func TestSetDupsMatchBuild(t *testing.T) {
+	data, _ := os.ReadFile(testPool(t, 3000))
+	lines := bytes.SplitAfter(data, []byte("\n"))
+	dir := t.TempDir()
+	var made []string
+	for i := range 6 {
+		p := filepath.Join(dir, fmt.Sprintf("part%d.jsonl", i))
+		// Every part after the first repeats some rows of the one before, so keys cross segments.
+		part := bytes.Join(lines[i*500:min((i+1)*500, len(lines))], nil)
+		if i > 0 {
+			part = append(part, bytes.Join(lines[(i-1)*500:(i-1)*500+40], nil)...)
+		}
+		if err := os.WriteFile(p, part, 0o644); err != nil {
+			t.Fatal(err)
+		}
+		made = append(made, p)
+	}
+	pools := map[string][]string{"made-up": made}
+	if files, _ := filepath.Glob("../../shared/data/t0-train-50k-per-template/data_per_template/*.jsonl"); len(files) > 0 {
+		t0 := setFiles(t, 8)
+		pools["T0"] = append(t0, t0[1], t0[6])
+	}
+	rng := rand.New(rand.NewPCG(3, 4))
+	for name, files := range pools {
+		opt := Options{Text: "prompt,completion", Workers: 2}
+		oneDir := filepath.Join(t.TempDir(), "one")
+		if _, err := Build(context.Background(), oneDir, files, opt); err != nil {
+			t.Fatal(err)
+		}
+		one, err := Open(oneDir)
+		if err != nil {
+			t.Fatal(err)
+		}
+		defer one.Close()
+		if d := one.Meta().Dups; d == nil || d.ExactDuplicates == 0 || d.Duplicates <= d.ExactDuplicates {
+			t.Fatalf("%s: the pool should hold exact and near duplicates: %+v", name, d)
+		}
+		var all []int
+		for c := 1; c < len(files); c++ {
+			all = append(all, c)
+		}
+		splits := map[string][]int{"1 way": nil, "2 ways": {len(files) / 2}, "3 ways": {2, 4}, "every file": all}
+		var random []int
+		for c := 1; c < len(files); c++ {
+			if rng.IntN(2) == 0 {
+				random = append(random, c)
+			}
+		}
+		splits[fmt.Sprintf("random %v", random)] = random
+		for split, cuts := range splits {
+			t.Run(name+"/"+split, func(t *testing.T) {
+				set, err := Open(buildSetOverlap(t, files, cuts, opt))
+				if err != nil {
+					t.Fatal(err)
+				}
+				defer set.Close()
+				got, err := set.Duplicates()
+				if err != nil || got == nil {
+					t.Fatalf("set's duplicates: %+v, %v", got, err)
+				}
+				if want := one.Meta().Dups; !reflect.DeepEqual(got, want) {
+					t.Fatalf("set's duplicates\n%+v\n%+v\none build's\n%+v\n%+v", got, *got.KeyWork, want, *want.KeyWork)
+				}
+				for r := range one.NumRows() {
+					a, _ := one.DupFirst(r)
+					if b, ok := set.DupFirst(r); !ok || a != b {
+						t.Fatalf("row %d: the set's cluster starts at %d (%v), one build's at %d", r, b, ok, a)
+					}
+				}
+			})
+		}
+	}
+}
+
+// buildSetOverlap is buildSet for files that may repeat.
+func buildSetOverlap(t *testing.T, files []string, cuts []int, opt Options) string {
+	t.Helper()
+	dir := t.TempDir()
+	var segs []string
+	from := 0
+	for i, to := range append(cuts, len(files)) {
+		seg := filepath.Join(dir, fmt.Sprintf("seg%d", i))
+		if _, err := Build(context.Background(), seg, files[from:to], opt); err != nil {
+			t.Fatal(err)
+		}
+		segs, from = append(segs, seg), to
+	}
+	set := filepath.Join(dir, "pool.set")
+	if _, err := WriteSet(set, segs, true); err != nil {
+		t.Fatal(err)
+	}
+	return set
+}
+
+// TestSetDupsNeedSketches checks that a set says nothing of duplicates when a segment did not find
+// them, so that a pick finds them itself.
+func TestSetDupsNeedSketches(t *testing.T) {
+	pool := testPool(t, 300)
+	dir := t.TempDir()
+	a, b := filepath.Join(dir, "a"), filepath.Join(dir, "b")
+	if _, err := Build(context.Background(), a, []string{pool}, Options{}); err != nil {
+		t.Fatal(err)
+	}
+	if _, err := Build(context.Background(), b, []string{pool}, Options{NoDups: true}); err != nil {
+		t.Fatal(err)
+	}
+	set := filepath.Join(dir, "pool.set")
+	if _, err := WriteSet(set, []string{a, b}, true); err != nil {
+		t.Fatal(err)
+	}
+	ix, err := Open(set)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer ix.Close()
+	if d, err := ix.Duplicates(); d != nil || err != nil {
+		t.Fatalf("a set with a segment without duplicates: %+v, %v; want nil", d, err)
+	}
+	if _, ok := ix.DupFirst(0); ok {
+		t.Fatal("DupFirst answers for a set that found no duplicates")
+	}
+}
