@@ -4,6 +4,7 @@ import (
 	"encoding/binary"
 	"fmt"
 	"math/bits"
+	"syscall"
 
 	"sluice/index/dedup"
 )
@@ -66,17 +67,40 @@ type sketchReader struct {
 	b    []byte
 	size int
 	last int
+	done int // bytes of ix.sketches read and given back (see next)
 }
 
 func (ix *Index) sketchReader(marksLen int) sketchReader {
 	return sketchReader{ix: ix, b: ix.sketches, size: sketchHead + marksLen, last: -1}
 }
 
+// sketchChunk is how much of the mapped file is read before its pages leave the process.
+const sketchChunk = 1 << 20
+
+// giveBack drops the pages of the file read so far from the process (they stay in the page cache):
+// the detector keeps a copy of what it needs, and a set's files would otherwise all become resident.
+func (r *sketchReader) giveBack(all bool) {
+	read := len(r.ix.sketches) - len(r.b)
+	end := read &^ (sketchChunk - 1)
+	if all {
+		end = len(r.ix.sketches)
+	}
+	if end > r.done {
+		// Advice only: a failure leaves the pages where they are.
+		_ = syscall.Madvise(r.ix.sketches[r.done:end], syscall.MADV_DONTNEED)
+		r.done = end
+	}
+}
+
 // next returns the next record, or ok false after the last; a record out of order or of a row the
 // index does not have is an error.
 func (r *sketchReader) next() (rec sketchRec, ok bool, err error) {
 	if len(r.b) == 0 {
+		r.giveBack(true)
 		return rec, false, nil
+	}
+	if (len(r.ix.sketches)-len(r.b))-r.done >= sketchChunk {
+		r.giveBack(false)
 	}
 	if len(r.b) < r.size {
 		return rec, false, fmt.Errorf("index %s: %s ends within a record: %w", r.ix.dir, sketchesFile, ErrDamaged)
@@ -124,6 +148,12 @@ func (s *segSet) findDups() (*Dups, []uint32, error) {
 		return nil, nil, err
 	}
 	ml := det.MarksLen()
+	signed := 0
+	for _, g := range s.segs {
+		signed += len(g.sketches) / (sketchHead + ml)
+	}
+	// At most every segment's signed rows reach the detector: room for them at once.
+	det.Reserve(signed)
 	var exact dedup.Exact
 	var keyWork, signWork dedup.Work
 	var nexact int64

@@ -64,6 +64,14 @@ func NewDetector(p Params) (*Detector, error) {
 	return &Detector{k: p.Hashes, b: p.Bands, r: p.Hashes / p.Bands, t: p.Threshold, last: -1}, nil
 }
 
+// Reserve makes room for rows more rows with words, so that a caller who knows how many it will
+// add (a set replaying its segments' marks) spares the copies and the garbage of growing.
+func (d *Detector) Reserve(rows int) {
+	d.sketch = slices.Grow(d.sketch, rows*d.k)
+	d.rows = slices.Grow(d.rows, rows)
+	d.buckets.reserve(d.buckets.n + rows*d.b)
+}
+
 // Bands returns the number of bands b and the values per band r.
 func (d *Detector) Bands() (bands, rows int) { return d.b, d.r }
 
@@ -196,7 +204,8 @@ func bandKey(j int, v []uint32) uint64 {
 // table is an open-addressing hash table (linear probing) from nonzero 64-bit keys, which are
 // already well mixed, to 32-bit values: 12 bytes a slot, the key and then the value
 // (little-endian), side by side so that a probe reads one line of the cache, not two; kept at most
-// 3/4 full.
+// 3/4 full. A key's home slot is the high word of key × slots (Lemire's multiply-shift range
+// reduction), so the table may have any number of slots: reserve makes it just large enough.
 type table struct {
 	slots []byte
 	n     int
@@ -207,13 +216,19 @@ const slotSize = 12
 // len returns the number of slots.
 func (t *table) len() int { return len(t.slots) / slotSize }
 
+// home returns the slot where k's probe starts, of size slots.
+func home(k uint64, size int) int {
+	hi, _ := bits.Mul64(k, uint64(size))
+	return int(hi)
+}
+
 // getOrPut returns the value of k and true, or stores v for k and returns v and false.
 func (t *table) getOrPut(k uint64, v uint32) (uint32, bool) {
 	if 4*(t.n+1) > 3*t.len() {
 		t.grow()
 	}
-	mask := uint64(t.len() - 1)
-	for i := k & mask; ; i = (i + 1) & mask {
+	size := t.len()
+	for i := home(k, size); ; {
 		e := t.slots[i*slotSize : (i+1)*slotSize]
 		switch binary.LittleEndian.Uint64(e) {
 		case k:
@@ -224,22 +239,35 @@ func (t *table) getOrPut(k uint64, v uint32) (uint32, bool) {
 			t.n++
 			return v, false
 		}
+		if i++; i == size {
+			i = 0
+		}
 	}
 }
 
-func (t *table) grow() {
-	size := max(2*t.len(), 1024)
+// reserve grows the table, if it must, to hold n keys at most 3/4 full.
+func (t *table) reserve(n int) {
+	if size := (4*n + 2) / 3; size > t.len() {
+		t.resize(max(size, 1024))
+	}
+}
+
+func (t *table) grow() { t.resize(max(2*t.len(), 1024)) }
+
+// resize moves the keys into a table of size slots.
+func (t *table) resize(size int) {
 	old := t.slots
 	t.slots = make([]byte, size*slotSize)
-	mask := uint64(size - 1)
 	for o := 0; o < len(old); o += slotSize {
 		k := binary.LittleEndian.Uint64(old[o:])
 		if k == 0 {
 			continue
 		}
-		j := k & mask
+		j := home(k, size)
 		for binary.LittleEndian.Uint64(t.slots[j*slotSize:]) != 0 {
-			j = (j + 1) & mask
+			if j++; j == size {
+				j = 0
+			}
 		}
 		copy(t.slots[j*slotSize:(j+1)*slotSize], old[o:o+slotSize])
 	}

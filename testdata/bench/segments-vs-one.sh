@@ -5,9 +5,10 @@
 # cut by lines into 4 files; one index reads all 4, and each segment one. Picks use a 1,000-row
 # target (the pool's first 1,000 rows), keep at most a tenth of the pool, and alternate one index
 # and the set for ROUNDS rounds (default 3); the ratio set ÷ one is printed per round, with
-# duplicates kept (the set then reads as one index) and dropped (the default, where the set's pick
-# hashes the pool itself, since segments' clusters stop at their edges), and for tfidf, whose norms
-# the set recomputes.
+# duplicates kept (the set then reads as one index) and dropped (the default, where the set finds
+# them across its segments from their stored keys and sketches), and for tfidf, whose norms the set
+# recomputes. kept.jsonl, scores.jsonl and ledger.json are compared after every pair. SHARDED=0
+# skips the sharded steps at the end.
 #
 #   bash testdata/bench/segments-vs-one.sh [SHARED_DIR] [COPIES]
 set -euo pipefail
@@ -40,7 +41,9 @@ for r in $(seq 1 "$rounds"); do
 		read -r -a extra <<<"--method $v"
 		read -r a am < <(run "$S" pick --quiet --index "$work/one.idx" --target "$work/target.jsonl" --budget 1e30 --train-params 1B --max-rows "$max" "${extra[@]}" --out "$work/run-one")
 		read -r b bm < <(run "$S" pick --quiet --index "$work/pool.set" --target "$work/target.jsonl" --budget 1e30 --train-params 1B --max-rows "$max" "${extra[@]}" --out "$work/run-set")
-		cmp -s "$work/run-one/kept.jsonl" "$work/run-set/kept.jsonl" || echo "kept rows differ for $v" >&2
+		for f in kept.jsonl scores.jsonl ledger.json; do
+			cmp -s "$work/run-one/$f" "$work/run-set/$f" || echo "$f differs for $v" >&2
+		done
 		printf '%-28s %6s %10s %10s %8s %10s\n' "$v" "$r" "$a" "$b" "$(echo "scale=2; $b / $a" | bc)" "$(echo "scale=2; $bm / $am" | bc)"
 	done
 done
@@ -48,6 +51,7 @@ done
 # The same picks as shards (sluice shard, duplicates kept), the four score and the four write steps
 # one after another on this machine: the sum of every step's time against the one-index pick, and
 # the most memory any one step held against the one pick's.
+[ "${SHARDED:-1}" = 0 ] && exit 0
 printf '%-28s %6s %10s %10s %8s %10s\n' "sharded, steps in a row" round one_s steps_s ratio RSS_ratio
 for r in $(seq 1 "$rounds"); do
 	for m in bm25 tfidf; do
