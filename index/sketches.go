@@ -68,6 +68,8 @@ type sketchReader struct {
 	size int
 	last int
 	done int // bytes of ix.sketches read and given back (see next)
+	// records counts the records read.
+	records int
 }
 
 func (ix *Index) sketchReader(marksLen int) sketchReader {
@@ -112,6 +114,7 @@ func (r *sketchReader) next() (rec sketchRec, ok bool, err error) {
 		return rec, false, fmt.Errorf("index %s: %s: row %d after row %d of %d: %w", r.ix.dir, sketchesFile, rec.row, r.last, r.ix.NumRows(), ErrDamaged)
 	}
 	r.last = rec.row
+	r.records++
 	rec.work = dedup.Work{
 		Bytes:        int64(binary.LittleEndian.Uint64(b[8:])),
 		ShingleWords: int64(binary.LittleEndian.Uint64(b[16:])),
@@ -137,66 +140,65 @@ func (s *segSet) canReplay() bool {
 }
 
 // findDups finds the set's exact and near duplicates from its segments' stored keys and sketches,
-// taking the rows in order exactly as one build of all the segments' files would take them: a row
-// whose key an earlier row has is joined to that row, and every other row is given to a detector
-// by its marks. The clusters, the counts and the work counted are those of that build
-// (TestSetDupsMatchBuild). It holds the exact groups and the detector, as a build does.
+// as one build of all the segments' files would: a row whose key an earlier row has is joined to
+// that row, and every other row is given to a detector by its marks, in row order. The clusters,
+// the counts and the work counted are those of that build (TestSetDupsMatchBuild); the joins come
+// first, in a pass of their own, since a cluster's first row does not depend on the order of joins,
+// so the detector is sized once for the rows that reach it.
 func (s *segSet) findDups() (*Dups, []uint32, error) {
 	d0 := s.segs[0].meta.Dups
 	det, err := dedup.NewDetector(d0.Params())
 	if err != nil {
 		return nil, nil, err
 	}
-	ml := det.MarksLen()
-	signed := 0
-	for _, g := range s.segs {
-		signed += len(g.sketches) / (sketchHead + ml)
-	}
-	// At most every segment's signed rows reach the detector: room for them at once.
-	det.Reserve(signed)
-	var exact dedup.Exact
-	var keyWork, signWork dedup.Work
+	n := s.base[len(s.base)-1]
+	repeat := make([]uint64, (n+63)/64)
 	var nexact int64
-	var pairs []dedup.Pair
-	for i, g := range s.segs {
-		keyWork = keyWork.Plus(*g.meta.Dups.KeyWork)
-		rd := g.sketchReader(ml)
-		rec, more, err := rd.next()
-		if err != nil {
-			return nil, nil, err
-		}
-		for r := range g.NumRows() {
-			row := s.base[i] + r
-			key, _ := g.DupKey(r)
-			first, err := exact.Add(row, key)
-			if err != nil {
-				return nil, nil, fmt.Errorf("index set: duplicates: %w", err)
-			}
-			mine := more && rec.row == r
-			if first != row {
-				nexact++
-				if err := det.Clusters().Union(first, row); err != nil {
+	var keyWork, signWork dedup.Work
+	{
+		var exact dedup.Exact
+		for i, g := range s.segs {
+			keyWork = keyWork.Plus(*g.meta.Dups.KeyWork)
+			for r := range g.NumRows() {
+				row := s.base[i] + r
+				key, _ := g.DupKey(r)
+				first, err := exact.Add(row, key)
+				if err == nil && first != row {
+					nexact++
+					repeat[row/64] |= 1 << (row % 64)
+					err = det.Clusters().Union(first, row)
+				}
+				if err != nil {
 					return nil, nil, fmt.Errorf("index set: duplicates: %w", err)
 				}
-			} else if !mine {
-				return nil, nil, fmt.Errorf("index %s: %s has no record of row %d, the first of its key: %w", g.dir, sketchesFile, r, ErrDamaged)
-			} else {
+			}
+		}
+	}
+	det.Reserve(n - int(nexact))
+	var pairs []dedup.Pair
+	for i, g := range s.segs {
+		rd := g.sketchReader(det.MarksLen())
+		for {
+			rec, more, err := rd.next()
+			if err != nil {
+				return nil, nil, err
+			}
+			if !more {
+				break
+			}
+			if row := s.base[i] + rec.row; repeat[row/64]&(1<<(row%64)) == 0 {
 				signWork = signWork.Plus(rec.work)
 				if pairs, err = det.AddMarks(pairs[:0], row, rec.marks); err != nil {
 					return nil, nil, fmt.Errorf("index %s: %s: %w: %w", g.dir, sketchesFile, err, ErrDamaged)
 				}
 			}
-			if mine {
-				if rec, more, err = rd.next(); err != nil {
-					return nil, nil, err
-				}
-			}
 		}
-		if more {
-			return nil, nil, fmt.Errorf("index %s: %s: a record of row %d, past the rows whose key came first: %w", g.dir, sketchesFile, rec.row, ErrDamaged)
+		// Every row first of its key in the set is first in its segment, so it has a record: one
+		// missing would leave the detector short of a row without a word said.
+		if rd.records != g.NumRows()-int(g.meta.Dups.ExactDuplicates) {
+			return nil, nil, fmt.Errorf("index %s: %s holds %d records for %d rows first of their key: %w", g.dir, sketchesFile, rd.records, g.NumRows()-int(g.meta.Dups.ExactDuplicates), ErrDamaged)
 		}
 	}
-	n := s.base[len(s.base)-1]
 	d := &Dups{Threshold: d0.Threshold, Shingle: d0.Shingle, Hashes: d0.Hashes, Bands: d0.Bands, Seed: d0.Seed, Version: d0.Version, ExactDuplicates: nexact}
 	kw := keyWork
 	d.KeyWork = &kw
