@@ -2,8 +2,8 @@
 # Runs the Slurm example for real and checks it: on a one-node cluster (one-node.sh), the index
 # array and the dependent pick of submit.sh, over shared T0 files split 3 and 7 ways, must give the
 # bytes of one machine's `sluice index` and `sluice pick` of the same files: scores.jsonl, kept.jsonl
-# and ledger.json with duplicates kept, and kept.jsonl with duplicates dropped (the default; the
-# set's pick then pays for finding them itself, so its ledger differs by that line alone). Then the
+# and ledger.json with duplicates kept and with them dropped (the default; the set's pick finds
+# them across its segments from their stored sketches, as one index would). Then the
 # sharded pick of shards.sh over the same segments (an array scoring a segment a task, the cut, an
 # array writing, the join) must give one machine's scores.jsonl, kept.jsonl, ledger.json and
 # rejected.jsonl with duplicates kept.
@@ -70,12 +70,14 @@ for n in 3 7; do
 			fail=1
 		fi
 	done
-	if cmp -s "$work/one-drop/kept.jsonl" "$WORK/run-drop/kept.jsonl"; then
-		echo "slurm, $n shards: kept.jsonl with duplicates dropped: same bytes as one machine"
-	else
-		echo "slurm, $n shards: kept.jsonl with duplicates dropped DIFFERS from one machine" >&2
-		fail=1
-	fi
+	for f in scores.jsonl kept.jsonl ledger.json; do
+		if cmp -s "$work/one-drop/$f" "$WORK/run-drop/$f"; then
+			echo "slurm, $n shards: $f with duplicates dropped: same bytes as one machine"
+		else
+			echo "slurm, $n shards: $f with duplicates dropped DIFFERS from one machine" >&2
+			fail=1
+		fi
+	done
 	ls "$WORK"/seg-*.idx -d | wc -l | xargs echo "  segments made:"
 	# The sharded pick: wait for its last job, the join, which a failed step before it cancels.
 	read -r -a jobs < <(bash "$here/shards.sh" "$n" "${flags[@]}" --keep-duplicates --out "$WORK/run-shard")
