@@ -74,6 +74,8 @@ var (
 	ErrDamaged  = errors.New("index is damaged")
 	// ErrSourceChanged means a pool file no longer holds the bytes the index was built from.
 	ErrSourceChanged = errors.New("pool file changed since it was indexed")
+	// ErrNoSegment means OpenShard was asked for a segment the set does not have.
+	ErrNoSegment = errors.New("no such segment")
 )
 
 var castagnoli = crc32.MakeTable(crc32.Castagnoli)

@@ -21,7 +21,7 @@ func OpenShard(path string, shard int) (*Index, error) {
 		return nil, err
 	}
 	if shard < 0 || shard >= len(dirs) {
-		return nil, fmt.Errorf("index set %s: shard %d: the set has %d segments, numbered 0 to %d", path, shard, len(dirs), len(dirs)-1)
+		return nil, fmt.Errorf("index set %s: shard %d: the set has %d segments, numbered 0 to %d: %w", path, shard, len(dirs), len(dirs)-1, ErrNoSegment)
 	}
 	s := &segSet{base: []int{0}, only: shard}
 	defer func() {

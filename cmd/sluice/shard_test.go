@@ -70,6 +70,9 @@ func TestShardFromCommandLine(t *testing.T) {
 	if out := step(2, "cut", "--shard", "1", "--work", work); !strings.Contains(out, "drop --shard") {
 		t.Errorf("a cut given --shard: %s", out)
 	}
+	if out := step(2, "score", "--shard", "99", "--work", work); !strings.Contains(out, "numbered 0 to") {
+		t.Errorf("a score step given a shard past the last segment: %s", out)
+	}
 }
 
 // shardCase runs 'pick' and the sharded pick with guard's flags over set, compares their run

@@ -480,15 +480,23 @@ func ShardStep(ctx context.Context, args []string, opt Options, work string, sha
 	case !perShard && shard >= 0:
 		return nil, shardErrorf("the %s step takes every shard at once: drop --shard", step)
 	}
+	var rep *ShardReport
+	var err error
 	switch step {
 	case "score":
-		return ScoreShard(ctx, opt, work, shard)
+		rep, err = ScoreShard(ctx, opt, work, shard)
 	case "cut":
-		return CutShards(ctx, opt, work)
+		rep, err = CutShards(ctx, opt, work)
 	case "write":
-		return WriteShard(ctx, opt, work, shard)
+		rep, err = WriteShard(ctx, opt, work, shard)
+	default:
+		rep, err = JoinShards(ctx, opt, work)
 	}
-	return JoinShards(ctx, opt, work)
+	if errors.Is(err, index.ErrNoSegment) {
+		// A --shard past the set's last segment is a wrong flag, not a failed step.
+		return nil, shardErrorf("%v", err)
+	}
+	return rep, err
 }
 
 // String is the step's summary line.
