@@ -29,6 +29,12 @@ func setFiles(t *testing.T, n int) []string {
 // buildSet builds one segment per part of files, cut at cuts, and writes a set naming them.
 func buildSet(t *testing.T, files []string, cuts []int, opt Options) string {
 	t.Helper()
+	return buildSetOverlap(t, files, cuts, opt, false)
+}
+
+// buildSetOverlap is buildSet for files that may repeat when overlap is true.
+func buildSetOverlap(t *testing.T, files []string, cuts []int, opt Options, overlap bool) string {
+	t.Helper()
 	dir := t.TempDir()
 	var segs []string
 	from := 0
@@ -40,7 +46,7 @@ func buildSet(t *testing.T, files []string, cuts []int, opt Options) string {
 		segs, from = append(segs, seg), to
 	}
 	set := filepath.Join(dir, "pool.set")
-	if _, err := WriteSet(set, segs, false); err != nil {
+	if _, err := WriteSet(set, segs, overlap); err != nil {
 		t.Fatal(err)
 	}
 	return set

@@ -70,7 +70,7 @@ func TestSetDupsMatchBuild(t *testing.T) {
 		splits[fmt.Sprintf("random %v", random)] = random
 		for split, cuts := range splits {
 			t.Run(name+"/"+split, func(t *testing.T) {
-				set, err := Open(buildSetOverlap(t, files, cuts, opt))
+				set, err := Open(buildSetOverlap(t, files, cuts, opt, true))
 				if err != nil {
 					t.Fatal(err)
 				}
@@ -91,26 +91,6 @@ func TestSetDupsMatchBuild(t *testing.T) {
 			})
 		}
 	}
-}
-
-// buildSetOverlap is buildSet for files that may repeat.
-func buildSetOverlap(t *testing.T, files []string, cuts []int, opt Options) string {
-	t.Helper()
-	dir := t.TempDir()
-	var segs []string
-	from := 0
-	for i, to := range append(cuts, len(files)) {
-		seg := filepath.Join(dir, fmt.Sprintf("seg%d", i))
-		if _, err := Build(context.Background(), seg, files[from:to], opt); err != nil {
-			t.Fatal(err)
-		}
-		segs, from = append(segs, seg), to
-	}
-	set := filepath.Join(dir, "pool.set")
-	if _, err := WriteSet(set, segs, true); err != nil {
-		t.Fatal(err)
-	}
-	return set
 }
 
 // TestSetDupsNeedSketches checks that a set says nothing of duplicates when a segment did not find

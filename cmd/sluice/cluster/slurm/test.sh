@@ -62,21 +62,16 @@ for n in 3 7; do
 	wait_done "$ix" && wait_done "$pk"
 	pk2=$(cd "$WORK" && sbatch --parsable "$here/pick.sbatch" "${flags[@]}" --out "$WORK/run-drop")
 	wait_done "$pk2"
-	for f in scores.jsonl kept.jsonl ledger.json; do
-		if cmp -s "$work/one-keep/$f" "$WORK/run-keep/$f"; then
-			echo "slurm, $n shards: $f with duplicates kept: same bytes as one machine"
-		else
-			echo "slurm, $n shards: $f with duplicates kept DIFFERS from one machine" >&2
-			fail=1
-		fi
-	done
-	for f in scores.jsonl kept.jsonl ledger.json; do
-		if cmp -s "$work/one-drop/$f" "$WORK/run-drop/$f"; then
-			echo "slurm, $n shards: $f with duplicates dropped: same bytes as one machine"
-		else
-			echo "slurm, $n shards: $f with duplicates dropped DIFFERS from one machine" >&2
-			fail=1
-		fi
+	for dups in "keep kept" "drop dropped"; do
+		read -r run said <<<"$dups"
+		for f in scores.jsonl kept.jsonl ledger.json; do
+			if cmp -s "$work/one-$run/$f" "$WORK/run-$run/$f"; then
+				echo "slurm, $n shards: $f with duplicates $said: same bytes as one machine"
+			else
+				echo "slurm, $n shards: $f with duplicates $said DIFFERS from one machine" >&2
+				fail=1
+			fi
+		done
 	done
 	ls "$WORK"/seg-*.idx -d | wc -l | xargs echo "  segments made:"
 	# The sharded pick: wait for its last job, the join, which a failed step before it cancels.
