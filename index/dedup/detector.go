@@ -52,6 +52,7 @@ type Detector struct {
 	clusters Clusters
 	seen     []uint32 // the current row's candidates, as indexes into rows
 	scratch  []byte   // Add's marks, kept for the next row
+	touched  byte     // what table.touch read, kept so that the reads are not optimised away
 	work     Work
 }
 
@@ -132,6 +133,7 @@ func (d *Detector) AddMarks(dst []Pair, row int, marks []byte) ([]Pair, error) {
 	d.rows = append(d.rows, uint32(row))
 	d.sketch = append(d.sketch, marks[8*d.b:]...)
 	d.seen = d.seen[:0]
+	d.touched ^= d.buckets.touch(marks[:8*d.b])
 	for j := 0; j < d.b; j++ {
 		f, found := d.buckets.getOrPut(binary.LittleEndian.Uint64(marks[8*j:]), self)
 		if !found || slices.Contains(d.seen, f) {
@@ -243,6 +245,21 @@ func (t *table) getOrPut(k uint64, v uint32) (uint32, bool) {
 			i = 0
 		}
 	}
+}
+
+// touch reads the home slot of each key of keys (8 bytes each, little-endian) before any is looked
+// up, growing the table first if they could not all be put: the misses of the cache, independent of
+// one another, then overlap, where getOrPut would meet them one after another.
+func (t *table) touch(keys []byte) byte {
+	if 4*(t.n+len(keys)/8) > 3*t.len() {
+		t.grow()
+	}
+	size := t.len()
+	var x byte
+	for j := 0; j+8 <= len(keys); j += 8 {
+		x ^= t.slots[home(binary.LittleEndian.Uint64(keys[j:]), size)*slotSize]
+	}
+	return x
 }
 
 // reserve grows the table, if it must, to hold n keys at most 3/4 full.
