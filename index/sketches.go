@@ -67,7 +67,6 @@ type sketchReader struct {
 	b    []byte
 	size int
 	last int
-	done int // bytes of ix.sketches read and given back (see next)
 	// records counts the records read.
 	records int
 }
@@ -76,21 +75,12 @@ func (ix *Index) sketchReader(marksLen int) sketchReader {
 	return sketchReader{ix: ix, b: ix.sketches, size: sketchHead + marksLen, last: -1}
 }
 
-// sketchChunk is how much of the mapped file is read before its pages leave the process.
-const sketchChunk = 1 << 20
-
-// giveBack drops the pages of the file read so far from the process (they stay in the page cache):
-// the detector keeps a copy of what it needs, and a set's files would otherwise all become resident.
-func (r *sketchReader) giveBack(all bool) {
-	read := len(r.ix.sketches) - len(r.b)
-	end := read &^ (sketchChunk - 1)
-	if all {
-		end = len(r.ix.sketches)
-	}
-	if end > r.done {
+// dropSketchPages gives the pages of the mapped sketches file back (they stay in the page cache):
+// a set reads every segment's once, and they would otherwise stay resident to the end.
+func (ix *Index) dropSketchPages() {
+	if len(ix.sketches) > 0 {
 		// Advice only: a failure leaves the pages where they are.
-		_ = syscall.Madvise(r.ix.sketches[r.done:end], syscall.MADV_DONTNEED)
-		r.done = end
+		_ = syscall.Madvise(ix.sketches, syscall.MADV_DONTNEED)
 	}
 }
 
@@ -98,11 +88,7 @@ func (r *sketchReader) giveBack(all bool) {
 // index does not have is an error.
 func (r *sketchReader) next() (rec sketchRec, ok bool, err error) {
 	if len(r.b) == 0 {
-		r.giveBack(true)
 		return rec, false, nil
-	}
-	if (len(r.ix.sketches)-len(r.b))-r.done >= sketchChunk {
-		r.giveBack(false)
 	}
 	if len(r.b) < r.size {
 		return rec, false, fmt.Errorf("index %s: %s ends within a record: %w", r.ix.dir, sketchesFile, ErrDamaged)
@@ -141,16 +127,18 @@ func (s *segSet) canReplay() bool {
 
 // findDups finds the set's exact and near duplicates from its segments' stored keys and sketches,
 // as one build of all the segments' files would: a row whose key an earlier row has is joined to
-// that row, and every other row is given to a detector by its marks, in row order. The clusters,
-// the counts and the work counted are those of that build (TestSetDupsMatchBuild); the joins come
-// first, in a pass of their own, since a cluster's first row does not depend on the order of joins,
-// so the detector is sized once for the rows that reach it.
+// that row, and every other row is given by its marks to a dedup.Bulk, which finds what a build's
+// detector finds with its look-ups in the cache. The clusters, the counts and the work counted are
+// those of that build (TestSetDupsMatchBuild); the joins come first, in a pass of their own, since
+// a cluster's first row does not depend on the order of joins, so the Bulk is sized once for the
+// rows that reach it.
 func (s *segSet) findDups() (*Dups, []uint32, error) {
 	d0 := s.segs[0].meta.Dups
-	det, err := dedup.NewDetector(d0.Params())
+	bulk, err := dedup.NewBulk(d0.Params())
 	if err != nil {
 		return nil, nil, err
 	}
+	var cl dedup.Clusters
 	n := s.base[len(s.base)-1]
 	repeat := make([]uint64, (n+63)/64)
 	var nexact int64
@@ -166,7 +154,7 @@ func (s *segSet) findDups() (*Dups, []uint32, error) {
 				if err == nil && first != row {
 					nexact++
 					repeat[row/64] |= 1 << (row % 64)
-					err = det.Clusters().Union(first, row)
+					err = cl.Union(first, row)
 				}
 				if err != nil {
 					return nil, nil, fmt.Errorf("index set: duplicates: %w", err)
@@ -174,10 +162,10 @@ func (s *segSet) findDups() (*Dups, []uint32, error) {
 			}
 		}
 	}
-	det.Reserve(n - int(nexact))
-	var pairs []dedup.Pair
+	bulk.Reserve(n - int(nexact))
+	marksLen := 8*d0.Bands + d0.Hashes
 	for i, g := range s.segs {
-		rd := g.sketchReader(det.MarksLen())
+		rd := g.sketchReader(marksLen)
 		for {
 			rec, more, err := rd.next()
 			if err != nil {
@@ -188,7 +176,7 @@ func (s *segSet) findDups() (*Dups, []uint32, error) {
 			}
 			if row := s.base[i] + rec.row; repeat[row/64]&(1<<(row%64)) == 0 {
 				signWork = signWork.Plus(rec.work)
-				if pairs, err = det.AddMarks(pairs[:0], row, rec.marks); err != nil {
+				if err := bulk.Add(row, rec.marks); err != nil {
 					return nil, nil, fmt.Errorf("index %s: %s: %w: %w", g.dir, sketchesFile, err, ErrDamaged)
 				}
 			}
@@ -202,9 +190,17 @@ func (s *segSet) findDups() (*Dups, []uint32, error) {
 	d := &Dups{Threshold: d0.Threshold, Shingle: d0.Shingle, Hashes: d0.Hashes, Bands: d0.Bands, Seed: d0.Seed, Version: d0.Version, ExactDuplicates: nexact}
 	kw := keyWork
 	d.KeyWork = &kw
-	d.Work = keyWork.Plus(signWork).Plus(det.Work())
+	// The Bulk reads the marks where they are mapped: fewer faults than a copy, since the kernel maps
+	// a file's pages several at a time; the pages go once it is done.
+	found, err := bulk.Find(&cl)
+	for _, g := range s.segs {
+		g.dropSketchPages()
+	}
+	if err != nil {
+		return nil, nil, fmt.Errorf("index set: duplicates: %w", err)
+	}
+	d.Work = keyWork.Plus(signWork).Plus(found)
 	d.FLOPs = d.Work.FLOPs()
-	cl := det.Clusters()
 	firsts := make([]uint32, n)
 	marked := make([]uint64, (n+63)/64)
 	for r := range n {

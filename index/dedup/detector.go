@@ -153,12 +153,17 @@ func (d *Detector) AddMarks(dst []Pair, row int, marks []byte) ([]Pair, error) {
 	return dst, nil
 }
 
-// estimate is the b-bit estimate of the similarity of the rows added as x and y. It counts the
-// equal bytes eight at a time: a byte of a ^ b is 0 exactly where they agree, and its high bit is
-// set in ((a ^ b) & 0x7f…) + 0x7f… | (a ^ b) exactly where it is not 0, with no carry between bytes.
+// estimate is the b-bit estimate of the similarity of the rows added as x and y.
 func (d *Detector) estimate(x, y uint32) float64 {
 	sx := d.sketch[int(x)*d.k : int(x+1)*d.k]
 	sy := d.sketch[int(y)*d.k : int(y+1)*d.k]
+	return sketchSimilarity(matching(sx, sy), d.k)
+}
+
+// matching counts the equal bytes of sx and sy, which have the same length, eight at a time: a byte
+// of a ^ b is 0 exactly where they agree, and its high bit is set in ((a ^ b) & 0x7f…) + 0x7f… |
+// (a ^ b) exactly where it is not 0, with no carry between bytes.
+func matching(sx, sy []byte) int {
 	sy = sy[:len(sx)]
 	m := len(sx)
 	i := 0
@@ -171,7 +176,7 @@ func (d *Detector) estimate(x, y uint32) float64 {
 			m--
 		}
 	}
-	return sketchSimilarity(m, d.k)
+	return m
 }
 
 // sketchSimilarity corrects the share of m agreeing sketch bytes out of k for chance agreement.

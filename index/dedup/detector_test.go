@@ -292,3 +292,57 @@ func TestAddMarksMatchesAdd(t *testing.T) {
 		t.Errorf("3 bytes of marks: %v, want ErrLength", err)
 	}
 }
+
+// TestBulkMatchesDetector gives the same rows, by their marks, to a Detector in order and to a
+// Bulk at once, and asks for the same clusters and work: the rows of testdata/rows.json, rows
+// without words, and each fixture row again at once and far later (so buckets hold several rows
+// and rows meet the same first in several bands), under several thresholds.
+func TestBulkMatchesDetector(t *testing.T) {
+	texts, _ := loadFixture(t)
+	texts = append(texts, "", "!!")
+	texts = append(texts, texts...)
+	for _, th := range []float64{0.5, 0.8, 0.95} {
+		prm := ForThreshold(th)
+		s, err := NewSigner(prm)
+		if err != nil {
+			t.Fatal(err)
+		}
+		det, _ := NewDetector(prm)
+		bulk, err := NewBulk(prm)
+		if err != nil {
+			t.Fatal(err)
+		}
+		var marks []byte
+		for i, text := range texts {
+			marks = det.AppendMarks(marks[:0], sign(t, s, text))
+			if _, err := det.AddMarks(nil, 3*i, marks); err != nil {
+				t.Fatal(err)
+			}
+			if err := bulk.Add(3*i, slices.Clone(marks)); err != nil { // a Bulk keeps what it is given
+				t.Fatal(err)
+			}
+		}
+		var c Clusters
+		w, err := bulk.Find(&c)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if w != det.Work() {
+			t.Errorf("threshold %v: work %+v in bulk, %+v by the detector", th, w, det.Work())
+		}
+		joined := 0
+		for r := range det.Clusters().Len() {
+			if a, b := det.Clusters().Find(r), c.Find(r); a != b {
+				t.Fatalf("threshold %v: row %d: cluster %d by the detector, %d in bulk", th, r, a, b)
+			} else if a != r {
+				joined++
+			}
+		}
+		if joined == 0 {
+			t.Errorf("threshold %v: no row joined a cluster: the check shows nothing", th)
+		}
+		if err := bulk.Add(0, marks); !errors.Is(err, ErrRow) {
+			t.Errorf("a row out of order: %v, want ErrRow", err)
+		}
+	}
+}
