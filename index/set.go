@@ -345,33 +345,15 @@ func (s *segSet) rowNorm(row int, n int64) float64 {
 			normed, base = int64(s.base[s.only+1]-s.base[s.only]), make([]int, len(s.segs))
 		}
 		parts := [2][]float64{make([]float64, normed), make([]float64, normed)}
-		var rows, tfs []uint32
-		err := s.terms(func(term []byte, in []int, ents []termEntry) error {
-			var df uint64
-			for _, i := range in {
-				df += ents[i].df
-			}
-			idf := math.Log(float64(1+n)/float64(1+int64(df))) + 1 // as the build's merge computes it
-			acc := parts[0]
-			if string(term) >= mergeSplit {
-				acc = parts[1]
-			}
-			for _, i := range in {
-				if s.only >= 0 && i != s.only {
-					continue // counted in df; its rows are not this shard's
-				}
-				var err error
-				c := s.segs[i].cursorAt(ents[i], string(term))
-				if rows, tfs, err = c.Next(math.MaxInt, rows[:0], tfs[:0]); err != nil {
-					return err
-				}
-				for k, r := range rows {
-					w := float64(tfs[k]) * idf
-					acc[base[i]+int(r)] += w * w
-				}
-			}
-			return nil
-		})
+		// The halves are summed apart, as the build's merge sums them: one goroutine each, so that
+		// both cores work while every scorer waits for the norms.
+		var errs [2]error
+		var wg sync.WaitGroup
+		for half := range 2 {
+			wg.Go(func() { errs[half] = s.sumNorms(half, parts[half], base, n) })
+		}
+		wg.Wait()
+		err := errors.Join(errs[0], errs[1])
 		s.norms = parts[0]
 		for r := range s.norms {
 			s.norms[r] = math.Sqrt(s.norms[r] + parts[1][r])
@@ -381,6 +363,38 @@ func (s *segSet) rowNorm(row int, n int64) float64 {
 		}
 	})
 	return s.norms[row]
+}
+
+// sumNorms adds, for the terms of one half of the term space (0: before mergeSplit, 1: from it on),
+// each posting's squared TF-IDF weight under the set's document frequencies to acc, by row
+// numbered from base; n is the set's row count.
+func (s *segSet) sumNorms(half int, acc []float64, base []int, n int64) error {
+	var rows, tfs []uint32
+	return s.terms(func(term []byte, in []int, ents []termEntry) error {
+		if (string(term) >= mergeSplit) != (half == 1) {
+			return nil
+		}
+		var df uint64
+		for _, i := range in {
+			df += ents[i].df
+		}
+		idf := math.Log(float64(1+n)/float64(1+int64(df))) + 1 // as the build's merge computes it
+		for _, i := range in {
+			if s.only >= 0 && i != s.only {
+				continue // counted in df; its rows are not this shard's
+			}
+			var err error
+			c := s.segs[i].cursorAt(ents[i], string(term))
+			if rows, tfs, err = c.Next(math.MaxInt, rows[:0], tfs[:0]); err != nil {
+				return err
+			}
+			for k, r := range rows {
+				w := float64(tfs[k]) * idf
+				acc[base[i]+int(r)] += w * w
+			}
+		}
+		return nil
+	})
 }
 
 // postings appends term's postings from every segment, rows renumbered into the set's.
