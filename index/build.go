@@ -255,6 +255,10 @@ func (opt Options) Check() error {
 	if opt.ExcludeN < 0 {
 		return fmt.Errorf("--exclude-ngram %d: give a number of words, at least 1", opt.ExcludeN)
 	}
+	if opt.DryRun && len(opt.Exclude) > 0 {
+		// Silence would read as "no row is contaminated".
+		return fmt.Errorf("--exclude has no use with --dry-run, which writes no index and checks no row against evaluation files")
+	}
 	return nil
 }
 

@@ -126,6 +126,7 @@ func TestExcludeRefuses(t *testing.T) {
 		{"missing", Options{Exclude: []string{filepath.Join(t.TempDir(), "none.jsonl")}}, "none.jsonl"},
 		{"empty", Options{Exclude: []string{empty}}, "holds no rows"},
 		{"n-gram under 1", Options{Exclude: []string{empty}, ExcludeN: -1}, "--exclude-ngram"},
+		{"dry run", Options{Exclude: []string{empty}, DryRun: true}, "--exclude has no use with --dry-run"},
 	} {
 		t.Run(tc.name, func(t *testing.T) {
 			dir := filepath.Join(t.TempDir(), "idx")
