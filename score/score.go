@@ -138,6 +138,9 @@ type Params struct {
 	// row's best target row: the one pass over the combined query is then
 	// all the work, where Best needs one pass per target row.
 	SkipBest bool
+	// Progress, when set, is told the pool rows read for scoring as they are read and how many
+	// there are, from one goroutine, not Score's; only a CursorCorpus (an index) reports.
+	Progress func(rows, of int) `json:"-"`
 }
 
 // DefaultCacheBytes is the posting cache bound used when Params.CacheBytes is 0.

@@ -95,6 +95,9 @@ func (s *scorer) streamPasses(ctx context.Context, cc CursorCorpus, res *Result,
 				return err
 			}
 			res.Work.PostingsFetched += int64(len(c.rows))
+			if s.p.Progress != nil {
+				s.p.Progress(min(n, lo+size)-lo, n)
+			}
 			full <- c
 		}
 		return nil

@@ -139,8 +139,7 @@ func help(cmds []command, args []string, e *env) int {
 	return 0
 }
 
-// runCommand parses a command's flags and runs it, printing its error with the exit status it
-// calls for.
+// runCommand parses a command's flags and runs it, printing its error with the exit status due.
 func runCommand(ctx context.Context, c command, args []string, e *env) int {
 	name := c.name()
 	fs := c.flags()

@@ -60,7 +60,10 @@ func pick(ctx context.Context, e *env, opt run.Options, quiet bool) (*run.Result
 		// for whatever the process does next (a plan runs several picks).
 		defer debug.SetMemoryLimit(debug.SetMemoryLimit(opt.MaxMem))
 	}
+	bar := newProgress(e, quiet, 0, "scoring rows")
+	opt.Params.Progress = bar.rows
 	res, err := run.Pick(ctx, opt)
+	bar.done()
 	if errors.Is(err, run.ErrMemory) || errors.Is(err, run.ErrSets) {
 		return nil, usagef("%v", err)
 	}

@@ -4,8 +4,8 @@ import (
 	"github.com/schollz/progressbar/v3"
 )
 
-// progress draws a byte-count bar on stderr when it is a terminal and --quiet is not set; otherwise
-// every method is a no-op, so callers need not check.
+// progress draws a bar on stderr when it is a terminal and not --quiet, of bytes given a total, of
+// rows (rows tells their total) when not; otherwise every method is a no-op, so callers need not check.
 type progress struct{ bar *progressbar.ProgressBar }
 
 func newProgress(e *env, quiet bool, total int64, what string) *progress {
@@ -15,7 +15,7 @@ func newProgress(e *env, quiet bool, total int64, what string) *progress {
 	return &progress{bar: progressbar.NewOptions64(total,
 		progressbar.OptionSetWriter(e.stderr),
 		progressbar.OptionSetDescription(what),
-		progressbar.OptionShowBytes(true),
+		progressbar.OptionShowBytes(total > 0),
 		progressbar.OptionSetWidth(30),
 		progressbar.OptionThrottle(100_000_000),
 		progressbar.OptionClearOnFinish(),
@@ -25,6 +25,13 @@ func newProgress(e *env, quiet bool, total int64, what string) *progress {
 func (p *progress) add(n int64) {
 	if p.bar != nil {
 		p.bar.Add64(n)
+	}
+}
+
+func (p *progress) rows(n, of int) {
+	if p.bar != nil {
+		p.bar.ChangeMax(of)
+		p.bar.Add(n)
 	}
 }
 

@@ -197,7 +197,7 @@ func shardOptions(opt *Options) (string, error) {
 	}
 	k := *opt
 	k.Index, k.Target, k.Out, k.Command, k.Version, k.Stdin, k.MaxMem, k.scoreBatch = "", "", "", nil, "", nil, 0, 0
-	k.Params.Workers, k.Params.CacheBytes = 0, 0
+	k.Params.Workers, k.Params.CacheBytes, k.Params.Progress = 0, 0, nil
 	k.Guards.Exclude = nil
 	h := sha256.New()
 	fmt.Fprintf(h, "%s\n%+v", sum, k)
