@@ -26,6 +26,21 @@ func setFiles(t *testing.T, n int) []string {
 	return out
 }
 
+// buildOne builds one index of files and opens it until the test ends.
+func buildOne(t *testing.T, files []string, opt Options) *Index {
+	t.Helper()
+	dir := filepath.Join(t.TempDir(), "one")
+	if _, err := Build(context.Background(), dir, files, opt); err != nil {
+		t.Fatal(err)
+	}
+	ix, err := Open(dir)
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Cleanup(func() { ix.Close() })
+	return ix
+}
+
 // buildSet builds one segment per part of files, cut at cuts, and writes a set naming them.
 func buildSet(t *testing.T, files []string, cuts []int, opt Options) string {
 	t.Helper()
@@ -59,15 +74,7 @@ func buildSetOverlap(t *testing.T, files []string, cuts []int, opt Options, over
 func TestSetReadsAsOneIndex(t *testing.T) {
 	files := setFiles(t, 14)
 	opt := Options{Text: "prompt,completion", NoDups: true}
-	oneDir := filepath.Join(t.TempDir(), "one")
-	if _, err := Build(context.Background(), oneDir, files, opt); err != nil {
-		t.Fatal(err)
-	}
-	one, err := Open(oneDir)
-	if err != nil {
-		t.Fatal(err)
-	}
-	defer one.Close()
+	one := buildOne(t, files, opt)
 	splits := map[string][]int{
 		"1 way":  nil,
 		"2 ways": {7},

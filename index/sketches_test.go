@@ -44,15 +44,7 @@ func TestSetDupsMatchBuild(t *testing.T) {
 	rng := rand.New(rand.NewPCG(3, 4))
 	for name, files := range pools {
 		opt := Options{Text: "prompt,completion", Workers: 2}
-		oneDir := filepath.Join(t.TempDir(), "one")
-		if _, err := Build(context.Background(), oneDir, files, opt); err != nil {
-			t.Fatal(err)
-		}
-		one, err := Open(oneDir)
-		if err != nil {
-			t.Fatal(err)
-		}
-		defer one.Close()
+		one := buildOne(t, files, opt)
 		if d := one.Meta().Dups; d == nil || d.ExactDuplicates == 0 || d.Duplicates <= d.ExactDuplicates {
 			t.Fatalf("%s: the pool should hold exact and near duplicates: %+v", name, d)
 		}
