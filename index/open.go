@@ -146,14 +146,16 @@ func (ix *Index) load(d *os.File) error {
 		if filepath.Base(name) != name || name == "." || name == ".." {
 			return fmt.Errorf("open index %s: file name %q: %w", dir, name, ErrDamaged)
 		}
-		b, sum, err := ix.mapFile(d, name, buf)
+		// Only a set reads the sketches, once: it checks them then (checkSketches), sparing every
+		// other command the largest file of many an index.
+		b, sum, err := ix.mapFile(d, name, buf, name != sketchesFile)
 		if err != nil {
 			return err
 		}
 		if int64(len(b)) != want.Size {
 			return fmt.Errorf("open index %s: %s is %d bytes, meta.json says %d: %w", dir, name, len(b), want.Size, ErrDamaged)
 		}
-		if got := fmt.Sprintf("%08x", sum); got != want.CRC32C {
+		if got := fmt.Sprintf("%08x", sum); got != want.CRC32C && name != sketchesFile {
 			return fmt.Errorf("open index %s: %s checksum %s, meta.json says %s: %w", dir, name, got, want.CRC32C, ErrDamaged)
 		}
 		data[name] = b
@@ -236,11 +238,11 @@ func (ix *Index) load(d *os.File) error {
 // checkBuf is the read buffer Open checksums files through.
 const checkBuf = 1 << 20
 
-// mapFile maps the file name of the folder d and returns its CRC-32C, read through buf rather than
+// mapFile maps the file name of the folder d and returns its CRC-32C (0 unless check), read through buf rather than
 // the mapping: read(2) leaves the pages in the page cache but outside the process, so that only
 // the parts of the index a command uses become part of its resident memory, where summing the
 // mapping made every page of every file resident at open.
-func (ix *Index) mapFile(d *os.File, name string, buf []byte) ([]byte, uint32, error) {
+func (ix *Index) mapFile(d *os.File, name string, buf []byte, check bool) ([]byte, uint32, error) {
 	f, err := openAt(d, ix.dir, name)
 	if err != nil {
 		return nil, 0, fmt.Errorf("open index %s: %w: %w", ix.dir, err, ErrDamaged)
@@ -267,7 +269,7 @@ func (ix *Index) mapFile(d *os.File, name string, buf []byte) ([]byte, uint32, e
 	// The same descriptor, so the bytes summed are the bytes mapped; a file that changes under
 	// the mapping would fail the same check had it been made through the mapping.
 	var sum uint32
-	for off := int64(0); off < int64(len(b)); {
+	for off := int64(0); check && off < int64(len(b)); {
 		k, err := f.ReadAt(buf[:min(int64(len(buf)), int64(len(b))-off)], off)
 		sum = crc32.Update(sum, castagnoli, buf[:k])
 		off += int64(k)

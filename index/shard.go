@@ -75,7 +75,7 @@ func openLexicon(dir string) (*Index, error) {
 	if !listed || !plisted {
 		return nil, fmt.Errorf("open index %s: meta.json lists no %s or %s: %w", dir, lexiconFile, postingsFile, ErrDamaged)
 	}
-	b, sum, err := ix.mapFile(d, lexiconFile, make([]byte, checkBuf))
+	b, sum, err := ix.mapFile(d, lexiconFile, make([]byte, checkBuf), true)
 	if err == nil && int64(len(b)) != want.Size {
 		err = fmt.Errorf("open index %s: %s is %d bytes, meta.json says %d: %w", dir, lexiconFile, len(b), want.Size, ErrDamaged)
 	}

@@ -3,6 +3,7 @@ package index
 import (
 	"encoding/binary"
 	"fmt"
+	"hash/crc32"
 	"math/bits"
 	"syscall"
 
@@ -73,6 +74,16 @@ type sketchReader struct {
 
 func (ix *Index) sketchReader(marksLen int) sketchReader {
 	return sketchReader{ix: ix, b: ix.sketches, size: sketchHead + marksLen, last: -1}
+}
+
+// checkSketches checks the mapped sketches file against the CRC-32C meta.json gives it, which Open
+// leaves to the one reader of the file.
+func (ix *Index) checkSketches() error {
+	want := ix.meta.Files[sketchesFile].CRC32C
+	if got := fmt.Sprintf("%08x", crc32.Checksum(ix.sketches, castagnoli)); got != want {
+		return fmt.Errorf("open index %s: %s checksum %s, meta.json says %s: %w", ix.dir, sketchesFile, got, want, ErrDamaged)
+	}
+	return nil
 }
 
 // dropSketchPages gives the pages of the mapped sketches file back (they stay in the page cache):
@@ -165,6 +176,9 @@ func (s *segSet) findDups() (*Dups, []uint32, error) {
 	bulk.Reserve(n - int(nexact))
 	marksLen := 8*d0.Bands + d0.Hashes
 	for i, g := range s.segs {
+		if err := g.checkSketches(); err != nil {
+			return nil, nil, err
+		}
 		rd := g.sketchReader(marksLen)
 		for {
 			rec, more, err := rd.next()

@@ -11,6 +11,7 @@ import (
 	"os"
 	"path/filepath"
 	"reflect"
+	"strings"
 	"testing"
 )
 
@@ -170,4 +171,37 @@ func FuzzSetSketches(f *testing.F) {
 			ix.DupFirst(r)
 		}
 	})
+}
+
+// TestSketchesCheckedWhenRead flips a byte of a segment's sketches file: the index still opens
+// (Open leaves that file to its reader), and the set that reads it refuses, naming it.
+func TestSketchesCheckedWhenRead(t *testing.T) {
+	pool := testPool(t, 200)
+	dir := t.TempDir()
+	a, b := filepath.Join(dir, "a"), filepath.Join(dir, "b")
+	for _, seg := range []string{a, b} {
+		if _, err := Build(context.Background(), seg, []string{pool}, Options{}); err != nil {
+			t.Fatal(err)
+		}
+	}
+	p := filepath.Join(b, sketchesFile)
+	data, _ := os.ReadFile(p)
+	data[len(data)/2] ^= 1
+	os.WriteFile(p, data, 0o644)
+	ix, err := Open(b)
+	if err != nil {
+		t.Fatalf("open of an index whose sketches no command here reads: %v", err)
+	}
+	ix.Close()
+	set := filepath.Join(dir, "pool.set")
+	if _, err := WriteSet(set, []string{a, b}, true); err != nil {
+		t.Fatal(err)
+	}
+	if ix, err = Open(set); err != nil {
+		t.Fatal(err)
+	}
+	defer ix.Close()
+	if _, err := ix.Duplicates(); !errors.Is(err, ErrDamaged) || !strings.Contains(err.Error(), "sketches checksum") {
+		t.Fatalf("a set over a damaged sketches file: %v, want ErrDamaged naming it", err)
+	}
 }
