@@ -303,7 +303,7 @@ func (ix *Index) Duplicates() (*Dups, error) {
 	if s == nil {
 		return ix.meta.Dups, nil
 	}
-	if s.only >= 0 || !s.canReplay() {
+	if ix.DupSettings() == nil {
 		return nil, nil
 	}
 	s.dupsOnce.Do(func() {
@@ -317,6 +317,19 @@ func (ix *Index) Duplicates() (*Dups, error) {
 		return nil, fmt.Errorf("index set %s: %w", ix.dir, s.dupsErr)
 	}
 	return s.dups, nil
+}
+
+// DupSettings says how the index's duplicates were found, without finding a set's (see
+// Duplicates): the index's Meta.Dups, a set's first segment's when Duplicates would find them, and
+// nil otherwise.
+func (ix *Index) DupSettings() *Dups {
+	if s := ix.set; s != nil {
+		if s.only >= 0 || !s.canReplay() {
+			return nil
+		}
+		return s.segs[0].meta.Dups
+	}
+	return ix.meta.Dups
 }
 
 // DupKey returns row's exact-duplicate key (dedup.Key), and false when the build found no

@@ -45,6 +45,12 @@ func dupRowBytes(bands int) int64 { return minhashes + 4 + 4 + 32*int64(bands) +
 // text, against 34.5 to 39 for a pick that keeps duplicates.
 const indexDupRowBytes = 12
 
+// setDupRowBytes is what finding a set's duplicates from its segments' sketches holds per pool row
+// (index.Duplicates, dedup.Bulk), with the guard's indexDupRowBytes: each row's cluster (4), the
+// exact keys' map (48 a distinct key), the Bulk's row and marks (28), one band's table (up to 32)
+// and its candidate pairs (8 each, up to one a band: 128), counting every row distinct.
+const setDupRowBytes = indexDupRowBytes + 4 + 48 + 28 + 32 + 128
+
 // memPart is one part of a pick's memory, in words and bytes.
 type memPart struct {
 	what  string
@@ -74,9 +80,9 @@ func (p *picked) memoryNeed() (int64, []string) {
 	if k := int64(len(p.sets)); k > 1 {
 		parts = append(parts, memPart{fmt.Sprintf("%d target sets, %d B a pool row each", k, SetRowBytes), k * n * SetRowBytes})
 	}
-	// A set's duplicates, found across its segments when the guard asks, take about what the guard's
-	// own would: the branch below.
-	if p.takesDups(p.ix.Meta().Dups) {
+	if d := p.ix.DupSettings(); p.takesDups(d) && p.ix.Segments() != nil {
+		parts = append(parts, memPart{fmt.Sprintf("the set's clusters of duplicates, found from its segments' sketches, %d B a pool row", setDupRowBytes), n * setDupRowBytes})
+	} else if p.takesDups(d) {
 		parts = append(parts, memPart{fmt.Sprintf("the index's clusters of duplicates, %d B a pool row", indexDupRowBytes), n * indexDupRowBytes})
 	} else if g := p.opt.Guards; !g.KeepDuplicates {
 		b := int64(chooseBands(orDefault(g.NearDup, DefaultNearDup)))
