@@ -214,7 +214,7 @@ func (ix *Index) load(d *os.File) error {
 		ix.dups = db
 		if sk, listed := m.Files[sketchesFile]; listed {
 			// One record for every row that is the first of its key, of a size the settings give.
-			size := int64(sketchHead + 8*m.Dups.Bands + m.Dups.Hashes)
+			size := int64(sketchHead + m.Dups.marksLen())
 			if m.Dups.Bands <= 0 || m.Dups.Hashes <= 0 || sk.Size != (n-m.Dups.ExactDuplicates)*size {
 				return fmt.Errorf("open index %s: %s holds %d bytes for %d rows first of their key: %w", dir, sketchesFile, sk.Size, n-m.Dups.ExactDuplicates, ErrDamaged)
 			}

@@ -23,6 +23,9 @@ const sketchHead = 4 + 4 + 3*8
 
 const noWordsFlag = 1
 
+// marksLen is the length of a row's marks under d's settings (dedup.Detector.MarksLen).
+func (d *Dups) marksLen() int { return 8*d.Bands + d.Hashes }
+
 // sketchWriter writes the sketches file of a build.
 type sketchWriter struct {
 	w     *fileWriter
@@ -174,7 +177,7 @@ func (s *segSet) findDups() (*Dups, []uint32, error) {
 		}
 	}
 	bulk.Reserve(n - int(nexact))
-	marksLen := 8*d0.Bands + d0.Hashes
+	marksLen := d0.marksLen()
 	for i, g := range s.segs {
 		if err := g.checkSketches(); err != nil {
 			return nil, nil, err
@@ -195,8 +198,8 @@ func (s *segSet) findDups() (*Dups, []uint32, error) {
 				}
 			}
 		}
-		// Every row first of its key in the set is first in its segment, so it has a record: one
-		// missing would leave the detector short of a row without a word said.
+		// A row first of its key in the set is first in its segment, one of the rows with a record;
+		// Open held the file's size to their count, and this holds the records read to it.
 		if rd.records != g.NumRows()-int(g.meta.Dups.ExactDuplicates) {
 			return nil, nil, fmt.Errorf("index %s: %s holds %d records for %d rows first of their key: %w", g.dir, sketchesFile, rd.records, g.NumRows()-int(g.meta.Dups.ExactDuplicates), ErrDamaged)
 		}

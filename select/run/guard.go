@@ -218,9 +218,8 @@ func (p *picked) indexExcluded() (*index.Excluded, map[int]decontam.Hit, error) 
 // keeps duplicates, or the index was built without them, before them, at another threshold or by
 // another version of dedup. A set finds them across its segments from what they stored.
 func (p *picked) indexDups() (*index.Dups, error) {
-	g := p.opt.Guards
-	if g.KeepDuplicates {
-		return nil, nil
+	if !p.takesDups(p.ix.DupSettings()) {
+		return nil, nil // a set's would be found at other settings: none of its work is wasted
 	}
 	d, err := p.ix.Duplicates()
 	if err != nil {

@@ -242,7 +242,7 @@ func (p *picked) one(ctx context.Context) error {
 	if err := p.checkMemory(); err != nil {
 		return err
 	}
-	if !p.opt.Guards.KeepDuplicates {
+	if p.takesDups(p.ix.DupSettings()) {
 		// A set finds its duplicates from its segments' sketches, which needs no score: on another
 		// core while the rows are scored. The guard takes the result (or the error) when it asks;
 		// the pick waits for it before it returns, since the index is closed after.
