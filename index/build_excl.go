@@ -4,6 +4,7 @@ import (
 	"bytes"
 	"encoding/json"
 	"fmt"
+	"slices"
 	"strings"
 
 	"sluice/index/decontam"
@@ -103,11 +104,16 @@ func (b *builder) addContam(o *batchOut, base int64, w *fileWriter) error {
 
 // Contamination returns what the build found of the evaluation files it was given: the files, and
 // the rows that share an n-gram with them with the evaluation row and n-gram of each. It returns
-// nil, nil, nil for an index built without --exclude, and for an index set, whose segments may
-// have been checked against different files.
+// nil, nil, nil for an index built without --exclude. A set returns its segments' lists joined, as
+// one build of all their files would have found them (a row's check looks at that row alone), when
+// every segment was checked against files of the same content, in the same order, at the same
+// n-gram length; else nil, nil, nil, as does one segment opened as a shard.
 func (ix *Index) Contamination() (*Excluded, map[int]decontam.Hit, error) {
+	if ix.set != nil {
+		return ix.set.contamination()
+	}
 	ex := ix.meta.Excluded
-	if ex == nil || ix.set != nil {
+	if ex == nil {
 		return nil, nil, nil
 	}
 	hits := map[int]decontam.Hit{}
@@ -130,4 +136,35 @@ func (ix *Index) Contamination() (*Excluded, map[int]decontam.Hit, error) {
 		return nil, nil, fmt.Errorf("index %s: %s lists %d rows, meta.json says %d: %w", ix.dir, contamFile, len(hits), ex.Rows, ErrDamaged)
 	}
 	return ex, hits, nil
+}
+
+// contamination joins the segments' lists (see Contamination).
+func (s *segSet) contamination() (*Excluded, map[int]decontam.Hit, error) {
+	if s.only >= 0 {
+		return nil, nil, nil
+	}
+	var all *Excluded
+	hits := map[int]decontam.Hit{}
+	for i, g := range s.segs {
+		ex, h, err := g.Contamination()
+		if err != nil || ex == nil || all != nil && !sameChecks(all, ex) {
+			return nil, nil, err
+		}
+		if all == nil {
+			all = &Excluded{N: ex.N, Files: ex.Files}
+		}
+		all.Rows += ex.Rows
+		all.Words += ex.Words
+		all.Longest = max(all.Longest, ex.Longest)
+		for r, hit := range h {
+			hits[s.base[i]+r] = hit
+		}
+	}
+	return all, hits, nil
+}
+
+// sameChecks reports whether a and b checked rows against files of the same content, in the same
+// order, at the same n-gram length; the files' paths may differ.
+func sameChecks(a, b *Excluded) bool {
+	return a.N == b.N && slices.EqualFunc(a.Files, b.Files, func(x, y ExcludedFile) bool { return x.SHA256 == y.SHA256 })
 }

@@ -42,9 +42,13 @@ func TestSetDupsMatchBuild(t *testing.T) {
 		t0 := setFiles(t, 8)
 		pools["T0"] = append(t0, t0[1], t0[6])
 	}
+	// Evaluation rows from the pool, so that the set's joined list of contaminated rows is checked
+	// too, against one build's.
+	eval := filepath.Join(dir, "eval.jsonl")
+	os.WriteFile(eval, bytes.Join(lines[1700:1720], nil), 0o644)
 	rng := rand.New(rand.NewPCG(3, 4))
 	for name, files := range pools {
-		opt := Options{Text: "prompt,completion", Workers: 2}
+		opt := Options{Text: "prompt,completion", Workers: 2, Exclude: []string{eval}, ExcludeN: 4}
 		one := buildOne(t, files, opt)
 		if d := one.Meta().Dups; d == nil || d.ExactDuplicates == 0 || d.Duplicates <= d.ExactDuplicates {
 			t.Fatalf("%s: the pool should hold exact and near duplicates: %+v", name, d)
@@ -74,6 +78,11 @@ func TestSetDupsMatchBuild(t *testing.T) {
 				}
 				if want := one.Meta().Dups; !reflect.DeepEqual(got, want) {
 					t.Fatalf("set's duplicates\n%+v\n%+v\none build's\n%+v\n%+v", got, *got.KeyWork, want, *want.KeyWork)
+				}
+				ex1, hits1, err1 := one.Contamination()
+				ex2, hits2, err2 := set.Contamination()
+				if err1 != nil || err2 != nil || ex1 == nil || name == "made-up" && ex1.Rows == 0 || !reflect.DeepEqual(ex1, ex2) || !reflect.DeepEqual(hits1, hits2) {
+					t.Fatalf("contaminated rows: one build %+v (%d rows listed, %v), the set %+v (%d, %v)", ex1, len(hits1), err1, ex2, len(hits2), err2)
 				}
 				for r := range one.NumRows() {
 					a, _ := one.DupFirst(r)
