@@ -107,7 +107,8 @@ func (b *builder) addContam(o *batchOut, base int64, w *fileWriter) error {
 // nil, nil, nil for an index built without --exclude. A set returns its segments' lists joined, as
 // one build of all their files would have found them (a row's check looks at that row alone), when
 // every segment was checked against files of the same content, in the same order, at the same
-// n-gram length; else nil, nil, nil, as does one segment opened as a shard.
+// n-gram length; else nil, nil, nil. One segment opened as a shard (OpenShard) returns its own
+// list when the set would join them.
 func (ix *Index) Contamination() (*Excluded, map[int]decontam.Hit, error) {
 	if ix.set != nil {
 		return ix.set.contamination()
@@ -138,10 +139,17 @@ func (ix *Index) Contamination() (*Excluded, map[int]decontam.Hit, error) {
 	return ex, hits, nil
 }
 
-// contamination joins the segments' lists (see Contamination).
+// contamination joins the segments' lists (see Contamination). One segment opened as a shard
+// returns its own list, rows numbered from its first, when every segment's meta.json says the set
+// would join theirs.
 func (s *segSet) contamination() (*Excluded, map[int]decontam.Hit, error) {
 	if s.only >= 0 {
-		return nil, nil, nil
+		for _, g := range s.segs {
+			if x := g.meta.Excluded; x == nil || !sameChecks(s.segs[0].meta.Excluded, x) {
+				return nil, nil, nil
+			}
+		}
+		return s.segs[s.only].Contamination()
 	}
 	var all *Excluded
 	hits := map[int]decontam.Hit{}

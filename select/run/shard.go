@@ -151,10 +151,12 @@ type shardFile struct {
 	// With --exclude: the words of the shard's rows checked against the evaluation files, the most
 	// words one row had, and the rows found contaminated (listed in contamFile). Matched and Lowest leave those rows out, as
 	// a relative --min-score does.
-	EvalWords    int64             `json:"eval_words,omitempty"`
-	Longest      int               `json:"longest,omitempty"`
-	Contaminated int               `json:"contaminated,omitempty"`
-	Files        map[string]string `json:"files"` // SHA-256 of each other file
+	EvalWords    int64 `json:"eval_words,omitempty"`
+	Longest      int   `json:"longest,omitempty"`
+	Contaminated int   `json:"contaminated,omitempty"`
+	// EvalBuilt says the rows were checked when the segment was built (index.Contamination).
+	EvalBuilt bool              `json:"eval_built,omitempty"`
+	Files     map[string]string `json:"files"` // SHA-256 of each other file
 }
 
 // startStep checks what every step checks before it reads anything of the work folder: that opt
@@ -266,6 +268,7 @@ func ScoreShard(ctx context.Context, opt Options, work string, shard int) (*Shar
 	fills := []workFill{{rankingFile, p.writeRanking}, {shardRows, p.writeShardRows}, {RejectedFile, p.writeRejected}}
 	if p.guards != nil {
 		sf.EvalWords, sf.Longest, sf.Contaminated = p.guards.evalWork, p.guards.longest, len(p.guards.contam)
+		sf.EvalBuilt = p.guards.evalBuilt != nil
 		fills = append(fills, workFill{contamFile, p.writeContam})
 	}
 	for r, s := range p.scores {

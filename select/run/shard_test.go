@@ -21,6 +21,12 @@ import (
 // first and last shards tie on every score, and the tie must go to the lower row.
 func t0Set(t *testing.T, dir string, files []string, cuts []int) string {
 	t.Helper()
+	return t0SetWith(t, dir, files, cuts, index.Options{Text: "prompt,completion", NoDups: true})
+}
+
+// t0SetWith is t0Set with segments built with opt.
+func t0SetWith(t *testing.T, dir string, files []string, cuts []int, opt index.Options) string {
+	t.Helper()
 	b, err := os.ReadFile(files[0])
 	if err != nil {
 		t.Fatal(err)
@@ -37,7 +43,7 @@ func t0Set(t *testing.T, dir string, files []string, cuts []int) string {
 		if to == len(files) {
 			part = append(part, again)
 		}
-		if _, err := index.Build(context.Background(), seg, part, index.Options{Text: "prompt,completion", NoDups: true}); err != nil {
+		if _, err := index.Build(context.Background(), seg, part, opt); err != nil {
 			t.Fatal(err)
 		}
 		segs, from = append(segs, seg), to
@@ -213,6 +219,31 @@ func TestShardedPickMatchesPick(t *testing.T) {
 			}
 		})
 	}
+}
+
+// TestShardedPickTakesBuiltEval builds the segments with --exclude: the pick over the set then
+// takes their lists of evaluation rows and reads no text, and so must the sharded pick's steps,
+// byte for byte; the ledger says the build checked the rows.
+func TestShardedPickTakesBuiltEval(t *testing.T) {
+	files, target := t0Files(t, 14)
+	evals := []string{t0Eval(t, files[3], 50), t0Eval(t, files[11], 200)}
+	dir := t.TempDir()
+	set := t0SetWith(t, dir, files, []int{5, 9}, index.Options{Text: "prompt,completion", NoDups: true, Exclude: evals})
+	opt := shardConfigs(set, target, evals...)["bm25-exclude"]
+	one := opt
+	one.Out = filepath.Join(dir, "one")
+	res, err := Pick(context.Background(), one)
+	if err != nil {
+		t.Fatal(err)
+	}
+	if res.Dropped["contaminated"] == 0 || !strings.Contains(strings.Join(res.Ledger.Notes, "\n"), "evaluation rows were checked when the index was built") {
+		t.Fatalf("the pick over the set did not take its segments' lists: dropped %v, notes %q", res.Dropped, res.Ledger.Notes)
+	}
+	opt.Out = filepath.Join(dir, "sharded")
+	if err := shardedPick(t, opt, filepath.Join(dir, "work"), 3); err != nil {
+		t.Fatal(err)
+	}
+	sameRun(t, "segments built with --exclude", one.Out, opt.Out)
 }
 
 // sameRun compares two run folders: every file byte for byte, the manifest without its command.

@@ -12,6 +12,7 @@ import (
 	"os"
 	"path/filepath"
 
+	"sluice/index"
 	"sluice/index/decontam"
 	selection "sluice/select"
 )
@@ -33,6 +34,16 @@ type contamLine struct {
 func (p *picked) checkEval(ctx context.Context) error {
 	g := p.opt.Guards
 	if len(g.Exclude) == 0 {
+		return nil
+	}
+	ex, hits, err := p.indexExcluded()
+	if err != nil {
+		return err
+	}
+	if ex != nil {
+		// Every segment was checked against these files when it was built, as the pick over the set
+		// would find: the shard takes its segment's list and reads no text.
+		p.guards = &guarded{contam: hits, evalFiles: g.Exclude, evalWork: ex.Words, longest: ex.Longest, evalBuilt: ex}
 		return nil
 	}
 	set, err := evalSet(g.Exclude, g.ExcludeN)
@@ -116,13 +127,25 @@ func (p *picked) cutGuards(work string, heads []*shardFile) error {
 		return nil
 	}
 	gd := &guarded{contam: map[int]decontam.Hit{}, evalFiles: ex}
+	built := 0
 	for _, sf := range heads {
 		gd.evalWork += sf.EvalWords
 		gd.longest = max(gd.longest, sf.Longest)
+		if sf.EvalBuilt {
+			built++
+		}
 		err := readContam(work, sf, len(ex), func(r int, _ decontam.Hit) { gd.contam[sf.FirstRow+r] = decontam.Hit{} })
 		if err != nil {
 			return err
 		}
+	}
+	switch built {
+	case len(heads):
+		// The set's own list, joined: the pick over it charges nothing and notes the build's words.
+		gd.evalBuilt = &index.Excluded{N: orDefaultInt(p.opt.Guards.ExcludeN, DefaultExcludeN), Rows: int64(len(gd.contam)), Words: gd.evalWork, Longest: gd.longest}
+	case 0:
+	default:
+		return workErrorf("%d of %d shards took their segments' lists of evaluation rows and the others checked their rows: score them all again with this sluice", built, len(heads))
 	}
 	p.guards = gd
 	p.chargeGuards()
