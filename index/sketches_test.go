@@ -214,3 +214,38 @@ func TestSketchesCheckedWhenRead(t *testing.T) {
 		t.Fatalf("a set over a damaged sketches file: %v, want ErrDamaged naming it", err)
 	}
 }
+
+// BenchmarkSetDuplicates finds the duplicates of the T0 files cut into four segments from their
+// sketches, opening the set afresh each time as a pick does, and reports rows/s; it skips without
+// ../shared/data.
+func BenchmarkSetDuplicates(b *testing.B) {
+	files, _ := sharedPool(b)
+	dir := b.TempDir()
+	var segs []string
+	for i := range 4 {
+		seg := filepath.Join(dir, fmt.Sprintf("seg%d", i))
+		part := files[i*len(files)/4 : (i+1)*len(files)/4]
+		if _, err := Build(context.Background(), seg, part, Options{Text: "prompt,completion"}); err != nil {
+			b.Fatal(err)
+		}
+		segs = append(segs, seg)
+	}
+	set := filepath.Join(dir, "pool.set")
+	if _, err := WriteSet(set, segs, false); err != nil {
+		b.Fatal(err)
+	}
+	rows := 0
+	b.ResetTimer()
+	for range b.N {
+		ix, err := Open(set)
+		if err != nil {
+			b.Fatal(err)
+		}
+		if d, err := ix.Duplicates(); d == nil || err != nil {
+			b.Fatalf("no duplicates found: %v", err)
+		}
+		rows = ix.NumRows()
+		ix.Close()
+	}
+	b.ReportMetric(float64(b.N*rows)/b.Elapsed().Seconds(), "rows/s")
+}
