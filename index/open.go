@@ -1,6 +1,7 @@
 package index
 
 import (
+	"context"
 	"encoding/binary"
 	"fmt"
 	"hash/crc32"
@@ -297,8 +298,9 @@ func (ix *Index) DupFirst(row int) (int, bool) {
 // their stored keys and sketches and with no text read, as one build of all their files would
 // find them (the same clusters, counts and work; DupFirst then answers from them), and returns nil
 // when a segment stored none, found them at other settings, or predates the sketches file; it
-// holds what a build's duplicate finder holds, and 4 bytes a row.
-func (ix *Index) Duplicates() (*Dups, error) {
+// holds what a build's duplicate finder holds, and 4 bytes a row. It stops when ctx is done; the
+// first call's context governs, and a stopped search answers every later call with its error.
+func (ix *Index) Duplicates(ctx context.Context) (*Dups, error) {
 	s := ix.set
 	if s == nil {
 		return ix.meta.Dups, nil
@@ -309,7 +311,7 @@ func (ix *Index) Duplicates() (*Dups, error) {
 	s.dupsOnce.Do(func() {
 		var d *Dups
 		var firsts []uint32
-		if d, firsts, s.dupsErr = s.findDups(); s.dupsErr == nil {
+		if d, firsts, s.dupsErr = s.findDups(ctx); s.dupsErr == nil {
 			s.dups, s.firsts = d, firsts
 		}
 	})

@@ -1,6 +1,7 @@
 package index
 
 import (
+	"context"
 	"encoding/binary"
 	"fmt"
 	"hash/crc32"
@@ -146,7 +147,7 @@ func (s *segSet) canReplay() bool {
 // those of that build (TestSetDupsMatchBuild); the joins come first, in a pass of their own, since
 // a cluster's first row does not depend on the order of joins, so the Bulk is sized once for the
 // rows that reach it.
-func (s *segSet) findDups() (*Dups, []uint32, error) {
+func (s *segSet) findDups(ctx context.Context) (*Dups, []uint32, error) {
 	d0 := s.segs[0].meta.Dups
 	bulk, err := dedup.NewBulk(d0.Params())
 	if err != nil {
@@ -162,6 +163,9 @@ func (s *segSet) findDups() (*Dups, []uint32, error) {
 		for i, g := range s.segs {
 			keyWork = keyWork.Plus(*g.meta.Dups.KeyWork)
 			for r := range g.NumRows() {
+				if r%(1<<16) == 0 && ctx.Err() != nil {
+					return nil, nil, fmt.Errorf("index set: duplicates: %w", ctx.Err())
+				}
 				row := s.base[i] + r
 				key, _ := g.DupKey(r)
 				first, err := exact.Add(row, key)
@@ -209,6 +213,9 @@ func (s *segSet) findDups() (*Dups, []uint32, error) {
 	d.KeyWork = &kw
 	// The Bulk reads the marks where they are mapped: fewer faults than a copy, since the kernel maps
 	// a file's pages several at a time; the pages go once it is done.
+	if err := ctx.Err(); err != nil {
+		return nil, nil, fmt.Errorf("index set: duplicates: %w", err)
+	}
 	found, err := bulk.Find(&cl)
 	for _, g := range s.segs {
 		g.dropSketchPages()

@@ -72,7 +72,7 @@ func TestSetDupsMatchBuild(t *testing.T) {
 					t.Fatal(err)
 				}
 				defer set.Close()
-				got, err := set.Duplicates()
+				got, err := set.Duplicates(context.Background())
 				if err != nil || got == nil {
 					t.Fatalf("set's duplicates: %+v, %v", got, err)
 				}
@@ -116,7 +116,7 @@ func TestSetDupsNeedSketches(t *testing.T) {
 		t.Fatal(err)
 	}
 	defer ix.Close()
-	if d, err := ix.Duplicates(); d != nil || err != nil {
+	if d, err := ix.Duplicates(context.Background()); d != nil || err != nil {
 		t.Fatalf("a set with a segment without duplicates: %+v, %v; want nil", d, err)
 	}
 	if _, ok := ix.DupFirst(0); ok {
@@ -173,7 +173,7 @@ func FuzzSetSketches(f *testing.F) {
 			return
 		}
 		defer ix.Close()
-		if _, err := ix.Duplicates(); err != nil && !errors.Is(err, ErrDamaged) {
+		if _, err := ix.Duplicates(context.Background()); err != nil && !errors.Is(err, ErrDamaged) {
 			t.Fatalf("duplicates: %v, want ErrDamaged or none", err)
 		}
 		for r := range ix.NumRows() {
@@ -210,7 +210,7 @@ func TestSketchesCheckedWhenRead(t *testing.T) {
 		t.Fatal(err)
 	}
 	defer ix.Close()
-	if _, err := ix.Duplicates(); !errors.Is(err, ErrDamaged) || !strings.Contains(err.Error(), "sketches checksum") {
+	if _, err := ix.Duplicates(context.Background()); !errors.Is(err, ErrDamaged) || !strings.Contains(err.Error(), "sketches checksum") {
 		t.Fatalf("a set over a damaged sketches file: %v, want ErrDamaged naming it", err)
 	}
 }
@@ -241,11 +241,42 @@ func BenchmarkSetDuplicates(b *testing.B) {
 		if err != nil {
 			b.Fatal(err)
 		}
-		if d, err := ix.Duplicates(); d == nil || err != nil {
+		if d, err := ix.Duplicates(context.Background()); d == nil || err != nil {
 			b.Fatalf("no duplicates found: %v", err)
 		}
 		rows = ix.NumRows()
 		ix.Close()
 	}
 	b.ReportMetric(float64(b.N*rows)/b.Elapsed().Seconds(), "rows/s")
+}
+
+// TestSetDupsStop asks a set for its duplicates with a context already done: the search stops with
+// the context's error, and later calls give it again.
+func TestSetDupsStop(t *testing.T) {
+	pool := testPool(t, 300)
+	dir := t.TempDir()
+	var segs []string
+	for _, name := range []string{"a", "b"} {
+		seg := filepath.Join(dir, name)
+		if _, err := Build(context.Background(), seg, []string{pool}, Options{}); err != nil {
+			t.Fatal(err)
+		}
+		segs = append(segs, seg)
+	}
+	set := filepath.Join(dir, "pool.set")
+	if _, err := WriteSet(set, segs, true); err != nil {
+		t.Fatal(err)
+	}
+	ix, err := Open(set)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer ix.Close()
+	ctx, cancel := context.WithCancel(context.Background())
+	cancel()
+	for range 2 {
+		if d, err := ix.Duplicates(ctx); d != nil || !errors.Is(err, context.Canceled) {
+			t.Fatalf("a stopped search: %+v, %v; want context.Canceled", d, err)
+		}
+	}
 }

@@ -93,7 +93,7 @@ func (p *picked) guard(ctx context.Context) error {
 	var det *dedup.Detector
 	var exact dedup.Exact
 	targetKeys := p.targetKeys()
-	d, err := p.indexDups()
+	d, err := p.indexDups(ctx)
 	if err != nil {
 		return err
 	}
@@ -217,11 +217,11 @@ func (p *picked) indexExcluded() (*index.Excluded, map[int]decontam.Hit, error) 
 // find them (dedup.ForThreshold of its --near-dup), and nil when the pick must find them itself: it
 // keeps duplicates, or the index was built without them, before them, at another threshold or by
 // another version of dedup. A set finds them across its segments from what they stored.
-func (p *picked) indexDups() (*index.Dups, error) {
+func (p *picked) indexDups(ctx context.Context) (*index.Dups, error) {
 	if !p.takesDups(p.ix.DupSettings()) {
 		return nil, nil // a set's would be found at other settings: none of its work is wasted
 	}
-	d, err := p.ix.Duplicates()
+	d, err := p.ix.Duplicates(ctx)
 	if err != nil {
 		return nil, fmt.Errorf("look for duplicates: %w", err)
 	}

@@ -247,7 +247,7 @@ func (p *picked) one(ctx context.Context) error {
 		// core while the rows are scored. The guard takes the result (or the error) when it asks;
 		// the pick waits for it before it returns, since the index is closed after.
 		done := make(chan struct{})
-		go func() { defer close(done); _, _ = p.ix.Duplicates() }()
+		go func() { defer close(done); _, _ = p.ix.Duplicates(ctx) }()
 		defer func() { <-done }()
 	}
 	if err := p.score(ctx); err != nil {
