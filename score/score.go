@@ -158,6 +158,22 @@ func DefaultParams() Params {
 	return Params{Method: BM25, Aggregate: Sum, K1: 1.2, B: 1}
 }
 
+// MaxK1 bounds BM25's saturation: far past any useful value (0.5 to 3 are usual), and low enough
+// that no score overflows.
+const MaxK1 = 1000
+
+// CheckK1B refuses a k1 outside [0, MaxK1] or a b outside [0, 1], the error starting with the
+// parameter's name, as a command line's flag would.
+func (p Params) CheckK1B() error {
+	if !(p.K1 >= 0 && p.K1 <= MaxK1) {
+		return fmt.Errorf("k1 %v: give 0 to %g (1.2 is usual)", p.K1, float64(MaxK1))
+	}
+	if !(p.B >= 0 && p.B <= 1) {
+		return fmt.Errorf("b %v: must be between 0 and 1", p.B)
+	}
+	return nil
+}
+
 // Validate reports whether p names a known method and aggregate and has
 // finite k1 ≥ 0, 0 ≤ b ≤ 1 and Workers ≥ 0.
 func (p Params) Validate() error {

@@ -148,19 +148,32 @@ func runCommand(ctx context.Context, c command, args []string, e *env) int {
 		if a == "--" {
 			break
 		}
-		if a == "-h" || a == "--help" {
-			// Help asked for is output, on stdout, and a success.
+		if a == "-h" || a == "--help" { // help asked for is output, on stdout, and a success
 			fs.SetOutput(e.stdout)
 		}
 	}
-	if err := fs.Parse(args); err != nil {
-		if errors.Is(err, pflag.ErrHelp) {
-			return 0
+	// A flag of one value given twice would take the last silently: --index A --index B, say.
+	given, twice := map[string]bool{}, ""
+	err := fs.ParseAll(args, func(f *pflag.Flag, v string) error {
+		if t := f.Value.Type(); given[f.Name] && t != "bool" && !strings.HasSuffix(t, "Array") {
+			twice = f.Name
 		}
+		given[f.Name] = true
+		return fs.Set(f.Name, v)
+	})
+	if errors.Is(err, pflag.ErrHelp) {
+		return 0
+	} else if err == nil && twice != "" {
+		err = fmt.Errorf("--%s is given more than once; it takes one value", twice)
+		if twice == "index" {
+			err = fmt.Errorf("%w (name several indexes as one set with 'sluice segments' and give that)", err)
+		}
+	}
+	if err != nil {
 		fmt.Fprintf(e.stderr, "sluice %s: %v\nRun 'sluice %s --help' for usage.\n", name, err, name)
 		return 2
 	}
-	err := c.run(ctx, e, fs)
+	err = c.run(ctx, e, fs)
 	var ue *usageError
 	switch {
 	case err == nil:

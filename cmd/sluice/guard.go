@@ -11,16 +11,10 @@ import (
 func guardFlags(fs *pflag.FlagSet, g *run.Guards) error {
 	g.KeepDuplicates, _ = fs.GetBool("keep-duplicates")
 	g.NearDup, _ = fs.GetFloat64("near-dup")
-	if !(g.NearDup > 0 && g.NearDup <= 1) {
-		return usagef("--near-dup %v: give a Jaccard similarity above 0 and at most 1", g.NearDup)
-	}
-	if g.KeepDuplicates && fs.Changed("near-dup") {
-		return usagef("--near-dup has no use with --keep-duplicates")
-	}
 	g.Exclude, _ = fs.GetStringArray("exclude")
 	g.ExcludeN, _ = fs.GetInt("exclude-ngram")
-	if g.ExcludeN < 1 || g.ExcludeN > 1000 {
-		return usagef("--exclude-ngram %d: give 1 to 1000 words", g.ExcludeN)
+	if err := g.Check(fs.Changed("near-dup")); err != nil {
+		return usagef("%v", err)
 	}
 	shares, _ := fs.GetStringArray("max-share")
 	var err error

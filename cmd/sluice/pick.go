@@ -56,8 +56,7 @@ func pick(ctx context.Context, e *env, opt run.Options, quiet bool) (*run.Result
 	opt.Version = version()
 	started := time.Now()
 	if opt.MaxMem > 0 {
-		// The collector works harder near the bound rather than pass it; the old limit is restored
-		// for whatever the process does next (a plan runs several picks).
+		// The collector works harder near the bound rather than pass it; the old limit is restored after.
 		defer debug.SetMemoryLimit(debug.SetMemoryLimit(opt.MaxMem))
 	}
 	bar := newProgress(e, quiet, 0, "scoring rows")
@@ -188,10 +187,6 @@ func pickInputs(fs *pflag.FlagSet, pilots bool) (run.Options, error) {
 	return opt, nil
 }
 
-// maxK1 bounds BM25's saturation: far past any useful value (0.5 to 3 are usual), and low enough
-// that no score overflows.
-const maxK1 = 1000
-
 // scoreParams resolves the scoring flags.
 func scoreParams(fs *pflag.FlagSet) (score.Params, error) {
 	str := func(n string) string { v, _ := fs.GetString(n); return v }
@@ -213,11 +208,8 @@ func scoreParams(fs *pflag.FlagSet) (score.Params, error) {
 	if attr, _ := fs.GetBool("attribute"); !attr && p.Aggregate == score.Sum {
 		p.SkipBest = true
 	}
-	if !(p.K1 >= 0 && p.K1 <= maxK1) {
-		return p, usagef("--k1 %v: give 0 to %g (1.2 is usual)", p.K1, float64(maxK1))
-	}
-	if !(p.B >= 0 && p.B <= 1) {
-		return p, usagef("--b %v: must be between 0 and 1", p.B)
+	if err := p.CheckK1B(); err != nil {
+		return p, usagef("--%v", err)
 	}
 	if p.CacheBytes, err = budget.ParseBound(str("mem"), 1<<20); err != nil {
 		return p, usagef("--mem: %v", err)

@@ -6,6 +6,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"slices"
 	"strconv"
 	"strings"
 	"testing"
@@ -68,6 +69,12 @@ func TestPlanDemo(t *testing.T) {
 func TestPlanUsageErrors(t *testing.T) {
 	out := t.TempDir()
 	base := []string{"plan", "--pilots", demoPilots, "--pool-tokens", "4B", "--train-params", "1B", "--out", out}
+	// with is base with flag's value replaced: a flag given twice is refused as such.
+	with := func(flag, v string) []string {
+		args := slices.Clone(base)
+		args[slices.Index(args, flag)+1] = v
+		return args
+	}
 	tests := []struct {
 		name string
 		args []string
@@ -75,17 +82,17 @@ func TestPlanUsageErrors(t *testing.T) {
 		say  string
 	}{
 		{"no pilots", []string{"plan", "--pool-tokens", "4B", "--train-params", "1B", "--out", out}, 2, "--pilots is required"},
-		{"bad pool", append(append([]string{}, base...), "--pool-tokens", "lots"), 2, "--pool-tokens"},
+		{"bad pool", with("--pool-tokens", "lots"), 2, "--pool-tokens"},
 		{"bad budgets", append(append([]string{}, base...), "--budgets", "1e20"), 2, "LO:HI"},
 		{"reversed budgets", append(append([]string{}, base...), "--budgets", "1e20:1e19"), 2, "HI must be"},
 		{"zero epochs", append(append([]string{}, base...), "--epochs", "0"), 2, "--epochs"},
-		{"other model size", append(append([]string{}, base...), "--train-params", "7B"), 1, "no pilots on a 7B-parameter model"},
+		{"other model size", with("--train-params", "7B"), 1, "no pilots on a 7B-parameter model"},
 		{"pilots and simulate", append(append([]string{}, base...), "--simulate", "a=lexical,0,0.5,1", "--p0", "0.4"), 2, "not both"},
 		{"simulate without p0", []string{"plan", "--simulate", "a=lexical,0,0.5,1", "--pool-tokens", "4B", "--train-params", "1B", "--out", out}, 2, "--p0"},
 		{"simulate bad spec", []string{"plan", "--simulate", "a=lexical,0,0.5", "--p0", "0.4", "--pool-tokens", "4B", "--train-params", "1B", "--out", out}, 2, "METHOD=COST"},
 		{"simulate zero rate", []string{"plan", "--simulate", "a=lexical,0,0.5,0", "--p0", "0.4", "--pool-tokens", "4B", "--train-params", "1B", "--out", out}, 2, "LAMBDA"},
 		{"simulate no selector", []string{"plan", "--simulate", "a=forward,0,0.5,1", "--p0", "0.4", "--pool-tokens", "4B", "--train-params", "1B", "--out", out}, 2, "selector size 0"},
-		{"missing file", append(append([]string{}, base...), "--pilots", "nope.csv"), 1, "nope.csv"},
+		{"missing file", with("--pilots", "nope.csv"), 1, "nope.csv"},
 	}
 	for _, tt := range tests {
 		code, _, stderr := sluice(t, tt.args...)

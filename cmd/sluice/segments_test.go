@@ -160,3 +160,24 @@ func TestIndexFromSetKeepsInputs(t *testing.T) {
 		t.Error("the set file was replaced")
 	}
 }
+
+// TestFlagGivenTwice checks that a flag of one value given twice is refused, not taken at its last
+// value: --index A --index B would otherwise pick over B alone.
+func TestFlagGivenTwice(t *testing.T) {
+	for _, tc := range []struct {
+		args []string
+		says string
+	}{
+		{[]string{"pick", "--index", "a", "--index=b", "--target", "t", "--budget", "1", "--train-params", "1", "--out", "o"}, "--index is given more than once; it takes one value (name several indexes as one set with 'sluice segments'"},
+		{[]string{"pick", "--index", "a", "--target", "t", "--budget", "1", "--budget", "2", "--train-params", "1", "--out", "o"}, "--budget is given more than once"},
+		{[]string{"why", "--run", "r", "--run", "s", "row"}, "--run is given more than once"},
+	} {
+		if code, _, stderr := sluice(t, tc.args...); code != 2 || !strings.Contains(stderr, tc.says) {
+			t.Errorf("%v: exit %d, %s; want 2 saying %q", tc.args, code, stderr, tc.says)
+		}
+	}
+	// Flags that take many values, and switches, may be repeated.
+	if code, _, stderr := sluice(t, "pick", "--quiet", "--quiet", "--exclude", "a", "--exclude", "b", "--help"); code != 0 {
+		t.Errorf("repeated switches and lists: exit %d: %s", code, stderr)
+	}
+}

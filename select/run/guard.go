@@ -33,6 +33,20 @@ type Guards struct {
 	MaxShare map[string]float64 `json:"max_share,omitempty"`
 }
 
+// Check refuses guards that cannot be, each error naming its flag: a threshold outside (0, 1], an
+// n-gram length outside [1, 1000] words, and a threshold given (nearDupGiven) with duplicates kept.
+func (g Guards) Check(nearDupGiven bool) error {
+	switch {
+	case !(g.NearDup > 0 && g.NearDup <= 1):
+		return fmt.Errorf("--near-dup %v: give a Jaccard similarity above 0 and at most 1", g.NearDup)
+	case g.KeepDuplicates && nearDupGiven:
+		return fmt.Errorf("--near-dup has no use with --keep-duplicates")
+	case g.ExcludeN < 1 || g.ExcludeN > 1000:
+		return fmt.Errorf("--exclude-ngram %d: give 1 to 1000 words", g.ExcludeN)
+	}
+	return nil
+}
+
 // DefaultNearDup is the near-duplicate threshold unless told otherwise.
 const DefaultNearDup = 0.8
 
