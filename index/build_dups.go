@@ -6,7 +6,6 @@ import (
 	"fmt"
 	"hash/maphash"
 	"io"
-	"math/bits"
 	"os"
 	"slices"
 	"sync"
@@ -89,7 +88,7 @@ func newDupFinder(t float64, wd workDir, keys string) (*dupFinder, error) {
 
 func (f *dupFinder) abort() {
 	f.keys.abort()
-	f.sk.w.abort()
+	f.sk.abort()
 }
 
 // add takes the rows of one batch, numbered from base: a key each and, for each row signed, K
@@ -143,7 +142,7 @@ func (f *dupFinder) write(b *builder, rows int64, work dedup.Work) error {
 	if err := f.keys.closeNoSync(); err != nil {
 		return err
 	}
-	if err := f.sk.w.close(); err != nil {
+	if err := f.sk.close(); err != nil {
 		return err
 	}
 	kf, err := os.Open(f.keys.path)
@@ -165,24 +164,16 @@ func (f *dupFinder) write(b *builder, rows int64, work dedup.Work) error {
 	work = work.Plus(f.signWork).Plus(f.det.Work())
 	d.Work, d.FLOPs = work, work.FLOPs()
 	var rec [dupRecSize]byte
-	// A cluster of two rows or more is counted at its first row, marked by the others.
-	firsts := make([]uint64, (rows+63)/64)
+	dups, clusters := dedup.Tally(int(rows), cl.Find)
+	d.Duplicates, d.Clusters = int64(dups), int64(clusters)
 	for r := int64(0); r < rows; r++ {
-		first := cl.Find(int(r))
-		if first != int(r) {
-			d.Duplicates++
-			firsts[first/64] |= 1 << (first % 64)
-		}
-		binary.LittleEndian.PutUint32(rec[:4], uint32(first))
+		binary.LittleEndian.PutUint32(rec[:4], uint32(cl.Find(int(r))))
 		if _, err := io.ReadFull(keys, rec[4:]); err != nil {
 			return fmt.Errorf("build index: read back %s: %w", f.keys.shown, bareErr(err))
 		}
 		if _, err := w.w.Write(rec[:]); err != nil {
 			return w.fail(err)
 		}
-	}
-	for _, m := range firsts {
-		d.Clusters += int64(bits.OnesCount64(m))
 	}
 	b.meta.Dups = d
 	return w.close()

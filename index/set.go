@@ -370,8 +370,11 @@ func (s *segSet) rowNorm(row int, n int64) float64 {
 // numbered from base; n is the set's row count.
 func (s *segSet) sumNorms(half int, acc []float64, base []int, n int64) error {
 	var rows, tfs []uint32
-	return s.terms(func(term []byte, in []int, ents []termEntry) error {
-		if (string(term) >= mergeSplit) != (half == 1) {
+	err := s.terms(func(term []byte, in []int, ents []termEntry) error {
+		switch from := string(term) >= mergeSplit; {
+		case from && half == 0:
+			return errHalfDone // terms come in byte order: the rest are the other half's
+		case !from && half == 1:
 			return nil
 		}
 		var df uint64
@@ -395,7 +398,14 @@ func (s *segSet) sumNorms(half int, acc []float64, base []int, n int64) error {
 		}
 		return nil
 	})
+	if errors.Is(err, errHalfDone) {
+		return nil
+	}
+	return err
 }
+
+// errHalfDone stops the first half's walk of the terms at mergeSplit.
+var errHalfDone = errors.New("half done")
 
 // postings appends term's postings from every segment, rows renumbered into the set's.
 func (s *segSet) postings(term string, rows, tfs []uint32) ([]uint32, []uint32, error) {

@@ -5,7 +5,6 @@ import (
 	"encoding/binary"
 	"fmt"
 	"hash/crc32"
-	"math/bits"
 	"syscall"
 
 	"sluice/index/dedup"
@@ -59,6 +58,9 @@ func (s *sketchWriter) write(row int, sig dedup.Signature, w dedup.Work) ([]byte
 	return s.marks, s.w.write(rec)
 }
 
+func (s *sketchWriter) close() error { return s.w.close() }
+func (s *sketchWriter) abort()       { s.w.abort() }
+
 // sketchRec is one record of a sketches file.
 type sketchRec struct {
 	row   int
@@ -72,8 +74,6 @@ type sketchReader struct {
 	b    []byte
 	size int
 	last int
-	// records counts the records read.
-	records int
 }
 
 func (ix *Index) sketchReader(marksLen int) sketchReader {
@@ -115,7 +115,6 @@ func (r *sketchReader) next() (rec sketchRec, ok bool, err error) {
 		return rec, false, fmt.Errorf("index %s: %s: row %d after row %d of %d: %w", r.ix.dir, sketchesFile, rec.row, r.last, r.ix.NumRows(), ErrDamaged)
 	}
 	r.last = rec.row
-	r.records++
 	rec.work = dedup.Work{
 		Bytes:        int64(binary.LittleEndian.Uint64(b[8:])),
 		ShingleWords: int64(binary.LittleEndian.Uint64(b[16:])),
@@ -202,11 +201,6 @@ func (s *segSet) findDups(ctx context.Context) (*Dups, []uint32, error) {
 				}
 			}
 		}
-		// A row first of its key in the set is first in its segment, one of the rows with a record;
-		// Open held the file's size to their count, and this holds the records read to it.
-		if rd.records != g.NumRows()-int(g.meta.Dups.ExactDuplicates) {
-			return nil, nil, fmt.Errorf("index %s: %s holds %d records for %d rows first of their key: %w", g.dir, sketchesFile, rd.records, g.NumRows()-int(g.meta.Dups.ExactDuplicates), ErrDamaged)
-		}
 	}
 	d := &Dups{Threshold: d0.Threshold, Shingle: d0.Shingle, Hashes: d0.Hashes, Bands: d0.Bands, Seed: d0.Seed, Version: d0.Version, ExactDuplicates: nexact}
 	kw := keyWork
@@ -226,17 +220,10 @@ func (s *segSet) findDups(ctx context.Context) (*Dups, []uint32, error) {
 	d.Work = keyWork.Plus(signWork).Plus(found)
 	d.FLOPs = d.Work.FLOPs()
 	firsts := make([]uint32, n)
-	marked := make([]uint64, (n+63)/64)
 	for r := range n {
-		f := cl.Find(r)
-		firsts[r] = uint32(f)
-		if f != r {
-			d.Duplicates++
-			marked[f/64] |= 1 << (f % 64)
-		}
+		firsts[r] = uint32(cl.Find(r))
 	}
-	for _, m := range marked {
-		d.Clusters += int64(bits.OnesCount64(m))
-	}
+	dups, clusters := dedup.Tally(n, func(r int) int { return int(firsts[r]) })
+	d.Duplicates, d.Clusters = int64(dups), int64(clusters)
 	return d, firsts, nil
 }

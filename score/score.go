@@ -163,7 +163,9 @@ func DefaultParams() Params {
 const MaxK1 = 1000
 
 // CheckK1B refuses a k1 outside [0, MaxK1] or a b outside [0, 1], the error starting with the
-// parameter's name, as a command line's flag would.
+// parameter's name, as a command line's flag would. It is stricter than Validate, which asks only
+// for a finite k1 and leaves a score that overflows to be refused where it is made: a command line
+// is refused before any work.
 func (p Params) CheckK1B() error {
 	if !(p.K1 >= 0 && p.K1 <= MaxK1) {
 		return fmt.Errorf("k1 %v: give 0 to %g (1.2 is usual)", p.K1, float64(MaxK1))

@@ -65,14 +65,6 @@ func NewDetector(p Params) (*Detector, error) {
 	return &Detector{k: p.Hashes, b: p.Bands, r: p.Hashes / p.Bands, t: p.Threshold, last: -1}, nil
 }
 
-// Reserve makes room for rows more rows with words, so that a caller who knows how many it will
-// add (a set replaying its segments' marks) spares the copies and the garbage of growing.
-func (d *Detector) Reserve(rows int) {
-	d.sketch = slices.Grow(d.sketch, rows*d.k)
-	d.rows = slices.Grow(d.rows, rows)
-	d.buckets.reserve(d.buckets.n + rows*d.b)
-}
-
 // Bands returns the number of bands b and the values per band r.
 func (d *Detector) Bands() (bands, rows int) { return d.b, d.r }
 
@@ -212,7 +204,8 @@ func bandKey(j int, v []uint32) uint64 {
 // already well mixed, to 32-bit values: 12 bytes a slot, the key and then the value
 // (little-endian), side by side so that a probe reads one line of the cache, not two; kept at most
 // 3/4 full. A key's home slot is the high word of key × slots (Lemire's multiply-shift range
-// reduction), so the table may have any number of slots: reserve makes it just large enough.
+// reduction, "A fast alternative to the modulo reduction", 2016, cited from memory), so the table
+// may have any number of slots: reserve makes it just large enough.
 type table struct {
 	slots []byte
 	n     int

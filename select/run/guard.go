@@ -274,16 +274,7 @@ func countGroups(n int, cluster func(int) int) int {
 	if cluster == nil {
 		return 0
 	}
-	marked := make([]uint64, (n+63)/64)
-	groups := 0
-	for r := range n {
-		c := cluster(r)
-		if c == r || marked[c/64]&(1<<(c%64)) != 0 {
-			continue
-		}
-		marked[c/64] |= 1 << (c % 64)
-		groups++
-	}
+	_, groups := dedup.Tally(n, cluster)
 	return groups
 }
 
