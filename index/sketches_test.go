@@ -19,7 +19,9 @@ import (
 // duplicates one build of all their files finds: meta.json's duplicates field for field (counts
 // and work) and every row's cluster. Two pools: a made-up one of a dozen words, dense with exact
 // and near duplicates, cut into six files, and T0 files with two of them repeated (so whole files
-// repeat across segments); each split 1, 2, 3 and all ways and at random places.
+// repeat across segments); each split 1, 2, 3 and all ways and at random places. One build's
+// duplicates are themselves held to dedup run row by row (TestDupsMatchDetector), and dedup's
+// detector to brute-force Jaccard similarities from NumPy (TestDetectorOnFixture).
 func TestSetDupsMatchBuild(t *testing.T) {
 	data, _ := os.ReadFile(testPool(t, 3000))
 	lines := bytes.SplitAfter(data, []byte("\n"))

@@ -296,7 +296,8 @@ func TestAddMarksMatchesAdd(t *testing.T) {
 // TestBulkMatchesDetector gives the same rows, by their marks, to a Detector in order and to a
 // Bulk at once, and asks for the same clusters and work: the rows of testdata/rows.json, rows
 // without words, and each fixture row again at once and far later (so buckets hold several rows
-// and rows meet the same first in several bands), under several thresholds.
+// and rows meet the same first in several bands), under several thresholds. The Detector it is
+// held to is checked against brute-force Jaccard similarities from NumPy in TestDetectorOnFixture.
 func TestBulkMatchesDetector(t *testing.T) {
 	texts, _ := loadFixture(t)
 	texts = append(texts, "", "!!")
