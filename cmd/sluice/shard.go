@@ -15,13 +15,13 @@ type shardCmd struct{}
 
 func (*shardCmd) name() string { return "shard" }
 func (*shardCmd) summary() string {
-	return "pick over an index set in steps, a machine per segment: score, cut, write, join"
+	return "pick over an index set in steps, a machine per segment: score, dups, cut, write, join"
 }
 
 func (*shardCmd) flags() *pflag.FlagSet {
 	fs := newFlags("shard")
 	fs.String("work", "", "folder the steps share, seen by every machine (required)")
-	fs.Int("shard", -1, "score, write: the segment of the set this step takes, from 0")
+	fs.Int("shard", -1, "score, dups, write: the segment (dups: the part of the keys) this step takes, from 0")
 	return addPickFlags(fs)
 }
 

@@ -30,7 +30,7 @@ func TestShardFromCommandLine(t *testing.T) {
 	var segs []string
 	for i, part := range [][]string{pool[:3], pool[3:4], pool[4:]} {
 		seg := filepath.Join(dir, "seg"+strconv.Itoa(i))
-		if code, _, stderr := sluice(t, append([]string{"index", "--quiet", "--no-dups", "--text", "prompt,completion", "--out", seg}, part...)...); code != 0 {
+		if code, _, stderr := sluice(t, append([]string{"index", "--quiet", "--text", "prompt,completion", "--out", seg}, part...)...); code != 0 {
 			t.Fatal(stderr)
 		}
 		segs = append(segs, seg)
@@ -47,7 +47,7 @@ func TestShardFromCommandLine(t *testing.T) {
 	}
 	os.WriteFile(eval, []byte(strings.Join(evalRows, "")), 0o644)
 	var work string
-	for _, guard := range [][]string{nil, {"--exclude", eval, "--exclude-ngram", "10"}} {
+	for _, guard := range [][]string{{"--keep-duplicates"}, {"--exclude", eval, "--exclude-ngram", "10"}} {
 		work = shardCase(t, dir, set, target, guard)
 	}
 	flags := func(out string, extra ...string) []string {
@@ -63,9 +63,9 @@ func TestShardFromCommandLine(t *testing.T) {
 		return stdout + stderr
 	}
 	code, _, stderr := sluice(t, "shard", "score", "--shard", "0", "--work", work, "--index", set, "--target", target,
-		"--budget", "3e16", "--train-params", "1e9", "--out", filepath.Join(dir, "x"))
-	if code != 2 || !strings.Contains(stderr, "--keep-duplicates") {
-		t.Errorf("a sharded pick with the duplicate guard: exit %d: %s", code, stderr)
+		"--budget", "3e16", "--train-params", "1e9", "--near-dup", "0.7", "--out", filepath.Join(dir, "x"))
+	if code != 2 || !strings.Contains(stderr, "--near-dup 0.7") || !strings.Contains(stderr, "--keep-duplicates") {
+		t.Errorf("a sharded pick finding duplicates at settings the segments did not store: exit %d: %s", code, stderr)
 	}
 	if out := step(2, "cut", "--shard", "1", "--work", work); !strings.Contains(out, "drop --shard") {
 		t.Errorf("a cut given --shard: %s", out)
@@ -82,7 +82,7 @@ func shardCase(t *testing.T, dir, set, target string, guard []string) string {
 	name := strconv.Itoa(len(guard))
 	flags := func(out string, extra ...string) []string {
 		return append(append([]string{"--index", set, "--target", target, "--budget", "3e16", "--train-params", "1e9",
-			"--keep-duplicates", "--min-score", "p50", "--out", filepath.Join(dir, out+name)}, guard...), extra...)
+			"--min-score", "p50", "--out", filepath.Join(dir, out+name)}, guard...), extra...)
 	}
 	if code, _, stderr := sluice(t, append([]string{"pick", "--quiet"}, flags("one")...)...); code != 0 {
 		t.Fatal(stderr)
@@ -102,6 +102,11 @@ func shardCase(t *testing.T, dir, set, target string, guard []string) string {
 	for _, i := range []string{"2", "0", "1"} {
 		if out := step(0, "score", "--shard", i, "--work", work); !strings.Contains(out, "shard "+i+" of 3: scored") {
 			t.Errorf("score step: %s", out)
+		}
+	}
+	for _, i := range []string{"1", "0", "2"} {
+		if out := step(0, "dups", "--shard", i, "--work", work); !strings.Contains(out, "part "+i+" of 3") {
+			t.Errorf("dups step: %s", out)
 		}
 	}
 	if out := step(0, "cut", "--work", work); !strings.Contains(out, "cut: kept") {
@@ -126,11 +131,24 @@ func shardCase(t *testing.T, dir, set, target string, guard []string) string {
 		}
 	}
 	rows := readScores(t, filepath.Join(sharded, "scores.jsonl"))
-	if b, _ := os.ReadFile(filepath.Join(sharded, "scores.jsonl")); (len(guard) > 0) != bytes.Contains(b, []byte(`"reason":"contaminated","contaminated":`)) {
+	b, _ := os.ReadFile(filepath.Join(sharded, "scores.jsonl"))
+	if (len(guard) > 1) != bytes.Contains(b, []byte(`"reason":"contaminated","contaminated":`)) {
 		t.Errorf("with %q: contaminated rows named wrongly in scores.jsonl", guard)
+	}
+	if (len(guard) > 1) != bytes.Contains(b, []byte(`"reason":"duplicate","duplicate_of":`)) {
+		t.Errorf("with %q: duplicates named wrongly in scores.jsonl", guard)
 	}
 	if code, out, stderr := sluice(t, "why", "--run", sharded, rows[len(rows)-1].ID); code != 0 || !strings.Contains(out, "fate") {
 		t.Errorf("why on a sharded run: exit %d: %s%s", code, out, stderr)
+	}
+	for _, r := range rows {
+		if r.Reason != "duplicate" {
+			continue
+		}
+		if code, out, stderr := sluice(t, "why", "--run", sharded, r.ID); code != 0 || !strings.Contains(out, "duplicate") {
+			t.Errorf("why on a duplicate of a sharded run: exit %d: %s%s", code, out, stderr)
+		}
+		break
 	}
 	if code, _, stderr := sluice(t, "verify", sharded); code != 0 {
 		t.Errorf("verify of a sharded run: %s", stderr)

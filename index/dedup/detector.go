@@ -145,6 +145,15 @@ func (d *Detector) AddMarks(dst []Pair, row int, marks []byte) ([]Pair, error) {
 	return dst, nil
 }
 
+// MarksSimilarity is the similarity a Detector estimates for two rows from their marks
+// (AppendMarks at settings of the given number of bands; both of one length), so that a
+// candidate pair found elsewhere is confirmed as a Detector confirms it: when the estimate
+// reaches the threshold.
+func MarksSimilarity(x, y []byte, bands int) float64 {
+	x, y = x[8*bands:], y[8*bands:]
+	return sketchSimilarity(matching(x, y), len(x))
+}
+
 // estimate is the b-bit estimate of the similarity of the rows added as x and y.
 func (d *Detector) estimate(x, y uint32) float64 {
 	sx := d.sketch[int(x)*d.k : int(x+1)*d.k]

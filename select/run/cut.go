@@ -25,24 +25,30 @@ import (
 
 // cutFile is cut.json: what the cut decided, for the steps after it.
 type cutFile struct {
-	Format     string            `json:"format"`
-	Sluice     string            `json:"sluice"`
-	Identity   string            `json:"identity"`
-	Options    string            `json:"options"`
-	Of         int               `json:"of"`
-	Rows       int               `json:"rows"`
-	Kept       int               `json:"kept"`
-	KeptTokens int64             `json:"kept_tokens"`
-	Stop       string            `json:"stop"`
-	Settings   Settings          `json:"settings"`
-	Files      map[string]string `json:"files"` // SHA-256 of ledger.json and each shard's decisions
+	Format     string   `json:"format"`
+	Sluice     string   `json:"sluice"`
+	Identity   string   `json:"identity"`
+	Options    string   `json:"options"`
+	Of         int      `json:"of"`
+	Rows       int      `json:"rows"`
+	Kept       int      `json:"kept"`
+	KeptTokens int64    `json:"kept_tokens"`
+	Stop       string   `json:"stop"`
+	Settings   Settings `json:"settings"`
+	// Dups is what the search for the set's duplicates found, as Index.Duplicates of the set says it.
+	Dups  *index.Dups       `json:"dups,omitempty"`
+	Files map[string]string `json:"files"` // SHA-256 of ledger.json and each shard's decisions
 }
 
 func cutKind() atomicdir.Kind {
 	return shardKind("cut", cutMark, func(n string) bool {
 		var i int
 		_, err := fmt.Sscanf(n, "decisions-%04d", &i)
-		return n == LedgerFile || (err == nil && n == decisionsName(i))
+		if n == LedgerFile || (err == nil && n == decisionsName(i)) {
+			return true
+		}
+		_, err = fmt.Sscanf(n, "dupof-%04d", &i)
+		return err == nil && n == dupOfName(i)
 	})
 }
 
@@ -242,7 +248,13 @@ func CutShards(ctx context.Context, opt Options, work string) (*ShardReport, err
 		return nil, err
 	}
 	if opt.MinScore.Kind != "" {
-		if so.MinScore, err = cutMinScore(work, heads, opt.MinScore, p.guardBar); err != nil {
+		n, lo, err := p.matched(ctx, work, heads)
+		if err != nil {
+			return nil, err
+		}
+		so.MinScore, err = cutMinScore(work, heads, opt.MinScore, n, lo, p.cutBar)
+		p.restartBar()
+		if err != nil {
 			return nil, err
 		}
 		opt.Select.MinScore = so.MinScore
@@ -250,6 +262,9 @@ func CutShards(ctx context.Context, opt Options, work string) (*ShardReport, err
 	}
 	dir := filepath.Join(work, cutName)
 	cf := &cutFile{Format: shardFormat, Sluice: opt.Version, Identity: ident, Options: key, Of: h0.Of, Rows: int(h0.Meta.Rows), Files: map[string]string{}}
+	if p.guards != nil {
+		cf.Dups = p.guards.built
+	}
 	err = publishWork(dir, cutKind(), []string{opt.Index, opt.Target}, func(tmp string) error {
 		sum, err := p.walkShards(ctx, work, tmp, heads, so, cf)
 		if err != nil {
@@ -303,6 +318,11 @@ func (p *picked) walkShards(ctx context.Context, work, tmp string, heads []*shar
 	r.Dropped = map[string]int{}
 	walker := selection.NewWalker(so)
 	var rec [decRecSize]byte
+	// Each shard's rows barred as duplicates: the row in the shard and the row kept instead.
+	var dups [][]uint64
+	if p.clusters != nil {
+		dups = make([][]uint64, len(heads))
+	}
 	for n := 0; ; n++ {
 		if n%(1<<16) == 0 && ctx.Err() != nil {
 			return selection.Summary{}, fmt.Errorf("cut: %w", ctx.Err())
@@ -317,7 +337,10 @@ func (p *picked) walkShards(ctx context.Context, work, tmp string, heads []*shar
 		if int(h.source) >= len(r.Sources) || int(h.row) >= cf.Rows {
 			return selection.Summary{}, workErrorf("shard %d: its ranking names row %d of source %d, which the set does not have", h.shard, h.row, h.source)
 		}
-		d := walker.Step(h.score, float64(h.tokens), p.guardBar(int(h.row)), int32(h.source))
+		d := walker.Step(h.score, float64(h.tokens), p.cutBar(int(h.row)), int32(h.source))
+		if d.Reason == selection.Duplicate {
+			dups[h.shard] = append(dups[h.shard], uint64(h.row-uint32(heads[h.shard].FirstRow))<<32|uint64(p.keeperOf(int(h.row))))
+		}
 		st := &r.Sources[h.source]
 		st.Rows++
 		st.Tokens += int64(h.tokens)
@@ -341,20 +364,54 @@ func (p *picked) walkShards(ctx context.Context, work, tmp string, heads []*shar
 		}
 		cf.Files[decisionsName(i)] = sum
 	}
+	if dups != nil {
+		if err := p.writeDupOf(tmp, filepath.Join(work, cutName), heads, dups, cf.Files); err != nil {
+			return selection.Summary{}, err
+		}
+	}
 	return walker.Summary(), nil
 }
 
-// cutMinScore resolves a floor given relative to the scores, as MinScore.resolve does over every
-// row, from the shards' counts and one more pass over the merged rankings: a lexical pick's
-// floor is taken over the rows scoring above 0 that are not barred (bar), which lead the ranking.
-func cutMinScore(work string, heads []*shardFile, ms MinScore, bar func(row int) selection.Reason) (float64, error) {
-	n, best, lo := 0, math.Inf(-1), math.Inf(1)
-	for _, sf := range heads {
-		n += sf.Matched
-		if sf.Matched > 0 {
-			lo = min(lo, sf.Lowest)
+// matched counts the rows scoring above 0 that are not barred and finds the lowest of their
+// scores: from the shards' summaries, or, when duplicates are barred, which a shard cannot know,
+// by a pass over the merged rankings.
+func (p *picked) matched(ctx context.Context, work string, heads []*shardFile) (n int, lo float64, err error) {
+	lo = math.Inf(1)
+	if p.clusters == nil {
+		for _, sf := range heads {
+			n += sf.Matched
+			if sf.Matched > 0 {
+				lo = min(lo, sf.Lowest)
+			}
+		}
+		return n, lo, nil
+	}
+	defer p.restartBar()
+	m, err := openMerge(work, heads)
+	if err != nil {
+		return 0, 0, err
+	}
+	defer m.Close()
+	for i := 0; ; i++ {
+		if i%(1<<16) == 0 && ctx.Err() != nil {
+			return 0, 0, fmt.Errorf("cut: %w", ctx.Err())
+		}
+		h, ok, err := m.next()
+		if err != nil || !ok || !(h.score > 0) {
+			return n, lo, err
+		}
+		if p.cutBar(int(h.row)) == selection.Kept {
+			n, lo = n+1, h.score
 		}
 	}
+}
+
+// cutMinScore resolves a floor given relative to the scores, as MinScore.resolve does over every
+// row, from the count n of rows scoring above 0 that are not barred (bar) and the lowest of their
+// scores lo, and one more pass over the merged rankings: a lexical pick's floor is taken over
+// those rows, which lead the ranking.
+func cutMinScore(work string, heads []*shardFile, ms MinScore, n int, lo float64, bar func(row int) selection.Reason) (float64, error) {
+	best := math.Inf(-1)
 	if n == 0 {
 		return math.Inf(1), nil
 	}

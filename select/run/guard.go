@@ -64,19 +64,20 @@ func chooseBands(t float64) int { return dedup.ForThreshold(t).Bands }
 type guarded struct {
 	// cluster names each row's cluster of exact and near duplicates by one of its rows; nil when
 	// duplicates are kept. groups counts the clusters of two rows or more.
-	cluster   func(row int) int
-	groups    int
-	exactDups int                  // rows whose normalised text an earlier row has
-	contam    map[int]decontam.Hit // by row
-	evalFiles []string
-	bands     int
-	work      dedup.Work
-	built     *index.Dups     // the index's clusters, when the pick takes them instead of hashing
-	evalWork  int64           // words checked against the evaluation set
-	evalBuilt *index.Excluded // the index's check of the same files, when the pick takes it
-	longest   int             // the most words a pool row had, checked against them
-	keyed     bool            // the exact keys were read from the index's segments, not hashed
-	inPool    []string        // ids of pool rows that are also target rows
+	cluster     func(row int) int
+	groups      int
+	exactDups   int                  // rows whose normalised text an earlier row has
+	contam      map[int]decontam.Hit // by row
+	evalFiles   []string
+	bands       int
+	work        dedup.Work
+	built       *index.Dups     // the index's clusters, when the pick takes them instead of hashing
+	evalWork    int64           // words checked against the evaluation set
+	evalBuilt   *index.Excluded // the index's check of the same files, when the pick takes it
+	longest     int             // the most words a pool row had, checked against them
+	keyed       bool            // the exact keys were read from the index's segments, not hashed
+	inPool      int             // pool rows that are also target rows
+	inPoolFirst string          // the first one's id
 }
 
 // active reports whether the guards need a pass over the pool.
@@ -112,7 +113,7 @@ func (p *picked) guard(ctx context.Context) error {
 		return err
 	}
 	if d != nil {
-		gd.cluster, gd.inPool = p.indexClusters(targetKeys)
+		gd.cluster = p.indexClusters(targetKeys, gd)
 		gd.exactDups, gd.bands, gd.built = int(d.ExactDuplicates), d.Bands, d
 	} else if !g.KeepDuplicates {
 		fp := dedup.ForThreshold(orDefault(g.NearDup, DefaultNearDup))
@@ -156,7 +157,7 @@ func (p *picked) guard(ctx context.Context) error {
 			return err
 		}
 		if targetKeys[h.key] {
-			gd.inPool = append(gd.inPool, p.ix.RowID(h.row))
+			gd.addInPool(p.ix, h.row)
 		}
 		first, err := exact.Add(h.row, h.key)
 		if err != nil {
@@ -194,7 +195,7 @@ func (p *picked) keyedRepeats(c *dedup.Clusters, targetKeys map[dedup.Key]bool, 
 	for r := range n {
 		k, _ := p.ix.DupKey(r)
 		if targetKeys[k] {
-			gd.inPool = append(gd.inPool, p.ix.RowID(r))
+			gd.addInPool(p.ix, r)
 		}
 		// Rows are numbers below n, which Add and Union take.
 		if first, _ := exact.Add(r, k); first != r {
@@ -250,21 +251,27 @@ func (p *picked) takesDups(d *index.Dups) bool {
 	return d != nil && !p.opt.Guards.KeepDuplicates && d.Version == dedup.Version && d.Params() == dedup.ForThreshold(orDefault(p.opt.Guards.NearDup, DefaultNearDup))
 }
 
-// indexClusters returns the clusters the index stores, each named by its first row, and the ids of
-// the pool rows whose key a target row has, in row order, as the pick's own pass would find them.
-// The clusters are read from the index as they are needed, not held.
-func (p *picked) indexClusters(targetKeys map[dedup.Key]bool) (func(int) int, []string) {
-	var inPool []string
+// indexClusters returns the clusters the index stores, each named by its first row, and counts in
+// gd the pool rows whose key a target row has, as the pick's own pass would find them. The
+// clusters are read from the index as they are needed, not held.
+func (p *picked) indexClusters(targetKeys map[dedup.Key]bool, gd *guarded) func(int) int {
 	ix := p.ix
 	if len(targetKeys) > 0 {
 		for r := range ix.NumRows() {
 			if k, _ := ix.DupKey(r); targetKeys[k] {
-				inPool = append(inPool, ix.RowID(r))
+				gd.addInPool(ix, r)
 			}
 		}
 	}
 	// Open has checked that every row's first is itself or an earlier first.
-	return func(r int) int { f, _ := ix.DupFirst(r); return f }, inPool
+	return func(r int) int { f, _ := ix.DupFirst(r); return f }
+}
+
+// addInPool counts row, of ix, as a pool row that is also a target row.
+func (gd *guarded) addInPool(ix *index.Index, row int) {
+	if gd.inPool++; gd.inPool == 1 {
+		gd.inPoolFirst = ix.RowID(row)
+	}
 }
 
 // countGroups counts the clusters of two rows or more among rows [0, n) in one pass, marking each
@@ -449,8 +456,8 @@ func (p *picked) guardNotes() []string {
 	if n := orDefaultInt(p.opt.Guards.ExcludeN, DefaultExcludeN); gd.evalFiles != nil && n > gd.longest {
 		notes = append(notes, fmt.Sprintf("evaluation n-grams: --exclude-ngram %d is longer than every pool row (the longest has %d words): a row is found only when its words are an evaluation row's, whole", n, gd.longest))
 	}
-	if len(gd.inPool) > 0 {
-		notes = append(notes, fmt.Sprintf("target rows in the pool: %d pool rows are target rows, the first %s", len(gd.inPool), gd.inPool[0]))
+	if gd.inPool > 0 {
+		notes = append(notes, fmt.Sprintf("target rows in the pool: %d pool rows are target rows, the first %s", gd.inPool, gd.inPoolFirst))
 	}
 	return notes
 }

@@ -95,6 +95,11 @@ func WriteShard(ctx context.Context, opt Options, work string, shard int) (*Shar
 	if err := p.loadContam(work, sf); err != nil {
 		return nil, err
 	}
+	if p.dropsDups() {
+		if err := p.loadDupOf(work, sf, cf); err != nil {
+			return nil, err
+		}
+	}
 	dir := partFolder(work, shard)
 	pf := &partFile{Format: shardFormat, Identity: ident, Options: key, Shard: shard, Of: cf.Of, Cut: cutSum, Files: map[string]string{}}
 	plain := opt

@@ -127,6 +127,8 @@ type picked struct {
 	guards    *guarded          // what the guards found; nil when none ran
 	dupOf     func(row int) int // a dropped duplicate's row -> the row kept instead
 	dropped   int               // rows whose cluster keeps another row
+	clusters  *shardClusters    // a sharded pick's cut: the set's clusters and the rows kept of them
+	dupIDs    map[int]string    // a sharded pick's write step: a duplicate's row -> the id of the row kept
 	tmp       string            // the run's working folder, once made
 	target    string            // where the target is read from: opt.Target, or its copy in tmp
 	sets      []*targetSet      // with several target sets, each; nil for one

@@ -66,18 +66,17 @@ func workErrorf(format string, a ...any) error {
 }
 
 // CheckShardable refuses, before any work and naming the flag, what a sharded pick cannot do to
-// the bit as a pick over the whole set does: anything needing every row at once or read twice (the
-// default duplicate guard, whose clusters cross segments; model-based methods and the cascade;
-// several targets; a target from a pipe). --exclude is per row and is honoured: each score step
-// checks its own rows against the evaluation files.
+// the bit as a pick over the whole set does: anything needing every row at once or read twice
+// (model-based methods and the cascade; several targets; a target from a pipe). --exclude is per
+// row and is honoured: each score step checks its own rows against the evaluation files. Duplicates
+// are found across the set from what its segments stored (sharddups.go); the score step refuses a
+// set whose segments did not store them.
 func CheckShardable(opt Options) error {
 	switch m := opt.method(); {
 	case !lexical(m):
 		return shardErrorf("--method %s: a sharded pick scores by bm25 or tfidf, from each segment's postings with the set's statistics; pick over the whole set for %s", m, m)
 	case len(opt.ExtraTargets) > 0:
 		return shardErrorf("--target given %d times: a sharded pick takes one target set", 1+len(opt.ExtraTargets))
-	case !opt.Guards.KeepDuplicates:
-		return shardErrorf("duplicates cross segments, and finding them needs every row at once: give --keep-duplicates for a sharded pick (or pick over the whole set)")
 	case opt.Prefilter.active():
 		return shardErrorf("--prefilter goes before a model-based method, which a sharded pick does not run")
 	case opt.Target == "-":
@@ -122,7 +121,9 @@ func shardKind(name, mark string, holds func(string) bool) atomicdir.Kind {
 }
 
 func scoredKind() atomicdir.Kind {
-	return shardKind("shard's scores", shardMark, func(n string) bool { return n == rankingFile || n == shardRows || n == RejectedFile || n == contamFile })
+	return shardKind("shard's scores", shardMark, func(n string) bool {
+		return n == rankingFile || n == shardRows || n == RejectedFile || n == contamFile || isPartFile(n)
+	})
 }
 
 // shardFile is shard.json: what the cut and the later steps check a shard's files against.
@@ -155,8 +156,10 @@ type shardFile struct {
 	Longest      int   `json:"longest,omitempty"`
 	Contaminated int   `json:"contaminated,omitempty"`
 	// EvalBuilt says the rows were checked when the segment was built (index.Contamination).
-	EvalBuilt bool              `json:"eval_built,omitempty"`
-	Files     map[string]string `json:"files"` // SHA-256 of each other file
+	EvalBuilt bool `json:"eval_built,omitempty"`
+	// Dups is, when the pick drops duplicates, what the segment gave the search for the set's.
+	Dups  *shardDups        `json:"dups,omitempty"`
+	Files map[string]string `json:"files"` // SHA-256 of each other file
 }
 
 // startStep checks what every step checks before it reads anything of the work folder: that opt
@@ -226,7 +229,7 @@ func (p *picked) statsKey() string {
 
 // ShardReport is what a step of a sharded pick did, for a line of its summary.
 type ShardReport struct {
-	Step       string // score, cut, write or join
+	Step       string // score, dups, cut, write or join
 	Shard, Of  int
 	Rows       int    // rows of the shard (score, write) or of the set (cut)
 	Kept       int    // rows kept (cut, write)
@@ -248,6 +251,11 @@ func ScoreShard(ctx context.Context, opt Options, work string, shard int) (*Shar
 	}
 	defer ix.Close()
 	p := &picked{opt: &opt, ix: ix, target: opt.Target}
+	if p.dropsDups() {
+		if _, err := p.checkShardDups(); err != nil {
+			return nil, err
+		}
+	}
 	if err := p.readTargets(opt.Target); err != nil {
 		return nil, err
 	}
@@ -281,6 +289,12 @@ func ScoreShard(ctx context.Context, opt Options, work string, shard int) (*Shar
 	}
 	dir := shardFolder(work, shard)
 	err = publishWork(dir, scoredKind(), []string{opt.Index, opt.Target}, func(tmp string) error {
+		if p.dropsDups() {
+			var err error
+			if sf.Dups, err = p.writeDupKeys(tmp, dir, sf.Files); err != nil {
+				return err
+			}
+		}
 		return writeWork(tmp, dir, fills, sf.Files, shardMark, sf)
 	})
 	if err != nil {
@@ -423,6 +437,12 @@ type recordFile struct {
 
 // openRecords opens path, a file of rows records of size bytes with the head magic, shard and of.
 func openRecords(path, magic string, shard, of, rows, size int, sum string, buf int) (*recordFile, error) {
+	return openRecordsHead(path, magic, shard, of, rows, rows, size, sum, buf)
+}
+
+// openRecordsHead is openRecords for a file whose head holds head where others hold their rows (a
+// part's number, for a file of records shared out by key).
+func openRecordsHead(path, magic string, shard, of, want, rows, size int, sum string, buf int) (*recordFile, error) {
 	f, err := os.Open(path)
 	if err != nil {
 		if errors.Is(err, os.ErrNotExist) {
@@ -434,7 +454,7 @@ func openRecords(path, magic string, shard, of, rows, size int, sum string, buf 
 	head := make([]byte, fileHeadSize)
 	if _, err := io.ReadFull(rf.r, head); err != nil || string(head[:8]) != magic ||
 		binary.LittleEndian.Uint32(head[8:]) != uint32(shard) || binary.LittleEndian.Uint32(head[12:]) != uint32(of) ||
-		binary.LittleEndian.Uint64(head[16:]) != uint64(rows) {
+		binary.LittleEndian.Uint64(head[16:]) != uint64(want) {
 		f.Close()
 		return nil, workErrorf("shard %d of %d: %s is damaged or another shard's: its head does not match its summary", shard, of, path)
 	}
@@ -465,19 +485,20 @@ func (rf *recordFile) next() (bool, error) {
 func (rf *recordFile) Close() error { return rf.f.Close() }
 
 // ShardSteps are the steps of a sharded pick, in the order they run.
-func ShardSteps() []string { return []string{"score", "cut", "write", "join"} }
+func ShardSteps() []string { return []string{"score", "dups", "cut", "write", "join"} }
 
 // ShardStep runs the step of a sharded pick that args name, one of ShardSteps; shard is the
-// segment the score and write steps take, and must be -1 for the others.
+// segment the score and write steps take (the part of the keys, numbered as the segments, the dups
+// step takes), and must be -1 for the others.
 func ShardStep(ctx context.Context, args []string, opt Options, work string, shard int) (*ShardReport, error) {
 	if len(args) != 1 {
-		return nil, shardErrorf("give one step (score, cut, write or join), not %q", strings.Join(args, " "))
+		return nil, shardErrorf("give one step (score, dups, cut, write or join), not %q", strings.Join(args, " "))
 	}
 	step := args[0]
-	perShard := step == "score" || step == "write"
+	perShard := step == "score" || step == "dups" || step == "write"
 	switch {
 	case !slices.Contains(ShardSteps(), step):
-		return nil, shardErrorf("no step %q: give score, cut, write or join", step)
+		return nil, shardErrorf("no step %q: give score, dups, cut, write or join", step)
 	case perShard && shard < 0:
 		return nil, shardErrorf("the %s step takes --shard, the segment of the set it works on (from 0)", step)
 	case !perShard && shard >= 0:
@@ -488,6 +509,8 @@ func ShardStep(ctx context.Context, args []string, opt Options, work string, sha
 	switch step {
 	case "score":
 		rep, err = ScoreShard(ctx, opt, work, shard)
+	case "dups":
+		rep, err = DupsShard(ctx, opt, work, shard)
 	case "cut":
 		rep, err = CutShards(ctx, opt, work)
 	case "write":
@@ -509,6 +532,11 @@ func (r *ShardReport) String() string {
 		return fmt.Sprintf("shard %d of %d: scored %d rows; wrote %s", r.Shard, r.Of, r.Rows, r.Wrote)
 	case "write":
 		return fmt.Sprintf("shard %d of %d: %d kept rows and %d lines of scores; wrote %s", r.Shard, r.Of, r.Kept, r.Rows, r.Wrote)
+	case "dups":
+		if r.Wrote == "" {
+			return fmt.Sprintf("duplicates, part %d of %d: nothing to do (duplicates kept)", r.Shard, r.Of)
+		}
+		return fmt.Sprintf("duplicates, part %d of %d: %d repeats and candidate pairs; wrote %s", r.Shard, r.Of, r.Rows, r.Wrote)
 	}
 	return fmt.Sprintf("%s: kept %d of %d rows (%d tokens) from %d shards; stopped: %s; wrote %s", r.Step, r.Kept, r.Rows, r.KeptTokens, r.Of, r.Stop, r.Wrote)
 }

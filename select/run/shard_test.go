@@ -9,6 +9,7 @@ import (
 	"math/rand/v2"
 	"os"
 	"path/filepath"
+	"reflect"
 	"strings"
 	"testing"
 
@@ -99,13 +100,18 @@ func t0Eval(t *testing.T, pool string, every int) string {
 	return path
 }
 
-// shardedPick runs the four steps of a sharded pick of opt over its set of shards segments.
+// shardedPick runs the five steps of a sharded pick of opt over its set of shards segments.
 func shardedPick(t *testing.T, opt Options, work string, shards int) error {
 	t.Helper()
 	ctx := context.Background()
 	for i := range shards {
 		if _, err := ScoreShard(ctx, opt, work, i); err != nil {
 			return fmt.Errorf("score shard %d: %w", i, err)
+		}
+	}
+	for i := range shards {
+		if _, err := DupsShard(ctx, opt, work, i); err != nil {
+			return fmt.Errorf("duplicates, part %d: %w", i, err)
 		}
 	}
 	if _, err := CutShards(ctx, opt, work); err != nil {
@@ -244,6 +250,80 @@ func TestShardedPickTakesBuiltEval(t *testing.T) {
 		t.Fatal(err)
 	}
 	sameRun(t, "segments built with --exclude", one.Out, opt.Out)
+}
+
+// TestShardedPickDropsDuplicates checks a sharded pick that drops duplicates, the default, against
+// `pick` over the same set byte for byte, the set's segments built finding duplicates: the last
+// segment's copy of the first file repeats rows of the first segment, and T0's templates make near
+// duplicates within and across files. The pool is cut 1, 3 and 7 ways and at a random place.
+func TestShardedPickDropsDuplicates(t *testing.T) {
+	files, target := t0Files(t, 14)
+	evals := []string{t0Eval(t, files[3], 50), t0Eval(t, files[11], 200)}
+	splits := map[string][]int{"1 way": nil, "3 ways": {5, 9}, "7 ways": {2, 4, 6, 8, 10, 12}}
+	rng := rand.New(rand.NewPCG(7, 11))
+	var cuts []int
+	for c := 1; c < len(files); c++ {
+		if rng.IntN(4) == 0 {
+			cuts = append(cuts, c)
+		}
+	}
+	splits[fmt.Sprintf("random: %v", cuts)] = cuts
+	for name, cuts := range splits {
+		t.Run(name, func(t *testing.T) {
+			dir := t.TempDir()
+			set := t0SetWith(t, dir, files, cuts, index.Options{Text: "prompt,completion"})
+			configs := shardConfigs(set, target, evals...)
+			if testing.Short() || len(cuts) != 2 {
+				configs = map[string]Options{"bm25-sum-caps": configs["bm25-sum-caps"], "bm25-knee-caps": configs["bm25-knee-caps"],
+					"bm25-exclude": configs["bm25-exclude"]}
+			}
+			for cname, opt := range configs {
+				opt.Guards.KeepDuplicates = false
+				one := opt
+				one.Out = filepath.Join(dir, "one-"+cname)
+				res, err := Pick(context.Background(), one)
+				if err != nil {
+					t.Fatal(err)
+				}
+				t.Logf("%s: kept %d of %d rows; %s; dropped %v", cname, len(res.Kept), res.Rows, res.Ledger.Stop, res.Dropped)
+				if res.Dropped["duplicate"] == 0 || !strings.Contains(strings.Join(res.Ledger.Notes, "\n"), "duplicates were found when the index was built") {
+					t.Fatalf("%s: the pick over the set did not take its segments' duplicates: dropped %v, notes %q", cname, res.Dropped, res.Ledger.Notes)
+				}
+				opt.Out = filepath.Join(dir, "sharded-"+cname)
+				work := filepath.Join(dir, "work-"+cname)
+				if err := shardedPick(t, opt, work, len(cuts)+1); err != nil {
+					t.Fatalf("%s: %v", cname, err)
+				}
+				sameRun(t, cname, one.Out, opt.Out)
+				var repeats, cands int
+				for part := range len(cuts) + 1 {
+					var df dupsFile
+					if _, err := readJSON(filepath.Join(dupsFolder(work, part), dupsMark), "part", &df); err != nil {
+						t.Fatal(err)
+					}
+					repeats, cands = repeats+df.Repeats, cands+df.Candidates
+				}
+				if repeats == 0 || cands == 0 {
+					t.Fatalf("%s: the parts found %d repeats and %d candidate pairs: the test needs both", cname, repeats, cands)
+				}
+				// The ledger gives the work to four digits: the cut's count is checked whole, against
+				// the set's own search, which TestSetDupsMatchBuild holds to one build's.
+				var cf cutFile
+				if _, err := readJSON(filepath.Join(work, cutName, cutMark), "cut", &cf); err != nil {
+					t.Fatal(err)
+				}
+				ix, err := index.Open(set)
+				if err != nil {
+					t.Fatal(err)
+				}
+				want, err := ix.Duplicates(context.Background())
+				ix.Close()
+				if err != nil || cf.Dups == nil || !reflect.DeepEqual(*cf.Dups, *want) {
+					t.Fatalf("%s: the cut found\n%+v\nthe set\n%+v (%v)", cname, cf.Dups, want, err)
+				}
+			}
+		})
+	}
 }
 
 // sameRun compares two run folders: every file byte for byte, the manifest without its command.

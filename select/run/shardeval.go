@@ -119,14 +119,25 @@ func readContam(work string, sf *shardFile, files int, fn func(row int, hit deco
 	return nil
 }
 
-// cutGuards gathers the shards' contaminated rows, by row among the set's (without their hits,
-// which the write steps read), words checked and longest row, and charges them as Pick's guard does.
+// cutGuards gathers the set's clusters of duplicates from the dups steps' parts (cutDups) and the
+// shards' contaminated rows, by row among the set's (without their hits, which the write steps
+// read), words checked and longest row, and charges them as Pick's guard does.
 func (p *picked) cutGuards(work string, heads []*shardFile) error {
 	ex := p.opt.Guards.Exclude
-	if len(ex) == 0 {
+	if !p.opt.Guards.active() {
 		return nil
 	}
-	gd := &guarded{contam: map[int]decontam.Hit{}, evalFiles: ex}
+	gd := &guarded{contam: map[int]decontam.Hit{}}
+	if p.dropsDups() {
+		if err := p.cutDups(work, heads, gd); err != nil {
+			return err
+		}
+	}
+	if len(ex) == 0 {
+		p.guards = gd
+		return nil
+	}
+	gd.evalFiles = ex
 	built := 0
 	for _, sf := range heads {
 		gd.evalWork += sf.EvalWords

@@ -295,6 +295,9 @@ func (p *picked) appendGuard(b []byte, r int, why selection.Reason, plain *[256]
 	switch why {
 	case selection.Duplicate:
 		b = append(b, `,"duplicate_of":`...)
+		if p.dupIDs != nil {
+			return AppendJSONString(b, p.dupIDs[r])
+		}
 		return appendJSONID(b, p.ix, p.dupOf(r), plain)
 	case selection.Contaminated:
 		hit := p.guards.contam[r]

@@ -48,27 +48,38 @@ for r in $(seq 1 "$rounds"); do
 	done
 done
 
-# The same picks as shards (sluice shard, duplicates kept), the four score and the four write steps
+# The same picks as shards (sluice shard), the four score, the four dups and the four write steps
 # one after another on this machine: the sum of every step's time against the one-index pick, and
-# the most memory any one step held against the one pick's.
+# the most memory any one step held against the one pick's; then the dups steps' and the cut's own
+# time and peak RSS (KB), the largest of the four dups steps.
 [ "${SHARDED:-1}" = 0 ] && exit 0
-printf '%-28s %6s %10s %10s %8s %10s\n' "sharded, steps in a row" round one_s steps_s ratio RSS_ratio
+printf '%-28s %6s %10s %10s %8s %10s %8s %9s %8s %9s\n' "sharded, steps in a row" round one_s steps_s ratio RSS_ratio dups_s dups_KB cut_s cut_KB
 for r in $(seq 1 "$rounds"); do
-	for m in bm25 tfidf; do
-		flags=(--index "$work/pool.set" --target "$work/target.jsonl" --budget 1e30 --train-params 1B --max-rows "$max" --method "$m" --keep-duplicates --out "$work/run-shard")
-		read -r a am < <(run "$S" pick --quiet --index "$work/one.idx" --target "$work/target.jsonl" --budget 1e30 --train-params 1B --max-rows "$max" --method "$m" --keep-duplicates --out "$work/run-one")
+	for v in "bm25 --keep-duplicates" "bm25" "tfidf --keep-duplicates"; do
+		read -r -a extra <<<"--method $v"
+		flags=(--index "$work/pool.set" --target "$work/target.jsonl" --budget 1e30 --train-params 1B --max-rows "$max" "${extra[@]}" --out "$work/run-shard")
+		read -r a am < <(run "$S" pick --quiet --index "$work/one.idx" --target "$work/target.jsonl" --budget 1e30 --train-params 1B --max-rows "$max" "${extra[@]}" --out "$work/run-one")
 		rm -rf "$work/shards"
 		total=0
 		peak=0
-		for step in "score 0" "score 1" "score 2" "score 3" "cut" "write 0" "write 1" "write 2" "write 3" "join"; do
+		dw=0
+		dk=0
+		for step in "score 0" "score 1" "score 2" "score 3" "dups 0" "dups 1" "dups 2" "dups 3" "cut" "write 0" "write 1" "write 2" "write 3" "join"; do
 			read -r s i <<<"$step"
 			shard=()
 			[ -z "${i:-}" ] || shard=(--shard "$i")
 			read -r w k < <(run "$S" shard "$s" "${shard[@]}" --quiet --work "$work/shards" "${flags[@]}")
 			total=$(echo "$total + $w" | bc)
 			[ "$k" -gt "$peak" ] && peak=$k
+			if [ "$s" = dups ]; then
+				[ "$(echo "$w > $dw" | bc)" = 1 ] && dw=$w
+				[ "$k" -gt "$dk" ] && dk=$k
+			fi
+			[ "$s" = cut ] && cw=$w && ck=$k
 		done
-		cmp -s "$work/run-one/kept.jsonl" "$work/run-shard/kept.jsonl" || echo "kept rows differ for sharded $m" >&2
-		printf '%-28s %6s %10s %10s %8s %10s\n' "$m --keep-duplicates" "$r" "$a" "$total" "$(echo "scale=2; $total / $a" | bc)" "$(echo "scale=2; $peak / $am" | bc)"
+		for f in kept.jsonl scores.jsonl ledger.json; do
+			cmp -s "$work/run-one/$f" "$work/run-shard/$f" || echo "$f differs for sharded $v" >&2
+		done
+		printf '%-28s %6s %10s %10s %8s %10s %8s %9s %8s %9s\n' "$v" "$r" "$a" "$total" "$(echo "scale=2; $total / $a" | bc)" "$(echo "scale=2; $peak / $am" | bc)" "$dw" "$dk" "$cw" "$ck"
 	done
 done

@@ -1,8 +1,8 @@
 #!/usr/bin/env bash
 # Submits the index array (N tasks) and the pick that waits for all of them, and prints the two
 # job ids. Every variable the scripts read is passed on (sbatch exports the environment). With
-# SHARDED=1 the pick is a sharded one instead (shards.sh: no machine scores the whole pool; give
-# --keep-duplicates), and the ids printed are the index array's and then the five steps'.
+# SHARDED=1 the pick is a sharded one instead (shards.sh: no machine scores the whole pool), and
+# the ids printed are the index array's and then the six steps'.
 #
 #   FILES=files.txt WORK=/shared/pool TEXT=prompt,completion SLUICE=/shared/bin/sluice \
 #     bash submit.sh N --target /shared/support.jsonl --budget 1e19 --train-params 1B

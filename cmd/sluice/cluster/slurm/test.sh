@@ -4,9 +4,10 @@
 # bytes of one machine's `sluice index` and `sluice pick` of the same files: scores.jsonl, kept.jsonl
 # and ledger.json with duplicates kept and with them dropped (the default; the set's pick finds
 # them across its segments from their stored sketches, as one index would). Then the
-# sharded pick of shards.sh over the same segments (an array scoring a segment a task, the cut, an
-# array writing, the join) must give one machine's scores.jsonl, kept.jsonl, ledger.json and
-# rejected.jsonl with duplicates kept.
+# sharded pick of shards.sh over the same segments (an array scoring a segment a task, an array
+# searching a part of the keys for duplicates, the cut, an array writing, the join) must give one
+# machine's scores.jsonl, kept.jsonl, ledger.json and rejected.jsonl, with duplicates kept and
+# dropped.
 #
 #   bash cmd/sluice/cluster/slurm/test.sh [SHARED_DIR]
 set -euo pipefail
@@ -74,17 +75,20 @@ for n in 3 7; do
 		done
 	done
 	ls "$WORK"/seg-*.idx -d | wc -l | xargs echo "  segments made:"
-	# The sharded pick: wait for its last job, the join, which a failed step before it cancels.
-	read -r -a jobs < <(bash "$here/shards.sh" "$n" "${flags[@]}" --keep-duplicates --out "$WORK/run-shard")
-	wait_done "${jobs[-1]}"
-	for f in scores.jsonl kept.jsonl ledger.json rejected.jsonl; do
-		if cmp -s "$work/one-keep/$f" "$WORK/run-shard/$f"; then
-			echo "slurm, $n shards, sharded pick: $f: same bytes as one machine"
-		else
-			echo "slurm, $n shards, sharded pick: $f DIFFERS from one machine" >&2
-			fail=1
-		fi
+	# The sharded picks: wait for the last job, the join, which a failed step before it cancels.
+	for dups in "keep kept --keep-duplicates" "drop dropped"; do
+		read -r run said keep <<<"$dups"
+		read -r -a jobs < <(bash "$here/shards.sh" "$n" "${flags[@]}" ${keep:+"$keep"} --out "$WORK/run-shard-$run")
+		wait_done "${jobs[-1]}"
+		for f in scores.jsonl kept.jsonl ledger.json rejected.jsonl; do
+			if cmp -s "$work/one-$run/$f" "$WORK/run-shard-$run/$f"; then
+				echo "slurm, $n shards, sharded pick, duplicates $said: $f: same bytes as one machine"
+			else
+				echo "slurm, $n shards, sharded pick, duplicates $said: $f DIFFERS from one machine" >&2
+				fail=1
+			fi
+		done
+		"$SLUICE" verify "$WORK/run-shard-$run" || fail=1
 	done
-	"$SLUICE" verify "$WORK/run-shard" || fail=1
 done
 exit $fail

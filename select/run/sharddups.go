@@ -1,0 +1,653 @@
+package run
+
+import (
+	"bufio"
+	"context"
+	"crypto/sha256"
+	"encoding/binary"
+	"encoding/hex"
+	"fmt"
+	"io"
+	"math/bits"
+	"os"
+	"path/filepath"
+	"slices"
+
+	"sluice/index"
+	"sluice/index/atomicdir"
+	"sluice/index/dedup"
+	selection "sluice/select"
+)
+
+// A sharded pick that drops duplicates finds the set's clusters as Index.Duplicates finds them over
+// the whole set (the same clusters, counts and work), with no step holding every row:
+//
+//   - each score step shares its segment's records out by key among as many parts as the set has
+//     segments: every row's exact key (exact-PPPP) and, for the rows its build signed (the first
+//     of each key in the segment), each band's key (bands-PPPP);
+//   - the dups step of part P reads its records from every shard, in row order, and finds what a
+//     build's exact pass and, band by band, its dedup.Bulk would among them: rows whose key an
+//     earlier row has (repeats-style pairs) and candidate pairs, each row with the first row of
+//     each bucket it falls in, confirmed from the two rows' stored sketches (dups-PPPP);
+//   - the cut joins the pairs of every part into clusters. A Bulk is given no row whose key an
+//     earlier row has; the parts give such a row's candidates too (a part cannot know), and the cut
+//     drops them: the row's marks are its first's, so it is never the first of a bucket and its
+//     confirmed pairs join nothing its first's do not. The cut then keeps, of each cluster, the first
+//     row it meets in rank order that is not contaminated, which is the best-scored (ties to the
+//     earlier row), as Pick keeps, and names it to each shard's write step (dupof-NNNN).
+//
+// Memory: a dups step holds the keys of its part (about a segment's rows); the cut, the rows in
+// clusters and the candidate pairs, not every row.
+
+// shardDups is what a score step found of its segment for the set's duplicates.
+type shardDups struct {
+	KeyWork  dedup.Work `json:"key_work"`  // the segment's build's keying of every row
+	SignWork dedup.Work `json:"sign_work"` // the signing of every row with a sketch record
+	Marked   int64      `json:"marked"`    // sketch records with marks (rows with words)
+	Exact    []int      `json:"exact"`     // records in each part's exact file
+	Bands    []int      `json:"bands"`     // records in each part's bands file
+	// InPool counts the segment's rows whose key a target row has; InPoolFirst is the first one's id.
+	InPool      int    `json:"in_pool,omitempty"`
+	InPoolFirst string `json:"in_pool_first,omitempty"`
+}
+
+const (
+	exactRecSize  = 4 + 16         // row, key
+	bandRecSize   = 8 + 4 + 1      // band key, row, band
+	repeatRecSize = 4 + 4 + 1 + 24 // row, first, flags, signing work (Bytes, ShingleWords, MinHashes)
+	candRecSize   = 4 + 4 + 1      // later row, first row, confirmed
+	dupsMark      = "dups.json"
+	repeatsFile   = "repeats"
+	candsFile     = "candidates"
+	partBuf       = 16 << 10 // each part file's write buffer: a score step has two files a part open
+)
+
+func exactName(part int) string { return fmt.Sprintf("exact-%04d", part) }
+func bandsName(part int) string { return fmt.Sprintf("bands-%04d", part) }
+func dupsFolder(work string, part int) string {
+	return filepath.Join(work, fmt.Sprintf("dups-%04d", part))
+}
+func dupOfName(shard int) string { return fmt.Sprintf("dupof-%04d", shard) }
+
+// isPartFile reports whether n is a score step's exact or bands file.
+func isPartFile(n string) bool {
+	var i int
+	if _, err := fmt.Sscanf(n, "exact-%04d", &i); err == nil && n == exactName(i) {
+		return true
+	}
+	_, err := fmt.Sscanf(n, "bands-%04d", &i)
+	return err == nil && n == bandsName(i)
+}
+
+func dupsKind() atomicdir.Kind {
+	return shardKind("duplicates' part", dupsMark, func(n string) bool { return n == repeatsFile || n == candsFile })
+}
+
+// partOf is the part a key (well mixed, as SHA-256 bytes and band keys are) falls in.
+func partOf(k uint64, parts int) int {
+	hi, _ := bits.Mul64(k, uint64(parts))
+	return int(hi)
+}
+
+// dropsDups reports whether the pick drops duplicates.
+func (p *picked) dropsDups() bool { return !p.opt.Guards.KeepDuplicates }
+
+// checkShardDups refuses a set whose duplicates cannot be found from what its segments stored as
+// this pick finds them, and returns the segment's settings.
+func (p *picked) checkShardDups() (*index.Dups, error) {
+	d := p.ix.ShardDups()
+	if !p.takesDups(d) {
+		return nil, shardErrorf("a sharded pick finds duplicates from what the segments stored when built, and not every segment of %s stored keys and sketches at --near-dup %g made by this sluice (one was built with --no-dups, at another --near-dup or by an older sluice): build those segments again, or give --keep-duplicates",
+			p.opt.Index, orDefault(p.opt.Guards.NearDup, DefaultNearDup))
+	}
+	return d, nil
+}
+
+// writeDupKeys writes the segment's records for each part into tmp (the shard's folder dir, being
+// written), recording each file's SHA-256 in sums, and returns what the cut needs of the segment.
+func (p *picked) writeDupKeys(tmp, dir string, sums map[string]string) (*shardDups, error) {
+	d, err := p.checkShardDups()
+	if err != nil {
+		return nil, err
+	}
+	shard, of := p.ix.Shard()
+	first := p.ix.FirstRow()
+	sd := &shardDups{KeyWork: *d.KeyWork, Exact: make([]int, of), Bands: make([]int, of)}
+	files := map[string]*hashedFile{}
+	defer func() {
+		for _, f := range files {
+			f.f.Close()
+		}
+	}()
+	open := func(name string, part int, magic string) (*hashedFile, error) {
+		f, err := os.Create(filepath.Join(tmp, name))
+		if err != nil {
+			return nil, err
+		}
+		hf := &hashedFile{f: f, h: sha256.New()}
+		hf.w = bufio.NewWriterSize(io.MultiWriter(f, hf.h), partBuf)
+		files[name] = hf
+		_, err = hf.w.Write(fileHead(magic, shard, of, part, first))
+		return hf, err
+	}
+	exact, bands := make([]*hashedFile, of), make([]*hashedFile, of)
+	for part := range of {
+		if exact[part], err = open(exactName(part), part, "sluiceEX"); err != nil {
+			return nil, err
+		}
+		if bands[part], err = open(bandsName(part), part, "sluiceBK"); err != nil {
+			return nil, err
+		}
+	}
+	targetKeys := p.targetKeys()
+	var rec [max(exactRecSize, bandRecSize)]byte
+	for r := range p.ix.NumRows() {
+		key, _ := p.ix.DupKey(r)
+		if targetKeys[key] {
+			if sd.InPool++; sd.InPool == 1 {
+				sd.InPoolFirst = p.ix.RowID(r)
+			}
+		}
+		part := partOf(binary.LittleEndian.Uint64(key[:]), of)
+		binary.LittleEndian.PutUint32(rec[:], uint32(first+r))
+		copy(rec[4:], key[:])
+		exact[part].w.Write(rec[:exactRecSize])
+		sd.Exact[part]++
+	}
+	err = p.ix.EachSketch(func(r int, marks []byte, w dedup.Work) error {
+		sd.SignWork = sd.SignWork.Plus(w)
+		if len(marks) == 0 {
+			return nil
+		}
+		sd.Marked++
+		for j := range d.Bands {
+			k := binary.LittleEndian.Uint64(marks[8*j:])
+			part := partOf(k, of)
+			binary.LittleEndian.PutUint64(rec[:], k)
+			binary.LittleEndian.PutUint32(rec[8:], uint32(first+r))
+			rec[12] = byte(j)
+			bands[part].w.Write(rec[:bandRecSize])
+			sd.Bands[part]++
+		}
+		return nil
+	})
+	if err != nil {
+		return nil, err
+	}
+	for name, f := range files {
+		sum, err := f.finish()
+		if err != nil {
+			return nil, fmt.Errorf("write %s: %w", filepath.Join(dir, name), err)
+		}
+		sums[name] = sum
+		delete(files, name)
+	}
+	return sd, nil
+}
+
+// DupsShard is a sharded pick's step between the score steps and the cut when it drops
+// duplicates: part of the set's keys (of as many as the set has segments) read from every shard and
+// searched for duplicates, its pairs written to the work folder's dups-PPPP. With
+// --keep-duplicates it has nothing to do.
+func DupsShard(ctx context.Context, opt Options, work string, part int) (*ShardReport, error) {
+	key, ident, err := startStep(&opt, false)
+	if err != nil {
+		return nil, err
+	}
+	heads, err := readShards(work, key, ident)
+	if err != nil {
+		return nil, err
+	}
+	of := heads[0].Of
+	if part < 0 || part >= of {
+		return nil, shardErrorf("--shard %d: the set has %d segments, numbered 0 to %d", part, of, of-1)
+	}
+	rep := &ShardReport{Step: "dups", Shard: part, Of: of}
+	if opt.Guards.KeepDuplicates {
+		return rep, nil
+	}
+	for _, sf := range heads {
+		if sf.Dups == nil || len(sf.Dups.Exact) != of || len(sf.Dups.Bands) != of {
+			return nil, workErrorf("shard %d of %d: its summary has no records for the search for duplicates: score it again", sf.Shard, of)
+		}
+	}
+	sk, err := index.OpenSetSketches(opt.Index)
+	if err != nil {
+		return nil, err
+	}
+	defer sk.Close()
+	fp := dedup.ForThreshold(orDefault(opt.Guards.NearDup, DefaultNearDup))
+	dir := dupsFolder(work, part)
+	df := &dupsFile{Format: shardFormat, Sluice: opt.Version, Identity: ident, Options: key, Part: part, Of: of, Files: map[string]string{}}
+	err = publishWork(dir, dupsKind(), []string{opt.Index, opt.Target}, func(tmp string) error {
+		fills := []workFill{
+			{repeatsFile, func(w *bufio.Writer) error { return findRepeats(ctx, w, work, heads, part, sk, &df.Repeats) }},
+			{candsFile, func(w *bufio.Writer) error { return findCandidates(ctx, w, work, heads, part, sk, fp, &df.Candidates) }},
+		}
+		return writeWork(tmp, dir, fills, df.Files, dupsMark, df)
+	})
+	if err != nil {
+		return nil, err
+	}
+	rep.Rows, rep.Wrote = df.Repeats+df.Candidates, dir
+	return rep, nil
+}
+
+// dupsFile is dups.json: what a dups step found in its part.
+type dupsFile struct {
+	Format     string            `json:"format"`
+	Sluice     string            `json:"sluice"`
+	Identity   string            `json:"identity"`
+	Options    string            `json:"options"`
+	Part       int               `json:"part"`
+	Of         int               `json:"of"`
+	Repeats    int               `json:"repeats"`
+	Candidates int               `json:"candidates"`
+	Files      map[string]string `json:"files"`
+}
+
+// eachPartRecord reads every shard's file name of part, in shard order and so in row order, and
+// calls fn with each record, checking that the records' rows are the shard's, in order.
+func eachPartRecord(ctx context.Context, work string, heads []*shardFile, part int, name func(int) string, magic string, size int, counts func(*shardDups) []int, rowAt int, fn func(rec []byte, row int) error) error {
+	for i, sf := range heads {
+		path := filepath.Join(shardFolder(work, i), name(part))
+		rf, err := openRecordsHead(path, magic, i, sf.Of, part, counts(sf.Dups)[part], size, sf.Files[name(part)], mergeBuf)
+		if err != nil {
+			return err
+		}
+		last := -1
+		for n := 0; ; n++ {
+			if n%(1<<16) == 0 && ctx.Err() != nil {
+				rf.Close()
+				return fmt.Errorf("duplicates: %w", ctx.Err())
+			}
+			ok, err := rf.next()
+			if err == nil && ok {
+				row := int(binary.LittleEndian.Uint32(rf.rec[rowAt:]))
+				if row < max(last, sf.FirstRow) || row >= sf.FirstRow+sf.Rows {
+					err = workErrorf("shard %d of %d: %s is damaged: row %d is out of place", i, sf.Of, path, row)
+				} else {
+					last = row
+					err = fn(rf.rec, row)
+				}
+			}
+			if err != nil || !ok {
+				rf.Close()
+				if err != nil {
+					return err
+				}
+				break
+			}
+		}
+	}
+	return nil
+}
+
+// findRepeats finds the rows of part whose exact key an earlier row has and writes each with that
+// row and, when it has a sketch record, what signing it cost.
+func findRepeats(ctx context.Context, w *bufio.Writer, work string, heads []*shardFile, part int, sk *index.SetSketches, count *int) error {
+	firsts := map[dedup.Key]uint32{}
+	var out [repeatRecSize]byte
+	return eachPartRecord(ctx, work, heads, part, exactName, "sluiceEX", exactRecSize, func(d *shardDups) []int { return d.Exact }, 0, func(rec []byte, row int) error {
+		key := dedup.Key(rec[4:exactRecSize])
+		f, seen := firsts[key]
+		if !seen {
+			firsts[key] = uint32(row)
+			return nil
+		}
+		marks, sw, has, err := sk.Record(row)
+		if err != nil {
+			return err
+		}
+		clear(out[:])
+		binary.LittleEndian.PutUint32(out[0:], uint32(row))
+		binary.LittleEndian.PutUint32(out[4:], f)
+		if has {
+			out[8] = 1
+			if len(marks) > 0 {
+				out[8] |= 2
+			}
+		}
+		binary.LittleEndian.PutUint64(out[9:], uint64(sw.Bytes))
+		binary.LittleEndian.PutUint64(out[17:], uint64(sw.ShingleWords))
+		binary.LittleEndian.PutUint64(out[25:], uint64(sw.MinHashes))
+		*count++
+		_, err = w.Write(out[:])
+		return err
+	})
+}
+
+// bandSlot is a bucket: a band's key and the band.
+type bandSlot struct {
+	key  uint64
+	band uint8
+}
+
+// findCandidates finds, among the band keys of part, each row's candidate pairs with the first row
+// of each bucket it falls in, as a dedup.Bulk does band by band, and writes each pair once with
+// whether the rows' sketches confirm it.
+func findCandidates(ctx context.Context, w *bufio.Writer, work string, heads []*shardFile, part int, sk *index.SetSketches, fp dedup.Params, count *int) error {
+	firsts := map[bandSlot]uint32{}
+	var cands []uint64
+	err := eachPartRecord(ctx, work, heads, part, bandsName, "sluiceBK", bandRecSize, func(d *shardDups) []int { return d.Bands }, 8, func(rec []byte, row int) error {
+		s := bandSlot{binary.LittleEndian.Uint64(rec), rec[12]}
+		if int(s.band) >= fp.Bands {
+			return workErrorf("duplicates: part %d: a record names band %d of %d", part, s.band, fp.Bands)
+		}
+		if f, seen := firsts[s]; !seen {
+			firsts[s] = uint32(row)
+		} else if int(f) != row {
+			cands = append(cands, uint64(row)<<32|uint64(f))
+		}
+		return nil
+	})
+	if err != nil {
+		return err
+	}
+	clear(firsts)
+	slices.Sort(cands)
+	cands = slices.Compact(cands)
+	var out [candRecSize]byte
+	for i, c := range cands {
+		if i%(1<<16) == 0 && ctx.Err() != nil {
+			return fmt.Errorf("duplicates: %w", ctx.Err())
+		}
+		later, first := int(c>>32), int(uint32(c))
+		ml, _, okl, err := sk.Record(later)
+		if err != nil {
+			return err
+		}
+		mf, _, okf, err := sk.Record(first)
+		if err != nil {
+			return err
+		}
+		if !okl || !okf || len(ml) == 0 || len(mf) == 0 {
+			return workErrorf("duplicates: part %d: rows %d and %d share a bucket but have no stored marks: the set changed since it was scored", part, first, later)
+		}
+		binary.LittleEndian.PutUint32(out[0:], uint32(later))
+		binary.LittleEndian.PutUint32(out[4:], uint32(first))
+		out[8] = 0
+		if dedup.MarksSimilarity(ml, mf, fp.Bands) >= fp.Threshold {
+			out[8] = 1
+		}
+		if _, err := w.Write(out[:]); err != nil {
+			return err
+		}
+	}
+	*count = len(cands)
+	return nil
+}
+
+// rowSets is a union-find over the rows in pairs, held by row, so that its memory grows with the
+// rows that have a duplicate: a set is named by its least row, as dedup.Clusters names a cluster by
+// its first.
+type rowSets map[uint32]uint32
+
+func (u rowSets) find(r uint32) uint32 {
+	for {
+		p, ok := u[r]
+		if !ok || p == r {
+			return r
+		}
+		if gp := u[p]; gp != p {
+			u[r] = gp // path halving
+		}
+		r = p
+	}
+}
+
+func (u rowSets) union(a, b uint32) {
+	for _, r := range [2]uint32{a, b} {
+		if _, ok := u[r]; !ok {
+			u[r] = r
+		}
+	}
+	a, b = u.find(a), u.find(b)
+	if a == b {
+		return
+	}
+	if b < a {
+		a, b = b, a
+	}
+	u[b] = a
+}
+
+// shardClusters is what the cut knows of the set's duplicates.
+type shardClusters struct {
+	sets rowSets
+	keep map[uint32]uint32 // a cluster's least row -> its row kept, as the walk meets them
+}
+
+// cutDups reads every part's pairs, joins them into clusters and fills gd as a pick over the set
+// that takes the set's duplicates fills it: the counts, the work, the clusters.
+func (p *picked) cutDups(work string, heads []*shardFile, gd *guarded) error {
+	of := heads[0].Of
+	fp := dedup.ForThreshold(orDefault(p.opt.Guards.NearDup, DefaultNearDup))
+	d := &index.Dups{Threshold: fp.Threshold, Shingle: fp.Shingle, Hashes: fp.Hashes, Bands: fp.Bands, Seed: fp.Seed, Version: dedup.Version}
+	var keyWork, signWork dedup.Work
+	var marked int64
+	for _, sf := range heads {
+		if sf.Dups == nil {
+			return workErrorf("shard %d of %d was scored keeping duplicates: score it again with these flags", sf.Shard, of)
+		}
+		keyWork, signWork, marked = keyWork.Plus(sf.Dups.KeyWork), signWork.Plus(sf.Dups.SignWork), marked+sf.Dups.Marked
+		if sf.Dups.InPool > 0 {
+			if gd.inPool == 0 {
+				gd.inPoolFirst = sf.Dups.InPoolFirst
+			}
+			gd.inPool += sf.Dups.InPool
+		}
+	}
+	sets := rowSets{}
+	repeats := map[uint32]bool{}
+	var cands []uint64
+	for part := range of {
+		df := &dupsFile{}
+		dir := dupsFolder(work, part)
+		what := fmt.Sprintf("duplicates' part %d of %d (run its dups step)", part, of)
+		if _, err := readJSON(filepath.Join(dir, dupsMark), what, df); err != nil {
+			return err
+		}
+		if df.Format != shardFormat || df.Identity != heads[0].Identity || df.Options != heads[0].Options || df.Part != part || df.Of != of {
+			return workErrorf("duplicates' part %d of %d: %s was made by another pick or over another set: run its dups step again", part, of, dir)
+		}
+		err := eachRecord(filepath.Join(dir, repeatsFile), df.Repeats, repeatRecSize, df.Files[repeatsFile], func(b []byte) error {
+			row, first := binary.LittleEndian.Uint32(b), binary.LittleEndian.Uint32(b[4:])
+			if first >= row || int(row) >= int(heads[0].Meta.Rows) || repeats[row] {
+				return workErrorf("duplicates' part %d: %s is damaged: row %d repeats row %d", part, filepath.Join(dir, repeatsFile), row, first)
+			}
+			repeats[row] = true
+			sets.union(first, row)
+			if b[8]&1 != 0 {
+				signWork = signWork.Minus(dedup.Work{Bytes: int64(binary.LittleEndian.Uint64(b[9:])),
+					ShingleWords: int64(binary.LittleEndian.Uint64(b[17:])), MinHashes: int64(binary.LittleEndian.Uint64(b[25:]))})
+			}
+			if b[8]&2 != 0 {
+				marked--
+			}
+			return nil
+		})
+		if err != nil {
+			return err
+		}
+		err = eachRecord(filepath.Join(dir, candsFile), df.Candidates, candRecSize, df.Files[candsFile], func(b []byte) error {
+			later, first := binary.LittleEndian.Uint32(b), binary.LittleEndian.Uint32(b[4:])
+			if first >= later || int(later) >= int(heads[0].Meta.Rows) {
+				return workErrorf("duplicates' part %d: %s is damaged: rows %d and %d", part, filepath.Join(dir, candsFile), first, later)
+			}
+			if b[8]&1 != 0 {
+				sets.union(first, later)
+			}
+			cands = append(cands, uint64(later)<<32|uint64(first))
+			return nil
+		})
+		if err != nil {
+			return err
+		}
+	}
+	// A pair found in two parts (two bands) counts once, as in a Bulk, and a row whose key an
+	// earlier row has, never given to one, is compared with nothing (its confirmed pairs, joined
+	// above, join rows its first's pairs join).
+	slices.Sort(cands)
+	compared := int64(0)
+	for i, c := range cands {
+		if !repeats[uint32(c>>32)] && (i == 0 || cands[i-1] != c) {
+			compared++
+		}
+	}
+	found := dedup.Work{BandValues: marked * int64(d.Hashes), Probes: marked * int64(d.Bands), Compared: compared * int64(d.Hashes)}
+	d.ExactDuplicates = int64(len(repeats))
+	kw := keyWork
+	d.KeyWork = &kw
+	d.Work = keyWork.Plus(signWork).Plus(found)
+	d.FLOPs = d.Work.FLOPs()
+	for r := range sets {
+		if root := sets.find(r); root == r {
+			d.Clusters++
+		} else {
+			d.Duplicates++
+		}
+	}
+	gd.cluster = func(r int) int { return int(sets.find(uint32(r))) }
+	gd.groups, gd.exactDups, gd.bands, gd.built = int(d.Clusters), int(d.ExactDuplicates), d.Bands, d
+	p.dropped = int(d.Duplicates)
+	p.clusters = &shardClusters{sets: sets, keep: map[uint32]uint32{}}
+	return nil
+}
+
+// eachRecord reads the n records of size bytes of path, checked against its SHA-256 sum.
+func eachRecord(path string, n, size int, sum string, fn func([]byte) error) error {
+	f, err := os.Open(path)
+	if err != nil {
+		return workErrorf("%s is missing or unreadable: %v", path, err)
+	}
+	defer f.Close()
+	h := sha256.New()
+	r := bufio.NewReaderSize(io.TeeReader(f, h), mergeBuf)
+	b := make([]byte, size)
+	for range n {
+		if _, err := io.ReadFull(r, b); err != nil {
+			return workErrorf("%s is damaged: it ends early (%v)", path, err)
+		}
+		if err := fn(b); err != nil {
+			return err
+		}
+	}
+	if k, _ := r.Read(b[:1]); k > 0 {
+		return workErrorf("%s is damaged: it runs on past its records", path)
+	}
+	if got := hex.EncodeToString(h.Sum(nil)); got != sum {
+		return workErrorf("%s is damaged: SHA-256 %.12s, its summary says %.12s", path, got, sum)
+	}
+	return nil
+}
+
+// cutBar is why the cut bars row, met in rank order: contaminated, a duplicate of a row of its
+// cluster met before it, or not at all.
+func (p *picked) cutBar(row int) selection.Reason {
+	if why := p.guardBar(row); why != selection.Kept || p.clusters == nil {
+		return why
+	}
+	c := p.clusters
+	root := c.sets.find(uint32(row))
+	if root == uint32(row) {
+		if _, ok := c.sets[root]; !ok {
+			return selection.Kept // alone
+		}
+	}
+	k, met := c.keep[root]
+	if !met {
+		c.keep[root] = uint32(row)
+		return selection.Kept
+	}
+	if k == uint32(row) {
+		return selection.Kept
+	}
+	return selection.Duplicate
+}
+
+// keeperOf is the row kept instead of row, barred as a duplicate by cutBar.
+func (p *picked) keeperOf(row int) int {
+	return int(p.clusters.keep[p.clusters.sets.find(uint32(row))])
+}
+
+// restartBar forgets the rows cutBar has met, for another walk from the top.
+func (p *picked) restartBar() {
+	if p.clusters != nil {
+		clear(p.clusters.keep)
+	}
+}
+
+// writeDupOf writes, for each shard, its rows barred as duplicates and the id of each one's row
+// kept instead (rows of any segment, read with index.RowIDs), in row order.
+func (p *picked) writeDupOf(tmp, dir string, heads []*shardFile, dups [][]uint64, sums map[string]string) error {
+	var keepers []int
+	for _, ds := range dups {
+		for _, d := range ds {
+			keepers = append(keepers, int(uint32(d)))
+		}
+	}
+	slices.Sort(keepers)
+	keepers = slices.Compact(keepers)
+	ids, err := index.RowIDs(p.opt.Index, keepers)
+	if err != nil {
+		return err
+	}
+	for i, ds := range dups {
+		slices.Sort(ds)
+		name := dupOfName(i)
+		sums[name], err = writeHashed(filepath.Join(tmp, name), filepath.Join(dir, name), func(w *bufio.Writer) error {
+			w.Write(fileHead("sluiceDO", i, heads[i].Of, len(ds), heads[i].FirstRow))
+			var b []byte
+			for _, d := range ds {
+				at, _ := slices.BinarySearch(keepers, int(uint32(d)))
+				b = binary.LittleEndian.AppendUint32(b[:0], uint32(d>>32))
+				b = binary.AppendUvarint(b, uint64(len(ids[at])))
+				b = append(b, ids[at]...)
+				if _, err := w.Write(b); err != nil {
+					return err
+				}
+			}
+			return nil
+		})
+		if err != nil {
+			return err
+		}
+	}
+	return nil
+}
+
+// loadDupOf reads the cut's ids of the rows kept instead of the shard's duplicates.
+func (p *picked) loadDupOf(work string, sf *shardFile, cf *cutFile) error {
+	name := dupOfName(sf.Shard)
+	path := filepath.Join(work, cutName, name)
+	b, err := os.ReadFile(path)
+	if err != nil {
+		return workErrorf("shard %d of %d: %s is missing or unreadable: %v", sf.Shard, sf.Of, path, err)
+	}
+	sum := sha256.Sum256(b)
+	if hex.EncodeToString(sum[:]) != cf.Files[name] || len(b) < fileHeadSize || string(b[:8]) != "sluiceDO" || int(binary.LittleEndian.Uint32(b[8:])) != sf.Shard {
+		return workErrorf("shard %d of %d: %s is damaged or another pick's", sf.Shard, sf.Of, path)
+	}
+	n := binary.LittleEndian.Uint64(b[16:])
+	b = b[fileHeadSize:]
+	p.dupIDs = make(map[int]string, min(n, uint64(len(b)/5)))
+	for range n {
+		if len(b) < 5 {
+			return workErrorf("shard %d of %d: %s is damaged: it ends early", sf.Shard, sf.Of, path)
+		}
+		r := int(binary.LittleEndian.Uint32(b))
+		l, k := binary.Uvarint(b[4:])
+		if k <= 0 || uint64(len(b)-4-k) < l {
+			return workErrorf("shard %d of %d: %s is damaged: it ends early", sf.Shard, sf.Of, path)
+		}
+		p.dupIDs[r] = string(b[4+k : 4+k+int(l)])
+		b = b[4+k+int(l):]
+	}
+	for r, d := range p.dec {
+		if _, ok := p.dupIDs[r]; d.Reason == selection.Duplicate && !ok {
+			return workErrorf("shard %d of %d: %s names no row kept instead of row %d", sf.Shard, sf.Of, path, r)
+		}
+	}
+	return nil
+}
