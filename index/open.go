@@ -12,6 +12,7 @@ import (
 	"slices"
 	"sort"
 	"strconv"
+	"sync"
 	"syscall"
 
 	"golang.org/x/sys/unix"
@@ -42,6 +43,10 @@ type Index struct {
 	maps [][]byte
 
 	set *segSet // the segments, for an index read from a set file; the fields above are then unused
+
+	// The sketches' checksum, checked once, when they are first read (checkSketches).
+	sketchOnce sync.Once
+	sketchErr  error
 }
 
 // openAttempts bounds how often Open starts again when a rebuild replaced the folder while it read.

@@ -44,17 +44,17 @@ func (ix *Index) ShardDups() *Dups {
 // EachSketch calls fn for every record of the stored sketches of an index from OpenShard (its
 // segment's), in row order: the row among the index's rows, its marks (dedup.Detector.AppendMarks;
 // empty for a row without words; valid during the call alone) and the work of signing it. It
-// checks the file against its checksum first, so the steps that later look records up by row
-// (SetSketches) read a file one step has read whole.
+// checks the file against its checksum the first time, so the steps that later look records up by
+// row (SetSketches) read a file one step has read whole.
 func (ix *Index) EachSketch(fn func(row int, marks []byte, w dedup.Work) error) error {
 	if ix.ShardDups() == nil {
 		return fmt.Errorf("index %s: no sketches to read: %w", ix.dir, ErrIncompatible)
 	}
 	g := ix.set.segs[ix.set.only]
+	// The pages stay mapped, for a caller that walks the file again (once a band, say), until Close.
 	if err := g.checkSketches(); err != nil {
 		return err
 	}
-	defer g.dropSketchPages()
 	rd := g.sketchReader(g.meta.Dups.marksLen())
 	for {
 		rec, more, err := rd.next()

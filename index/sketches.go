@@ -81,13 +81,15 @@ func (ix *Index) sketchReader(marksLen int) sketchReader {
 }
 
 // checkSketches checks the mapped sketches file against the CRC-32C meta.json gives it, which Open
-// leaves to the one reader of the file.
+// leaves to the readers of the file; the first to read it checks it for all.
 func (ix *Index) checkSketches() error {
-	want := ix.meta.Files[sketchesFile].CRC32C
-	if got := fmt.Sprintf("%08x", crc32.Checksum(ix.sketches, castagnoli)); got != want {
-		return fmt.Errorf("open index %s: %s checksum %s, meta.json says %s: %w", ix.dir, sketchesFile, got, want, ErrDamaged)
-	}
-	return nil
+	ix.sketchOnce.Do(func() {
+		want := ix.meta.Files[sketchesFile].CRC32C
+		if got := fmt.Sprintf("%08x", crc32.Checksum(ix.sketches, castagnoli)); got != want {
+			ix.sketchErr = fmt.Errorf("open index %s: %s checksum %s, meta.json says %s: %w", ix.dir, sketchesFile, got, want, ErrDamaged)
+		}
+	})
+	return ix.sketchErr
 }
 
 // dropSketchPages gives the pages of the mapped sketches file back (they stay in the page cache):

@@ -2,6 +2,7 @@ package run
 
 import (
 	"bufio"
+	"cmp"
 	"context"
 	"crypto/sha256"
 	"encoding/binary"
@@ -45,7 +46,7 @@ type shardDups struct {
 	SignWork dedup.Work `json:"sign_work"` // the signing of every row with a sketch record
 	Marked   int64      `json:"marked"`    // sketch records with marks (rows with words)
 	Exact    []int      `json:"exact"`     // records in each part's exact file
-	Bands    []int      `json:"bands"`     // records in each part's bands file
+	Bands    [][]int    `json:"bands"`     // records of each band in each part's bands file
 	// InPool counts the segment's rows whose key a target row has; InPoolFirst is the first one's id.
 	InPool      int    `json:"in_pool,omitempty"`
 	InPoolFirst string `json:"in_pool_first,omitempty"`
@@ -53,7 +54,7 @@ type shardDups struct {
 
 const (
 	exactRecSize  = 4 + 16         // row, key
-	bandRecSize   = 8 + 4 + 1      // band key, row, band
+	bandRecSize   = 8 + 4          // band key, row
 	repeatRecSize = 4 + 4 + 1 + 24 // row, first, flags, signing work (Bytes, ShingleWords, MinHashes)
 	candRecSize   = 4 + 4 + 1      // later row, first row, confirmed
 	dupsMark      = "dups.json"
@@ -112,7 +113,10 @@ func (p *picked) writeDupKeys(tmp, dir string, sums map[string]string) (*shardDu
 	}
 	shard, of := p.ix.Shard()
 	first := p.ix.FirstRow()
-	sd := &shardDups{KeyWork: *d.KeyWork, Exact: make([]int, of), Bands: make([]int, of)}
+	sd := &shardDups{KeyWork: *d.KeyWork, Exact: make([]int, of), Bands: make([][]int, of)}
+	for part := range sd.Bands {
+		sd.Bands[part] = make([]int, d.Bands)
+	}
 	files := map[string]*hashedFile{}
 	defer func() {
 		for _, f := range files {
@@ -154,25 +158,31 @@ func (p *picked) writeDupKeys(tmp, dir string, sums map[string]string) (*shardDu
 		exact[part].w.Write(rec[:exactRecSize])
 		sd.Exact[part]++
 	}
-	err = p.ix.EachSketch(func(r int, marks []byte, w dedup.Work) error {
-		sd.SignWork = sd.SignWork.Plus(w)
-		if len(marks) == 0 {
-			return nil
-		}
-		sd.Marked++
-		for j := range d.Bands {
+	// A part's bands file holds band 0's records of every row, then band 1's, and so on, so that
+	// the dups step holds one band's buckets at a time; the sketches are walked once a band (their
+	// pages stay in the page cache), rather than a file a band and part being open at once.
+	for j := range d.Bands {
+		err = p.ix.EachSketch(func(r int, marks []byte, w dedup.Work) error {
+			if j == 0 {
+				sd.SignWork = sd.SignWork.Plus(w)
+				if len(marks) > 0 {
+					sd.Marked++
+				}
+			}
+			if len(marks) == 0 {
+				return nil
+			}
 			k := binary.LittleEndian.Uint64(marks[8*j:])
 			part := partOf(k, of)
 			binary.LittleEndian.PutUint64(rec[:], k)
 			binary.LittleEndian.PutUint32(rec[8:], uint32(first+r))
-			rec[12] = byte(j)
 			bands[part].w.Write(rec[:bandRecSize])
-			sd.Bands[part]++
+			sd.Bands[part][j]++
+			return nil
+		})
+		if err != nil {
+			return nil, err
 		}
-		return nil
-	})
-	if err != nil {
-		return nil, err
 	}
 	for name, f := range files {
 		sum, err := f.finish()
@@ -206,8 +216,9 @@ func DupsShard(ctx context.Context, opt Options, work string, part int) (*ShardR
 	if opt.Guards.KeepDuplicates {
 		return rep, nil
 	}
+	fp := dedup.ForThreshold(orDefault(opt.Guards.NearDup, DefaultNearDup))
 	for _, sf := range heads {
-		if sf.Dups == nil || len(sf.Dups.Exact) != of || len(sf.Dups.Bands) != of {
+		if sf.Dups == nil || len(sf.Dups.Exact) != of || len(sf.Dups.Bands) != of || len(sf.Dups.Bands[part]) != fp.Bands {
 			return nil, workErrorf("shard %d of %d: its summary has no records for the search for duplicates: score it again", sf.Shard, of)
 		}
 	}
@@ -216,7 +227,6 @@ func DupsShard(ctx context.Context, opt Options, work string, part int) (*ShardR
 		return nil, err
 	}
 	defer sk.Close()
-	fp := dedup.ForThreshold(orDefault(opt.Guards.NearDup, DefaultNearDup))
 	dir := dupsFolder(work, part)
 	df := &dupsFile{Format: shardFormat, Sluice: opt.Version, Identity: ident, Options: key, Part: part, Of: of, Files: map[string]string{}}
 	err = publishWork(dir, dupsKind(), []string{opt.Index, opt.Target}, func(tmp string) error {
@@ -246,41 +256,49 @@ type dupsFile struct {
 	Files      map[string]string `json:"files"`
 }
 
-// eachPartRecord reads every shard's file name of part, in shard order and so in row order, and
-// calls fn with each record, checking that the records' rows are the shard's, in order.
-func eachPartRecord(ctx context.Context, work string, heads []*shardFile, part int, name func(int) string, magic string, size int, counts func(*shardDups) []int, rowAt int, fn func(rec []byte, row int) error) error {
-	for i, sf := range heads {
-		path := filepath.Join(shardFolder(work, i), name(part))
-		rf, err := openRecordsHead(path, magic, i, sf.Of, part, counts(sf.Dups)[part], size, sf.Files[name(part)], mergeBuf)
-		if err != nil {
-			return err
+// partRecords reads one shard's file of part, a record at a time, checking that the rows of each
+// run of records the caller reads (a band's, or the whole file) ascend and are the shard's.
+type partRecords struct {
+	*recordFile
+	sf   *shardFile
+	last int
+}
+
+func openPart(work string, sf *shardFile, part int, name func(int) string, magic string, size, records int) (*partRecords, error) {
+	path := filepath.Join(shardFolder(work, sf.Shard), name(part))
+	rf, err := openRecordsHead(path, magic, sf.Shard, sf.Of, part, records, size, sf.Files[name(part)], partBuf)
+	if err != nil {
+		return nil, err
+	}
+	return &partRecords{recordFile: rf, sf: sf, last: -1}, nil
+}
+
+// each reads n records and calls fn with each and its row (the uint32 at rowAt).
+func (pr *partRecords) each(ctx context.Context, n, rowAt int, fn func(rec []byte, row int) error) error {
+	for k := range n {
+		if k%(1<<16) == 0 && ctx.Err() != nil {
+			return fmt.Errorf("duplicates: %w", ctx.Err())
 		}
-		last := -1
-		for n := 0; ; n++ {
-			if n%(1<<16) == 0 && ctx.Err() != nil {
-				rf.Close()
-				return fmt.Errorf("duplicates: %w", ctx.Err())
-			}
-			ok, err := rf.next()
-			if err == nil && ok {
-				row := int(binary.LittleEndian.Uint32(rf.rec[rowAt:]))
-				if row < max(last, sf.FirstRow) || row >= sf.FirstRow+sf.Rows {
-					err = workErrorf("shard %d of %d: %s is damaged: row %d is out of place", i, sf.Of, path, row)
-				} else {
-					last = row
-					err = fn(rf.rec, row)
-				}
-			}
-			if err != nil || !ok {
-				rf.Close()
-				if err != nil {
-					return err
-				}
-				break
-			}
+		if ok, err := pr.next(); err != nil || !ok {
+			return cmp.Or(err, workErrorf("shard %d of %d: %s is damaged: it ends early", pr.sf.Shard, pr.sf.Of, pr.path))
+		}
+		row := int(binary.LittleEndian.Uint32(pr.rec[rowAt:]))
+		if row < max(pr.last, pr.sf.FirstRow) || row >= pr.sf.FirstRow+pr.sf.Rows {
+			return workErrorf("shard %d of %d: %s is damaged: row %d is out of place", pr.sf.Shard, pr.sf.Of, pr.path, row)
+		}
+		pr.last = row
+		if err := fn(pr.rec, row); err != nil {
+			return err
 		}
 	}
 	return nil
+}
+
+// end checks that the file holds no more records and its sum is its summary's.
+func (pr *partRecords) end() error {
+	_, err := pr.next()
+	pr.Close()
+	return err
 }
 
 // findRepeats finds the rows of part whose exact key an earlier row has and writes each with that
@@ -288,7 +306,7 @@ func eachPartRecord(ctx context.Context, work string, heads []*shardFile, part i
 func findRepeats(ctx context.Context, w *bufio.Writer, work string, heads []*shardFile, part int, sk *index.SetSketches, count *int) error {
 	firsts := map[dedup.Key]uint32{}
 	var out [repeatRecSize]byte
-	return eachPartRecord(ctx, work, heads, part, exactName, "sluiceEX", exactRecSize, func(d *shardDups) []int { return d.Exact }, 0, func(rec []byte, row int) error {
+	fn := func(rec []byte, row int) error {
 		key := dedup.Key(rec[4:exactRecSize])
 		f, seen := firsts[key]
 		if !seen {
@@ -314,35 +332,71 @@ func findRepeats(ctx context.Context, w *bufio.Writer, work string, heads []*sha
 		*count++
 		_, err = w.Write(out[:])
 		return err
-	})
-}
-
-// bandSlot is a bucket: a band's key and the band.
-type bandSlot struct {
-	key  uint64
-	band uint8
+	}
+	for _, sf := range heads {
+		pr, err := openPart(work, sf, part, exactName, "sluiceEX", exactRecSize, sf.Dups.Exact[part])
+		if err != nil {
+			return err
+		}
+		if err := pr.each(ctx, sf.Dups.Exact[part], 0, fn); err != nil {
+			pr.Close()
+			return err
+		}
+		if err := pr.end(); err != nil {
+			return err
+		}
+	}
+	return nil
 }
 
 // findCandidates finds, among the band keys of part, each row's candidate pairs with the first row
-// of each bucket it falls in, as a dedup.Bulk does band by band, and writes each pair once with
+// of each bucket it falls in, as a dedup.Bulk does, one band at a time: every shard's records of
+// the band, in shard order and so in row order, then the next band's. It writes each pair once with
 // whether the rows' sketches confirm it.
 func findCandidates(ctx context.Context, w *bufio.Writer, work string, heads []*shardFile, part int, sk *index.SetSketches, fp dedup.Params, count *int) error {
-	firsts := map[bandSlot]uint32{}
+	readers := make([]*partRecords, len(heads))
+	defer func() {
+		for _, pr := range readers {
+			if pr != nil {
+				pr.Close()
+			}
+		}
+	}()
+	for i, sf := range heads {
+		n := 0
+		for _, c := range sf.Dups.Bands[part] {
+			n += c
+		}
+		var err error
+		if readers[i], err = openPart(work, sf, part, bandsName, "sluiceBK", bandRecSize, n); err != nil {
+			return err
+		}
+	}
+	firsts := map[uint64]uint32{}
 	var cands []uint64
-	err := eachPartRecord(ctx, work, heads, part, bandsName, "sluiceBK", bandRecSize, func(d *shardDups) []int { return d.Bands }, 8, func(rec []byte, row int) error {
-		s := bandSlot{binary.LittleEndian.Uint64(rec), rec[12]}
-		if int(s.band) >= fp.Bands {
-			return workErrorf("duplicates: part %d: a record names band %d of %d", part, s.band, fp.Bands)
+	for j := range fp.Bands {
+		clear(firsts)
+		for i, pr := range readers {
+			pr.last = -1
+			err := pr.each(ctx, heads[i].Dups.Bands[part][j], 8, func(rec []byte, row int) error {
+				k := binary.LittleEndian.Uint64(rec)
+				if f, seen := firsts[k]; !seen {
+					firsts[k] = uint32(row)
+				} else if int(f) != row {
+					cands = append(cands, uint64(row)<<32|uint64(f))
+				}
+				return nil
+			})
+			if err != nil {
+				return err
+			}
 		}
-		if f, seen := firsts[s]; !seen {
-			firsts[s] = uint32(row)
-		} else if int(f) != row {
-			cands = append(cands, uint64(row)<<32|uint64(f))
+	}
+	for i, pr := range readers {
+		readers[i] = nil
+		if err := pr.end(); err != nil {
+			return err
 		}
-		return nil
-	})
-	if err != nil {
-		return err
 	}
 	clear(firsts)
 	slices.Sort(cands)
