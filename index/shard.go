@@ -60,6 +60,27 @@ func OpenShard(path string, shard int) (*Index, error) {
 // openLexicon reads an index folder's meta.json and its lexicon alone, checked against meta.json's
 // size and checksum: enough for a segment's statistics, not for its rows.
 func openLexicon(dir string) (*Index, error) {
+	return openPart(dir, func(d *os.File, ix *Index) error {
+		m := &ix.meta
+		post, listed := m.Files[postingsFile]
+		if !listed || post.Size < 0 {
+			return fmt.Errorf("open index %s: meta.json lists no %s, or a size below 0: %w", dir, postingsFile, ErrDamaged)
+		}
+		b, err := ix.mapChecked(d, lexiconFile, make([]byte, checkBuf))
+		if err != nil {
+			return err
+		}
+		if err := ix.lex.load(b, m.Terms, m.Rows, uint64(post.Size)); err != nil {
+			return fmt.Errorf("open index %s: lexicon: %w", dir, err)
+		}
+		return nil
+	})
+}
+
+// openPart opens the index folder dir and reads its meta.json, then lets load map the files it
+// needs through the same handle (so they are of one version of the folder); the Index is closed
+// when load fails.
+func openPart(dir string, load func(d *os.File, ix *Index) error) (*Index, error) {
 	d, err := os.Open(dir)
 	if err != nil {
 		return nil, pathErr("open index", err)
@@ -70,31 +91,28 @@ func openLexicon(dir string) (*Index, error) {
 		return nil, err
 	}
 	ix := &Index{dir: dir, real: dir, meta: *m}
-	want, listed := m.Files[lexiconFile]
-	post, plisted := m.Files[postingsFile]
-	if !listed || !plisted {
-		return nil, fmt.Errorf("open index %s: meta.json lists no %s or %s: %w", dir, lexiconFile, postingsFile, ErrDamaged)
-	}
-	b, sum, err := ix.mapFile(d, lexiconFile, make([]byte, checkBuf), true)
-	if err == nil && int64(len(b)) != want.Size {
-		err = fmt.Errorf("open index %s: %s is %d bytes, meta.json says %d: %w", dir, lexiconFile, len(b), want.Size, ErrDamaged)
-	}
-	if err == nil && fmt.Sprintf("%08x", sum) != want.CRC32C {
-		err = fmt.Errorf("open index %s: %s checksum %08x, meta.json says %s: %w", dir, lexiconFile, sum, want.CRC32C, ErrDamaged)
-	}
-	if err == nil && post.Size < 0 {
-		err = fmt.Errorf("open index %s: meta.json says %s is %d bytes: %w", dir, postingsFile, post.Size, ErrDamaged)
-	}
-	if err == nil {
-		if err = ix.lex.load(b, m.Terms, m.Rows, uint64(post.Size)); err != nil {
-			err = fmt.Errorf("open index %s: lexicon: %w", dir, err)
-		}
-	}
-	if err != nil {
+	if err := load(d, ix); err != nil {
 		ix.Close()
 		return nil, err
 	}
 	return ix, nil
+}
+
+// mapChecked maps the file name of the folder open as d, which meta.json must list, and checks it
+// against the size and checksum meta.json gives it.
+func (ix *Index) mapChecked(d *os.File, name string, buf []byte) ([]byte, error) {
+	want, listed := ix.meta.Files[name]
+	if !listed {
+		return nil, fmt.Errorf("open index %s: meta.json lists no %s: %w", ix.dir, name, ErrDamaged)
+	}
+	b, sum, err := ix.mapFile(d, name, buf, true)
+	if err != nil {
+		return nil, err
+	}
+	if int64(len(b)) != want.Size || fmt.Sprintf("%08x", sum) != want.CRC32C {
+		return nil, fmt.Errorf("open index %s: %s is %d bytes with checksum %08x, meta.json says %d and %s: %w", ix.dir, name, len(b), sum, want.Size, want.CRC32C, ErrDamaged)
+	}
+	return b, nil
 }
 
 // Shard returns the segment an Index from OpenShard holds the rows of and the set's number of

@@ -113,30 +113,19 @@ func OpenSetSketches(path string) (s *SetSketches, err error) {
 // openSketches reads an index folder's meta.json and maps its sketches file, checked against the
 // size meta.json gives it.
 func openSketches(dir string) (*Index, error) {
-	d, err := os.Open(dir)
-	if err != nil {
-		return nil, pathErr("open index", err)
-	}
-	defer d.Close()
-	m, err := readMetaAt(d, dir)
-	if err != nil {
-		return nil, err
-	}
-	ix := &Index{dir: dir, real: dir, meta: *m}
-	want, listed := m.Files[sketchesFile]
-	if m.Dups == nil || !listed {
-		return ix, nil // refused by replayable, with the set named
-	}
-	b, _, err := ix.mapFile(d, sketchesFile, nil, false)
-	if err == nil && (int64(len(b)) != want.Size || want.Size != (m.Rows-m.Dups.ExactDuplicates)*int64(sketchHead+m.Dups.marksLen())) {
-		err = fmt.Errorf("open index %s: %s is %d bytes, meta.json says %d for %d rows first of their key: %w", dir, sketchesFile, len(b), want.Size, m.Rows-m.Dups.ExactDuplicates, ErrDamaged)
-	}
-	if err != nil {
-		ix.Close()
-		return nil, err
-	}
-	ix.sketches = b
-	return ix, nil
+	return openPart(dir, func(d *os.File, ix *Index) error {
+		m := &ix.meta
+		want, listed := m.Files[sketchesFile]
+		if m.Dups == nil || !listed {
+			return nil // refused by replayable, with the set named
+		}
+		b, _, err := ix.mapFile(d, sketchesFile, nil, false)
+		if err == nil && (int64(len(b)) != want.Size || want.Size != (m.Rows-m.Dups.ExactDuplicates)*int64(sketchHead+m.Dups.marksLen())) {
+			err = fmt.Errorf("open index %s: %s is %d bytes, meta.json says %d for %d rows first of their key: %w", dir, sketchesFile, len(b), want.Size, m.Rows-m.Dups.ExactDuplicates, ErrDamaged)
+		}
+		ix.sketches = b
+		return err
+	})
 }
 
 // NumRows is the number of rows of the set.
@@ -230,56 +219,29 @@ func RowIDs(path string, rows []int) ([]string, error) {
 // openRowIDs reads an index folder's meta.json, rows and ids (when it has an id field), checked
 // against their sizes and checksums: enough for RowID, nothing else.
 func openRowIDs(dir string) (*Index, error) {
-	d, err := os.Open(dir)
-	if err != nil {
-		return nil, pathErr("open index", err)
-	}
-	defer d.Close()
-	m, err := readMetaAt(d, dir)
-	if err != nil {
-		return nil, err
-	}
-	ix := &Index{dir: dir, real: dir, meta: *m}
-	names := []string{rowsFile}
-	if m.IDField != "" {
-		names = append(names, idsFile)
-	}
-	buf := make([]byte, checkBuf)
-	data := map[string][]byte{}
-	for _, name := range names {
-		want, listed := m.Files[name]
-		if !listed {
-			err = fmt.Errorf("open index %s: meta.json lists no %s: %w", dir, name, ErrDamaged)
-			break
+	return openPart(dir, func(d *os.File, ix *Index) error {
+		m := &ix.meta
+		buf := make([]byte, checkBuf)
+		rows, err := ix.mapChecked(d, rowsFile, buf)
+		if err != nil {
+			return err
 		}
-		var b []byte
-		var sum uint32
-		if b, sum, err = ix.mapFile(d, name, buf, true); err != nil {
-			break
+		if int64(len(rows)) != m.Rows*rowRecSize {
+			return fmt.Errorf("open index %s: rows holds %d bytes for %d rows: %w", dir, len(rows), m.Rows, ErrDamaged)
 		}
-		if int64(len(b)) != want.Size || fmt.Sprintf("%08x", sum) != want.CRC32C {
-			err = fmt.Errorf("open index %s: %s is %d bytes with checksum %08x, meta.json says %d and %s: %w", dir, name, len(b), sum, want.Size, want.CRC32C, ErrDamaged)
-			break
-		}
-		data[name] = b
-	}
-	if err == nil && int64(len(data[rowsFile])) != m.Rows*rowRecSize {
-		err = fmt.Errorf("open index %s: rows holds %d bytes for %d rows: %w", dir, len(data[rowsFile]), m.Rows, ErrDamaged)
-	}
-	if err == nil {
-		ix.rows = data[rowsFile]
-		for i := int64(0); i < m.Rows && err == nil; i++ {
-			if int(getRowRec(ix.rows[i*rowRecSize:]).src) >= len(m.Sources) {
-				err = fmt.Errorf("open index %s: row %d names a source the index does not have: %w", dir, i, ErrDamaged)
+		for i := int64(0); i < m.Rows; i++ {
+			if int(getRowRec(rows[i*rowRecSize:]).src) >= len(m.Sources) {
+				return fmt.Errorf("open index %s: row %d names a source the index does not have: %w", dir, i, ErrDamaged)
 			}
 		}
-	}
-	if err == nil && m.IDField != "" {
-		err = ix.loadIDs(data[idsFile])
-	}
-	if err != nil {
-		ix.Close()
-		return nil, err
-	}
-	return ix, nil
+		ix.rows = rows
+		if m.IDField == "" {
+			return nil
+		}
+		ids, err := ix.mapChecked(d, idsFile, buf)
+		if err != nil {
+			return err
+		}
+		return ix.loadIDs(ids)
+	})
 }

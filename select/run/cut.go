@@ -215,9 +215,10 @@ func (m *merge) Close() {
 	}
 }
 
-// CutShards is a sharded pick's second step: it reads every shard's summary, merges their rankings
-// and walks them as Pick walks its ranking, and writes the work folder's cut: each shard's
-// decisions, in its ranking's order, and the ledger.
+// CutShards is a sharded pick's cut, after the score and dups steps: it reads every shard's
+// summary and the set's clusters of duplicates, merges the shards' rankings and walks them as Pick
+// walks its ranking, and writes the work folder's cut: each shard's decisions, in its ranking's
+// order, the ids of the rows kept instead of its duplicates, and the ledger.
 func CutShards(ctx context.Context, opt Options, work string) (*ShardReport, error) {
 	key, ident, err := startStep(&opt, false)
 	if err != nil {

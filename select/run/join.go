@@ -59,8 +59,8 @@ func readCut(work, key, ident string) (*cutFile, string, error) {
 	return cf, hex.EncodeToString(sum[:]), nil
 }
 
-// WriteShard is a sharded pick's third step: segment shard's lines of scores.jsonl and its kept rows,
-// from its scores and the cut's decisions, written to the work folder's part-NNNN.
+// WriteShard is a sharded pick's step after the cut: segment shard's lines of scores.jsonl and its
+// kept rows, from its scores and the cut's decisions, written to the work folder's part-NNNN.
 func WriteShard(ctx context.Context, opt Options, work string, shard int) (*ShardReport, error) {
 	key, ident, err := startStep(&opt, false)
 	if err != nil {

@@ -25,11 +25,13 @@ import (
 )
 
 // A sharded pick is a pick over an index set whose segments are scored on machines of their own,
-// in four steps sharing a work folder, each a process of its own:
+// in five steps sharing a work folder, each a process of its own:
 //
 //   - ScoreShard, once per segment: the segment's rows scored with the set's statistics
 //     (index.OpenShard), written as a ranking sorted as Pick sorts (score descending, then row), their
-//     scores and best target rows in input order, and a summary (shard-NNNN);
+//     scores and best target rows in input order, and a summary (shard-NNNN); unless duplicates are
+//     kept, the segment's keys shared out by part (sharddups.go);
+//   - DupsShard, once per part (as many as segments): the set's duplicates among the part's keys;
 //   - CutShards, once: the shards' rankings merged as a stream, a heap of one head per shard, and
 //     walked by a selection.Walker, which keeps what Pick over all rows keeps; it writes each
 //     shard's decisions and the ledger (cut);

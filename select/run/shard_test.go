@@ -207,24 +207,34 @@ func TestShardedPickMatchesPick(t *testing.T) {
 					"bm25-exclude": configs["bm25-exclude"]}
 			}
 			for cname, opt := range configs {
-				one := opt
-				one.Out = filepath.Join(dir, "one-"+cname)
-				res, err := Pick(context.Background(), one)
-				if err != nil {
-					t.Fatal(err)
-				}
-				t.Logf("%s: kept %d of %d rows; %s; dropped %v", cname, len(res.Kept), res.Rows, res.Ledger.Stop, res.Dropped)
+				res, _ := pickBothWays(t, dir, cname, opt, len(cuts)+1)
 				if len(opt.Guards.Exclude) > 0 && res.Dropped["contaminated"] == 0 {
 					t.Fatalf("%s: no row was found contaminated", cname)
 				}
-				opt.Out = filepath.Join(dir, "sharded-"+cname)
-				if err := shardedPick(t, opt, filepath.Join(dir, "work-"+cname), len(cuts)+1); err != nil {
-					t.Fatalf("%s: %v", cname, err)
-				}
-				sameRun(t, cname, one.Out, opt.Out)
 			}
 		})
 	}
+}
+
+// pickBothWays runs opt as a pick over its set and as a sharded pick of shards steps, in dir under
+// names made from name, and compares their run folders; it returns the pick's result and the sharded
+// pick's work folder.
+func pickBothWays(t *testing.T, dir, name string, opt Options, shards int) (*Result, string) {
+	t.Helper()
+	one := opt
+	one.Out = filepath.Join(dir, "one-"+name)
+	res, err := Pick(context.Background(), one)
+	if err != nil {
+		t.Fatal(err)
+	}
+	t.Logf("%s: kept %d of %d rows; %s; dropped %v", name, len(res.Kept), res.Rows, res.Ledger.Stop, res.Dropped)
+	opt.Out = filepath.Join(dir, "sharded-"+name)
+	work := filepath.Join(dir, "work-"+name)
+	if err := shardedPick(t, opt, work, shards); err != nil {
+		t.Fatalf("%s: %v", name, err)
+	}
+	sameRun(t, name, one.Out, opt.Out)
+	return res, work
 }
 
 // TestShardedPickTakesBuiltEval builds the segments with --exclude: the pick over the set then
@@ -279,22 +289,10 @@ func TestShardedPickDropsDuplicates(t *testing.T) {
 			}
 			for cname, opt := range configs {
 				opt.Guards.KeepDuplicates = false
-				one := opt
-				one.Out = filepath.Join(dir, "one-"+cname)
-				res, err := Pick(context.Background(), one)
-				if err != nil {
-					t.Fatal(err)
-				}
-				t.Logf("%s: kept %d of %d rows; %s; dropped %v", cname, len(res.Kept), res.Rows, res.Ledger.Stop, res.Dropped)
+				res, work := pickBothWays(t, dir, cname, opt, len(cuts)+1)
 				if res.Dropped["duplicate"] == 0 || !strings.Contains(strings.Join(res.Ledger.Notes, "\n"), "duplicates were found when the index was built") {
 					t.Fatalf("%s: the pick over the set did not take its segments' duplicates: dropped %v, notes %q", cname, res.Dropped, res.Ledger.Notes)
 				}
-				opt.Out = filepath.Join(dir, "sharded-"+cname)
-				work := filepath.Join(dir, "work-"+cname)
-				if err := shardedPick(t, opt, work, len(cuts)+1); err != nil {
-					t.Fatalf("%s: %v", cname, err)
-				}
-				sameRun(t, cname, one.Out, opt.Out)
 				var repeats, cands int
 				for part := range len(cuts) + 1 {
 					var df dupsFile
