@@ -9,6 +9,7 @@ import (
 	"encoding/hex"
 	"fmt"
 	"io"
+	"math"
 	"math/bits"
 	"os"
 	"path/filepath"
@@ -432,44 +433,68 @@ func findCandidates(ctx context.Context, w *bufio.Writer, work string, heads []*
 	return nil
 }
 
-// rowSets is a union-find over the rows in pairs, held by row, so that its memory grows with the
-// rows that have a duplicate: a set is named by its least row, as dedup.Clusters names a cluster by
-// its first.
-type rowSets map[uint32]uint32
-
-func (u rowSets) find(r uint32) uint32 {
-	for {
-		p, ok := u[r]
-		if !ok || p == r {
-			return r
-		}
-		if gp := u[p]; gp != p {
-			u[r] = gp // path halving
-		}
-		r = p
-	}
-}
-
-func (u rowSets) union(a, b uint32) {
-	for _, r := range [2]uint32{a, b} {
-		if _, ok := u[r]; !ok {
-			u[r] = r
-		}
-	}
-	a, b = u.find(a), u.find(b)
-	if a == b {
-		return
-	}
-	if b < a {
-		a, b = b, a
-	}
-	u[b] = a
-}
-
-// shardClusters is what the cut knows of the set's duplicates.
+// shardClusters is what the cut knows of the set's duplicates: the rows that have one, ascending,
+// each one's cluster (the place in rows of its least row, which names the cluster as
+// dedup.Clusters names it by its first), and, as the walk meets them, the row kept of each cluster.
+// 12 bytes a row that has a duplicate, nothing for the others.
 type shardClusters struct {
-	sets rowSets
-	keep map[uint32]uint32 // a cluster's least row -> its row kept, as the walk meets them
+	rows []uint32
+	root []uint32
+	keep []uint32 // by the place of a cluster's least row; noKeeper until the walk meets one
+}
+
+const noKeeper = math.MaxUint32
+
+// clustersOf joins the pairs of rows in edges (each row<<32 | other) into clusters.
+func clustersOf(edges []uint64) *shardClusters {
+	c := &shardClusters{}
+	for _, e := range edges {
+		c.rows = append(c.rows, uint32(e>>32), uint32(e))
+	}
+	slices.Sort(c.rows)
+	c.rows = slices.Clip(slices.Compact(c.rows))
+	c.root = make([]uint32, len(c.rows))
+	for i := range c.root {
+		c.root[i] = uint32(i)
+	}
+	find := func(i uint32) uint32 {
+		for c.root[i] != i {
+			c.root[i] = c.root[c.root[i]] // path halving
+			i = c.root[i]
+		}
+		return i
+	}
+	for _, e := range edges {
+		a, _ := slices.BinarySearch(c.rows, uint32(e>>32))
+		b, _ := slices.BinarySearch(c.rows, uint32(e))
+		// Rows ascend, so the lesser place is the lesser row: a cluster's root is its least row.
+		if x, y := find(uint32(a)), find(uint32(b)); x < y {
+			c.root[y] = x
+		} else if y < x {
+			c.root[x] = y
+		}
+	}
+	for i := range c.root {
+		c.root[i] = find(uint32(i))
+	}
+	c.keep = make([]uint32, len(c.rows))
+	c.restart()
+	return c
+}
+
+// at returns the place of row's cluster's least row, or false for a row without a duplicate.
+func (c *shardClusters) at(row int) (uint32, bool) {
+	i, found := slices.BinarySearch(c.rows, uint32(row))
+	if !found {
+		return 0, false
+	}
+	return c.root[i], true
+}
+
+func (c *shardClusters) restart() {
+	for i := range c.keep {
+		c.keep[i] = noKeeper
+	}
 }
 
 // cutDups reads every part's pairs, joins them into clusters and fills gd as a pick over the set
@@ -492,9 +517,8 @@ func (p *picked) cutDups(work string, heads []*shardFile, gd *guarded) error {
 			gd.inPool += sf.Dups.InPool
 		}
 	}
-	sets := rowSets{}
-	repeats := map[uint32]bool{}
-	var cands []uint64
+	rows := int(heads[0].Meta.Rows)
+	parts := make([]*dupsFile, of)
 	for part := range of {
 		df := &dupsFile{}
 		dir := dupsFolder(work, part)
@@ -505,13 +529,21 @@ func (p *picked) cutDups(work string, heads []*shardFile, gd *guarded) error {
 		if df.Format != shardFormat || df.Identity != heads[0].Identity || df.Options != heads[0].Options || df.Part != part || df.Of != of {
 			return workErrorf("duplicates' part %d of %d: %s was made by another pick or over another set: run its dups step again", part, of, dir)
 		}
-		err := eachRecord(filepath.Join(dir, repeatsFile), df.Repeats, repeatRecSize, df.Files[repeatsFile], func(b []byte) error {
+		parts[part] = df
+	}
+	// Every part's repeats first, so that the candidate pairs of a repeat, which a Bulk never
+	// compares (see above), are dropped as they are read rather than held.
+	var edges []uint64
+	var repeats []uint32
+	for part, df := range parts {
+		path := filepath.Join(dupsFolder(work, part), repeatsFile)
+		err := eachRecord(path, df.Repeats, repeatRecSize, df.Files[repeatsFile], func(b []byte) error {
 			row, first := binary.LittleEndian.Uint32(b), binary.LittleEndian.Uint32(b[4:])
-			if first >= row || int(row) >= int(heads[0].Meta.Rows) || repeats[row] {
-				return workErrorf("duplicates' part %d: %s is damaged: row %d repeats row %d", part, filepath.Join(dir, repeatsFile), row, first)
+			if first >= row || int(row) >= rows {
+				return workErrorf("duplicates' part %d: %s is damaged: row %d repeats row %d", part, path, row, first)
 			}
-			repeats[row] = true
-			sets.union(first, row)
+			repeats = append(repeats, row)
+			edges = append(edges, uint64(row)<<32|uint64(first))
 			if b[8]&1 != 0 {
 				signWork = signWork.Minus(dedup.Work{Bytes: int64(binary.LittleEndian.Uint64(b[9:])),
 					ShingleWords: int64(binary.LittleEndian.Uint64(b[17:])), MinHashes: int64(binary.LittleEndian.Uint64(b[25:]))})
@@ -524,48 +556,63 @@ func (p *picked) cutDups(work string, heads []*shardFile, gd *guarded) error {
 		if err != nil {
 			return err
 		}
-		err = eachRecord(filepath.Join(dir, candsFile), df.Candidates, candRecSize, df.Files[candsFile], func(b []byte) error {
+	}
+	slices.Sort(repeats)
+	for i := 1; i < len(repeats); i++ {
+		if repeats[i] == repeats[i-1] {
+			return workErrorf("duplicates: row %d is a repeat in two parts: run the dups steps again", repeats[i])
+		}
+	}
+	// A pair found in two parts (two bands) counts once, as in a Bulk. The confirmed pairs of a
+	// repeat are dropped with the rest: they join rows its first's pairs join.
+	var cands []uint64
+	for part, df := range parts {
+		path := filepath.Join(dupsFolder(work, part), candsFile)
+		err := eachRecord(path, df.Candidates, candRecSize, df.Files[candsFile], func(b []byte) error {
 			later, first := binary.LittleEndian.Uint32(b), binary.LittleEndian.Uint32(b[4:])
-			if first >= later || int(later) >= int(heads[0].Meta.Rows) {
-				return workErrorf("duplicates' part %d: %s is damaged: rows %d and %d", part, filepath.Join(dir, candsFile), first, later)
+			if first >= later || int(later) >= rows {
+				return workErrorf("duplicates' part %d: %s is damaged: rows %d and %d", part, path, first, later)
 			}
+			if _, rep := slices.BinarySearch(repeats, later); rep {
+				return nil
+			}
+			pair := uint64(later)<<32 | uint64(first)
+			cands = append(cands, pair)
 			if b[8]&1 != 0 {
-				sets.union(first, later)
+				edges = append(edges, pair)
 			}
-			cands = append(cands, uint64(later)<<32|uint64(first))
 			return nil
 		})
 		if err != nil {
 			return err
 		}
 	}
-	// A pair found in two parts (two bands) counts once, as in a Bulk, and a row whose key an
-	// earlier row has, never given to one, is compared with nothing (its confirmed pairs, joined
-	// above, join rows its first's pairs join).
 	slices.Sort(cands)
-	compared := int64(0)
-	for i, c := range cands {
-		if !repeats[uint32(c>>32)] && (i == 0 || cands[i-1] != c) {
-			compared++
-		}
-	}
+	compared := int64(len(slices.Compact(cands)))
+	cands = nil
 	found := dedup.Work{BandValues: marked * int64(d.Hashes), Probes: marked * int64(d.Bands), Compared: compared * int64(d.Hashes)}
 	d.ExactDuplicates = int64(len(repeats))
 	kw := keyWork
 	d.KeyWork = &kw
 	d.Work = keyWork.Plus(signWork).Plus(found)
 	d.FLOPs = d.Work.FLOPs()
-	for r := range sets {
-		if root := sets.find(r); root == r {
+	c := clustersOf(edges)
+	for i, r := range c.root {
+		if r == uint32(i) {
 			d.Clusters++
 		} else {
 			d.Duplicates++
 		}
 	}
-	gd.cluster = func(r int) int { return int(sets.find(uint32(r))) }
+	gd.cluster = func(r int) int {
+		if at, ok := c.at(r); ok {
+			return int(c.rows[at])
+		}
+		return r
+	}
 	gd.groups, gd.exactDups, gd.bands, gd.built = int(d.Clusters), int(d.ExactDuplicates), d.Bands, d
 	p.dropped = int(d.Duplicates)
-	p.clusters = &shardClusters{sets: sets, keep: map[uint32]uint32{}}
+	p.clusters = c
 	return nil
 }
 
@@ -603,18 +650,14 @@ func (p *picked) cutBar(row int) selection.Reason {
 		return why
 	}
 	c := p.clusters
-	root := c.sets.find(uint32(row))
-	if root == uint32(row) {
-		if _, ok := c.sets[root]; !ok {
-			return selection.Kept // alone
-		}
-	}
-	k, met := c.keep[root]
-	if !met {
-		c.keep[root] = uint32(row)
+	at, ok := c.at(row)
+	switch {
+	case !ok:
+		return selection.Kept // alone
+	case c.keep[at] == noKeeper:
+		c.keep[at] = uint32(row)
 		return selection.Kept
-	}
-	if k == uint32(row) {
+	case c.keep[at] == uint32(row):
 		return selection.Kept
 	}
 	return selection.Duplicate
@@ -622,13 +665,14 @@ func (p *picked) cutBar(row int) selection.Reason {
 
 // keeperOf is the row kept instead of row, barred as a duplicate by cutBar.
 func (p *picked) keeperOf(row int) int {
-	return int(p.clusters.keep[p.clusters.sets.find(uint32(row))])
+	at, _ := p.clusters.at(row)
+	return int(p.clusters.keep[at])
 }
 
 // restartBar forgets the rows cutBar has met, for another walk from the top.
 func (p *picked) restartBar() {
 	if p.clusters != nil {
-		clear(p.clusters.keep)
+		p.clusters.restart()
 	}
 }
 
