@@ -67,11 +67,13 @@ func (ix *Index) EachSketch(fn func(row int, marks []byte, w dedup.Work) error) 
 	}
 }
 
-// SetSketches looks an index set's stored sketches up by row, for a step that confirms candidate
-// pairs of rows from anywhere in the set. Each segment's file is mapped and checked against
-// meta.json's size, and each record found against its row, but not against the file's checksum:
-// the score step of the segment's own shard checks that as it reads the file whole (EachSketch),
-// and a step looking up a few rows of every segment then reads those rows' pages alone.
+// SetSketches reads an index set's stored sketches by row and place, for a step that confirms
+// candidate pairs of rows from anywhere in the set (EachSketch gives each record's place, as the
+// count of records before it), so that a look-up reads one record's page rather than a binary
+// search's dozen. Each segment's file is mapped and checked against meta.json's size, and each
+// record found against its row, but not against the file's checksum: the score step of the
+// segment's own shard checks that as it reads the file whole (EachSketch), and a step looking up a
+// few rows of every segment then reads those rows' pages alone.
 type SetSketches struct {
 	segs []*Index
 	base []int
@@ -131,22 +133,19 @@ func openSketches(dir string) (*Index, error) {
 // NumRows is the number of rows of the set.
 func (s *SetSketches) NumRows() int { return s.base[len(s.base)-1] }
 
-// Record returns the stored record of row (among the set's rows): its marks (empty for a row
-// without words; valid until Close) and the work of signing it; ok is false for a row that has
-// none, one whose key an earlier row of its segment has.
-func (s *SetSketches) Record(row int) (marks []byte, w dedup.Work, ok bool, err error) {
+// Record returns the stored record of row (among the set's rows), the record at place in its
+// segment's sketches file: the row's marks (empty for a row without words; valid until Close) and
+// the work of signing it. A place past the file, or holding another row's record, is an error.
+func (s *SetSketches) Record(row, place int) (marks []byte, w dedup.Work, err error) {
 	if row < 0 || row >= s.NumRows() {
-		return nil, w, false, fmt.Errorf("sketches: row %d of a set of %d rows: %w", row, s.NumRows(), ErrDamaged)
+		return nil, w, fmt.Errorf("sketches: row %d of a set of %d rows: %w", row, s.NumRows(), ErrDamaged)
 	}
 	i := sort.SearchInts(s.base[1:], row+1)
 	g, r := s.segs[i], row-s.base[i]
-	b := g.sketches
-	n := len(b) / s.size
-	at := sort.Search(n, func(j int) bool { return int(binary.LittleEndian.Uint32(b[j*s.size:])) >= r })
-	if at == n || int(binary.LittleEndian.Uint32(b[at*s.size:])) != r {
-		return nil, w, false, nil
+	if place < 0 || place >= len(g.sketches)/s.size || int(binary.LittleEndian.Uint32(g.sketches[place*s.size:])) != r {
+		return nil, w, fmt.Errorf("index %s: %s: no record of row %d at place %d: %w", g.dir, sketchesFile, r, place, ErrDamaged)
 	}
-	rec := b[at*s.size : (at+1)*s.size]
+	rec := g.sketches[place*s.size : (place+1)*s.size]
 	w = dedup.Work{
 		Bytes:        int64(binary.LittleEndian.Uint64(rec[8:])),
 		ShingleWords: int64(binary.LittleEndian.Uint64(rec[16:])),
@@ -155,7 +154,7 @@ func (s *SetSketches) Record(row int) (marks []byte, w dedup.Work, ok bool, err 
 	if binary.LittleEndian.Uint32(rec[4:])&noWordsFlag == 0 {
 		marks = rec[sketchHead:]
 	}
-	return marks, w, true, nil
+	return marks, w, nil
 }
 
 // Close releases the mappings.

@@ -54,8 +54,8 @@ type shardDups struct {
 }
 
 const (
-	exactRecSize  = 4 + 16         // row, key
-	bandRecSize   = 8 + 4          // band key, row
+	exactRecSize  = 4 + 16 + 4     // row, key, 1 + the place of its sketch record (0 for none)
+	bandRecSize   = 8 + 4 + 4      // band key, row, the place of its sketch record
 	repeatRecSize = 4 + 4 + 1 + 24 // row, first, flags, signing work (Bytes, ShingleWords, MinHashes)
 	candRecSize   = 4 + 4 + 1      // later row, first row, confirmed
 	dupsMark      = "dups.json"
@@ -146,7 +146,9 @@ func (p *picked) writeDupKeys(tmp, dir string, sums map[string]string) (*shardDu
 	}
 	targetKeys := p.targetKeys()
 	var rec [max(exactRecSize, bandRecSize)]byte
-	for r := range p.ix.NumRows() {
+	// writeExact writes row's exact record; place is 1 + its sketch record's place in the file, or
+	// 0 for a row the build did not sign (one whose key an earlier row of the segment has).
+	writeExact := func(r, place int) {
 		key, _ := p.ix.DupKey(r)
 		if targetKeys[key] {
 			if sd.InPool++; sd.InPool == 1 {
@@ -156,15 +158,25 @@ func (p *picked) writeDupKeys(tmp, dir string, sums map[string]string) (*shardDu
 		part := partOf(binary.LittleEndian.Uint64(key[:]), of)
 		binary.LittleEndian.PutUint32(rec[:], uint32(first+r))
 		copy(rec[4:], key[:])
+		binary.LittleEndian.PutUint32(rec[20:], uint32(place))
 		exact[part].w.Write(rec[:exactRecSize])
 		sd.Exact[part]++
 	}
 	// A part's bands file holds band 0's records of every row, then band 1's, and so on, so that
 	// the dups step holds one band's buckets at a time; the sketches are walked once a band (their
-	// pages stay in the page cache), rather than a file a band and part being open at once.
+	// pages stay in the page cache), rather than a file a band and part being open at once. Each
+	// record carries its sketch record's place, so that a later step finds it without a search.
+	next := 0 // the first row whose exact record is not written
 	for j := range d.Bands {
+		place := 0
 		err = p.ix.EachSketch(func(r int, marks []byte, w dedup.Work) error {
+			defer func() { place++ }()
 			if j == 0 {
+				for ; next < r; next++ {
+					writeExact(next, 0)
+				}
+				writeExact(r, place+1)
+				next = r + 1
 				sd.SignWork = sd.SignWork.Plus(w)
 				if len(marks) > 0 {
 					sd.Marked++
@@ -177,6 +189,7 @@ func (p *picked) writeDupKeys(tmp, dir string, sums map[string]string) (*shardDu
 			part := partOf(k, of)
 			binary.LittleEndian.PutUint64(rec[:], k)
 			binary.LittleEndian.PutUint32(rec[8:], uint32(first+r))
+			binary.LittleEndian.PutUint32(rec[12:], uint32(place))
 			bands[part].w.Write(rec[:bandRecSize])
 			sd.Bands[part][j]++
 			return nil
@@ -184,6 +197,9 @@ func (p *picked) writeDupKeys(tmp, dir string, sums map[string]string) (*shardDu
 		if err != nil {
 			return nil, err
 		}
+	}
+	for ; next < p.ix.NumRows(); next++ {
+		writeExact(next, 0)
 	}
 	for name, f := range files {
 		sum, err := f.finish()
@@ -314,24 +330,25 @@ func findRepeats(ctx context.Context, w *bufio.Writer, work string, heads []*sha
 			firsts[key] = uint32(row)
 			return nil
 		}
-		marks, sw, has, err := sk.Record(row)
-		if err != nil {
-			return err
-		}
 		clear(out[:])
-		binary.LittleEndian.PutUint32(out[0:], uint32(row))
-		binary.LittleEndian.PutUint32(out[4:], f)
-		if has {
-			out[8] = 1
+		var sw dedup.Work
+		if place := int(binary.LittleEndian.Uint32(rec[20:])); place > 0 {
+			marks, w, err := sk.Record(row, place-1)
+			if err != nil {
+				return err
+			}
+			sw, out[8] = w, 1
 			if len(marks) > 0 {
 				out[8] |= 2
 			}
 		}
+		binary.LittleEndian.PutUint32(out[0:], uint32(row))
+		binary.LittleEndian.PutUint32(out[4:], f)
 		binary.LittleEndian.PutUint64(out[9:], uint64(sw.Bytes))
 		binary.LittleEndian.PutUint64(out[17:], uint64(sw.ShingleWords))
 		binary.LittleEndian.PutUint64(out[25:], uint64(sw.MinHashes))
 		*count++
-		_, err = w.Write(out[:])
+		_, err := w.Write(out[:])
 		return err
 	}
 	for _, sf := range heads {
@@ -373,18 +390,24 @@ func findCandidates(ctx context.Context, w *bufio.Writer, work string, heads []*
 			return err
 		}
 	}
-	firsts := map[uint64]uint32{}
-	var cands []uint64
+	// A bucket's first row and its sketch record's place; a candidate pair and both places.
+	type first struct{ row, place uint32 }
+	type cand struct {
+		pair          uint64 // later<<32 | first
+		later, first_ uint32 // the places
+	}
+	firsts := map[uint64]first{}
+	var cands []cand
 	for j := range fp.Bands {
 		clear(firsts)
 		for i, pr := range readers {
 			pr.last = -1
 			err := pr.each(ctx, heads[i].Dups.Bands[part][j], 8, func(rec []byte, row int) error {
-				k := binary.LittleEndian.Uint64(rec)
+				k, place := binary.LittleEndian.Uint64(rec), binary.LittleEndian.Uint32(rec[12:])
 				if f, seen := firsts[k]; !seen {
-					firsts[k] = uint32(row)
-				} else if int(f) != row {
-					cands = append(cands, uint64(row)<<32|uint64(f))
+					firsts[k] = first{uint32(row), place}
+				} else if int(f.row) != row {
+					cands = append(cands, cand{uint64(row)<<32 | uint64(f.row), place, f.place})
 				}
 				return nil
 			})
@@ -400,23 +423,23 @@ func findCandidates(ctx context.Context, w *bufio.Writer, work string, heads []*
 		}
 	}
 	clear(firsts)
-	slices.Sort(cands)
-	cands = slices.Compact(cands)
+	slices.SortFunc(cands, func(a, b cand) int { return cmp.Compare(a.pair, b.pair) })
+	cands = slices.CompactFunc(cands, func(a, b cand) bool { return a.pair == b.pair })
 	var out [candRecSize]byte
 	for i, c := range cands {
 		if i%(1<<16) == 0 && ctx.Err() != nil {
 			return fmt.Errorf("duplicates: %w", ctx.Err())
 		}
-		later, first := int(c>>32), int(uint32(c))
-		ml, _, okl, err := sk.Record(later)
+		later, first := int(c.pair>>32), int(uint32(c.pair))
+		ml, _, err := sk.Record(later, int(c.later))
 		if err != nil {
 			return err
 		}
-		mf, _, okf, err := sk.Record(first)
+		mf, _, err := sk.Record(first, int(c.first_))
 		if err != nil {
 			return err
 		}
-		if !okl || !okf || len(ml) == 0 || len(mf) == 0 {
+		if len(ml) == 0 || len(mf) == 0 {
 			return workErrorf("duplicates: part %d: rows %d and %d share a bucket but have no stored marks: the set changed since it was scored", part, first, later)
 		}
 		binary.LittleEndian.PutUint32(out[0:], uint32(later))
