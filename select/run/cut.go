@@ -306,7 +306,7 @@ func (p *picked) walkShards(ctx context.Context, work, tmp string, heads []*shar
 		}
 	}()
 	for i, sf := range heads {
-		if outs[i], err = createHashed(filepath.Join(tmp, decisionsName(i))); err != nil {
+		if outs[i], err = createHashed(filepath.Join(tmp, decisionsName(i)), mergeBuf); err != nil {
 			return selection.Summary{}, err
 		}
 		outs[i].w.Write(fileHead("sluiceDC", i, sf.Of, sf.Rows, sf.FirstRow))
@@ -467,13 +467,13 @@ type hashedFile struct {
 	h hash.Hash
 }
 
-func createHashed(path string) (*hashedFile, error) {
+func createHashed(path string, buf int) (*hashedFile, error) {
 	f, err := os.Create(path)
 	if err != nil {
 		return nil, err
 	}
 	hf := &hashedFile{f: f, h: sha256.New()}
-	hf.w = bufio.NewWriterSize(io.MultiWriter(f, hf.h), mergeBuf)
+	hf.w = bufio.NewWriterSize(io.MultiWriter(f, hf.h), buf)
 	return hf, nil
 }
 

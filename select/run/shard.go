@@ -253,8 +253,9 @@ func ScoreShard(ctx context.Context, opt Options, work string, shard int) (*Shar
 	}
 	defer ix.Close()
 	p := &picked{opt: &opt, ix: ix, target: opt.Target}
+	var dups *index.Dups
 	if p.dropsDups() {
-		if _, err := p.checkShardDups(); err != nil {
+		if dups, err = p.checkShardDups(); err != nil {
 			return nil, err
 		}
 	}
@@ -293,7 +294,7 @@ func ScoreShard(ctx context.Context, opt Options, work string, shard int) (*Shar
 	err = publishWork(dir, scoredKind(), []string{opt.Index, opt.Target}, func(tmp string) error {
 		if p.dropsDups() {
 			var err error
-			if sf.Dups, err = p.writeDupKeys(tmp, dir, sf.Files); err != nil {
+			if sf.Dups, err = p.writeDupKeys(tmp, dir, dups, sf.Files); err != nil {
 				return err
 			}
 		}

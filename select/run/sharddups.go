@@ -29,7 +29,7 @@ import (
 //     of each key in the segment), each band's key (bands-PPPP);
 //   - the dups step of part P reads its records from every shard, in row order, and finds what a
 //     build's exact pass and, band by band, its dedup.Bulk would among them: rows whose key an
-//     earlier row has (repeats-style pairs) and candidate pairs, each row with the first row of
+//     earlier row has, each with that row, and candidate pairs, each row with the first row of
 //     each bucket it falls in, confirmed from the two rows' stored sketches (dups-PPPP);
 //   - the cut joins the pairs of every part into clusters. A Bulk is given no row whose key an
 //     earlier row has; the parts give such a row's candidates too (a part cannot know), and the cut
@@ -38,8 +38,9 @@ import (
 //     row it meets in rank order that is not contaminated, which is the best-scored (ties to the
 //     earlier row), as Pick keeps, and names it to each shard's write step (dupof-NNNN).
 //
-// Memory: a dups step holds the keys of its part (about a segment's rows); the cut, the rows in
-// clusters and the candidate pairs, not every row.
+// Memory: a dups step holds the keys of its part (about a segment's rows) and one band's buckets;
+// the cut, 12 bytes a row that has a duplicate and the candidate pairs of rows that are not
+// repeats while it counts them, not every row.
 
 // shardDups is what a score step found of its segment for the set's duplicates.
 type shardDups struct {
@@ -106,12 +107,9 @@ func (p *picked) checkShardDups() (*index.Dups, error) {
 }
 
 // writeDupKeys writes the segment's records for each part into tmp (the shard's folder dir, being
-// written), recording each file's SHA-256 in sums, and returns what the cut needs of the segment.
-func (p *picked) writeDupKeys(tmp, dir string, sums map[string]string) (*shardDups, error) {
-	d, err := p.checkShardDups()
-	if err != nil {
-		return nil, err
-	}
+// written), its duplicates found at d's settings (checkShardDups), recording each file's SHA-256 in sums, and returns what the cut needs of the segment.
+func (p *picked) writeDupKeys(tmp, dir string, d *index.Dups, sums map[string]string) (*shardDups, error) {
+	var err error
 	shard, of := p.ix.Shard()
 	first := p.ix.FirstRow()
 	sd := &shardDups{KeyWork: *d.KeyWork, Exact: make([]int, of), Bands: make([][]int, of)}
@@ -125,12 +123,10 @@ func (p *picked) writeDupKeys(tmp, dir string, sums map[string]string) (*shardDu
 		}
 	}()
 	open := func(name string, part int, magic string) (*hashedFile, error) {
-		f, err := os.Create(filepath.Join(tmp, name))
+		hf, err := createHashed(filepath.Join(tmp, name), partBuf)
 		if err != nil {
 			return nil, err
 		}
-		hf := &hashedFile{f: f, h: sha256.New()}
-		hf.w = bufio.NewWriterSize(io.MultiWriter(f, hf.h), partBuf)
 		files[name] = hf
 		_, err = hf.w.Write(fileHead(magic, shard, of, part, first))
 		return hf, err
@@ -324,7 +320,7 @@ func findRepeats(ctx context.Context, w *bufio.Writer, work string, heads []*sha
 	firsts := map[dedup.Key]uint32{}
 	var out [repeatRecSize]byte
 	fn := func(rec []byte, row int) error {
-		key := dedup.Key(rec[4:exactRecSize])
+		key := dedup.Key(rec[4:20])
 		f, seen := firsts[key]
 		if !seen {
 			firsts[key] = uint32(row)
@@ -391,12 +387,12 @@ func findCandidates(ctx context.Context, w *bufio.Writer, work string, heads []*
 		}
 	}
 	// A bucket's first row and its sketch record's place; a candidate pair and both places.
-	type first struct{ row, place uint32 }
+	type bucket struct{ row, place uint32 }
 	type cand struct {
-		pair          uint64 // later<<32 | first
-		later, first_ uint32 // the places
+		pair             uint64 // later<<32 | first
+		laterAt, firstAt uint32 // their places
 	}
-	firsts := map[uint64]first{}
+	firsts := map[uint64]bucket{}
 	var cands []cand
 	for j := range fp.Bands {
 		clear(firsts)
@@ -405,7 +401,7 @@ func findCandidates(ctx context.Context, w *bufio.Writer, work string, heads []*
 			err := pr.each(ctx, heads[i].Dups.Bands[part][j], 8, func(rec []byte, row int) error {
 				k, place := binary.LittleEndian.Uint64(rec), binary.LittleEndian.Uint32(rec[12:])
 				if f, seen := firsts[k]; !seen {
-					firsts[k] = first{uint32(row), place}
+					firsts[k] = bucket{uint32(row), place}
 				} else if int(f.row) != row {
 					cands = append(cands, cand{uint64(row)<<32 | uint64(f.row), place, f.place})
 				}
@@ -431,11 +427,11 @@ func findCandidates(ctx context.Context, w *bufio.Writer, work string, heads []*
 			return fmt.Errorf("duplicates: %w", ctx.Err())
 		}
 		later, first := int(c.pair>>32), int(uint32(c.pair))
-		ml, _, err := sk.Record(later, int(c.later))
+		ml, _, err := sk.Record(later, int(c.laterAt))
 		if err != nil {
 			return err
 		}
-		mf, _, err := sk.Record(first, int(c.first_))
+		mf, _, err := sk.Record(first, int(c.firstAt))
 		if err != nil {
 			return err
 		}
@@ -476,29 +472,17 @@ func clustersOf(edges []uint64) *shardClusters {
 	}
 	slices.Sort(c.rows)
 	c.rows = slices.Clip(slices.Compact(c.rows))
-	c.root = make([]uint32, len(c.rows))
-	for i := range c.root {
-		c.root[i] = uint32(i)
-	}
-	find := func(i uint32) uint32 {
-		for c.root[i] != i {
-			c.root[i] = c.root[c.root[i]] // path halving
-			i = c.root[i]
-		}
-		return i
-	}
+	// The forest is over places in rows, which ascend with the rows, so a cluster's root is its
+	// least row, as over rows; it holds 4 bytes a place where over rows it would hold 4 a pool row.
+	var cl dedup.Clusters
 	for _, e := range edges {
 		a, _ := slices.BinarySearch(c.rows, uint32(e>>32))
 		b, _ := slices.BinarySearch(c.rows, uint32(e))
-		// Rows ascend, so the lesser place is the lesser row: a cluster's root is its least row.
-		if x, y := find(uint32(a)), find(uint32(b)); x < y {
-			c.root[y] = x
-		} else if y < x {
-			c.root[x] = y
-		}
+		_ = cl.Union(a, b) // places below len(rows), which Union takes
 	}
+	c.root = make([]uint32, len(c.rows))
 	for i := range c.root {
-		c.root[i] = find(uint32(i))
+		c.root[i] = uint32(cl.Find(i))
 	}
 	c.keep = make([]uint32, len(c.rows))
 	c.restart()
@@ -620,13 +604,8 @@ func (p *picked) cutDups(work string, heads []*shardFile, gd *guarded) error {
 	d.Work = keyWork.Plus(signWork).Plus(found)
 	d.FLOPs = d.Work.FLOPs()
 	c := clustersOf(edges)
-	for i, r := range c.root {
-		if r == uint32(i) {
-			d.Clusters++
-		} else {
-			d.Duplicates++
-		}
-	}
+	dups, clusters := dedup.Tally(len(c.rows), func(i int) int { return int(c.root[i]) })
+	d.Duplicates, d.Clusters = int64(dups), int64(clusters)
 	gd.cluster = func(r int) int {
 		if at, ok := c.at(r); ok {
 			return int(c.rows[at])
