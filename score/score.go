@@ -280,7 +280,16 @@ func scoreBlocks(ctx context.Context, c Corpus, q []Query, p Params, block, chun
 	if p.Aggregate == Max {
 		rowBest = res.Scores
 	}
-	if cc, ok := c.(CursorCorpus); ok && !p.SkipBest && p.CacheBytes >= 0 {
+	if cc, ok := c.(CursorCorpus); ok && p.SkipBest && p.CacheBytes >= 0 {
+		// The combined query alone, row by row: an empty block of target rows. The sums are those
+		// of combinedPass (each row's terms in ascending order), and so is the work counted.
+		if err := s.streamPasses(ctx, cc, res, nil, 0, 0); err != nil {
+			return nil, err
+		}
+		res.Best = nil
+		return res, nil
+	}
+	if cc, ok := c.(CursorCorpus); ok && p.CacheBytes >= 0 {
 		// Target rows are taken a block at a time, each block one more read of its terms' lists,
 		// so that memory grows with neither the target set nor, past a chunk, the pool.
 		if !rowWise && rowBest == nil {

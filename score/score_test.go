@@ -679,34 +679,52 @@ func TestCancelDuringPasses(t *testing.T) {
 }
 
 // TestSkipBest checks that skipping Best in Sum mode leaves every score bit-identical and does less
-// work, and that it is refused where it would change nothing (Max finds Best for free).
+// work, over kept lists and over cursors (an index's way, which takes another path), the work
+// counted the same on both; and that it is refused where it would change nothing (Max finds Best
+// for free).
 func TestSkipBest(t *testing.T) {
 	pool, targets := fixtureTexts(t)
-	c := newMemCorpus(pool)
+	mem := newMemCorpus(pool)
 	for _, m := range []Method{BM25, TFIDF} {
-		p := DefaultParams()
-		p.Method = m
-		full, err := Score(context.Background(), c, targets, p)
-		if err != nil {
-			t.Fatal(err)
+		var works []Work
+		for _, c := range []Corpus{mem, cursorsOver{mem}} {
+			p := DefaultParams()
+			p.Method = m
+			full, err := Score(context.Background(), c, targets, p)
+			if err != nil {
+				t.Fatal(err)
+			}
+			p.SkipBest = true
+			quick, err := Score(context.Background(), c, targets, p)
+			if err != nil {
+				t.Fatal(err)
+			}
+			name := fmt.Sprintf("%v over %T", m, c)
+			if quick.Best != nil {
+				t.Errorf("%s: Best not nil with SkipBest", name)
+			}
+			if !slices.EqualFunc(quick.Scores, full.Scores, func(a, b float64) bool { return math.Float64bits(a) == math.Float64bits(b) }) {
+				t.Errorf("%s: scores differ with SkipBest", name)
+			}
+			if quick.Work.Postings >= full.Work.Postings {
+				t.Errorf("%s: SkipBest visited %d postings, full %d", name, quick.Work.Postings, full.Work.Postings)
+			}
+			works = append(works, quick.Work)
+			p.Aggregate = Max
+			if _, err := Score(context.Background(), c, targets, p); !errors.Is(err, ErrInvalidParams) {
+				t.Errorf("%s: SkipBest with Max: %v, want ErrInvalidParams", name, err)
+			}
 		}
-		p.SkipBest = true
-		quick, err := Score(context.Background(), c, targets, p)
-		if err != nil {
-			t.Fatal(err)
-		}
-		if quick.Best != nil {
-			t.Errorf("%v: Best not nil with SkipBest", m)
-		}
-		if !slices.EqualFunc(quick.Scores, full.Scores, func(a, b float64) bool { return math.Float64bits(a) == math.Float64bits(b) }) {
-			t.Errorf("%v: scores differ with SkipBest", m)
-		}
-		if quick.Work.Postings >= full.Work.Postings {
-			t.Errorf("%v: SkipBest visited %d postings, full %d", m, quick.Work.Postings, full.Work.Postings)
-		}
-		p.Aggregate = Max
-		if _, err := Score(context.Background(), c, targets, p); !errors.Is(err, ErrInvalidParams) {
-			t.Errorf("%v: SkipBest with Max: %v, want ErrInvalidParams", m, err)
+		if works[0] != works[1] {
+			t.Errorf("%v: SkipBest's work over kept lists %+v, over cursors %+v", m, works[0], works[1])
 		}
 	}
+}
+
+// cursorsOver hands out any Corpus's lists through cursors, as an index does.
+type cursorsOver struct{ Corpus }
+
+func (c cursorsOver) Cursor(term string) (PostingCursor, error) {
+	rows, tfs, err := c.Postings(term, nil, nil)
+	return &sliceCursor{rows: rows, tfs: tfs}, err
 }
