@@ -6,6 +6,7 @@ import (
 	"fmt"
 	"math"
 	"math/rand/v2"
+	"slices"
 	"testing"
 )
 
@@ -159,6 +160,51 @@ func TestTargetBlocksMatchOneBlock(t *testing.T) {
 			got.Work.PostingsFetched, want.Work.PostingsFetched = 0, 0
 			if got.Work != want.Work {
 				t.Errorf("%s: work %+v, one block %+v", name, got.Work, want.Work)
+			}
+		}
+	}
+}
+
+// The readers' shares of the terms are runs in order that cover every term once, none empty, at
+// most as many as asked for, and with about as many postings each.
+func TestShareTerms(t *testing.T) {
+	c, q := zipfSetup(5, 3*rowBlock, 30, 3000, 60, 20)
+	pl, err := newPlan(c, q, DefaultParams())
+	if err != nil {
+		t.Fatal(err)
+	}
+	s := &scorer{pl: pl}
+	all := make([]int32, len(pl.vocab))
+	for k := range all {
+		all[k] = int32(k)
+	}
+	for _, active := range [][]int32{all, all[:1], all[:3], all[len(all)/2:]} {
+		for _, nr := range []int{1, 2, 3, 8} {
+			shares := s.shareTerms(active, nr)
+			var got []int32
+			var most int64
+			for _, sh := range shares {
+				if len(sh) == 0 {
+					t.Fatalf("%d terms, %d readers: an empty share", len(active), nr)
+				}
+				got = append(got, sh...)
+				var n int64
+				for _, k := range sh {
+					n += int64(pl.partDF[k])
+				}
+				most = max(most, n)
+			}
+			if len(shares) > nr || !slices.Equal(got, active) {
+				t.Fatalf("%d terms, %d readers: %d shares covering %v", len(active), nr, len(shares), got)
+			}
+			var total, top int64
+			for _, k := range active {
+				total += int64(pl.partDF[k])
+				top = max(top, int64(pl.partDF[k]))
+			}
+			// A share closes once it holds its part, so it passes it by less than one list.
+			if len(shares) == nr && most > total/int64(nr)+top {
+				t.Errorf("%d terms, %d readers: a share of %d postings of %d", len(active), nr, most, total)
 			}
 		}
 	}

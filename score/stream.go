@@ -3,9 +3,9 @@ package score
 import (
 	"context"
 	"fmt"
-	"math"
 	"runtime"
 	"sync"
+	"sync/atomic"
 )
 
 // A PostingCursor reads one term's postings in row order, a stretch at a time.
@@ -20,17 +20,24 @@ type PostingCursor interface {
 // time. Score then reads each list once, chunk of pool rows by chunk, holding
 // only a few chunks' postings, instead of keeping whole lists (or reading those
 // that do not fit again for every target row that uses them).
+//
+// Score reads several cursors at once, each from one goroutine at a time, and
+// asks RowLen and RowNorm from several goroutines: a CursorCorpus must allow
+// that, as reads of an index's mapped files do.
 type CursorCorpus interface {
 	Corpus
 	Cursor(term string) (PostingCursor, error)
 }
 
-// streamPasses is rowPasses over chunks of pool rows read through cursors:
-// this goroutine reads every query term's postings in a chunk, checks them
-// and finds the factors of the rows they reach, while the workers turn
-// earlier chunks around into rows of (term, tf part) and score them. Every
-// list is read exactly once, and what is held grows with neither the pool nor
-// the lists: a few chunks of about chunkPostings postings each, reused.
+// streamPasses is rowPasses over chunks of pool rows read through cursors.
+// Readers, each with its share of the query terms (a run of them, ascending,
+// with about as many postings as the others), read and check their terms'
+// postings in a chunk, while the workers turn earlier chunks around into rows
+// of (term, tf part), find the factors of the rows reached and score them.
+// Every list is read exactly once, and what is held grows with neither the
+// pool nor the lists: a few chunks of about chunkPostings postings each,
+// reused. The readers' shares, taken in turn, give each row its terms in
+// ascending order, so the results do not depend on how many there are.
 //
 // It scores against the target rows [tlo, thi) (and, for the first block, the
 // combined query), reading the lists of their terms only.
@@ -53,63 +60,127 @@ func (s *scorer) streamPasses(ctx context.Context, cc CursorCorpus, res *Result,
 		active = append(active, int32(k))
 		total += int64(pl.partDF[k])
 	}
+	if len(active) == 0 {
+		if s.p.Progress != nil && n > 0 {
+			s.p.Progress(n, n) // nothing to read: no row is reached
+		}
+		return nil
+	}
 	nw := s.p.Workers
 	if nw == 0 {
 		nw = runtime.GOMAXPROCS(0)
 	}
-	nbuf := nw + 2 // one being read, one waiting, one per worker
+	shares := s.shareTerms(active, nw)
+	nbuf := nw + len(shares) + 1 // one being read by each reader, one waiting, one per worker
 	size := chunkSize(n, total, len(active), s.p.CacheBytes, nbuf)
 	if s.chunkRows > 0 {
 		size = s.chunkRows
 	}
-	s.total = total
 
+	parent := ctx
 	ctx, cancel := context.WithCancel(ctx)
 	defer cancel()
+	var failure error
+	var failOnce sync.Once
+	fail := func(err error) {
+		failOnce.Do(func() { failure = err })
+		cancel()
+	}
 	free, full := make(chan *streamChunk, nbuf), make(chan *streamChunk, nbuf)
 	for range nbuf {
-		free <- &streamChunk{}
+		free <- &streamChunk{parts: make([]chunkPart, len(shares))}
 	}
-	var wg sync.WaitGroup
+	var fetched atomic.Int64
+	var readers, workers sync.WaitGroup
+	ins := make([]chan *streamChunk, len(shares))
+	for i, sh := range shares {
+		ins[i] = make(chan *streamChunk, nbuf)
+		readers.Go(func() {
+			for c := range ins[i] {
+				if ctx.Err() == nil {
+					if err := s.readPart(&c.parts[i], curs, sh, c.lo, c.hi); err != nil {
+						fail(err)
+					}
+					fetched.Add(int64(len(c.parts[i].rows)))
+				}
+				// A chunk's last reader hands it on; each reads the chunks in order, so they are
+				// handed on in order, one after another.
+				if c.pending.Add(-1) == 0 {
+					if ctx.Err() == nil && s.p.Progress != nil {
+						s.p.Progress(c.hi-c.lo, n)
+					}
+					full <- c
+				}
+			}
+		})
+	}
 	for range nw {
-		wg.Go(func() {
+		workers.Go(func() {
 			w := newRowWorker(h, combined, nil)
 			for c := range full {
 				if ctx.Err() == nil {
-					w.chunk(s, c, res, bestScore)
+					if err := w.chunk(s, c, res, bestScore); err != nil {
+						fail(err)
+					}
 				}
 				free <- c
 			}
 		})
 	}
-	err := func() error {
-		defer close(full)
-		for lo := 0; lo < n; lo += size {
-			var c *streamChunk
-			select {
-			case c = <-free:
-			case <-ctx.Done():
-				return fmt.Errorf("score: %w", ctx.Err())
-			}
-			if err := s.readChunk(ctx, c, curs, active, lo, min(n, lo+size)); err != nil {
-				return err
-			}
-			res.Work.PostingsFetched += int64(len(c.rows))
-			if s.p.Progress != nil {
-				s.p.Progress(min(n, lo+size)-lo, n)
-			}
-			full <- c
+	// No send below blocks: each channel holds every chunk there is.
+	for lo := 0; lo < n && ctx.Err() == nil; lo += size {
+		var c *streamChunk
+		select {
+		case c = <-free:
+		case <-ctx.Done():
+			continue
 		}
-		return nil
-	}()
-	if err != nil {
-		cancel()
+		c.lo, c.hi = lo, min(n, lo+size)
+		c.pending.Store(int32(len(shares)))
+		for _, in := range ins {
+			in <- c
+		}
 	}
-	wg.Wait()
-	if err == nil && ctx.Err() != nil {
-		err = fmt.Errorf("score: %w", ctx.Err())
+	for _, in := range ins {
+		close(in)
 	}
-	return err
+	readers.Wait()
+	close(full)
+	workers.Wait()
+	res.Work.PostingsFetched += fetched.Load()
+	if failure != nil {
+		return failure
+	}
+	if err := parent.Err(); err != nil {
+		return fmt.Errorf("score: %w", err)
+	}
+	return nil
+}
+
+// shareTerms splits the active terms (ascending) into at most nr runs of about as many postings
+// each, one per reader, in order.
+func (s *scorer) shareTerms(active []int32, nr int) [][]int32 {
+	var total int64
+	for _, k := range active {
+		total += int64(s.pl.partDF[k])
+	}
+	nr = max(1, min(nr, len(active)))
+	shares := make([][]int32, 0, nr)
+	var sum int64
+	from := 0
+	for i, k := range active {
+		sum += int64(s.pl.partDF[k])
+		// Close the current run once it holds its part of the postings, leaving a term for each
+		// run still to come.
+		if len(shares) < nr-1 && sum*int64(nr) >= total*int64(len(shares)+1) && len(active)-(i+1) >= nr-1-len(shares) {
+			shares = append(shares, active[from:i+1])
+			from = i + 1
+		}
+	}
+	if from < len(active) {
+		shares = append(shares, active[from:])
+	}
+	return shares
 }
 
 // chunkPostings is about how many postings a chunk of streamPasses holds:
@@ -131,85 +202,81 @@ func chunkSize(n int, total int64, terms int, bound int64, bufs int) int {
 	return int(max(1, want/rowBlock)) * rowBlock
 }
 
-// streamChunk is the postings of pool rows [lo, hi) as read, term by term.
+// streamChunk is the postings of pool rows [lo, hi) as read, a part from each reader.
 type streamChunk struct {
-	lo, hi    int
-	rows, tfs []uint32
-	segs      []rowSegment // the terms with postings here, ascending; segment [a, b) of rows and tfs
-	factor    []float64    // per row of the chunk, its row factor; NaN where no posting reaches it
+	lo, hi  int
+	parts   []chunkPart
+	pending atomic.Int32 // readers yet to read their part
 }
 
-// readChunk reads the postings of rows [lo, hi) of the active terms into c,
-// checks them and finds the factors of the rows they reach. It alone calls the
-// corpus, so that a Corpus need not be safe for concurrent use.
-func (s *scorer) readChunk(ctx context.Context, c *streamChunk, curs []PostingCursor, active []int32, lo, hi int) error {
-	if err := ctx.Err(); err != nil {
-		return fmt.Errorf("score: %w", err)
-	}
+// chunkPart is one reader's share of a chunk, term by term.
+type chunkPart struct {
+	rows, tfs []uint32
+	segs      []rowSegment // the terms with postings here, ascending; segment [a, b) of rows and tfs
+}
+
+// readPart reads the postings of rows [lo, hi) of the terms of one reader's share into p and
+// checks them. Each cursor is read by one reader only.
+func (s *scorer) readPart(p *chunkPart, curs []PostingCursor, terms []int32, lo, hi int) error {
 	pl := s.pl
-	c.lo, c.hi = lo, hi
-	c.rows, c.tfs, c.segs = c.rows[:0], c.tfs[:0], c.segs[:0]
-	if c.rows == nil {
-		// Sized for a chunk of average rows and a quarter more, so that a chunk's buffers seldom
+	p.rows, p.tfs, p.segs = p.rows[:0], p.tfs[:0], p.segs[:0]
+	if p.rows == nil {
+		// Sized for a chunk of average rows and a quarter more, so that a part's buffers seldom
 		// grow (each growth copies, and touches fresh memory).
-		want := int(min(s.total, s.total/int64(max(1, pl.n))*int64(hi-lo)*5/4)) + 64
-		c.rows, c.tfs = make([]uint32, 0, want), make([]uint32, 0, want)
+		var share int64
+		for _, k := range terms {
+			share += int64(pl.partDF[k])
+		}
+		want := int(min(share, share/int64(max(1, pl.n))*int64(hi-lo)*5/4)) + 64
+		p.rows, p.tfs = make([]uint32, 0, want), make([]uint32, 0, want)
 	}
-	for _, k := range active {
-		a := len(c.rows)
+	for _, k := range terms {
+		a := len(p.rows)
 		var err error
-		if c.rows, c.tfs, err = curs[k].Next(hi, c.rows, c.tfs); err != nil {
+		if p.rows, p.tfs, err = curs[k].Next(hi, p.rows, p.tfs); err != nil {
 			return fmt.Errorf("score: postings of %q: %w", pl.vocab[k], err)
 		}
-		if len(c.rows) == a {
+		if len(p.rows) == a {
 			continue
 		}
-		if err := s.checkSpan(pl.vocab[k], c.rows[a:], c.tfs[a:], lo, hi); err != nil {
+		if err := s.checkSpan(pl.vocab[k], p.rows[a:], p.tfs[a:], lo, hi); err != nil {
 			return err
 		}
-		c.segs = append(c.segs, rowSegment{k, int32(a), int32(len(c.rows))})
-	}
-	c.factor = resize(c.factor, hi-lo)
-	for i := range c.factor {
-		c.factor[i] = math.NaN()
-	}
-	for _, r := range c.rows {
-		i := int(r) - lo
-		if c.factor[i] == c.factor[i] {
-			continue
-		}
-		f, err := rowFactor(s.c, s.p, pl.avg, int(r))
-		if err != nil {
-			return fmt.Errorf("score: %w", err)
-		}
-		c.factor[i] = f
+		p.segs = append(p.segs, rowSegment{k, int32(a), int32(len(p.rows))})
 	}
 	return nil
 }
 
 // chunk turns a chunk's postings around into rows of (term, tf part), terms
-// ascending, and scores its rows.
-func (w *rowWorker) chunk(s *scorer, c *streamChunk, res *Result, bestScore []float64) {
+// ascending, finds the factor of each row reached and scores it.
+func (w *rowWorker) chunk(s *scorer, c *streamChunk, res *Result, bestScore []float64) error {
 	lo := uint32(c.lo)
 	w.count = resize(w.count, c.hi-c.lo+1)
 	count := w.count
 	clear(count)
-	for _, r := range c.rows {
-		count[r-lo+1]++
+	total := 0
+	for i := range c.parts {
+		for _, r := range c.parts[i].rows {
+			count[r-lo+1]++
+		}
+		total += len(c.parts[i].rows)
 	}
 	for i := 1; i < len(count); i++ {
 		count[i] += count[i-1]
 	}
-	total := len(c.rows)
 	w.terms, w.parts = resize(w.terms, total), resize(w.parts, total)
-	// The tf goes where its part will be; the part is worked out row by row below.
-	for _, sg := range c.segs {
-		rows, tfs := c.rows[sg.a:sg.b], c.tfs[sg.a:sg.b]
-		tfs = tfs[:len(rows)]
-		for i, r := range rows {
-			at := count[r-lo]
-			w.terms[at], w.parts[at] = sg.k, float64(tfs[i])
-			count[r-lo] = at + 1
+	// The tf goes where its part will be; the part is worked out row by row below. The parts
+	// follow one another in term order, so each row's terms come in ascending.
+	for i := range c.parts {
+		p := &c.parts[i]
+		for _, sg := range p.segs {
+			rows, tfs := p.rows[sg.a:sg.b], p.tfs[sg.a:sg.b]
+			tfs = tfs[:len(rows)]
+			for i, r := range rows {
+				at := count[r-lo]
+				w.terms[at], w.parts[at] = sg.k, float64(tfs[i])
+				count[r-lo] = at + 1
+			}
 		}
 	}
 	// count[r] is now the end of row r's entries, and the start of row r+1's.
@@ -219,7 +286,11 @@ func (w *rowWorker) chunk(s *scorer, c *streamChunk, res *Result, bestScore []fl
 		if end == start {
 			continue
 		}
-		parts, f := w.parts[start:end], c.factor[i]
+		f, err := rowFactor(s.c, s.p, s.pl.avg, c.lo+i)
+		if err != nil {
+			return fmt.Errorf("score: %w", err)
+		}
+		parts := w.parts[start:end]
 		// The expressions of tfParts, so that the parts are the bits it gives.
 		if bm25 {
 			for j, tf := range parts {
@@ -233,6 +304,7 @@ func (w *rowWorker) chunk(s *scorer, c *streamChunk, res *Result, bestScore []fl
 		w.row(c.lo+i, w.terms[start:end], parts, res, bestScore)
 		start = end
 	}
+	return nil
 }
 
 // checkSpan checks that a cursor handed out rows of [lo, hi) only, ascending,
