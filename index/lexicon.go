@@ -114,10 +114,11 @@ func (lx *lexicon) find(term string) (termEntry, bool) {
 		if !ok {
 			return termEntry{}, false
 		}
-		switch c := bytes.Compare(t, []byte(term)); {
-		case c == 0:
+		// Compared as strings, which the compiler does without copying either side.
+		switch {
+		case string(t) == term:
 			return termEntry{df: df, post: off, postEnd: off + pl}, true
-		case c > 0:
+		case string(t) > term:
 			return termEntry{}, false
 		}
 		b, off = rest, off+pl
