@@ -250,6 +250,20 @@ func (w *rowWorker) block(lo, hi int, segs []rowSegment, res *Result, bestScore 
 	}
 }
 
+// reached reports whether a pool row with these query terms reaches so few target rows that
+// looking at theirs alone, once for each of its terms holding them, beats a scan of every
+// accumulator.
+func (w *rowWorker) reached(terms []int32) bool {
+	h, limit := w.h, int32(len(w.acc)/4)
+	var n int32
+	for _, k := range terms {
+		if n += h.off[k+1] - h.off[k]; n > limit {
+			return false
+		}
+	}
+	return true
+}
+
 // row scores pool row r, whose query terms (ascending) and tf parts are given.
 func (w *rowWorker) row(r int, terms []int32, parts []float64, res *Result, bestScore []float64) {
 	if len(terms) == 0 {
@@ -288,11 +302,24 @@ func (w *rowWorker) row(r int, terms []int32, parts []float64, res *Result, best
 	// ascending order and a later one winning only when strictly higher,
 	// across them.
 	best, bv := int32(-1), 0.0
-	for t, v := range acc {
-		if !math.Signbit(v) && (best < 0 || v > bv) {
-			best, bv = int32(t), v
+	if w.reached(terms) {
+		// Few target rows reached: only theirs are looked at, in any order (a row reached
+		// through several terms more than once), the lowest index kept among equals.
+		for _, k := range terms {
+			for _, t := range h.t[h.off[k]:h.off[k+1]] {
+				if v := acc[t]; !math.Signbit(v) && (best < 0 || v > bv || v == bv && t < best) {
+					best, bv = t, v
+				}
+				acc[t] = negZero
+			}
 		}
-		acc[t] = negZero
+	} else {
+		for t, v := range acc {
+			if !math.Signbit(v) && (best < 0 || v > bv) {
+				best, bv = int32(t), v
+			}
+			acc[t] = negZero
+		}
 	}
 	switch {
 	case best < 0:

@@ -209,3 +209,36 @@ func TestShareTerms(t *testing.T) {
 		}
 	}
 }
+
+// A pool row that reaches few target rows is scored looking at theirs alone, in the order its
+// terms reach them; a tie still goes to the lowest target index, as over every accumulator. Here
+// the row's first term reaches target row 1 and its second, of the same weight, target row 0.
+// Internal property: no reference values.
+func TestFewTargetsTieToLowest(t *testing.T) {
+	pool := [][]string{{"a", "b"}, {"a", "c"}, {"b", "d"}}
+	q := []Query{{ID: "holds b", Terms: []string{"b"}}, {ID: "holds a", Terms: []string{"a"}}}
+	for range 10 {
+		q = append(q, Query{ID: "holds z", Terms: []string{"z"}}) // in no pool row
+	}
+	q = append(q, Query{ID: "holds c", Terms: []string{"c"}})
+	for _, p := range allParams() {
+		p.CacheBytes, p.Workers = -1, 1
+		want, err := Score(context.Background(), newMemCorpus(pool), q, p)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if want.Best[0] != 0 {
+			t.Fatalf("%v/%v: per-target passes give row 0 target %d, want the tie's lowest, 0", p.Method, p.Aggregate, want.Best[0])
+		}
+		p.CacheBytes = 0
+		for _, c := range []Corpus{newMemCorpus(pool), cursorsOver{newMemCorpus(pool)}} {
+			got, err := Score(context.Background(), c, q, p)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if !slices.Equal(got.Best, want.Best) {
+				t.Errorf("%v/%v over %T: best %v, per-target passes %v", p.Method, p.Aggregate, c, got.Best, want.Best)
+			}
+		}
+	}
+}
