@@ -3,7 +3,8 @@
 # read + parse + analyse with the same analyzer, no index), then picks with a new 1,000-row target on
 # the built index (the default pick three times, keeping about a tenth of the pool) beside their
 # floors (write + fsync of the outputs; one read of the postings), and the same on a pool of about
-# 1 GB, with the peak memory of its build at the default --mem.
+# 1 GB, with the peak memory of its build at the default --mem; beside them the analyzer alone and
+# one read of the postings the pick needs (testdata/bench/floors).
 #
 #   bash testdata/bench/index-vs-floor.sh [SHARED_DIR]     (default ../shared beside the checkout)
 #
@@ -65,6 +66,12 @@ for i in 1 2 3; do
 	echo "pick bm25 sum (defaults), 1000 target rows, run $i: ${ps}s = $(echo "scale=1; 100 * $ps / $bs" | bc)% of the build (${bs}s), peak RSS $((prss / 1024)) MB, kept $(wc -l < "$work/run/kept.jsonl") of $(wc -l < "$work/run/scores.jsonl") rows"
 done
 floors "$work/run" "$work/split.idx" "$bs"
+# The analyzer alone over the pool's text and one read of the postings the target needs (floors/,
+# every core each): beside the build and the default pick (the last of the three above).
+read -r _ as _ fps < <(go run ./testdata/bench/floors -pool "$work/split/pool.jsonl" -text prompt,completion \
+	-index "$work/split.idx" -target "$work/split/target.jsonl")
+echo "  floor: the analyzer alone over the pool's text: ${as}s = $(echo "scale=1; 100 * $as / $bs" | bc)% of the build"
+echo "  floor: one read of the postings the target's terms need: ${fps}s = $(echo "scale=1; 100 * $fps / $ps" | bc)% of the pick"
 
 # Peak memory for a pool of about 1 GB at the default --mem.
 for i in $(seq 1 17); do cat "$work/t0.jsonl"; done > "$work/big.jsonl"
@@ -75,4 +82,11 @@ for i in 1 2 3; do
 		--budget 1e17 --train-params 1B --out "$work/bigrun")
 	echo "pick on the 1 GB pool, bm25 sum (defaults), 1000 target rows, run $i: ${ps}s = $(echo "scale=1; 100 * $ps / $gs" | bc)% of its build, peak RSS $((prss / 1024)) MB, kept $(wc -l < "$work/bigrun/kept.jsonl") rows"
 done
+read -r as arss < <(secs "$S" pick --quiet --index "$work/big.idx" --target "$work/split/target.jsonl" \
+	--attribute=false --budget 1e17 --train-params 1B --out "$work/bigrun")
+echo "pick on the 1 GB pool, bm25 sum --attribute=false: ${as}s = $(echo "scale=1; 100 * $as / $gs" | bc)% of its build, peak RSS $((arss / 1024)) MB"
 floors "$work/bigrun" "$work/big.idx" "$gs"
+read -r _ as _ fps < <(go run ./testdata/bench/floors -pool "$work/big.jsonl" -text prompt,completion \
+	-index "$work/big.idx" -target "$work/split/target.jsonl")
+echo "  floor: the analyzer alone over the pool's text: ${as}s = $(echo "scale=1; 100 * $as / $gs" | bc)% of the build"
+echo "  floor: one read of the postings the target's terms need: ${fps}s = $(echo "scale=1; 100 * $fps / $ps" | bc)% of the pick"
