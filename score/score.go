@@ -139,7 +139,8 @@ type Params struct {
 	// all the work, where Best needs one pass per target row.
 	SkipBest bool
 	// Progress, when set, is told the pool rows read for scoring as they are read and how many
-	// there are, from one goroutine, not Score's; only a CursorCorpus (an index) reports.
+	// there are, one call at a time (from goroutines other than Score's); only a CursorCorpus (an
+	// index) reports.
 	Progress func(rows, of int) `json:"-"`
 }
 
@@ -348,8 +349,7 @@ type scorer struct {
 	cache     []cachedList
 	allCached bool
 	fetched   int64
-	total     int64 // postings of the lists streamPasses reads
-	chunkRows int   // rows a chunk of streamPasses takes; 0 lets chunkSize choose (tests set it)
+	chunkRows int // rows a chunk of streamPasses takes; 0 lets chunkSize choose (tests set it)
 }
 
 type cachedList struct {
