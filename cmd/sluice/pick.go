@@ -88,7 +88,7 @@ func addPickInputFlags(fs *pflag.FlagSet) {
 func addMethodFlags(fs *pflag.FlagSet) {
 	fs.String("method", "bm25", "scoring: bm25 or tfidf (lexical, from the index), ngram (n-gram language models),\nvectors (cosine of embeddings) or scores (made elsewhere)")
 	fs.String("aggregate", "sum", "over target rows: sum (the set as one query) or max (nearest target row)")
-	fs.Bool("attribute", true, "name, for every row, the target row that contributed most; with --aggregate sum\nthis costs one pass per target row, and --attribute=false skips it")
+	fs.Bool("attribute", true, "name, for every row, the target row that contributed most; with --aggregate sum\nthis is most of the scoring's work (half a large pick's CPU), and --attribute=false skips it")
 	fs.Int("order", run.DefaultNgramOrder, "ngram: n-gram order, 3 to 5")
 	fs.String("ngram-score", "difference", "ngram: difference (target model against a pool-sample model, per token) or target (target model alone)")
 	fs.Uint64("ngram-seed", 1, "ngram: seed of the pool sample the pool model is trained on")
