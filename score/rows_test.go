@@ -242,3 +242,53 @@ func TestFewTargetsTieToLowest(t *testing.T) {
 		}
 	}
 }
+
+// Chunks follow the rows' analysed lengths: over a pool whose first half has rows twenty times as
+// long as the second's, they cover the rows in order, and each holds about the same length, so a
+// chunk of long rows has about a twentieth of the rows of one of short rows. Internal property:
+// no reference values.
+func TestChunkEndsFollowLength(t *testing.T) {
+	var docs [][]string
+	for r := range 4000 {
+		n := 1
+		if r < 2000 {
+			n = 20
+		}
+		doc := make([]string, n)
+		for i := range doc {
+			doc[i] = zipfTerm(i)
+		}
+		docs = append(docs, doc)
+	}
+	c := newMemCorpus(docs)
+	s := &scorer{pl: &plan{n: len(docs)}}
+	var total int64
+	for r := range docs {
+		total += int64(c.RowLen(r))
+	}
+	const per = 2000 // postings a chunk, here one a term of a row
+	end := s.chunkEnds(c, total, per)
+	var long, short []int
+	for lo := 0; lo < len(docs); {
+		hi := end(lo)
+		if hi <= lo || hi > len(docs) {
+			t.Fatalf("chunk from %d ends at %d", lo, hi)
+		}
+		length := 0
+		for r := lo; r < hi; r++ {
+			length += c.RowLen(r)
+		}
+		if length > per+20 {
+			t.Errorf("chunk [%d, %d) holds %d terms, over %d and a row", lo, hi, length, per)
+		}
+		if hi <= 2000 {
+			long = append(long, hi-lo)
+		} else if lo >= 2000 {
+			short = append(short, hi-lo)
+		}
+		lo = hi
+	}
+	if len(long) == 0 || len(short) == 0 || long[0] != 100 || short[0] != 2000 {
+		t.Errorf("chunks of long rows %v, of short rows %v: want 100 and 2000 rows", long, short)
+	}
+}

@@ -349,7 +349,7 @@ type scorer struct {
 	cache     []cachedList
 	allCached bool
 	fetched   int64
-	chunkRows int // rows a chunk of streamPasses takes; 0 lets chunkSize choose (tests set it)
+	chunkRows int // rows a chunk of streamPasses takes; 0 lets chunkEnds choose (tests set it)
 }
 
 type cachedList struct {

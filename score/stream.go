@@ -72,10 +72,8 @@ func (s *scorer) streamPasses(ctx context.Context, cc CursorCorpus, res *Result,
 	}
 	shares := s.shareTerms(active, nw)
 	nbuf := nw + len(shares) + 1 // one being read by each reader, one waiting, one per worker
-	size := chunkSize(n, total, len(active), s.p.CacheBytes, nbuf)
-	if s.chunkRows > 0 {
-		size = s.chunkRows
-	}
+	per := chunkPostingsFor(total, len(active), s.p.CacheBytes, nbuf)
+	end := s.chunkEnds(cc, total, per)
 
 	parent := ctx
 	ctx, cancel := context.WithCancel(ctx)
@@ -98,7 +96,7 @@ func (s *scorer) streamPasses(ctx context.Context, cc CursorCorpus, res *Result,
 		readers.Go(func() {
 			for c := range ins[i] {
 				if ctx.Err() == nil {
-					if err := s.readPart(&c.parts[i], curs, sh, c.lo, c.hi); err != nil {
+					if err := s.readPart(&c.parts[i], curs, sh, c.lo, c.hi, c.want, total); err != nil {
 						fail(err)
 					}
 					fetched.Add(int64(len(c.parts[i].rows)))
@@ -128,14 +126,15 @@ func (s *scorer) streamPasses(ctx context.Context, cc CursorCorpus, res *Result,
 		})
 	}
 	// No send below blocks: each channel holds every chunk there is.
-	for lo := 0; lo < n && ctx.Err() == nil; lo += size {
+	for lo := 0; lo < n && ctx.Err() == nil; {
 		var c *streamChunk
 		select {
 		case c = <-free:
 		case <-ctx.Done():
 			continue
 		}
-		c.lo, c.hi = lo, min(n, lo+size)
+		c.lo, c.hi, c.want = lo, end(lo), per
+		lo = c.hi
 		c.pending.Store(int32(len(shares)))
 		for _, in := range ins {
 			in <- c
@@ -188,23 +187,47 @@ func (s *scorer) shareTerms(active []int32, nr int) [][]int32 {
 // tfs 20) then stays within the L2 cache of a core.
 const chunkPostings = 1 << 15
 
-// chunkSize is how many pool rows a chunk takes, a multiple of rowBlock: about
-// chunkPostings postings, at least four times as many as the terms read (each
-// cursor is called once a chunk), and bufs chunks within the bound (0 for
-// DefaultSpanBytes), at 20 bytes a posting.
-func chunkSize(n int, total int64, terms int, bound int64, bufs int) int {
+// chunkPostingsFor is about how many postings a chunk takes: chunkPostings, at
+// least four times as many as the terms read (each cursor is called once a
+// chunk), and bufs chunks within the bound (0 for DefaultSpanBytes), at 20
+// bytes a posting; never more than there are.
+func chunkPostingsFor(total int64, terms int, bound int64, bufs int) int64 {
 	if bound <= 0 {
 		bound = DefaultSpanBytes
 	}
-	perRow := max(1, total/int64(max(1, n)))
-	want := max(chunkPostings, 4*int64(terms)) / perRow
-	want = min(want, bound/(20*perRow*int64(bufs)))
-	return int(max(1, want/rowBlock)) * rowBlock
+	per := max(chunkPostings, 4*int64(terms))
+	per = min(per, bound/(20*int64(bufs)), total)
+	return max(1, per)
+}
+
+// chunkEnds returns where a chunk starting at a row ends. A chunk takes rows
+// until their analysed lengths make about per postings at the pool's rate of
+// postings read per analysed term: rows differ in length by stretches (a pool
+// concatenated from sources of short and long rows), and chunks of as many
+// rows each held from a third to four times the postings of the mean, each
+// growing its buffers. With chunkRows set (tests), chunks are of that many
+// rows.
+func (s *scorer) chunkEnds(c Corpus, total, per int64) func(lo int) int {
+	n := s.pl.n
+	if s.chunkRows > 0 {
+		return func(lo int) int { return min(n, lo+s.chunkRows) }
+	}
+	// The analysed length a chunk takes: per postings at total postings over all rows' length.
+	length := c.AvgLen() * float64(n) * float64(per) / float64(max(1, total))
+	return func(lo int) int {
+		hi, sum := lo, 0.0
+		for hi < n && (hi == lo || sum < length) {
+			sum += float64(max(0, c.RowLen(hi))) // a damaged length is the worker's to report
+			hi++
+		}
+		return hi
+	}
 }
 
 // streamChunk is the postings of pool rows [lo, hi) as read, a part from each reader.
 type streamChunk struct {
 	lo, hi  int
+	want    int64 // about how many postings it holds
 	parts   []chunkPart
 	pending atomic.Int32 // readers yet to read their part
 }
@@ -216,19 +239,20 @@ type chunkPart struct {
 }
 
 // readPart reads the postings of rows [lo, hi) of the terms of one reader's share into p and
-// checks them. Each cursor is read by one reader only.
-func (s *scorer) readPart(p *chunkPart, curs []PostingCursor, terms []int32, lo, hi int) error {
+// checks them; the chunk holds about want postings of all total. Each cursor is read by one reader
+// only.
+func (s *scorer) readPart(p *chunkPart, curs []PostingCursor, terms []int32, lo, hi int, want, total int64) error {
 	pl := s.pl
 	p.rows, p.tfs, p.segs = p.rows[:0], p.tfs[:0], p.segs[:0]
 	if p.rows == nil {
-		// Sized for a chunk of average rows and a quarter more, so that a part's buffers seldom
+		// Sized for the share's part of a chunk and a half more, so that a part's buffers seldom
 		// grow (each growth copies, and touches fresh memory).
 		var share int64
 		for _, k := range terms {
 			share += int64(pl.partDF[k])
 		}
-		want := int(min(share, share/int64(max(1, pl.n))*int64(hi-lo)*5/4)) + 64
-		p.rows, p.tfs = make([]uint32, 0, want), make([]uint32, 0, want)
+		size := int(min(share, want*share/max(1, total)*3/2)) + 64
+		p.rows, p.tfs = make([]uint32, 0, size), make([]uint32, 0, size)
 	}
 	for _, k := range terms {
 		a := len(p.rows)
