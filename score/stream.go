@@ -96,7 +96,7 @@ func (s *scorer) streamPasses(ctx context.Context, cc CursorCorpus, res *Result,
 		readers.Go(func() {
 			for c := range ins[i] {
 				if ctx.Err() == nil {
-					if err := s.readPart(&c.parts[i], curs, sh, c.lo, c.hi, c.want, total); err != nil {
+					if err := s.readPart(&c.parts[i], curs, sh, c.lo, c.hi, per, total); err != nil {
 						fail(err)
 					}
 					fetched.Add(int64(len(c.parts[i].rows)))
@@ -133,7 +133,7 @@ func (s *scorer) streamPasses(ctx context.Context, cc CursorCorpus, res *Result,
 		case <-ctx.Done():
 			continue
 		}
-		c.lo, c.hi, c.want = lo, end(lo), per
+		c.lo, c.hi = lo, end(lo)
 		lo = c.hi
 		c.pending.Store(int32(len(shares)))
 		for _, in := range ins {
@@ -227,7 +227,6 @@ func (s *scorer) chunkEnds(c Corpus, total, per int64) func(lo int) int {
 // streamChunk is the postings of pool rows [lo, hi) as read, a part from each reader.
 type streamChunk struct {
 	lo, hi  int
-	want    int64 // about how many postings it holds
 	parts   []chunkPart
 	pending atomic.Int32 // readers yet to read their part
 }
