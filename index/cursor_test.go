@@ -48,3 +48,41 @@ func TestCursorMatchesPostings(t *testing.T) {
 		t.Errorf("absent term: %v, %v", rows, err)
 	}
 }
+
+// Postings released in the middle of a cursor's reading, and again after, are read as before:
+// the release gives up pages, never bytes. Internal property: no reference values.
+func TestReleasePostingsKeepsThem(t *testing.T) {
+	dir, _ := build(t, testPool(t, 3000), Options{Text: "prompt,completion"})
+	ix, err := Open(dir)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer ix.Close()
+	var terms []string
+	ix.lex.each(func(t []byte) { terms = append(terms, string(t)) })
+	n := ix.NumRows()
+	for _, term := range terms {
+		wantRows, wantTFs, err := ix.Postings(term, nil, nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		c := ix.NewCursor(term)
+		rows, tfs, err := c.Next(n/2, nil, nil)
+		if err != nil {
+			t.Fatal(err)
+		}
+		ix.ReleasePostings()
+		if rows, tfs, err = c.Next(n, rows, tfs); err != nil {
+			t.Fatal(err)
+		}
+		if !slices.Equal(rows, wantRows) || !slices.Equal(tfs, wantTFs) {
+			t.Fatalf("%q: released midway, a cursor gave %d postings of %d, or they differ", term, len(rows), len(wantRows))
+		}
+	}
+	ix.ReleasePostings()
+	for _, term := range terms[:min(len(terms), 50)] {
+		if _, _, err := ix.Postings(term, nil, nil); err != nil {
+			t.Fatalf("%q after a release: %v", term, err)
+		}
+	}
+}

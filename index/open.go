@@ -412,6 +412,22 @@ func (ix *Index) Close() error {
 	return err
 }
 
+// ReleasePostings tells the system that the postings will not be read again soon: their pages
+// leave this process's resident memory (staying in the page cache), which a long pick would
+// otherwise hold beside the arrays it makes after scoring. Reading postings afterwards still
+// works, mapping the pages again.
+func (ix *Index) ReleasePostings() {
+	if ix.set != nil {
+		for _, g := range ix.set.segs {
+			g.ReleasePostings()
+		}
+		return
+	}
+	if len(ix.postings) > 0 {
+		_ = syscall.Madvise(ix.postings, syscall.MADV_DONTNEED) // advice: nothing is lost if refused
+	}
+}
+
 // Meta returns the index's metadata.
 func (ix *Index) Meta() Meta { return ix.meta }
 
