@@ -6,8 +6,10 @@ import (
 	"testing"
 )
 
-// A cursor read in stretches of random length gives each term's postings exactly as Postings does.
-// The property is internal, so no reference values are involved.
+// A cursor read in stretches of random length gives each term's postings exactly as Postings does
+// (which reads the mapping), through windows of the default size and through windows so small that
+// a posting's varints are cut at nearly every read. The property is internal, so no reference
+// values are involved.
 func TestCursorMatchesPostings(t *testing.T) {
 	dir, _ := build(t, testPool(t, 3000), Options{Text: "prompt,completion"})
 	ix, err := Open(dir)
@@ -15,6 +17,14 @@ func TestCursorMatchesPostings(t *testing.T) {
 		t.Fatal(err)
 	}
 	defer ix.Close()
+	for _, window := range []int{0, 1, 21, 64} {
+		ix.window = window
+		cursorMatchesPostings(t, ix)
+	}
+}
+
+func cursorMatchesPostings(t *testing.T, ix *Index) {
+	t.Helper()
 	rng := rand.New(rand.NewPCG(5, 6))
 	n := ix.NumRows()
 	var terms []string

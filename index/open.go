@@ -31,6 +31,8 @@ type Index struct {
 	lex lexicon
 
 	postings []byte   // mapped
+	postFile *os.File // the postings file as mapped, which cursors read through windows of their own
+	window   int      // bytes of a cursor's window (cursorWindow; tests set less)
 	rows     []byte   // mapped, rowRecSize per row
 	norms    []byte   // mapped, a little-endian float64 per row
 	dups     []byte   // mapped, dupRecSize bytes per row, when the build found duplicates
@@ -154,7 +156,11 @@ func (ix *Index) load(d *os.File) error {
 		}
 		// Only a set reads the sketches, once: it checks them then (checkSketches), sparing every
 		// other command the largest file of many an index.
-		b, sum, err := ix.mapFile(d, name, buf, name != sketchesFile)
+		var keep **os.File
+		if name == postingsFile {
+			keep = &ix.postFile
+		}
+		b, sum, err := ix.mapFile(d, name, buf, name != sketchesFile, keep)
 		if err != nil {
 			return err
 		}
@@ -248,12 +254,17 @@ const checkBuf = 1 << 20
 // the mapping: read(2) leaves the pages in the page cache but outside the process, so that only
 // the parts of the index a command uses become part of its resident memory, where summing the
 // mapping made every page of every file resident at open.
-func (ix *Index) mapFile(d *os.File, name string, buf []byte, check bool) ([]byte, uint32, error) {
+func (ix *Index) mapFile(d *os.File, name string, buf []byte, check bool, keep **os.File) ([]byte, uint32, error) {
 	f, err := openAt(d, ix.dir, name)
 	if err != nil {
 		return nil, 0, fmt.Errorf("open index %s: %w: %w", ix.dir, err, ErrDamaged)
 	}
-	defer f.Close()
+	kept := false
+	defer func() {
+		if !kept {
+			f.Close()
+		}
+	}()
 	fi, err := f.Stat()
 	if err != nil {
 		return nil, 0, fmt.Errorf("open index %s: %w", ix.dir, err)
@@ -282,6 +293,9 @@ func (ix *Index) mapFile(d *os.File, name string, buf []byte, check bool) ([]byt
 		if err != nil && off < int64(len(b)) {
 			return nil, 0, fmt.Errorf("open index %s: read %s: %w", ix.dir, name, err)
 		}
+	}
+	if keep != nil {
+		*keep, kept = f, true
 	}
 	return b, sum, nil
 }
@@ -406,6 +420,12 @@ func (ix *Index) Close() error {
 		if e := syscall.Munmap(b); e != nil && err == nil {
 			err = e
 		}
+	}
+	if ix.postFile != nil {
+		if e := ix.postFile.Close(); e != nil && err == nil {
+			err = e
+		}
+		ix.postFile = nil
 	}
 	ix.maps = nil
 	ix.stored = nil
@@ -567,10 +587,14 @@ func (ix *Index) Postings(term string, rows, tfs []uint32) ([]uint32, []uint32, 
 type Cursor struct {
 	ix   *Index
 	term string
-	b    []byte // what is left of the list
+	b    []byte // what is left of the list, or of the window
 	row  int64  // the last row decoded; -1 before the first
-	next int64  // a decoded row not yet handed out (at or past an earlier end), or -1
-	tf   uint32
+	// A cursor that reads through a window: the bytes of the list [off, end) of the postings file
+	// are not read yet; b is the unread part of win.
+	off, end int64
+	win      []byte
+	next     int64 // a decoded row not yet handed out (at or past an earlier end), or -1
+	tf       uint32
 
 	parts []*Cursor // for a set, a cursor on each segment, read in turn
 	part  int       // the segment being read
@@ -581,15 +605,46 @@ func (ix *Index) NewCursor(term string) *Cursor {
 	if ix.set != nil {
 		return ix.set.cursor(ix, term)
 	}
-	if e, ok := ix.lex.find(term); ok {
+	e, ok := ix.lex.find(term)
+	switch {
+	case !ok:
+		return &Cursor{ix: ix, term: term, row: -1, next: -1}
+	case ix.postFile == nil:
 		c := ix.cursorAt(e, term)
 		return &c
 	}
-	return &Cursor{ix: ix, term: term, row: -1, next: -1}
+	// Read through a window of its own, not the mapping: a pick reads thousands of lists side by
+	// side, and the mapped pages around every list's place (the system maps a file's cached pages
+	// in blocks of up to some hundred kilobytes) made nearly all the postings resident at once.
+	return &Cursor{ix: ix, term: term, off: int64(e.post), end: int64(e.postEnd), row: -1, next: -1}
 }
 
 func (ix *Index) cursorAt(e termEntry, term string) Cursor {
 	return Cursor{ix: ix, term: term, b: ix.postings[e.post:e.postEnd], row: -1, next: -1}
+}
+
+// cursorWindow is the most bytes of its list a cursor holds: a pick's thousands of cursors hold
+// a few megabytes between them, and a list is read in one pread per window.
+const cursorWindow = 4 << 10
+
+// refill moves what is left of the window to its front and reads as much more of the list as fits.
+func (c *Cursor) refill() error {
+	if c.win == nil { // the first read: nothing is left over
+		size := c.ix.window
+		if size == 0 {
+			size = cursorWindow
+		}
+		// Never under two varints, which Next needs whole; never over the list.
+		c.win = make([]byte, int(min(int64(max(size, 2*binary.MaxVarintLen64)), c.end-c.off)))
+	}
+	n := copy(c.win, c.b)
+	k, err := c.ix.postFile.ReadAt(c.win[n:n+int(min(int64(len(c.win)-n), c.end-c.off))], c.off)
+	c.off += int64(k)
+	c.b = c.win[:n+k]
+	if err != nil && k == 0 {
+		return fmt.Errorf("index %s: read postings of %q: %w", c.ix.dir, c.term, err)
+	}
+	return nil
 }
 
 // Next appends the postings of rows below end that earlier calls have not handed out to rows and
@@ -606,7 +661,18 @@ func (c *Cursor) Next(end int, rows, tfs []uint32) ([]uint32, []uint32, error) {
 		c.next = -1
 	}
 	b, row, n := c.b, c.row, c.ix.meta.Rows
-	for len(b) > 0 {
+	for {
+		// A posting takes at most two varints; one cut by the window's end is read again whole.
+		if len(b) < 2*binary.MaxVarintLen64 && c.off < c.end {
+			c.b = b
+			if err := c.refill(); err != nil {
+				return rows, tfs, err
+			}
+			b = c.b
+		}
+		if len(b) == 0 {
+			break
+		}
 		// Most gaps and counts take one byte; binary.Uvarint handles the rest.
 		v, k := uint64(b[0]), 1
 		if v >= 0x80 {

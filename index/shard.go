@@ -105,7 +105,7 @@ func (ix *Index) mapChecked(d *os.File, name string, buf []byte) ([]byte, error)
 	if !listed {
 		return nil, fmt.Errorf("open index %s: meta.json lists no %s: %w", ix.dir, name, ErrDamaged)
 	}
-	b, sum, err := ix.mapFile(d, name, buf, true)
+	b, sum, err := ix.mapFile(d, name, buf, true, nil)
 	if err != nil {
 		return nil, err
 	}

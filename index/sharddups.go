@@ -121,7 +121,7 @@ func openSketches(dir string) (*Index, error) {
 		if m.Dups == nil || !listed {
 			return nil // refused by replayable, with the set named
 		}
-		b, _, err := ix.mapFile(d, sketchesFile, nil, false)
+		b, _, err := ix.mapFile(d, sketchesFile, nil, false, nil)
 		if err == nil && (int64(len(b)) != want.Size || want.Size != (m.Rows-m.Dups.ExactDuplicates)*int64(sketchHead+m.Dups.marksLen())) {
 			err = fmt.Errorf("open index %s: %s is %d bytes, meta.json says %d for %d rows first of their key: %w", dir, sketchesFile, len(b), want.Size, m.Rows-m.Dups.ExactDuplicates, ErrDamaged)
 		}
