@@ -32,7 +32,7 @@ type Index struct {
 
 	postings []byte   // mapped
 	postFile *os.File // the postings file as mapped, which cursors read through windows of their own
-	window   int      // bytes of a cursor's window (cursorWindow; tests set less)
+	window   int      // bytes of a cursor's window (CursorWindow; tests set less)
 	rows     []byte   // mapped, rowRecSize per row
 	norms    []byte   // mapped, a little-endian float64 per row
 	dups     []byte   // mapped, dupRecSize bytes per row, when the build found duplicates
@@ -623,16 +623,16 @@ func (ix *Index) cursorAt(e termEntry, term string) Cursor {
 	return Cursor{ix: ix, term: term, b: ix.postings[e.post:e.postEnd], row: -1, next: -1}
 }
 
-// cursorWindow is the most bytes of its list a cursor holds: a pick's thousands of cursors hold
+// CursorWindow is the most bytes of its list a cursor holds: a pick's thousands of cursors hold
 // a few megabytes between them, and a list is read in one pread per window.
-const cursorWindow = 4 << 10
+const CursorWindow = 4 << 10
 
 // refill moves what is left of the window to its front and reads as much more of the list as fits.
 func (c *Cursor) refill() error {
 	if c.win == nil { // the first read: nothing is left over
 		size := c.ix.window
 		if size == 0 {
-			size = cursorWindow
+			size = CursorWindow
 		}
 		// Never under two varints, which Next needs whole; never over the list.
 		c.win = make([]byte, int(min(int64(max(size, 2*binary.MaxVarintLen64)), c.end-c.off)))

@@ -5,6 +5,7 @@ import (
 	"fmt"
 	"strings"
 
+	"sluice/index"
 	"sluice/score"
 )
 
@@ -62,8 +63,12 @@ type memPart struct {
 func (p *picked) memoryNeed() (int64, []string) {
 	n := int64(p.ix.NumRows())
 	var terms int64
+	distinct := map[string]bool{}
 	for _, t := range p.targets {
 		terms += int64(len(t.Terms))
+		for _, term := range t.Terms {
+			distinct[term] = true
+		}
 	}
 	span := p.opt.Params.CacheBytes
 	if span <= 0 {
@@ -76,6 +81,10 @@ func (p *picked) memoryNeed() (int64, []string) {
 		// A span's postings take the bound and a quarter more when rows are longer than average.
 		{fmt.Sprintf("the postings of a span of rows (--mem %s) and a quarter", formatBytes(span)), span + span/4},
 		{"buffers", fixedBytes},
+	}
+	if lexical(p.opt.method()) || p.opt.Prefilter.active() {
+		parts = append(parts, memPart{fmt.Sprintf("a read window of %d B for each of %d distinct target terms' lists", index.CursorWindow, len(distinct)),
+			int64(len(distinct)) * index.CursorWindow})
 	}
 	if k := int64(len(p.sets)); k > 1 {
 		parts = append(parts, memPart{fmt.Sprintf("%d target sets, %d B a pool row each", k, SetRowBytes), k * n * SetRowBytes})
