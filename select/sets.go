@@ -278,7 +278,7 @@ func checkSets(sets []Set, costs []float64, cluster []int32, opt Options) error 
 		}
 		o := opt
 		o.MinScore, o.Barred = set.MinScore, merged(opt.Barred, set.Barred)
-		if err := check(set.Scores, costs, o); err != nil {
+		if err := checkWithCosts(set.Scores, costs, o); err != nil {
 			return fmt.Errorf("set %d: %w", s+1, err)
 		}
 	}

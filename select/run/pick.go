@@ -343,7 +343,7 @@ func rowTokens(ix *index.Index, r int) int64 {
 // ledger.
 func (p *picked) keep() error {
 	opt, led := p.opt, p.led
-	unit, costs, err := p.costs()
+	unit, err := p.unit()
 	if err != nil {
 		return err
 	}
@@ -363,7 +363,8 @@ func (p *picked) keep() error {
 		opt.Select.MinScore = so.MinScore
 		led.Notes = append(led.Notes, fmt.Sprintf("min-score: %s of the scored rows, %v", opt.MinScore, so.MinScore))
 	}
-	dec, sum, err := selection.Pick(p.scores, costs, so)
+	// Costs are tokens, read from the index as the walk meets each row rather than held for all.
+	dec, sum, err := selection.PickFunc(p.scores, func(r int) float64 { return float64(p.tokens(r)) }, so)
 	if err != nil {
 		return err
 	}
