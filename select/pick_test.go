@@ -582,3 +582,37 @@ func TestReasonWords(t *testing.T) {
 		t.Error("Walk tells the walk's reasons wrongly")
 	}
 }
+
+// PickFunc decides as Pick does with the same costs, asked one row at a time, and fails on a cost
+// that is not finite and >= 0 when the walk meets it. Internal property: no reference values.
+func TestPickFuncMatchesPick(t *testing.T) {
+	rng := rand.New(rand.NewPCG(3, 4))
+	scores, costs := make([]float64, 500), make([]float64, 500)
+	for i := range scores {
+		scores[i], costs[i] = float64(rng.IntN(40)), float64(1+rng.IntN(9))
+	}
+	for _, opt := range []Options{{Budget: 700}, {Budget: 700, Fill: true}, {Budget: 1e9, MaxRows: 30}, {Budget: 300, Fixed: 50, MinScore: 5}} {
+		want, wsum, err := Pick(scores, costs, opt)
+		if err != nil {
+			t.Fatal(err)
+		}
+		asked := make([]int, len(costs))
+		got, gsum, err := PickFunc(scores, func(i int) float64 { asked[i]++; return costs[i] }, opt)
+		if err != nil {
+			t.Fatal(err)
+		}
+		if !slices.Equal(got, want) || gsum != wsum {
+			t.Errorf("%+v: PickFunc's decisions or summary differ from Pick's", opt)
+		}
+		for i, n := range asked {
+			if n != 1 {
+				t.Fatalf("%+v: row %d's cost asked %d times", opt, i, n)
+			}
+		}
+	}
+	bad := slices.Clone(costs)
+	bad[17] = math.NaN()
+	if _, _, err := PickFunc(scores, func(i int) float64 { return bad[i] }, Options{Budget: 700}); !errors.Is(err, ErrBadInput) {
+		t.Errorf("a NaN cost: %v, want ErrBadInput", err)
+	}
+}
