@@ -399,9 +399,6 @@ func check(scores []float64, opt Options) error {
 
 // checkWithCosts is check with a cost for every row, each finite and >= 0.
 func checkWithCosts(scores, costs []float64, opt Options) error {
-	if len(scores) > MaxPickRows {
-		return fmt.Errorf("pick: %d rows, at most %d: %w", len(scores), MaxPickRows, ErrBadInput)
-	}
 	if len(scores) != len(costs) {
 		return fmt.Errorf("pick: %d scores but %d costs: %w", len(scores), len(costs), ErrBadInput)
 	}
