@@ -164,21 +164,40 @@ func Order(scores []float64) []int {
 }
 
 // rankKey is a row and its score, sorted together: going through an index slice would touch
-// scores at random. 16 bytes a row, where an index into scores beside it would add 8 more.
+// scores at random. The score is held as orderKey's bits in two halves, so that a key takes 12
+// bytes a row, where a float64 beside the row is padded to 16.
 type rankKey struct {
-	score float64
-	row   uint32
+	hi, lo, row uint32
 }
 
-// ranked returns the rows as Order ranks them, with their scores.
+// orderKey maps a score to bits whose unsigned order is cmp.Compare's order of scores: NaN below
+// every number (NaNs alike), then the numbers ascending, -0 and +0 alike.
+func orderKey(s float64) uint64 {
+	switch {
+	case s != s:
+		return 0 // no number maps here: only a NaN has every bit set before the flip below
+	case s == 0:
+		s = 0 // -0 as +0
+	}
+	b := math.Float64bits(s)
+	if b>>63 != 0 {
+		return ^b // negative: a greater magnitude is a smaller number
+	}
+	return b | 1<<63
+}
+
+// ranked returns the rows as Order ranks them: score descending, then row ascending.
 func ranked(scores []float64) []rankKey {
 	keys := make([]rankKey, len(scores))
 	for i, s := range scores {
-		keys[i] = rankKey{s, uint32(i)}
+		k := orderKey(s)
+		keys[i] = rankKey{uint32(k >> 32), uint32(k), uint32(i)}
 	}
-	// cmp.Compare orders NaN below -Inf and treats -0 and +0 as equal.
 	slices.SortFunc(keys, func(a, b rankKey) int {
-		if c := cmp.Compare(b.score, a.score); c != 0 {
+		if c := cmp.Compare(b.hi, a.hi); c != 0 {
+			return c
+		}
+		if c := cmp.Compare(b.lo, a.lo); c != 0 {
 			return c
 		}
 		return cmp.Compare(a.row, b.row)
@@ -187,7 +206,7 @@ func ranked(scores []float64) []rankKey {
 }
 
 // MaxPickRows is the most rows Pick takes: rows and ranks are held in 32 bits, which keeps a
-// Decision to 16 bytes and a row of the ranking to 16.
+// Decision to 16 bytes and a row of the ranking to 12.
 const MaxPickRows = math.MaxUint32
 
 // Pick ranks rows by score (as Order does) and keeps them greedily: walking

@@ -1,6 +1,7 @@
 package selection
 
 import (
+	"cmp"
 	"errors"
 	"math"
 	"math/rand/v2"
@@ -614,5 +615,23 @@ func TestPickFuncMatchesPick(t *testing.T) {
 	bad[17] = math.NaN()
 	if _, _, err := PickFunc(scores, func(i int) float64 { return bad[i] }, Options{Budget: 700}); !errors.Is(err, ErrBadInput) {
 		t.Errorf("a NaN cost: %v, want ErrBadInput", err)
+	}
+}
+
+// orderKey orders scores as cmp.Compare does (NaN lowest and NaNs alike, -0 and +0 alike), over
+// the values at the edges of float64 and random ones. Internal property: no reference values.
+func TestOrderKeyMatchesCompare(t *testing.T) {
+	vals := []float64{math.NaN(), math.Copysign(math.NaN(), -1), math.Inf(-1), -math.MaxFloat64, -1, -math.SmallestNonzeroFloat64,
+		math.Copysign(0, -1), 0, math.SmallestNonzeroFloat64, 0x1p-1022, 1, 2, math.MaxFloat64, math.Inf(1)}
+	rng := rand.New(rand.NewPCG(7, 8))
+	for range 300 {
+		vals = append(vals, math.Float64frombits(rng.Uint64()))
+	}
+	for _, a := range vals {
+		for _, b := range vals {
+			if got, want := cmp.Compare(orderKey(a), orderKey(b)), cmp.Compare(a, b); got != want {
+				t.Fatalf("%v against %v: keys compare %d, scores %d", a, b, got, want)
+			}
+		}
 	}
 }

@@ -54,7 +54,7 @@ func TestWalkerOverShards(t *testing.T) {
 				if len(keys) == 0 {
 					continue
 				}
-				if best < 0 || cmp.Or(cmp.Compare(keys[0].score, shards[best][0].score), cmp.Compare(shards[best][0].row, keys[0].row)) > 0 {
+				if best < 0 || cmp.Or(cmp.Compare(scores[keys[0].row], scores[shards[best][0].row]), cmp.Compare(shards[best][0].row, keys[0].row)) > 0 {
 					best = s
 				}
 			}

@@ -18,9 +18,9 @@ var ErrMemory = errors.New("the pick needs more memory than allowed")
 // counted, since the kernel can drop their pages and read them again.
 const (
 	// PoolRowBytes is a pool row's share: its score (8) and best target row (4), its place in the
-	// ranking (16) and its decision (16); a row's cost is read from the index as the walk meets
-	// it. Measured: 27 to 37 (2026-12-03).
-	PoolRowBytes = 48
+	// ranking (12) and its decision (16); a row's cost is read from the index as the walk meets
+	// it. Measured: 25 to 43 (2026-12-03, the sampling of the heap makes the spread).
+	PoolRowBytes = 44
 	// TargetRowBytes and TargetTermBytes are a target row's share, less its terms, and a term's:
 	// its string in the row (16) and its number in the row's query (4; 12 for TF-IDF). Measured:
 	// 150 to 300 a row of 13 terms.
