@@ -448,6 +448,20 @@ func (ix *Index) ReleasePostings() {
 	}
 }
 
+// releasePostingsIn gives back the pages wholly within the postings bytes [from, to): a page
+// shared with bytes outside is kept, as another reader may be on it.
+func (ix *Index) releasePostingsIn(from, to uint64) {
+	page := uint64(os.Getpagesize())
+	lo, hi := (from+page-1)/page*page, min(to, uint64(len(ix.postings)))/page*page
+	if hi > lo {
+		_ = syscall.Madvise(ix.postings[lo:hi], syscall.MADV_DONTNEED) // advice: nothing is lost if refused
+	}
+}
+
+// releaseNorms is how many bytes of a segment's postings an index set's norms pass reads before
+// it gives their pages back.
+const releaseNorms = 64 << 20
+
 // Meta returns the index's metadata.
 func (ix *Index) Meta() Meta { return ix.meta }
 

@@ -45,6 +45,9 @@ type segSet struct {
 
 	normOnce sync.Once
 	norms    []float64 // the TF-IDF norms under the set's document frequencies, made when first asked
+	// releaseEvery is how many bytes of a segment's postings the norms pass reads before it gives
+	// their pages back (releaseNorms; tests set less).
+	releaseEvery uint64
 
 	dupsOnce sync.Once
 	dups     *Dups    // the duplicates found across the segments, when first asked (Duplicates)
@@ -370,6 +373,15 @@ func (s *segSet) rowNorm(row int, n int64) float64 {
 // numbered from base; n is the set's row count.
 func (s *segSet) sumNorms(half int, acc []float64, base []int, n int64) error {
 	var rows, tfs []uint32
+	// The pass reads each segment's postings in file order (terms in byte order), so what it has
+	// read is given back behind it as it goes, a stretch at a time: a pass over a large set would
+	// otherwise hold every posting of every segment resident by its end.
+	every := s.releaseEvery
+	if every == 0 {
+		every = releaseNorms
+	}
+	from := make([]uint64, len(s.segs))
+	started := make([]bool, len(s.segs))
 	err := s.terms(func(term []byte, in []int, ents []termEntry) error {
 		switch from := string(term) >= mergeSplit; {
 		case from && half == 0:
@@ -394,6 +406,13 @@ func (s *segSet) sumNorms(half int, acc []float64, base []int, n int64) error {
 			for k, r := range rows {
 				w := float64(tfs[k]) * idf
 				acc[base[i]+int(r)] += w * w
+			}
+			if !started[i] {
+				from[i], started[i] = ents[i].post, true
+			}
+			if end := ents[i].postEnd; end-from[i] >= every {
+				s.segs[i].releasePostingsIn(from[i], end)
+				from[i] = end
 			}
 		}
 		return nil

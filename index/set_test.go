@@ -98,6 +98,9 @@ func TestSetReadsAsOneIndex(t *testing.T) {
 				t.Fatal(err)
 			}
 			defer set.Close()
+			// The norms pass gives back what it has read after every page or so, here: its sums
+			// cannot change for it.
+			set.set.releaseEvery = 1
 			sameIndex(t, one, set)
 		})
 	}
