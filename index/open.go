@@ -443,16 +443,14 @@ func (ix *Index) ReleasePostings() {
 		}
 		return
 	}
-	if len(ix.postings) > 0 {
-		_ = syscall.Madvise(ix.postings, syscall.MADV_DONTNEED) // advice: nothing is lost if refused
-	}
+	ix.releasePostingsIn(0, uint64(len(ix.postings))+uint64(os.Getpagesize())) // the last page too
 }
 
 // releasePostingsIn gives back the pages wholly within the postings bytes [from, to): a page
 // shared with bytes outside is kept, as another reader may be on it.
 func (ix *Index) releasePostingsIn(from, to uint64) {
 	page := uint64(os.Getpagesize())
-	lo, hi := (from+page-1)/page*page, min(to, uint64(len(ix.postings)))/page*page
+	lo, hi := (from+page-1)/page*page, min(to/page*page, uint64(len(ix.postings)))
 	if hi > lo {
 		_ = syscall.Madvise(ix.postings[lo:hi], syscall.MADV_DONTNEED) // advice: nothing is lost if refused
 	}

@@ -250,20 +250,6 @@ func (w *rowWorker) block(lo, hi int, segs []rowSegment, res *Result, bestScore 
 	}
 }
 
-// reached reports whether a pool row with these query terms reaches so few target rows that
-// looking at theirs alone, once for each of its terms holding them, beats a scan of every
-// accumulator.
-func (w *rowWorker) reached(terms []int32) bool {
-	h, limit := w.h, int32(len(w.acc)/4)
-	var n int32
-	for _, k := range terms {
-		if n += h.off[k+1] - h.off[k]; n > limit {
-			return false
-		}
-	}
-	return true
-}
-
 // row scores pool row r, whose query terms (ascending) and tf parts are given.
 func (w *rowWorker) row(r int, terms []int32, parts []float64, res *Result, bestScore []float64) {
 	if len(terms) == 0 {
@@ -272,6 +258,7 @@ func (w *rowWorker) row(r int, terms []int32, parts []float64, res *Result, best
 	h, acc := w.h, w.acc
 	parts = parts[:len(terms)]
 	var sum float64
+	reached := 0 // target rows reached, once for each of the row's terms holding them
 	for i, k := range terms {
 		part := parts[i]
 		if w.combined != nil {
@@ -281,6 +268,7 @@ func (w *rowWorker) row(r int, terms []int32, parts []float64, res *Result, best
 		}
 		lo, hi := h.off[k], h.off[k+1]
 		ts := h.t[lo:hi]
+		reached += len(ts)
 		if len(ts) == 0 {
 			continue // read for the combined query alone: no target row of the block holds it
 		}
@@ -302,9 +290,10 @@ func (w *rowWorker) row(r int, terms []int32, parts []float64, res *Result, best
 	// ascending order and a later one winning only when strictly higher,
 	// across them.
 	best, bv := int32(-1), 0.0
-	if w.reached(terms) {
-		// Few target rows reached: only theirs are looked at, in any order (a row reached
-		// through several terms more than once), the lowest index kept among equals.
+	if reached <= len(acc)/4 {
+		// Few target rows reached: looking at theirs alone (in any order, and a row reached
+		// through several terms more than once) beats a scan of every accumulator; the lowest
+		// index is kept among equals.
 		for _, k := range terms {
 			for _, t := range h.t[h.off[k]:h.off[k+1]] {
 				if v := acc[t]; !math.Signbit(v) && (best < 0 || v > bv || v == bv && t < best) {

@@ -166,7 +166,8 @@ func TestTargetBlocksMatchOneBlock(t *testing.T) {
 }
 
 // The readers' shares of the terms are runs in order that cover every term once, none empty, at
-// most as many as asked for, and with about as many postings each.
+// most as many as asked for, each with its postings counted, and with about as many postings each.
+// Internal property: no reference values.
 func TestShareTerms(t *testing.T) {
 	c, q := zipfSetup(5, 3*rowBlock, 30, 3000, 60, 20)
 	pl, err := newPlan(c, q, DefaultParams())
@@ -179,28 +180,31 @@ func TestShareTerms(t *testing.T) {
 		all[k] = int32(k)
 	}
 	for _, active := range [][]int32{all, all[:1], all[:3], all[len(all)/2:]} {
+		var total, top int64
+		for _, k := range active {
+			total += int64(pl.partDF[k])
+			top = max(top, int64(pl.partDF[k]))
+		}
 		for _, nr := range []int{1, 2, 3, 8} {
-			shares := s.shareTerms(active, nr)
+			shares := s.shareTerms(active, total, nr)
 			var got []int32
 			var most int64
 			for _, sh := range shares {
-				if len(sh) == 0 {
+				if len(sh.terms) == 0 {
 					t.Fatalf("%d terms, %d readers: an empty share", len(active), nr)
 				}
-				got = append(got, sh...)
+				got = append(got, sh.terms...)
 				var n int64
-				for _, k := range sh {
+				for _, k := range sh.terms {
 					n += int64(pl.partDF[k])
+				}
+				if n != sh.postings {
+					t.Fatalf("%d terms, %d readers: a share of %d postings says %d", len(active), nr, n, sh.postings)
 				}
 				most = max(most, n)
 			}
 			if len(shares) > nr || !slices.Equal(got, active) {
 				t.Fatalf("%d terms, %d readers: %d shares covering %v", len(active), nr, len(shares), got)
-			}
-			var total, top int64
-			for _, k := range active {
-				total += int64(pl.partDF[k])
-				top = max(top, int64(pl.partDF[k]))
 			}
 			// A share closes once it holds its part, so it passes it by less than one list.
 			if len(shares) == nr && most > total/int64(nr)+top {
@@ -261,13 +265,13 @@ func TestChunkEndsFollowLength(t *testing.T) {
 		docs = append(docs, doc)
 	}
 	c := newMemCorpus(docs)
-	s := &scorer{pl: &plan{n: len(docs)}}
+	s := &scorer{c: c, pl: &plan{n: len(docs)}}
 	var total int64
 	for r := range docs {
 		total += int64(c.RowLen(r))
 	}
 	const per = 2000 // postings a chunk, here one a term of a row
-	end := s.chunkEnds(c, total, per)
+	end := s.chunkEnds(total, per)
 	var long, short []int
 	for lo := 0; lo < len(docs); {
 		hi := end(lo)

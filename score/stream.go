@@ -70,10 +70,10 @@ func (s *scorer) streamPasses(ctx context.Context, cc CursorCorpus, res *Result,
 	if nw == 0 {
 		nw = runtime.GOMAXPROCS(0)
 	}
-	shares := s.shareTerms(active, nw)
+	shares := s.shareTerms(active, total, nw)
 	nbuf := nw + len(shares) + 1 // one being read by each reader, one waiting, one per worker
 	per := chunkPostingsFor(total, len(active), s.p.CacheBytes, nbuf)
-	end := s.chunkEnds(cc, total, per)
+	end := s.chunkEnds(total, per)
 
 	parent := ctx
 	ctx, cancel := context.WithCancel(ctx)
@@ -96,7 +96,7 @@ func (s *scorer) streamPasses(ctx context.Context, cc CursorCorpus, res *Result,
 		readers.Go(func() {
 			for c := range ins[i] {
 				if ctx.Err() == nil {
-					if err := s.readPart(&c.parts[i], curs, sh, c.lo, c.hi, per, total); err != nil {
+					if err := s.readPart(&c.parts[i], curs, sh, c.lo, c.hi, per*sh.postings/total); err != nil {
 						fail(err)
 					}
 					fetched.Add(int64(len(c.parts[i].rows)))
@@ -156,28 +156,30 @@ func (s *scorer) streamPasses(ctx context.Context, cc CursorCorpus, res *Result,
 	return nil
 }
 
-// shareTerms splits the active terms (ascending) into at most nr runs of about as many postings
-// each, one per reader, in order.
-func (s *scorer) shareTerms(active []int32, nr int) [][]int32 {
-	var total int64
-	for _, k := range active {
-		total += int64(s.pl.partDF[k])
-	}
+// share is one reader's run of the query terms and their postings.
+type share struct {
+	terms    []int32
+	postings int64
+}
+
+// shareTerms splits the active terms (ascending, total postings in all) into at most nr runs of
+// about as many postings each, one per reader, in order.
+func (s *scorer) shareTerms(active []int32, total int64, nr int) []share {
 	nr = max(1, min(nr, len(active)))
-	shares := make([][]int32, 0, nr)
-	var sum int64
+	shares := make([]share, 0, nr)
+	var sum, done int64
 	from := 0
 	for i, k := range active {
 		sum += int64(s.pl.partDF[k])
 		// Close the current run once it holds its part of the postings, leaving a term for each
 		// run still to come.
 		if len(shares) < nr-1 && sum*int64(nr) >= total*int64(len(shares)+1) && len(active)-(i+1) >= nr-1-len(shares) {
-			shares = append(shares, active[from:i+1])
-			from = i + 1
+			shares = append(shares, share{active[from : i+1], sum - done})
+			from, done = i+1, sum
 		}
 	}
 	if from < len(active) {
-		shares = append(shares, active[from:])
+		shares = append(shares, share{active[from:], sum - done})
 	}
 	return shares
 }
@@ -207,8 +209,8 @@ func chunkPostingsFor(total int64, terms int, bound int64, bufs int) int64 {
 // rows each held from a third to four times the postings of the mean, each
 // growing its buffers. With chunkRows set (tests), chunks are of that many
 // rows.
-func (s *scorer) chunkEnds(c Corpus, total, per int64) func(lo int) int {
-	n := s.pl.n
+func (s *scorer) chunkEnds(total, per int64) func(lo int) int {
+	n, c := s.pl.n, s.c
 	if s.chunkRows > 0 {
 		return func(lo int) int { return min(n, lo+s.chunkRows) }
 	}
@@ -238,22 +240,18 @@ type chunkPart struct {
 }
 
 // readPart reads the postings of rows [lo, hi) of the terms of one reader's share into p and
-// checks them; the chunk holds about want postings of all total. Each cursor is read by one reader
-// only.
-func (s *scorer) readPart(p *chunkPart, curs []PostingCursor, terms []int32, lo, hi int, want, total int64) error {
+// checks them; the share's part of the chunk is about want postings. Each cursor is read by one
+// reader only.
+func (s *scorer) readPart(p *chunkPart, curs []PostingCursor, sh share, lo, hi int, want int64) error {
 	pl := s.pl
 	p.rows, p.tfs, p.segs = p.rows[:0], p.tfs[:0], p.segs[:0]
 	if p.rows == nil {
 		// Sized for the share's part of a chunk and a half more, so that a part's buffers seldom
 		// grow (each growth copies, and touches fresh memory).
-		var share int64
-		for _, k := range terms {
-			share += int64(pl.partDF[k])
-		}
-		size := int(min(share, want*share/max(1, total)*3/2)) + 64
+		size := int(min(sh.postings, want*3/2)) + 64
 		p.rows, p.tfs = make([]uint32, 0, size), make([]uint32, 0, size)
 	}
-	for _, k := range terms {
+	for _, k := range sh.terms {
 		a := len(p.rows)
 		var err error
 		if p.rows, p.tfs, err = curs[k].Next(hi, p.rows, p.tfs); err != nil {

@@ -107,7 +107,8 @@ func (p *picked) checkShardDups() (*index.Dups, error) {
 }
 
 // writeDupKeys writes the segment's records for each part into tmp (the shard's folder dir, being
-// written), its duplicates found at d's settings (checkShardDups), recording each file's SHA-256 in sums, and returns what the cut needs of the segment.
+// written), its duplicates found at d's settings (checkShardDups), recording each file's SHA-256
+// in sums, and returns what the cut needs of the segment.
 func (p *picked) writeDupKeys(tmp, dir string, d *index.Dups, sums map[string]string) (*shardDups, error) {
 	var err error
 	shard, of := p.ix.Shard()
@@ -320,7 +321,7 @@ func findRepeats(ctx context.Context, w *bufio.Writer, work string, heads []*sha
 	firsts := map[dedup.Key]uint32{}
 	var out [repeatRecSize]byte
 	fn := func(rec []byte, row int) error {
-		key := dedup.Key(rec[4:20])
+		key := dedup.Key(rec[4 : 4+len(dedup.Key{})]) // after the row, as exactRecSize lays it out
 		f, seen := firsts[key]
 		if !seen {
 			firsts[key] = uint32(row)
