@@ -17,8 +17,8 @@ import (
 // (28 bytes), and, while Find runs, one band's table (16 to 32 bytes a row) and 8 bytes a
 // candidate pair.
 type Bulk struct {
+	p     Params // resolved
 	k, b  int
-	t     float64
 	rows  []uint32 // the rows added that have words, ascending
 	marks [][]byte // each row's marks
 	last  int
@@ -30,7 +30,7 @@ func NewBulk(p Params) (*Bulk, error) {
 	if err != nil {
 		return nil, fmt.Errorf("new bulk: %w", err)
 	}
-	return &Bulk{k: p.Hashes, b: p.Bands, t: p.Threshold, last: -1}, nil
+	return &Bulk{p: p, k: p.Hashes, b: p.Bands, last: -1}, nil
 }
 
 // Reserve makes room for rows more rows with words.
@@ -61,38 +61,15 @@ func (u *Bulk) Add(row int, marks []byte) error {
 // pairs a Detector would have compared: each row with the first row added before it of each bucket
 // it falls in, once per such first row. It returns the work a Detector counts for the rows.
 func (u *Bulk) Find(c *Clusters) (Work, error) {
-	n := len(u.rows)
-	var tb table
-	tb.reserve(n)
-	// A candidate is the later row's index and the first's in one word, so that sorting the words
-	// orders them by later row, then first.
-	var cands []uint64
-	for j := 0; j < u.b; j++ {
-		if j > 0 {
-			clear(tb.slots)
-			tb.n = 0
-		}
-		for i := range n {
-			// Rows go in in order, so a bucket keeps its first row, as a Detector's does.
-			if f, found := tb.getOrPut(binary.LittleEndian.Uint64(u.marks[i][8*j:]), uint32(i)); found {
-				cands = append(cands, uint64(i)<<32|uint64(f))
-			}
+	s, err := NewPasses(u.p, len(u.rows), 0)
+	if err != nil {
+		return Work{}, err
+	}
+	for k := range s.Len() {
+		j := s.Start(k)
+		for i, m := range u.marks {
+			s.Put(uint32(i), binary.LittleEndian.Uint64(m[8*j:]))
 		}
 	}
-	slices.Sort(cands)
-	cands = slices.Compact(cands)
-	w := Work{BandValues: int64(n * u.k), Probes: int64(n * u.b), Compared: int64(len(cands) * u.k)}
-	for _, p := range cands {
-		later, first := uint32(p>>32), uint32(p)
-		if u.estimate(first, later) >= u.t {
-			if err := c.Union(int(u.rows[first]), int(u.rows[later])); err != nil {
-				return w, err
-			}
-		}
-	}
-	return w, nil
-}
-
-func (u *Bulk) estimate(x, y uint32) float64 {
-	return sketchSimilarity(matching(u.marks[x][8*u.b:], u.marks[y][8*u.b:]), u.k)
+	return s.Join(c, func(i uint32, _ []byte) (int, []byte, error) { return int(u.rows[i]), u.marks[i], nil })
 }

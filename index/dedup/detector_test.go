@@ -1,6 +1,7 @@
 package dedup
 
 import (
+	"encoding/binary"
 	"errors"
 	"math"
 	"math/rand/v2"
@@ -344,6 +345,69 @@ func TestBulkMatchesDetector(t *testing.T) {
 		}
 		if err := bulk.Add(0, marks); !errors.Is(err, ErrRow) {
 			t.Errorf("a row out of order: %v, want ErrRow", err)
+		}
+	}
+}
+
+// TestPassesInPartsMatchDetector holds Passes whose bound cuts each band's keys into parts (1, 2, 3
+// and 7 passes a band) to the Detector's clusters and work on the rows of TestBulkMatchesDetector,
+// the marks read through the buffer Join offers, as from a file. An internal property: the Detector
+// itself is held to NumPy's Jaccard similarities in TestDetectorOnFixture.
+func TestPassesInPartsMatchDetector(t *testing.T) {
+	texts, _ := loadFixture(t)
+	texts = append(texts, "", "!!")
+	texts = append(texts, texts...)
+	for _, th := range []float64{0.5, 0.8} {
+		prm := ForThreshold(th)
+		s, err := NewSigner(prm)
+		if err != nil {
+			t.Fatal(err)
+		}
+		det, _ := NewDetector(prm)
+		var rows []int
+		var stored [][]byte
+		for i, text := range texts {
+			m := det.AppendMarks(nil, sign(t, s, text))
+			if _, err := det.AddMarks(nil, 5*i+1, m); err != nil {
+				t.Fatal(err)
+			}
+			if len(m) > 0 {
+				rows, stored = append(rows, 5*i+1), append(stored, m)
+			}
+		}
+		for _, parts := range []int64{1, 2, 3, 7} {
+			mem := TableBytes(len(stored)) / parts
+			if parts == 1 {
+				mem = 0
+			}
+			p, err := NewPasses(prm, len(stored), mem)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if got := p.Len(); got%det.b != 0 || got < det.b*int(parts) {
+				t.Fatalf("threshold %v, bound %d: %d passes, want %d a band or more", th, mem, got, parts)
+			}
+			for k := range p.Len() {
+				j := p.Start(k)
+				for i, m := range stored {
+					p.Put(uint32(i), binary.LittleEndian.Uint64(m[8*j:]))
+				}
+			}
+			var c Clusters
+			w, err := p.Join(&c, func(i uint32, buf []byte) (int, []byte, error) {
+				return rows[i], append(buf[:0], stored[i]...), nil
+			})
+			if err != nil {
+				t.Fatal(err)
+			}
+			if w != det.Work() {
+				t.Errorf("threshold %v, %d parts: work %+v, %+v by the detector", th, parts, w, det.Work())
+			}
+			for r := range det.Clusters().Len() {
+				if a, b := det.Clusters().Find(r), c.Find(r); a != b {
+					t.Fatalf("threshold %v, %d parts: row %d: cluster %d by the detector, %d in passes", th, parts, r, a, b)
+				}
+			}
 		}
 	}
 }
