@@ -76,6 +76,9 @@ type Options struct {
 	Command []string
 
 	batchRows int // rows per batch handed to a worker; tests make it small to force many spills
+	// dupSlots is the number of blocks of the sketches file the search for near duplicates keeps
+	// (recordSlots when 0); tests make it 1, so that the pairs' rows are read again and again.
+	dupSlots int
 	// trace, when set, is told when the merge starts ("merge") and ends ("merged"); benchmarks time it.
 	trace func(event string)
 }
@@ -516,7 +519,7 @@ func (b *builder) run(ctx context.Context) (*Stats, error) {
 		for _, w := range b.workers {
 			work = work.Plus(w.sign.keyWork())
 		}
-		if err := b.dups.write(b, b.meta.Rows, work); err != nil {
+		if err := b.dups.write(ctx, b, b.meta.Rows, work); err != nil {
 			return nil, err
 		}
 		// The merge may have the memory back.

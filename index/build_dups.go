@@ -2,6 +2,8 @@ package index
 
 import (
 	"bufio"
+	"cmp"
+	"context"
 	"encoding/binary"
 	"fmt"
 	"hash/maphash"
@@ -49,17 +51,19 @@ func (d *Dups) Params() dedup.Params {
 const dupRecSize = 4 + 16
 
 // dupFinder finds duplicates in the collector, which feeds it rows in input order, as a pick's
-// duplicate guard would: exact keys grouped by dedup.Exact, signatures by a dedup.Detector, an exact
-// duplicate joined to its first row and not given to the Detector (its signature is its first's,
-// so it would find nothing the first did not).
+// duplicate guard would: exact keys grouped by dedup.Exact as they come, an exact duplicate joined to
+// its first row; each first row's marks written to the sketches file, and the near duplicates found
+// among them at the end, by dedup.Passes reading that file again (what a dedup.Detector fed the
+// same rows finds, holding a band's table rather than every row's sketch and buckets).
 type dupFinder struct {
 	prm    dedup.Params
-	det    *dedup.Detector
+	det    *dedup.Detector // makes the marks; given no rows
 	exact  dedup.Exact
-	pairs  []dedup.Pair
+	cl     dedup.Clusters
 	keys   *fileWriter // dedup.Key per row, in the runs folder until the dups file is written
 	sk     *sketchWriter
 	nexact int64
+	marked int // records of the sketches file with marks (rows with words)
 	// signWork is the signing of the rows given to the Detector. Which other rows a worker signs
 	// depends on how batches fall to workers, so their work is not counted: meta.json must not
 	// depend on the number of workers.
@@ -112,7 +116,7 @@ func (f *dupFinder) add(base int64, keys []dedup.Key, signed []bool, sigs []uint
 		}
 		if first != row {
 			f.nexact++
-			if err := f.det.Clusters().Union(first, row); err != nil {
+			if err := f.cl.Union(first, row); err != nil {
 				return fmt.Errorf("build index: duplicates: %w", err)
 			}
 			continue
@@ -124,25 +128,30 @@ func (f *dupFinder) add(base int64, keys []dedup.Key, signed []bool, sigs []uint
 		if err != nil {
 			return err
 		}
-		if f.pairs, err = f.det.AddMarks(f.pairs[:0], row, marks); err != nil {
-			return fmt.Errorf("build index: duplicates: %w", err)
+		if len(marks) > 0 {
+			f.marked++
 		}
 		f.signWork = f.signWork.Plus(w)
 	}
 	return nil
 }
 
-// bytes is what the finder holds, counted against Options.Mem: the Detector and the exact groups.
+// bytes is what the finder holds as rows come, counted against Options.Mem: the exact groups and
+// the clusters.
 func (f *dupFinder) bytes() int64 {
-	return int64(f.det.Bytes()) + int64(f.exact.Bytes())
+	return int64(f.exact.Bytes()) + 4*int64(f.cl.Len())
 }
 
-// write writes the dups file for rows rows and fills in meta's Dups.
-func (f *dupFinder) write(b *builder, rows int64, work dedup.Work) error {
+// write finds the near duplicates, then writes the dups file for rows rows and fills in meta's Dups.
+func (f *dupFinder) write(ctx context.Context, b *builder, rows int64, work dedup.Work) error {
 	if err := f.keys.closeNoSync(); err != nil {
 		return err
 	}
 	if err := f.sk.close(); err != nil {
+		return err
+	}
+	near, err := f.findNear(ctx, b)
+	if err != nil {
 		return err
 	}
 	kf, err := os.Open(f.keys.path)
@@ -157,11 +166,11 @@ func (f *dupFinder) write(b *builder, rows int64, work dedup.Work) error {
 		return err
 	}
 	defer w.abort()
-	cl := f.det.Clusters()
+	cl := &f.cl
 	d := &Dups{Threshold: f.prm.Threshold, Shingle: f.prm.Shingle, Hashes: f.prm.Hashes, Bands: f.prm.Bands, Seed: f.prm.Seed, Version: dedup.Version, ExactDuplicates: f.nexact}
 	keyWork := work
 	d.KeyWork = &keyWork
-	work = work.Plus(f.signWork).Plus(f.det.Work())
+	work = work.Plus(f.signWork).Plus(near)
 	d.Work, d.FLOPs = work, work.FLOPs()
 	var rec [dupRecSize]byte
 	dups, clusters := dedup.Tally(int(rows), cl.Find)
@@ -177,6 +186,102 @@ func (f *dupFinder) write(b *builder, rows int64, work dedup.Work) error {
 	}
 	b.meta.Dups = d
 	return w.close()
+}
+
+// findNear joins the near duplicates among the rows of the sketches file in f.cl, reading the file
+// once for each pass of a dedup.Passes whose tables hold at most a quarter of Options.Mem (the
+// workers' last dictionaries hold up to half), and each candidate pair's records again, and returns
+// the work done. What it held at most is counted in the builder's peak.
+func (f *dupFinder) findNear(ctx context.Context, b *builder) (dedup.Work, error) {
+	path, shown := f.sk.w.path, f.sk.w.shown
+	ps, err := dedup.NewPasses(f.prm, f.marked, max(b.opt.Mem/4, 4<<10))
+	if err != nil {
+		return dedup.Work{}, fmt.Errorf("build index: duplicates: %w", err)
+	}
+	file, err := os.Open(path)
+	if err != nil {
+		return dedup.Work{}, b.wd.err("build index: read back", err)
+	}
+	defer file.Close()
+	size := int64(len(f.sk.rec))
+	fail := func(err error) error { return fmt.Errorf("build index: read back %s: %w", shown, bareErr(err)) }
+	rd := bufio.NewReaderSize(file, int(min(1<<20, f.sk.w.n+16)))
+	rec := make([]byte, size)
+	for k := range ps.Len() {
+		j := ps.Start(k)
+		if _, err := file.Seek(0, io.SeekStart); err != nil {
+			return dedup.Work{}, fail(err)
+		}
+		rd.Reset(file)
+		for i := uint32(0); ; i++ {
+			if _, err := io.ReadFull(rd, rec); err == io.EOF {
+				break
+			} else if err != nil {
+				return dedup.Work{}, fail(err)
+			}
+			if i%(1<<16) == 0 && ctx.Err() != nil {
+				return dedup.Work{}, fmt.Errorf("build index: duplicates: %w", ctx.Err())
+			}
+			if binary.LittleEndian.Uint32(rec[4:])&noWordsFlag == 0 {
+				ps.Put(i, binary.LittleEndian.Uint64(rec[sketchHead+8*j:]))
+			}
+		}
+		b.dupPeak = max(b.dupPeak, f.bytes()+ps.Bytes())
+	}
+	rc := newRecordCache(file, size, cmp.Or(b.opt.dupSlots, recordSlots))
+	return ps.Join(&f.cl, func(i uint32, buf []byte) (int, []byte, error) {
+		rec, err := rc.get(int64(i))
+		if err != nil {
+			return 0, nil, fail(err)
+		}
+		// A copy: the next get may read another block into the slot.
+		return int(binary.LittleEndian.Uint32(rec)), append(buf[:0], rec[sketchHead:]...), nil
+	})
+}
+
+// recordCache reads fixed-size records of a file through blocks of recordBlock records kept in a
+// few slots, each block in the slot its number falls to: the pairs Passes.Join confirms come in
+// ascending order of their later row, so those reads go block after block, and the first rows of
+// the pairs are few and met again and again where rows repeat a template. One read a record would
+// be a system call a pair (a fifth of a T0 build's time).
+type recordCache struct {
+	f     *os.File
+	size  int64
+	tags  []int64 // the block each slot holds, -1 for none
+	slots [][]byte
+	ends  []int64 // the bytes of each slot read (less than a block at the end of the file)
+}
+
+const recordBlock, recordSlots = 256, 64
+
+func newRecordCache(f *os.File, size int64, slots int) *recordCache {
+	c := &recordCache{f: f, size: size, tags: make([]int64, slots), slots: make([][]byte, slots), ends: make([]int64, slots)}
+	for s := range c.tags {
+		c.tags[s] = -1
+	}
+	return c
+}
+
+// get returns record i, valid until the next get.
+func (c *recordCache) get(i int64) ([]byte, error) {
+	blk := i / recordBlock
+	s := blk % int64(len(c.tags))
+	if c.tags[s] != blk {
+		if c.slots[s] == nil {
+			c.slots[s] = make([]byte, recordBlock*c.size)
+		}
+		n, err := c.f.ReadAt(c.slots[s], blk*recordBlock*c.size)
+		if err != nil && err != io.EOF {
+			c.tags[s] = -1
+			return nil, err
+		}
+		c.tags[s], c.ends[s] = blk, int64(n)
+	}
+	off := i % recordBlock * c.size
+	if off+c.size > c.ends[s] {
+		return nil, fmt.Errorf("record %d: %w", i, io.ErrUnexpectedEOF)
+	}
+	return c.slots[s][off : off+c.size], nil
 }
 
 // signRow is a worker's hashing of one row: the row's text parts, a newline between parts as a
@@ -400,9 +505,10 @@ func (s *signRow) keyWork() dedup.Work { return s.work }
 var newline = []byte{'\n'}
 
 // addDups hands the rows of batch o, the next in input order, to the duplicate finder, and gives
-// the workers' dictionaries what it now holds less of Options.Mem. The finder's rows cannot be
-// spilled: once it alone holds more than the bound, the workers spill at every batch and the build
-// goes on, past the bound, and says so (Stats.DupMem).
+// the workers' dictionaries what it now holds less of Options.Mem. The finder's exact groups (about
+// 52 bytes a distinct row with its clusters) cannot be spilled: once they alone hold more than the
+// bound, the workers spill at every batch and the build goes on, past the bound, and says so
+// (Stats.DupMem).
 func (b *builder) addDups(o *batchOut) error {
 	if err := b.dups.add(b.meta.Rows, o.keys, o.signed, o.sigs, o.signWork); err != nil {
 		return err
