@@ -9,6 +9,7 @@ import (
 	"hash/maphash"
 	"io"
 	"os"
+	"path/filepath"
 	"slices"
 	"sync"
 
@@ -52,16 +53,21 @@ const dupRecSize = 4 + 16
 
 // dupFinder finds duplicates in the collector, which feeds it rows in input order, as a pick's
 // duplicate guard would: exact keys grouped by dedup.Exact as they come, an exact duplicate joined to
-// its first row; each first row's marks written to the sketches file, and the near duplicates found
-// among them at the end, by dedup.Passes reading that file again (what a dedup.Detector fed the
-// same rows finds, holding a band's table rather than every row's sketch and buckets).
+// its first row; each first row's marks written to the sketches file and its band keys to a file of
+// each band's, and the near duplicates found among them at the end by dedup.Passes reading the
+// band files again and the sketches of the pairs (what a dedup.Detector fed the same rows finds,
+// holding a band's table rather than every row's sketch and buckets).
 type dupFinder struct {
-	prm    dedup.Params
-	det    *dedup.Detector // makes the marks; given no rows
-	exact  dedup.Exact
-	cl     dedup.Clusters
-	keys   *fileWriter // dedup.Key per row, in the runs folder until the dups file is written
-	sk     *sketchWriter
+	prm   dedup.Params
+	det   *dedup.Detector // makes the marks; given no rows
+	exact dedup.Exact
+	cl    dedup.Clusters
+	keys  *fileWriter // dedup.Key per row, in the runs folder until the dups file is written
+	sk    *sketchWriter
+	// bands holds a file for each band, in the runs folder: the band's key of each record of the
+	// sketches file, 0 for a row without words (no key is 0), so that a pass reads 8 bytes a row
+	// rather than every record.
+	bands  []*fileWriter
 	nexact int64
 	marked int // records of the sketches file with marks (rows with words)
 	// signWork is the signing of the rows given to the Detector. Which other rows a worker signs
@@ -82,17 +88,32 @@ func newDupFinder(t float64, wd workDir, keys string) (*dupFinder, error) {
 	if err != nil {
 		return nil, err
 	}
-	sw, err := newSketchWriter(wd, det)
-	if err != nil {
-		kw.abort()
+	f := &dupFinder{prm: prm, det: det, keys: kw}
+	if f.sk, err = newSketchWriter(wd, det); err != nil {
+		f.abort()
 		return nil, err
 	}
-	return &dupFinder{prm: prm, det: det, keys: kw, sk: sw}, nil
+	nb, _ := det.Bands()
+	for j := range nb {
+		bw, err := wd.createSized(filepath.Join(filepath.Dir(keys), fmt.Sprintf("band-%d", j)), 64<<10)
+		if err != nil {
+			f.abort()
+			return nil, err
+		}
+		f.bands = append(f.bands, bw)
+	}
+	return f, nil
 }
 
+// abort removes the finder's files; those already closed were removed by write.
 func (f *dupFinder) abort() {
 	f.keys.abort()
-	f.sk.abort()
+	if f.sk != nil {
+		f.sk.abort()
+	}
+	for _, bw := range f.bands {
+		bw.abort()
+	}
 }
 
 // add takes the rows of one batch, numbered from base: a key each and, for each row signed, K
@@ -130,6 +151,15 @@ func (f *dupFinder) add(base int64, keys []dedup.Key, signed []bool, sigs []uint
 		}
 		if len(marks) > 0 {
 			f.marked++
+		}
+		var key [8]byte
+		for j, bw := range f.bands {
+			if len(marks) > 0 {
+				copy(key[:], marks[8*j:])
+			}
+			if err := bw.write(key[:]); err != nil {
+				return err
+			}
 		}
 		f.signWork = f.signWork.Plus(w)
 	}
@@ -188,46 +218,36 @@ func (f *dupFinder) write(ctx context.Context, b *builder, rows int64, work dedu
 	return w.close()
 }
 
-// findNear joins the near duplicates among the rows of the sketches file in f.cl, reading the file
-// once for each pass of a dedup.Passes whose tables hold at most a quarter of Options.Mem (the
-// workers' last dictionaries hold up to half), and each candidate pair's records again, and returns
-// the work done. What it held at most is counted in the builder's peak.
+// findNear joins the near duplicates among the rows of the sketches file in f.cl, reading a band's
+// file for each pass of a dedup.Passes whose tables hold at most a quarter of Options.Mem (the
+// workers' last dictionaries hold up to half), and each candidate pair's records, and returns the
+// work done. What it held at most is counted in the builder's peak; the band files are removed.
 func (f *dupFinder) findNear(ctx context.Context, b *builder) (dedup.Work, error) {
-	path, shown := f.sk.w.path, f.sk.w.shown
+	for _, bw := range f.bands {
+		if err := bw.closeNoSync(); err != nil {
+			return dedup.Work{}, err
+		}
+		defer os.Remove(bw.path)
+	}
 	ps, err := dedup.NewPasses(f.prm, f.marked, max(b.opt.Mem/4, 4<<10))
 	if err != nil {
 		return dedup.Work{}, fmt.Errorf("build index: duplicates: %w", err)
 	}
-	file, err := os.Open(path)
+	buf := make([]byte, min(1<<20, 8*(f.bands[0].n+1)))
+	for k := range ps.Len() {
+		bw := f.bands[ps.Start(k)]
+		if err := readKeys(ctx, bw, buf, ps.Put); err != nil {
+			return dedup.Work{}, err
+		}
+		b.dupPeak = max(b.dupPeak, f.bytes()+ps.Bytes())
+	}
+	file, err := os.Open(f.sk.w.path)
 	if err != nil {
 		return dedup.Work{}, b.wd.err("build index: read back", err)
 	}
 	defer file.Close()
 	size := int64(len(f.sk.rec))
-	fail := func(err error) error { return fmt.Errorf("build index: read back %s: %w", shown, bareErr(err)) }
-	rd := bufio.NewReaderSize(file, int(min(1<<20, f.sk.w.n+16)))
-	rec := make([]byte, size)
-	for k := range ps.Len() {
-		j := ps.Start(k)
-		if _, err := file.Seek(0, io.SeekStart); err != nil {
-			return dedup.Work{}, fail(err)
-		}
-		rd.Reset(file)
-		for i := uint32(0); ; i++ {
-			if _, err := io.ReadFull(rd, rec); err == io.EOF {
-				break
-			} else if err != nil {
-				return dedup.Work{}, fail(err)
-			}
-			if i%(1<<16) == 0 && ctx.Err() != nil {
-				return dedup.Work{}, fmt.Errorf("build index: duplicates: %w", ctx.Err())
-			}
-			if binary.LittleEndian.Uint32(rec[4:])&noWordsFlag == 0 {
-				ps.Put(i, binary.LittleEndian.Uint64(rec[sketchHead+8*j:]))
-			}
-		}
-		b.dupPeak = max(b.dupPeak, f.bytes()+ps.Bytes())
-	}
+	fail := func(err error) error { return fmt.Errorf("build index: read back %s: %w", f.sk.w.shown, bareErr(err)) }
 	rc := newRecordCache(file, size, cmp.Or(b.opt.dupSlots, recordSlots))
 	return ps.Join(&f.cl, func(i uint32, buf []byte) (int, []byte, error) {
 		rec, err := rc.get(int64(i))
@@ -237,6 +257,34 @@ func (f *dupFinder) findNear(ctx context.Context, b *builder) (dedup.Work, error
 		// A copy: the next get may read another block into the slot.
 		return int(binary.LittleEndian.Uint32(rec)), append(buf[:0], rec[sketchHead:]...), nil
 	})
+}
+
+// readKeys reads a band's file through buf and puts each nonzero key with its record's number.
+func readKeys(ctx context.Context, bw *fileWriter, buf []byte, put func(i uint32, key uint64)) error {
+	file, err := os.Open(bw.path)
+	if err != nil {
+		return fmt.Errorf("build index: read back %s: %w", bw.shown, bareErr(err))
+	}
+	defer file.Close()
+	buf = buf[:len(buf)/8*8]
+	var i uint32
+	for {
+		if err := ctx.Err(); err != nil {
+			return fmt.Errorf("build index: duplicates: %w", err)
+		}
+		n, err := io.ReadFull(file, buf)
+		if n%8 != 0 || err != nil && err != io.EOF && err != io.ErrUnexpectedEOF {
+			return fmt.Errorf("build index: read back %s: %w", bw.shown, cmp.Or(bareErr(err), io.ErrUnexpectedEOF))
+		}
+		for o := 0; o < n; o, i = o+8, i+1 {
+			if key := binary.LittleEndian.Uint64(buf[o:]); key != 0 {
+				put(i, key)
+			}
+		}
+		if n < len(buf) {
+			return nil
+		}
+	}
 }
 
 // recordCache reads fixed-size records of a file through blocks of recordBlock records kept in a

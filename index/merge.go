@@ -773,12 +773,15 @@ type fileWriter struct {
 }
 
 // create starts the file at path in the working folder.
-func (d workDir) create(path string) (*fileWriter, error) {
+func (d workDir) create(path string) (*fileWriter, error) { return d.createSized(path, 1<<20) }
+
+// createSized is create with a write buffer of size bytes, for files written many at once.
+func (d workDir) createSized(path string, size int) (*fileWriter, error) {
 	f, err := os.Create(path)
 	if err != nil {
 		return nil, d.err("write", err)
 	}
-	return &fileWriter{path: path, shown: d.shown(path), f: f, w: bufio.NewWriterSize(f, 1<<20)}, nil
+	return &fileWriter{path: path, shown: d.shown(path), f: f, w: bufio.NewWriterSize(f, size)}, nil
 }
 
 func (w *fileWriter) write(p []byte) error {
