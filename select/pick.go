@@ -234,8 +234,9 @@ func Pick(scores []float64, costs []float64, opt Options) ([]Decision, Summary, 
 }
 
 // PickFunc is Pick with each row's cost asked of cost when the walk comes to the row (once, in
-// rank order) rather than held for every row at once: 8 bytes a row less at the pick's peak. A
-// cost that is not finite and >= 0 fails the pick when it is met.
+// rank order) rather than held for every row at once: 8 bytes a row less at the pick's peak. The
+// cost of a row barred (Options.Barred) or met after the walk's end is not asked, since its
+// decision does not depend on it. A cost that is not finite and >= 0 fails the pick when it is met.
 func PickFunc(scores []float64, cost func(row int) float64, opt Options) ([]Decision, Summary, error) {
 	if err := check(scores, opt); err != nil {
 		return nil, Summary{}, err
@@ -257,9 +258,12 @@ func pick(scores []float64, cost func(row int) float64, opt Options) ([]Decision
 		if opt.Group != nil {
 			group = opt.Group[i]
 		}
-		c := cost(i)
-		if !finiteNonNeg(c) {
-			return nil, Summary{}, fmt.Errorf("pick: row %d: cost %v: must be finite and >= 0: %w", i, c, ErrBadInput)
+		// A barred row, or one after the walk's end, is decided without its cost: not asked.
+		c := 0.0
+		if barred == Kept && !w.stopped {
+			if c = cost(i); !finiteNonNeg(c) {
+				return nil, Summary{}, fmt.Errorf("pick: row %d: cost %v: must be finite and >= 0: %w", i, c, ErrBadInput)
+			}
 		}
 		dec[i] = w.Step(scores[i], c, barred, group)
 	}

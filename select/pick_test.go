@@ -592,7 +592,13 @@ func TestPickFuncMatchesPick(t *testing.T) {
 	for i := range scores {
 		scores[i], costs[i] = float64(rng.IntN(40)), float64(1+rng.IntN(9))
 	}
-	for _, opt := range []Options{{Budget: 700}, {Budget: 700, Fill: true}, {Budget: 1e9, MaxRows: 30}, {Budget: 300, Fixed: 50, MinScore: 5}} {
+	barred := make([]Reason, len(scores))
+	for i := range barred {
+		if i%7 == 3 {
+			barred[i] = Duplicate
+		}
+	}
+	for _, opt := range []Options{{Budget: 700}, {Budget: 700, Fill: true}, {Budget: 1e9, MaxRows: 30}, {Budget: 300, Fixed: 50, MinScore: 5}, {Budget: 700, Barred: barred}} {
 		want, wsum, err := Pick(scores, costs, opt)
 		if err != nil {
 			t.Fatal(err)
@@ -605,9 +611,15 @@ func TestPickFuncMatchesPick(t *testing.T) {
 		if !slices.Equal(got, want) || gsum != wsum {
 			t.Errorf("%+v: PickFunc's decisions or summary differ from Pick's", opt)
 		}
+		// A cost is asked once for each row not barred that the walk meets up to its end (the row
+		// that ends it included), and of no other.
 		for i, n := range asked {
-			if n != 1 {
-				t.Fatalf("%+v: row %d's cost asked %d times", opt, i, n)
+			want := 0
+			if (opt.Barred == nil || barred[i] == Kept) && (gsum.Stop == StopExhausted || int(got[i].Rank) <= gsum.StopRank) {
+				want = 1
+			}
+			if n != want {
+				t.Fatalf("%+v: row %d (%+v) cost asked %d times, want %d", opt, i, got[i], n, want)
 			}
 		}
 	}
