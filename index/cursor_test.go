@@ -59,9 +59,9 @@ func cursorMatchesPostings(t *testing.T, ix *Index) {
 	}
 }
 
-// Postings released in the middle of a cursor's reading, and again after, are read as before:
-// the release gives up pages, never bytes. Internal property: no reference values.
-func TestReleasePostingsKeepsThem(t *testing.T) {
+// Postings released in the middle of a cursor's reading, and again after, are read as before, and
+// so are the rows' records, clusters and ids: the release gives up pages, never bytes. Internal property: no reference values.
+func TestReleasePagesKeepsThem(t *testing.T) {
 	dir, _ := build(t, testPool(t, 3000), Options{Text: "prompt,completion"})
 	ix, err := Open(dir)
 	if err != nil {
@@ -71,6 +71,15 @@ func TestReleasePostingsKeepsThem(t *testing.T) {
 	var terms []string
 	ix.lex.each(func(t []byte) { terms = append(terms, string(t)) })
 	n := ix.NumRows()
+	type rowOf struct {
+		len, first int
+		id         string
+	}
+	before := make([]rowOf, n)
+	for r := range n {
+		f, _ := ix.DupFirst(r)
+		before[r] = rowOf{ix.RowLen(r), f, ix.RowID(r)}
+	}
 	for _, term := range terms {
 		wantRows, wantTFs, err := ix.Postings(term, nil, nil)
 		if err != nil {
@@ -81,7 +90,7 @@ func TestReleasePostingsKeepsThem(t *testing.T) {
 		if err != nil {
 			t.Fatal(err)
 		}
-		ix.ReleasePostings()
+		ix.ReleasePages()
 		if rows, tfs, err = c.Next(n, rows, tfs); err != nil {
 			t.Fatal(err)
 		}
@@ -89,7 +98,13 @@ func TestReleasePostingsKeepsThem(t *testing.T) {
 			t.Fatalf("%q: released midway, a cursor gave %d postings of %d, or they differ", term, len(rows), len(wantRows))
 		}
 	}
-	ix.ReleasePostings()
+	ix.ReleasePages()
+	for r := range n {
+		f, _ := ix.DupFirst(r)
+		if got := (rowOf{ix.RowLen(r), f, ix.RowID(r)}); got != before[r] {
+			t.Fatalf("row %d after a release: %+v, want %+v", r, got, before[r])
+		}
+	}
 	for _, term := range terms[:min(len(terms), 50)] {
 		if _, _, err := ix.Postings(term, nil, nil); err != nil {
 			t.Fatalf("%q after a release: %v", term, err)

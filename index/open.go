@@ -432,18 +432,21 @@ func (ix *Index) Close() error {
 	return err
 }
 
-// ReleasePostings tells the system that the postings will not be read again soon: their pages
-// leave this process's resident memory (staying in the page cache), which a long pick would
-// otherwise hold beside the arrays it makes after scoring. Reading postings afterwards still
-// works, mapping the pages again.
-func (ix *Index) ReleasePostings() {
+// ReleasePages tells the system that the index's mapped files will not be read again soon: their
+// pages leave this process's resident memory (staying in the page cache), which a long pick would
+// otherwise hold beside the arrays it makes, each file read in a pass of its own (the postings
+// when scoring, the duplicates when guarding, the rows' records when counting tokens). Reading
+// afterwards still works, mapping the pages again.
+func (ix *Index) ReleasePages() {
 	if ix.set != nil {
 		for _, g := range ix.set.segs {
-			g.ReleasePostings()
+			g.ReleasePages()
 		}
 		return
 	}
-	ix.releasePostingsIn(0, uint64(len(ix.postings))+uint64(os.Getpagesize())) // the last page too
+	for _, b := range ix.maps {
+		_ = syscall.Madvise(b, syscall.MADV_DONTNEED) // advice: nothing is lost if refused
+	}
 }
 
 // releasePostingsIn gives back the pages wholly within the postings bytes [from, to): a page

@@ -79,7 +79,7 @@ func (p *picked) score(ctx context.Context) error {
 		if err != nil {
 			return err
 		}
-		p.ix.ReleasePostings() // read once; the arrays the pick makes next need the room
+		p.ix.ReleasePages() // read once; the arrays the pick makes next need the room
 		p.scores, p.best = res.Scores, res.Best
 		return checkFinite(p.scores, nil)
 	case opt.Prefilter.active():
@@ -173,7 +173,7 @@ func (p *picked) prefilter(ctx context.Context) ([]int, error) {
 	if err != nil {
 		return nil, err
 	}
-	p.ix.ReleasePostings()
+	p.ix.ReleasePages()
 	n := p.ix.NumRows()
 	want := int(math.Ceil(f.Share * float64(n)))
 	var rows []int

@@ -193,7 +193,7 @@ func (p *picked) several(ctx context.Context) error {
 		}
 		s.scores, s.best = res.Scores, res.Best
 	}
-	p.ix.ReleasePostings() // every set scored
+	p.ix.ReleasePages() // every set scored
 	p.targets = all
 	if err := p.guard(ctx); err != nil {
 		return err
