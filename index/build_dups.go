@@ -180,6 +180,9 @@ func (f *dupFinder) write(ctx context.Context, b *builder, rows int64, work dedu
 	if err := f.sk.close(); err != nil {
 		return err
 	}
+	// Every row is in: the exact groups (48 bytes a distinct row) are done with, and the passes and
+	// the merge may have their memory.
+	f.exact = dedup.Exact{}
 	near, err := f.findNear(ctx, b)
 	if err != nil {
 		return err
@@ -249,7 +252,11 @@ func (f *dupFinder) findNear(ctx context.Context, b *builder) (dedup.Work, error
 	size := int64(len(f.sk.rec))
 	fail := func(err error) error { return fmt.Errorf("build index: read back %s: %w", f.sk.w.shown, bareErr(err)) }
 	rc := newRecordCache(file, size, cmp.Or(b.opt.dupSlots, recordSlots))
+	asked := 0
 	return ps.Join(&f.cl, func(i uint32, buf []byte) (int, []byte, error) {
+		if asked++; asked%(1<<16) == 0 && ctx.Err() != nil {
+			return 0, nil, fmt.Errorf("build index: duplicates: %w", ctx.Err())
+		}
 		rec, err := rc.get(int64(i))
 		if err != nil {
 			return 0, nil, fail(err)
@@ -287,11 +294,12 @@ func readKeys(ctx context.Context, bw *fileWriter, buf []byte, put func(i uint32
 	}
 }
 
-// recordCache reads fixed-size records of a file through blocks of recordBlock records kept in a
-// few slots, each block in the slot its number falls to: the pairs Passes.Join confirms come in
-// ascending order of their later row, so those reads go block after block, and the first rows of
-// the pairs are few and met again and again where rows repeat a template. One read a record would
-// be a system call a pair (a fifth of a T0 build's time).
+// recordCache reads fixed-size records of a file through blocks of recordBlock records (about a
+// page) kept in recordSlots slots, each block in the slot its number falls to: the pairs
+// Passes.Join confirms come in ascending order of their later row, so those reads go block after
+// block, and the first rows of the pairs are few and met again and again where rows repeat a
+// template. One read a record would be a system call a pair (a fifth of a T0 build's time); blocks
+// of 256 records read 73 KB for each first row of a pool whose pairs are spread out.
 type recordCache struct {
 	f     *os.File
 	size  int64
@@ -300,7 +308,7 @@ type recordCache struct {
 	ends  []int64 // the bytes of each slot read (less than a block at the end of the file)
 }
 
-const recordBlock, recordSlots = 256, 64
+const recordBlock, recordSlots = 16, 1024
 
 func newRecordCache(f *os.File, size int64, slots int) *recordCache {
 	c := &recordCache{f: f, size: size, tags: make([]int64, slots), slots: make([][]byte, slots), ends: make([]int64, slots)}
