@@ -127,11 +127,10 @@ func indexOptions(fs *pflag.FlagSet) (index.Options, error) {
 		return opt, usagef("%v", err)
 	}
 	memS, _ := fs.GetString("mem")
-	mem, err := budget.ParseBound(memS, 16<<20)
-	if err != nil {
+	var err error
+	if opt.Mem, err = budget.ParseBound(memS, 16<<20); err != nil {
 		return opt, usagef("--mem: %v", err)
 	}
-	opt.Mem = mem
 	mrS, _ := fs.GetString("max-row-bytes")
 	mr, err := budget.ParseSize(mrS)
 	if err != nil || mr <= 0 || mr > 1<<31 {

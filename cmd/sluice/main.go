@@ -6,10 +6,14 @@ import (
 	"context"
 	"os"
 	"os/signal"
+	"runtime/debug"
 	"syscall"
 )
 
 func main() {
+	if os.Getenv("GOGC") == "" { // pointer-free arrays, marked for nothing: a heap of 1.25× live
+		debug.SetGCPercent(25) // rather than 2× costs about 1 % more CPU (README, Benchmarks)
+	}
 	ctx, stop := signal.NotifyContext(context.Background(), os.Interrupt, syscall.SIGTERM)
 	code := dispatch(ctx, os.Args[1:], newEnv())
 	stop()

@@ -1,6 +1,7 @@
 package main
 
 import (
+	"cmp"
 	"context"
 	"errors"
 	"math"
@@ -236,10 +237,7 @@ func methodFlags(fs *pflag.FlagSet, opt *run.Options) error {
 			return usagef("--%s is for --method ngram", f)
 		}
 	}
-	if err := broughtFlags(fs, opt); err != nil {
-		return err
-	}
-	if err := guardFlags(fs, &opt.Guards); err != nil {
+	if err := cmp.Or(broughtFlags(fs, opt), guardFlags(fs, &opt.Guards)); err != nil {
 		return err
 	}
 	pf, _ := fs.GetString("prefilter")
