@@ -155,17 +155,17 @@ type Summary struct {
 // order (lower index first), so the ranking is deterministic. NaN scores,
 // which Pick rejects, are ranked after every other score.
 func Order(scores []float64) []int {
-	keys := ranked(scores)
-	idx := make([]int, len(keys))
-	for i, k := range keys {
-		idx[i] = int(k.row)
+	rows := rankedRows(scores)
+	idx := make([]int, len(rows))
+	for i, row := range rows {
+		idx[i] = int(row)
 	}
 	return idx
 }
 
-// rankKey is a row and its score, sorted together: going through an index slice would touch
-// scores at random. The score is held as orderKey's bits in two halves, so that a key takes 12
-// bytes a row, where a float64 beside the row is padded to 16.
+// rankKey is a row and its score, sorted together (a small group of rankedRows): going through an
+// index slice would touch scores at random. The score is held as orderKey's bits in two halves, so
+// that a key takes 12 bytes a row, where a float64 beside the row is padded to 16.
 type rankKey struct {
 	hi, lo, row uint32
 }
@@ -186,27 +186,132 @@ func orderKey(s float64) uint64 {
 	return b | 1<<63
 }
 
-// ranked returns the rows as Order ranks them: score descending, then row ascending.
-func ranked(scores []float64) []rankKey {
-	keys := make([]rankKey, len(scores))
-	for i, s := range scores {
-		k := orderKey(s)
-		keys[i] = rankKey{uint32(k >> 32), uint32(k), uint32(i)}
+// rankedRows returns the rows as Order ranks them: score descending, then row ascending. It holds
+// 4 bytes a row (and at most 4 more while a large group of close scores is split), where sorting
+// each row beside its score would hold 12 at once: an MSD radix sort on orderKey's bits, 16 at a
+// time, each pass stable so that rows of equal scores stay in ascending order, and groups of at
+// most smallGroup rows sorted beside their keys.
+func rankedRows(scores []float64) []uint32 {
+	order := make([]uint32, len(scores))
+	r := ranker{scores: scores, small: smallGroup}
+	r.top(order)
+	return order
+}
+
+// smallGroup is the largest group of rows sorted by comparison rather than split by 16 more bits.
+const smallGroup = 1 << 10
+
+// ranker sorts rows by orderKey descending, then row ascending.
+type ranker struct {
+	scores []float64
+	small  int
+	count  [][]int   // a table of counts for each level of 16 bits
+	aux    []uint32  // where a group's rows wait while they are split
+	keys   []rankKey // a small group's rows beside their keys
+}
+
+// digit is the place of row's score among the 16 bits of its key at shift, highest key first.
+func (r *ranker) digit(row uint32, shift uint) int {
+	return 0xffff - int(orderKey(r.scores[row])>>shift&0xffff)
+}
+
+// top places every row by the key's highest 16 bits, in ascending row order within each group,
+// then sorts each group.
+func (r *ranker) top(order []uint32) {
+	count := r.counts(0)
+	for i := range r.scores {
+		count[r.digit(uint32(i), 48)+1]++
 	}
-	slices.SortFunc(keys, func(a, b rankKey) int {
-		if c := cmp.Compare(b.hi, a.hi); c != 0 {
-			return c
+	for d := 1; d < len(count); d++ {
+		count[d] += count[d-1]
+	}
+	for i := range r.scores {
+		d := r.digit(uint32(i), 48)
+		order[count[d]] = uint32(i)
+		count[d]++
+	}
+	r.groups(order, 48, 0)
+}
+
+// counts returns the zeroed table of counts for level (0 the highest 16 bits), with a slot more
+// than digits so that prefix sums give each group's start.
+func (r *ranker) counts(level int) []int {
+	for len(r.count) <= level {
+		r.count = append(r.count, make([]int, 1<<16+1))
+	}
+	clear(r.count[level])
+	return r.count[level]
+}
+
+// groups sorts each run of rows of order whose keys agree above shift, order being placed by the
+// 16 bits at shift: the groups are found again by those bits.
+func (r *ranker) groups(order []uint32, shift uint, level int) {
+	for lo := 0; lo < len(order); {
+		d := r.digit(order[lo], shift)
+		hi := lo + 1
+		for hi < len(order) && r.digit(order[hi], shift) == d {
+			hi++
 		}
-		if c := cmp.Compare(b.lo, a.lo); c != 0 {
-			return c
+		if hi-lo > 1 && shift > 0 {
+			r.split(order[lo:hi], shift-16, level+1)
 		}
-		return cmp.Compare(a.row, b.row)
-	})
-	return keys
+		lo = hi
+	}
+}
+
+// split orders rows, in ascending order and agreeing on their keys above shift+16, by the rest of
+// their keys: by comparison when they are few, else by the 16 bits at shift (a stable counting
+// pass) and then each group so made.
+func (r *ranker) split(rows []uint32, shift uint, level int) {
+	if len(rows) <= r.small {
+		keys := r.keys[:0]
+		for _, row := range rows {
+			k := orderKey(r.scores[row])
+			keys = append(keys, rankKey{uint32(k >> 32), uint32(k), row})
+		}
+		slices.SortFunc(keys, func(a, b rankKey) int {
+			if c := cmp.Compare(b.hi, a.hi); c != 0 {
+				return c
+			}
+			if c := cmp.Compare(b.lo, a.lo); c != 0 {
+				return c
+			}
+			return cmp.Compare(a.row, b.row)
+		})
+		for i, k := range keys {
+			rows[i] = k.row
+		}
+		r.keys = keys
+		return
+	}
+	count := r.counts(level)
+	for _, row := range rows {
+		count[r.digit(row, shift)+1]++
+	}
+	if count[r.digit(rows[0], shift)+1] == len(rows) {
+		// One group: nothing to move at these bits.
+		if shift > 0 {
+			r.split(rows, shift-16, level+1)
+		}
+		return
+	}
+	for d := 1; d < len(count); d++ {
+		count[d] += count[d-1]
+	}
+	aux := append(r.aux[:0], rows...)
+	for _, row := range aux {
+		d := r.digit(row, shift)
+		rows[count[d]] = row
+		count[d]++
+	}
+	r.aux = aux[:0]
+	if shift > 0 {
+		r.groups(rows, shift, level)
+	}
 }
 
 // MaxPickRows is the most rows Pick takes: rows and ranks are held in 32 bits, which keeps a
-// Decision to 16 bytes and a row of the ranking to 12.
+// Decision to 16 bytes and a row of the ranking to 4.
 const MaxPickRows = math.MaxUint32
 
 // Pick ranks rows by score (as Order does) and keeps them greedily: walking
@@ -246,11 +351,11 @@ func PickFunc(scores []float64, cost func(row int) float64, opt Options) ([]Deci
 
 // pick is Pick's walk over checked scores and options.
 func pick(scores []float64, cost func(row int) float64, opt Options) ([]Decision, Summary, error) {
-	order := ranked(scores)
+	order := rankedRows(scores)
 	dec := make([]Decision, len(scores))
 	w := NewWalker(opt)
-	for _, k := range order {
-		i := int(k.row)
+	for _, row := range order {
+		i := int(row)
 		barred, group := Kept, int32(0)
 		if opt.Barred != nil {
 			barred = opt.Barred[i]

@@ -74,7 +74,7 @@ func PickSets(sets []Set, costs []float64, cluster []int32, opt Options) ([][]De
 	open := make([]int, len(sets))
 	for s := range sets {
 		w.dec[s] = make([]Decision, n)
-		w.order = append(w.order, ranked(sets[s].Scores))
+		w.order = append(w.order, rankedRows(sets[s].Scores))
 		open[s] = s
 		if training > 0 {
 			w.allow[s] = math.Floor(sets[s].Weight / weights * training)
@@ -83,12 +83,12 @@ func PickSets(sets []Set, costs []float64, cluster []int32, opt Options) ([][]De
 	}
 	if opt.Fixed > opt.Budget {
 		for s := range sets {
-			for r, k := range w.order[s] {
+			for r, row := range w.order[s] {
 				d := Decision{Rank: uint32(r + 1), Reason: BelowCut, LedgerAfter: opt.Fixed}
-				if why := bar(opt.Barred, sets[s].Barred, int(k.row)); why != Kept {
+				if why := bar(opt.Barred, sets[s].Barred, int(row)); why != Kept {
 					d.Reason = why
 				}
-				w.dec[s][k.row] = d
+				w.dec[s][row] = d
 			}
 		}
 		return w.dec, w.sum, Summary{Total: opt.Fixed, Left: opt.Budget - opt.Fixed, Stop: StopFixedOverBudget}, nil
@@ -109,7 +109,7 @@ type setWalk struct {
 	costs       []float64
 	cluster     []int32
 	opt         Options
-	order       [][]rankKey
+	order       [][]uint32
 	dec         [][]Decision
 	sum         []SetSummary
 	allow       []float64 // each set's counts allowed so far
@@ -127,8 +127,8 @@ func (w *setWalk) walk(s int) {
 	so.MinScore = set.MinScore
 	sum.Bound, sum.Stop, sum.StopRank = false, StopExhausted, 0
 	stopped, byScore := false, false
-	for r, k := range w.order[s] {
-		i := int(k.row)
+	for r, row := range w.order[s] {
+		i := int(row)
 		d := &w.dec[s][i]
 		d.Rank = uint32(r + 1)
 		if int(w.keeper[i]) == s+1 {

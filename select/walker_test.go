@@ -37,12 +37,12 @@ func TestWalkerOverShards(t *testing.T) {
 			t.Fatalf("seed %d: %v", seed, err)
 		}
 		// Each shard ranks its own rows; the merge takes the best head, ties to the lower row.
-		var shards [][]rankKey
+		var shards [][]uint32
 		for lo := 0; lo < n; {
 			hi := min(n, lo+1+r.IntN(n))
-			keys := ranked(scores[lo:hi])
+			keys := rankedRows(scores[lo:hi])
 			for k := range keys {
-				keys[k].row += uint32(lo)
+				keys[k] += uint32(lo)
 			}
 			shards, lo = append(shards, keys), hi
 		}
@@ -54,14 +54,14 @@ func TestWalkerOverShards(t *testing.T) {
 				if len(keys) == 0 {
 					continue
 				}
-				if best < 0 || cmp.Or(cmp.Compare(scores[keys[0].row], scores[shards[best][0].row]), cmp.Compare(shards[best][0].row, keys[0].row)) > 0 {
+				if best < 0 || cmp.Or(cmp.Compare(scores[keys[0]], scores[shards[best][0]]), cmp.Compare(shards[best][0], keys[0])) > 0 {
 					best = s
 				}
 			}
 			if best < 0 {
 				break
 			}
-			i := shards[best][0].row
+			i := shards[best][0]
 			shards[best] = shards[best][1:]
 			got[i] = w.Step(scores[i], costs[i], barred[i], group[i])
 		}

@@ -18,18 +18,19 @@ var ErrMemory = errors.New("the pick needs more memory than allowed")
 // counted, since the kernel can drop their pages and read them again.
 const (
 	// PoolRowBytes is a pool row's share: its score (8) and best target row (4), its place in the
-	// ranking (12) and its decision (16); a row's cost is read from the index as the walk meets
-	// it. Measured: 25 to 43 (2026-12-03, the sampling of the heap makes the spread).
-	PoolRowBytes = 44
+	// ranking (4, and 4 more while a group of close scores is split) and its decision (16); a row's
+	// cost is read from the index as the walk meets it. Measured: 19 to 37 (2026-12-03, the
+	// sampling of the heap makes the spread).
+	PoolRowBytes = 36
 	// TargetRowBytes and TargetTermBytes are a target row's share, less its terms, and a term's:
 	// its string in the row (16) and its number in the row's query (4; 12 for TF-IDF). Measured:
 	// 150 to 300 a row of 13 terms.
 	TargetRowBytes  = 200
 	TargetTermBytes = 32
-	// SetRowBytes is a pool row's share for each target set of a pick for several: the set's score (8), best target row (4), bar (1), decision (16) and place in its
-	// ranking (16), and the row's set, keeper and cluster number (7) spread over two sets or more,
-	// rounded up. Not measured.
-	SetRowBytes = 52
+	// SetRowBytes is a pool row's share for each target set of a pick for several: the set's score
+	// (8), best target row (4), bar (1), decision (16) and place in its ranking (4), and the row's
+	// set, keeper and cluster number (7) spread over two sets or more, rounded up. Not measured.
+	SetRowBytes = 40
 	// fixedBytes covers what grows with nothing: the writers' buffers (1 MiB each), the readers',
 	// the lexicon's sample and the runtime.
 	fixedBytes = 64 << 20

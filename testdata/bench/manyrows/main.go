@@ -39,6 +39,7 @@ func run(rows int, text string, seed uint64, files []string) error {
 	if len(sentences) < 2 {
 		return fmt.Errorf("%d sentences in the files named: too few to join", len(sentences))
 	}
+	fmt.Fprintf(os.Stderr, "manyrows: %d rows from %d distinct sentences\n", rows, len(sentences))
 	r := rand.New(rand.NewPCG(seed, seed^0x9e3779b97f4a7c15))
 	w := bufio.NewWriterSize(os.Stdout, 1<<20)
 	var line []byte
