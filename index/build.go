@@ -77,7 +77,8 @@ type Options struct {
 
 	batchRows int // rows per batch handed to a worker; tests make it small to force many spills
 	// dupSlots is the number of blocks of the sketches file the search for near duplicates keeps
-	// (recordSlots when 0); tests make it 1, so that the pairs' rows are read again and again.
+	// of the pairs' first rows (an eighth of Mem when 0); tests make it 1, so that they are read
+	// again and again.
 	dupSlots int
 	// trace, when set, is told when the merge starts ("merge") and ends ("merged"); benchmarks time it.
 	trace func(event string)
