@@ -60,7 +60,8 @@ func cursorMatchesPostings(t *testing.T, ix *Index) {
 }
 
 // Postings released in the middle of a cursor's reading, and again after, are read as before, and
-// so are the rows' records, clusters and ids: the release gives up pages, never bytes. Internal property: no reference values.
+// so are the rows' records, norms, clusters and ids, released whole and behind passes over the
+// rows: a release gives up pages, never bytes. Internal property: no reference values.
 func TestReleasePagesKeepsThem(t *testing.T) {
 	dir, _ := build(t, testPool(t, 3000), Options{Text: "prompt,completion"})
 	ix, err := Open(dir)
@@ -74,11 +75,12 @@ func TestReleasePagesKeepsThem(t *testing.T) {
 	type rowOf struct {
 		len, first int
 		id         string
+		norm       float64
 	}
 	before := make([]rowOf, n)
 	for r := range n {
 		f, _ := ix.DupFirst(r)
-		before[r] = rowOf{ix.RowLen(r), f, ix.RowID(r)}
+		before[r] = rowOf{ix.RowLen(r), f, ix.RowID(r), ix.RowNorm(r)}
 	}
 	for _, term := range terms {
 		wantRows, wantTFs, err := ix.Postings(term, nil, nil)
@@ -99,9 +101,12 @@ func TestReleasePagesKeepsThem(t *testing.T) {
 		}
 	}
 	ix.ReleasePages()
+	for _, to := range []int{n / 2, n, 3, n + 5} { // a pass, another, and beyond the last row
+		ix.ReleaseRows(to)
+	}
 	for r := range n {
 		f, _ := ix.DupFirst(r)
-		if got := (rowOf{ix.RowLen(r), f, ix.RowID(r)}); got != before[r] {
+		if got := (rowOf{ix.RowLen(r), f, ix.RowID(r), ix.RowNorm(r)}); got != before[r] {
 			t.Fatalf("row %d after a release: %+v, want %+v", r, got, before[r])
 		}
 	}

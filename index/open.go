@@ -34,6 +34,7 @@ type Index struct {
 	postFile *os.File // the postings file as mapped, which cursors read through windows of their own
 	window   int      // bytes of a cursor's window (CursorWindow; tests set less)
 	rows     []byte   // mapped, rowRecSize per row
+	released int      // rows whose records' and norms' pages ReleaseRows gave back
 	norms    []byte   // mapped, a little-endian float64 per row
 	dups     []byte   // mapped, dupRecSize bytes per row, when the build found duplicates
 	sketches []byte   // mapped sketches file, when the build wrote one
@@ -244,6 +245,9 @@ func (ix *Index) load(d *os.File) error {
 			return err
 		}
 	}
+	// The checks above read the clusters, the ids and the lexicon through the mapping: 30 bytes a
+	// row and more that a pick only needs later, each in a pass of its own.
+	ix.ReleasePages()
 	return nil
 }
 
@@ -447,6 +451,29 @@ func (ix *Index) ReleasePages() {
 	for _, b := range ix.maps {
 		_ = syscall.Madvise(b, syscall.MADV_DONTNEED) // advice: nothing is lost if refused
 	}
+}
+
+// ReleaseRows gives back the pages of the rows' records and norms wholly below row to, which a
+// pass over the rows in order has left behind (see ReleasePages); what an earlier call gave back is
+// not asked again. It must not be called from two goroutines at once.
+func (ix *Index) ReleaseRows(to int) {
+	if ix.set != nil {
+		return
+	}
+	if to < ix.released {
+		ix.released = 0 // another pass, which mapped the pages again
+	}
+	page := os.Getpagesize()
+	for _, f := range []struct {
+		b    []byte
+		size int
+	}{{ix.rows, rowRecSize}, {ix.norms, 8}} {
+		lo, hi := (ix.released*f.size+page-1)/page*page, min(to*f.size, len(f.b))/page*page
+		if hi > lo {
+			_ = syscall.Madvise(f.b[lo:hi], syscall.MADV_DONTNEED) // advice: nothing is lost if refused
+		}
+	}
+	ix.released = to
 }
 
 // releasePostingsIn gives back the pages wholly within the postings bytes [from, to): a page

@@ -7,6 +7,7 @@ import (
 	"math"
 	"math/rand/v2"
 	"slices"
+	"sync/atomic"
 	"testing"
 )
 
@@ -75,6 +76,62 @@ func (c *sliceCursor) Next(end int, rows, tfs []uint32) ([]uint32, []uint32, err
 	}
 	c.rows, c.tfs = c.rows[i:], c.tfs[i:]
 	return rows, tfs, nil
+}
+
+// releasingCorpus is a cursorCorpus that gives back its rows below a mark, and notes a row's length
+// or norm asked below the mark of its pass.
+type releasingCorpus struct {
+	cursorCorpus
+	mark, calls, early *atomic.Int64
+}
+
+func (c releasingCorpus) ReleaseRows(to int) {
+	if int64(to) < c.mark.Load() {
+		c.mark.Store(0) // another pass
+	}
+	c.mark.Store(int64(to))
+	c.calls.Add(1)
+}
+
+func (c releasingCorpus) RowLen(row int) int {
+	if int64(row) < c.mark.Load() {
+		c.early.Add(1)
+	}
+	return c.cursorCorpus.RowLen(row)
+}
+
+func (c releasingCorpus) RowNorm(row int) float64 {
+	if int64(row) < c.mark.Load() {
+		c.early.Add(1)
+	}
+	return c.cursorCorpus.RowNorm(row)
+}
+
+// A corpus that gives back its rows' memory is told only of rows no chunk still out needs, and is
+// told as the pass goes; the scores are the same. Internal property: no reference values.
+func TestStreamReleasesRowsBehind(t *testing.T) {
+	c, q := zipfSetup(8, 9*rowBlock+5, 30, 3000, 60, 20)
+	for _, p := range allParams() {
+		want, err := Score(context.Background(), c, q, p)
+		if err != nil {
+			t.Fatal(err)
+		}
+		for _, workers := range []int{1, 2, 4} {
+			p.Workers, p.CacheBytes = workers, 1<<10
+			rc := releasingCorpus{cursorCorpus{zipfCorpus: c}, new(atomic.Int64), new(atomic.Int64), new(atomic.Int64)}
+			got, err := scoreBlocks(context.Background(), rc, q, p, maxRowTargets, 7)
+			if err != nil {
+				t.Fatal(err)
+			}
+			if !slices.Equal(got.Scores, want.Scores) || !slices.Equal(got.Best, want.Best) {
+				t.Fatalf("%v/%v, %d workers: the scores differ with rows released", p.Method, p.Aggregate, workers)
+			}
+			if n := rc.early.Load(); n > 0 || rc.calls.Load() < 100 {
+				t.Fatalf("%v/%v, %d workers: %d rows asked for below the mark, over %d releases", p.Method, p.Aggregate, workers, n, rc.calls.Load())
+			}
+			p.Workers, p.CacheBytes = 0, 0
+		}
+	}
 }
 
 // Reading the lists chunk by chunk through cursors gives the same results as

@@ -4,6 +4,7 @@ import (
 	"context"
 	"fmt"
 	"runtime"
+	"slices"
 	"sync"
 	"sync/atomic"
 )
@@ -27,6 +28,13 @@ type PostingCursor interface {
 type CursorCorpus interface {
 	Corpus
 	Cursor(term string) (PostingCursor, error)
+}
+
+// A RowReleaser is a corpus that can give back the memory its per-row data (RowLen, RowNorm) holds
+// for the rows below to, which a pass in row order will not ask for again; asked again, they are
+// still given. Calls come from one goroutine, to ascending within a pass over the rows.
+type RowReleaser interface {
+	ReleaseRows(to int)
 }
 
 // streamPasses is rowPasses over chunks of pool rows read through cursors.
@@ -125,6 +133,10 @@ func (s *scorer) streamPasses(ctx context.Context, cc CursorCorpus, res *Result,
 			}
 		})
 	}
+	// A corpus that can give back its rows' pages is told of the rows left behind: those below every
+	// chunk still out (a chunk is back, done, when its buffer is free again).
+	rr, _ := cc.(RowReleaser)
+	out := make([]int, 0, nbuf) // the first rows of the chunks out
 	// No send below blocks: each channel holds every chunk there is.
 	for lo := 0; lo < n && ctx.Err() == nil; {
 		var c *streamChunk
@@ -132,6 +144,17 @@ func (s *scorer) streamPasses(ctx context.Context, cc CursorCorpus, res *Result,
 		case c = <-free:
 		case <-ctx.Done():
 			continue
+		}
+		if rr != nil {
+			if c.hi > 0 {
+				out = slices.DeleteFunc(out, func(l int) bool { return l == c.lo })
+			}
+			low := lo
+			for _, l := range out {
+				low = min(low, l)
+			}
+			rr.ReleaseRows(low)
+			out = append(out, lo)
 		}
 		c.lo, c.hi = lo, end(lo)
 		lo = c.hi
