@@ -109,6 +109,11 @@ func TestReleasePagesKeepsThem(t *testing.T) {
 		if got := (rowOf{ix.RowLen(r), f, ix.RowID(r), ix.RowNorm(r)}); got != before[r] {
 			t.Fatalf("row %d after a release: %+v, want %+v", r, got, before[r])
 		}
+		// A record read alone says what the mapping says.
+		tok, ok, tb := ix.RowTokens(r)
+		if rt, rok, rtb, err := ix.ReadRowTokens(r); err != nil || rt != tok || rok != ok || rtb != tb || tb <= 0 {
+			t.Fatalf("row %d: ReadRowTokens %d %v %d %v, RowTokens %d %v %d", r, rt, rok, rtb, err, tok, ok, tb)
+		}
 	}
 	for _, term := range terms[:min(len(terms), 50)] {
 		if _, _, err := ix.Postings(term, nil, nil); err != nil {

@@ -32,6 +32,7 @@ type Index struct {
 
 	postings []byte   // mapped
 	postFile *os.File // the postings file as mapped, which cursors read through windows of their own
+	rowsFile *os.File // the rows file as mapped, for reads of one record (ReadRowTokens)
 	window   int      // bytes of a cursor's window (CursorWindow; tests set less)
 	rows     []byte   // mapped, rowRecSize per row
 	released int      // rows whose records' and norms' pages ReleaseRows gave back
@@ -158,8 +159,11 @@ func (ix *Index) load(d *os.File) error {
 		// Only a set reads the sketches, once: it checks them then (checkSketches), sparing every
 		// other command the largest file of many an index.
 		var keep **os.File
-		if name == postingsFile {
+		switch name {
+		case postingsFile:
 			keep = &ix.postFile
+		case rowsFile:
+			keep = &ix.rowsFile
 		}
 		b, sum, err := ix.mapFile(d, name, buf, name != sketchesFile, keep)
 		if err != nil {
@@ -425,11 +429,13 @@ func (ix *Index) Close() error {
 			err = e
 		}
 	}
-	if ix.postFile != nil {
-		if e := ix.postFile.Close(); e != nil && err == nil {
-			err = e
+	for _, f := range []**os.File{&ix.postFile, &ix.rowsFile} {
+		if *f != nil {
+			if e := (*f).Close(); e != nil && err == nil {
+				err = e
+			}
+			*f = nil
 		}
-		ix.postFile = nil
 	}
 	ix.maps = nil
 	ix.stored = nil
@@ -538,6 +544,26 @@ func (ix *Index) RowTokens(row int) (tokens int64, ok bool, textBytes int64) {
 	}
 	r := ix.rec(row)
 	return int64(r.tokens), r.tokens != noTokens, int64(r.textBytes)
+}
+
+// ReadRowTokens is RowTokens read with one pread of the row's record rather than through the
+// mapping: for rows asked at random (a budget walk in rank order), whose records would otherwise
+// leave nearly every page of the rows file resident.
+func (ix *Index) ReadRowTokens(row int) (tokens int64, ok bool, textBytes int64, err error) {
+	if ix.set != nil {
+		g, r, _ := ix.set.seg(row)
+		return g.ReadRowTokens(r)
+	}
+	if ix.rowsFile == nil {
+		t, ok, tb := ix.RowTokens(row)
+		return t, ok, tb, nil
+	}
+	var b [rowRecSize]byte
+	if _, err := ix.rowsFile.ReadAt(b[:], int64(row)*rowRecSize); err != nil {
+		return 0, false, 0, fmt.Errorf("index %s: read row %d's record: %w", ix.dir, row, err)
+	}
+	r := getRowRec(b[:])
+	return int64(r.tokens), r.tokens != noTokens, int64(r.textBytes), nil
 }
 
 // Location says where a row's bytes stand in its source.
