@@ -63,7 +63,7 @@ func cursorMatchesPostings(t *testing.T, ix *Index) {
 // so are the rows' records, norms, clusters and ids, released whole and behind passes over the
 // rows: a release gives up pages, never bytes. Internal property: no reference values.
 func TestReleasePagesKeepsThem(t *testing.T) {
-	dir, _ := build(t, testPool(t, 3000), Options{Text: "prompt,completion"})
+	dir, _ := build(t, testPool(t, 3000), Options{Text: "prompt,completion", ID: "id"})
 	ix, err := Open(dir)
 	if err != nil {
 		t.Fatal(err)
@@ -101,6 +101,9 @@ func TestReleasePagesKeepsThem(t *testing.T) {
 		}
 	}
 	ix.ReleasePages()
+	if ix.idOff == nil || ix.dups == nil {
+		t.Fatal("the test index has no ids or clusters: their release is not tried")
+	}
 	for _, to := range []int{n / 2, n, 3, n + 5} { // a pass, another, and beyond the last row
 		ix.ReleaseRows(to)
 	}

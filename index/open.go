@@ -459,9 +459,9 @@ func (ix *Index) ReleasePages() {
 	}
 }
 
-// ReleaseRows gives back the pages of the rows' records and norms wholly below row to, which a
-// pass over the rows in order has left behind (see ReleasePages); what an earlier call gave back is
-// not asked again. It must not be called from two goroutines at once.
+// ReleaseRows gives back the pages of the rows' records, norms, clusters and ids wholly below row
+// to, which a pass over the rows in order has left behind (see ReleasePages); what an earlier call
+// of the pass gave back is not asked again. It must not be called from two goroutines at once.
 func (ix *Index) ReleaseRows(to int) {
 	if ix.set != nil {
 		return
@@ -469,15 +469,26 @@ func (ix *Index) ReleaseRows(to int) {
 	if to < ix.released {
 		ix.released = 0 // another pass, which mapped the pages again
 	}
+	to = min(to, ix.NumRows())
 	page := os.Getpagesize()
-	for _, f := range []struct {
-		b    []byte
-		size int
-	}{{ix.rows, rowRecSize}, {ix.norms, 8}} {
-		lo, hi := (ix.released*f.size+page-1)/page*page, min(to*f.size, len(f.b))/page*page
+	release := func(b []byte, from, to int) {
+		lo, hi := (from+page-1)/page*page, min(to, len(b))/page*page
 		if hi > lo {
-			_ = syscall.Madvise(f.b[lo:hi], syscall.MADV_DONTNEED) // advice: nothing is lost if refused
+			_ = syscall.Madvise(b[lo:hi], syscall.MADV_DONTNEED) // advice: nothing is lost if refused
 		}
+	}
+	from := ix.released
+	release(ix.rows, from*rowRecSize, to*rowRecSize)
+	release(ix.norms, from*8, to*8)
+	release(ix.dups, from*dupRecSize, to*dupRecSize)
+	if ix.idOff != nil {
+		idAt := func(row int) int { // the first byte of row's id, or the end
+			if k := row / idStride; k < len(ix.idOff) {
+				return int(ix.idOff[k])
+			}
+			return len(ix.ids)
+		}
+		release(ix.ids, idAt(from), idAt(to))
 	}
 	ix.released = to
 }

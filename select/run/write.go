@@ -170,10 +170,15 @@ func (p *picked) writeScores(w *bufio.Writer) error {
 		}
 	}()
 	var err error
+	done := 0
 	for out := range order {
 		b := <-out
 		if err == nil {
 			_, err = w.Write(b)
+		}
+		// The lines ask each row's record, cluster and id in row order: their pages go behind.
+		if done += size; done%(16*size) == 0 {
+			p.ix.ReleaseRows(done)
 		}
 		select {
 		case free <- b[:0]:
