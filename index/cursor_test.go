@@ -104,8 +104,8 @@ func TestReleasePagesKeepsThem(t *testing.T) {
 	if ix.idOff == nil || ix.dups == nil {
 		t.Fatal("the test index has no ids or clusters: their release is not tried")
 	}
-	for _, to := range []int{n / 2, n, 3, n + 5} { // a pass, another, and beyond the last row
-		ix.ReleaseRows(to)
+	for _, span := range [][2]int{{0, n / 2}, {n / 2, n}, {0, 3}, {n - 5, n + 5}, {-1, 2}} {
+		ix.ReleaseRows(span[0], span[1]) // passes, and stretches beyond the rows
 	}
 	for r := range n {
 		f, _ := ix.DupFirst(r)

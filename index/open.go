@@ -34,8 +34,8 @@ type Index struct {
 	postFile *os.File // the postings file as mapped, which cursors read through windows of their own
 	rowsFile *os.File // the rows file as mapped, for reads of one record (ReadRowTokens)
 	window   int      // bytes of a cursor's window (CursorWindow; tests set less)
+	piece    int      // rows CopyRows copies from a plain source at a time (copyPiece; tests set less)
 	rows     []byte   // mapped, rowRecSize per row
-	released int      // rows whose records' and norms' pages ReleaseRows gave back
 	norms    []byte   // mapped, a little-endian float64 per row
 	dups     []byte   // mapped, dupRecSize bytes per row, when the build found duplicates
 	sketches []byte   // mapped sketches file, when the build wrote one
@@ -459,17 +459,17 @@ func (ix *Index) ReleasePages() {
 	}
 }
 
-// ReleaseRows gives back the pages of the rows' records, norms, clusters and ids wholly below row
-// to, which a pass over the rows in order has left behind (see ReleasePages); what an earlier call
-// of the pass gave back is not asked again. It must not be called from two goroutines at once.
-func (ix *Index) ReleaseRows(to int) {
+// ReleaseRows gives back the pages of the rows' records, norms, clusters and ids wholly within
+// rows [from, to), which a pass over the rows in order has left behind (see ReleasePages). Pages
+// shared with rows outside stay. It may be called from several goroutines at once.
+func (ix *Index) ReleaseRows(from, to int) {
 	if ix.set != nil {
 		return
 	}
-	if to < ix.released {
-		ix.released = 0 // another pass, which mapped the pages again
+	from, to = max(from, 0), min(to, ix.NumRows())
+	if from >= to {
+		return
 	}
-	to = min(to, ix.NumRows())
 	page := os.Getpagesize()
 	release := func(b []byte, from, to int) {
 		lo, hi := (from+page-1)/page*page, min(to, len(b))/page*page
@@ -477,7 +477,6 @@ func (ix *Index) ReleaseRows(to int) {
 			_ = syscall.Madvise(b[lo:hi], syscall.MADV_DONTNEED) // advice: nothing is lost if refused
 		}
 	}
-	from := ix.released
 	release(ix.rows, from*rowRecSize, to*rowRecSize)
 	release(ix.norms, from*8, to*8)
 	release(ix.dups, from*dupRecSize, to*dupRecSize)
@@ -490,7 +489,6 @@ func (ix *Index) ReleaseRows(to int) {
 		}
 		release(ix.ids, idAt(from), idAt(to))
 	}
-	ix.released = to
 }
 
 // releasePostingsIn gives back the pages wholly within the postings bytes [from, to): a page

@@ -85,9 +85,9 @@ type releasingCorpus struct {
 	mark, calls, early *atomic.Int64
 }
 
-func (c releasingCorpus) ReleaseRows(to int) {
-	if int64(to) < c.mark.Load() {
-		c.mark.Store(0) // another pass
+func (c releasingCorpus) ReleaseRows(from, to int) {
+	if m := c.mark.Load(); int64(from) != m && from != 0 || to < from {
+		c.early.Add(1) // not the pass's next stretch
 	}
 	c.mark.Store(int64(to))
 	c.calls.Add(1)

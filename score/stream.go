@@ -31,10 +31,10 @@ type CursorCorpus interface {
 }
 
 // A RowReleaser is a corpus that can give back the memory its per-row data (RowLen, RowNorm) holds
-// for the rows below to, which a pass in row order will not ask for again; asked again, they are
-// still given. Calls come from one goroutine, to ascending within a pass over the rows.
+// for rows [from, to), which a pass in row order will not ask for again; asked again, they are
+// still given.
 type RowReleaser interface {
-	ReleaseRows(to int)
+	ReleaseRows(from, to int)
 }
 
 // streamPasses is rowPasses over chunks of pool rows read through cursors.
@@ -137,6 +137,7 @@ func (s *scorer) streamPasses(ctx context.Context, cc CursorCorpus, res *Result,
 	// chunk still out (a chunk is back, done, when its buffer is free again).
 	rr, _ := cc.(RowReleaser)
 	out := make([]int, 0, nbuf) // the first rows of the chunks out
+	released := 0
 	// No send below blocks: each channel holds every chunk there is.
 	for lo := 0; lo < n && ctx.Err() == nil; {
 		var c *streamChunk
@@ -153,8 +154,8 @@ func (s *scorer) streamPasses(ctx context.Context, cc CursorCorpus, res *Result,
 			for _, l := range out {
 				low = min(low, l)
 			}
-			rr.ReleaseRows(low)
-			out = append(out, lo)
+			rr.ReleaseRows(released, low)
+			released, out = low, append(out, lo)
 		}
 		c.lo, c.hi = lo, end(lo)
 		lo = c.hi

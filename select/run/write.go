@@ -178,7 +178,7 @@ func (p *picked) writeScores(w *bufio.Writer) error {
 		}
 		// The lines ask each row's record, cluster and id in row order: their pages go behind.
 		if done += size; done%(16*size) == 0 {
-			p.ix.ReleaseRows(done)
+			p.ix.ReleaseRows(done-16*size, done)
 		}
 		select {
 		case free <- b[:0]:
