@@ -1,8 +1,12 @@
 package index
 
 import (
+	"fmt"
 	"math/rand/v2"
+	"os"
+	"path/filepath"
 	"slices"
+	"strings"
 	"testing"
 )
 
@@ -112,6 +116,9 @@ func TestReleasePagesKeepsThem(t *testing.T) {
 		if got := (rowOf{ix.RowLen(r), f, ix.RowID(r), ix.RowNorm(r)}); got != before[r] {
 			t.Fatalf("row %d after a release: %+v, want %+v", r, got, before[r])
 		}
+		if got := string(ix.AppendRowIDRead([]byte("x"), r)); got != "x"+before[r].id {
+			t.Fatalf("row %d: AppendRowIDRead %q, want %q", r, got, "x"+before[r].id)
+		}
 		// A record read alone says what the mapping says.
 		tok, ok, tb := ix.RowTokens(r)
 		if rt, rok, rtb, err := ix.ReadRowTokens(r); err != nil || rt != tok || rok != ok || rtb != tb || tb <= 0 {
@@ -121,6 +128,30 @@ func TestReleasePagesKeepsThem(t *testing.T) {
 	for _, term := range terms[:min(len(terms), 50)] {
 		if _, _, err := ix.Postings(term, nil, nil); err != nil {
 			t.Fatalf("%q after a release: %v", term, err)
+		}
+	}
+}
+
+// Ids read alone are the ids the mapping gives, long ones (past the read) among them. Internal
+// property: no reference values.
+func TestAppendRowIDRead(t *testing.T) {
+	var b strings.Builder
+	for i := range 40 {
+		fmt.Fprintf(&b, "{\"id\":%q,\"text\":\"row %d of the harbour ledger\"}\n", strings.Repeat("k", 1+i*i*2)+fmt.Sprint(i), i)
+	}
+	pool := filepath.Join(t.TempDir(), "pool.jsonl")
+	if err := os.WriteFile(pool, []byte(b.String()), 0o644); err != nil {
+		t.Fatal(err)
+	}
+	dir, _ := build(t, pool, Options{ID: "id"})
+	ix, err := Open(dir)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer ix.Close()
+	for r := range ix.NumRows() {
+		if got, want := string(ix.AppendRowIDRead(nil, r)), ix.RowID(r); got != want {
+			t.Fatalf("row %d: read alone %d bytes, the mapping %d", r, len(got), len(want))
 		}
 	}
 }

@@ -33,6 +33,7 @@ type Index struct {
 	postings []byte   // mapped
 	postFile *os.File // the postings file as mapped, which cursors read through windows of their own
 	rowsFile *os.File // the rows file as mapped, for reads of one record (ReadRowTokens)
+	idsFile  *os.File // the ids file as mapped, for reads of one id (AppendRowIDRead)
 	window   int      // bytes of a cursor's window (CursorWindow; tests set less)
 	piece    int      // rows CopyRows copies from a plain source at a time (copyPiece; tests set less)
 	rows     []byte   // mapped, rowRecSize per row
@@ -164,6 +165,8 @@ func (ix *Index) load(d *os.File) error {
 			keep = &ix.postFile
 		case rowsFile:
 			keep = &ix.rowsFile
+		case idsFile:
+			keep = &ix.idsFile
 		}
 		b, sum, err := ix.mapFile(d, name, buf, name != sketchesFile, keep)
 		if err != nil {
@@ -429,7 +432,7 @@ func (ix *Index) Close() error {
 			err = e
 		}
 	}
-	for _, f := range []**os.File{&ix.postFile, &ix.rowsFile} {
+	for _, f := range []**os.File{&ix.postFile, &ix.rowsFile, &ix.idsFile} {
 		if *f != nil {
 			if e := (*f).Close(); e != nil && err == nil {
 				err = e
@@ -594,6 +597,33 @@ func (ix *Index) RowLocation(row int) Location {
 	}
 	r := ix.rec(row)
 	return Location{Source: int(r.src), File: ix.meta.Sources[r.src].Path, Line: int64(r.line), Offset: int64(r.off), Length: int64(r.n)}
+}
+
+// AppendRowIDRead is AppendRowID with the id read by one pread near it rather than through the
+// mapping: for rows asked at random (those duplicates name), whose ids would otherwise leave nearly
+// every page of the ids file resident. An id the read does not hold whole, or a failed read, is
+// taken from the mapping.
+func (ix *Index) AppendRowIDRead(b []byte, row int) []byte {
+	if ix.set != nil {
+		g, r, _ := ix.set.seg(row)
+		return g.AppendRowIDRead(b, r)
+	}
+	if ix.idOff == nil || ix.idsFile == nil {
+		return ix.AppendRowID(b, row)
+	}
+	var win [1024]byte
+	n, _ := ix.idsFile.ReadAt(win[:], int64(ix.idOff[row/idStride])) // a short read ends the file
+	id := win[:n]
+	for i := 0; ; i++ {
+		l, k := binary.Uvarint(id)
+		if k <= 0 || uint64(len(id)-k) < l {
+			return ix.AppendRowID(b, row)
+		}
+		if i == row%idStride {
+			return append(b, id[k:k+int(l)]...)
+		}
+		id = id[k+int(l):]
+	}
 }
 
 // RowID returns the row's id: its id field, or file:line.

@@ -217,7 +217,7 @@ func (p *picked) scoreFormat() *scoreFormat {
 func (p *picked) appendScoreLine(b []byte, r int, f *scoreFormat, reasons map[selection.Reason][]byte) []byte {
 	d := &p.dec[r]
 	b = append(b, `{"id":`...)
-	b = appendJSONID(b, p.ix, r, &f.plain)
+	b = appendJSONID(b, p.ix, r, &f.plain, false)
 	b = append(b, `,"score":`...)
 	if s := p.scores[r]; math.IsNaN(s) {
 		b = append(b, "null"...) // a barred row the method did not score
@@ -258,11 +258,16 @@ func (p *picked) appendScoreLine(b []byte, r int, f *scoreFormat, reasons map[se
 }
 
 // appendJSONID appends the id of row r of ix as a JSON string, quoting it in place when all its
-// bytes are plain, as ids nearly always are.
-func appendJSONID(b []byte, ix *index.Index, r int, plain *[256]bool) []byte {
+// bytes are plain, as ids nearly always are; read alone (index.AppendRowIDRead) when rows come at
+// random.
+func appendJSONID(b []byte, ix *index.Index, r int, plain *[256]bool, random bool) []byte {
 	start := len(b)
 	b = append(b, '"')
-	b = ix.AppendRowID(b, r)
+	if random {
+		b = ix.AppendRowIDRead(b, r)
+	} else {
+		b = ix.AppendRowID(b, r)
+	}
 	for _, c := range b[start+1:] {
 		if !plain[c] {
 			id := string(b[start+1:])
@@ -303,7 +308,7 @@ func (p *picked) appendGuard(b []byte, r int, why selection.Reason, plain *[256]
 		if p.dupIDs != nil {
 			return AppendJSONString(b, p.dupIDs[r])
 		}
-		return appendJSONID(b, p.ix, p.dupOf(r), plain)
+		return appendJSONID(b, p.ix, p.dupOf(r), plain, true)
 	case selection.Contaminated:
 		hit := p.guards.contam[r]
 		b = append(b, `,"contaminated":`...)
