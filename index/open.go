@@ -201,6 +201,9 @@ func (ix *Index) load(d *os.File) error {
 	// Every row must name a source the index has, and lie where a source can hold it: rows are
 	// trusted from here on.
 	for i := int64(0); i < n; i++ {
+		if i%openRelease == 0 {
+			releaseIn(ix.rows, 0, int(i*rowRecSize))
+		}
 		r := getRowRec(ix.rows[i*rowRecSize:])
 		if int(r.src) >= len(m.Sources) {
 			return fmt.Errorf("open index %s: row %d names source %d of %d: %w", dir, i, r.src, len(m.Sources), ErrDamaged)
@@ -226,6 +229,9 @@ func (ix *Index) load(d *os.File) error {
 		}
 		// Each row's first must be itself or an earlier row that is its own first: the pick trusts it.
 		for r := int64(0); r < n; r++ {
+			if r%openRelease == 0 {
+				releaseIn(db, 0, int(r*dupRecSize))
+			}
 			f := int64(binary.LittleEndian.Uint32(db[r*dupRecSize:]))
 			if f > r || int64(binary.LittleEndian.Uint32(db[f*dupRecSize:])) != f {
 				return fmt.Errorf("open index %s: dups: row %d names %d as its cluster's first: %w", dir, r, f, ErrDamaged)
@@ -252,11 +258,17 @@ func (ix *Index) load(d *os.File) error {
 			return err
 		}
 	}
-	// The checks above read the clusters, the ids and the lexicon through the mapping: 30 bytes a
-	// row and more that a pick only needs later, each in a pass of its own.
+	// The checks above read the rows' records, the clusters, the ids and the lexicon through the
+	// mapping: about 100 bytes a row that a pick only needs later, each in a pass of its own. Each
+	// pass gives back its pages behind it as well (openRelease), or they would all be resident at
+	// once: 2.2 GB at 40 million rows, more than the pick then holds.
 	ix.ReleasePages()
 	return nil
 }
+
+// openRelease is how many rows Open's passes over the rows' records, clusters and ids read between
+// giving back the pages behind them.
+const openRelease = 1 << 20
 
 // checkBuf is the read buffer Open checksums files through.
 const checkBuf = 1 << 20
@@ -410,6 +422,9 @@ func (ix *Index) loadIDs(b []byte) error {
 		if i%idStride == 0 {
 			ix.idOff = append(ix.idOff, uint64(off))
 		}
+		if i%openRelease == 0 {
+			releaseIn(b, 0, off)
+		}
 		off += k + int(l)
 	}
 	ix.ids = b
@@ -473,16 +488,9 @@ func (ix *Index) ReleaseRows(from, to int) {
 	if from >= to {
 		return
 	}
-	page := os.Getpagesize()
-	release := func(b []byte, from, to int) {
-		lo, hi := (from+page-1)/page*page, min(to, len(b))/page*page
-		if hi > lo {
-			_ = syscall.Madvise(b[lo:hi], syscall.MADV_DONTNEED) // advice: nothing is lost if refused
-		}
-	}
-	release(ix.rows, from*rowRecSize, to*rowRecSize)
-	release(ix.norms, from*8, to*8)
-	release(ix.dups, from*dupRecSize, to*dupRecSize)
+	releaseIn(ix.rows, from*rowRecSize, to*rowRecSize)
+	releaseIn(ix.norms, from*8, to*8)
+	releaseIn(ix.dups, from*dupRecSize, to*dupRecSize)
 	if ix.idOff != nil {
 		idAt := func(row int) int { // the first byte of row's id, or the end
 			if k := row / idStride; k < len(ix.idOff) {
@@ -490,18 +498,24 @@ func (ix *Index) ReleaseRows(from, to int) {
 			}
 			return len(ix.ids)
 		}
-		release(ix.ids, idAt(from), idAt(to))
+		releaseIn(ix.ids, idAt(from), idAt(to))
+	}
+}
+
+// releaseIn gives back the pages of the mapping b wholly within its bytes [from, to): a page
+// shared with bytes outside is kept, as another reader may be on it.
+func releaseIn(b []byte, from, to int) {
+	page := os.Getpagesize()
+	lo, hi := (from+page-1)/page*page, min(to, len(b))/page*page
+	if hi > lo {
+		_ = syscall.Madvise(b[lo:hi], syscall.MADV_DONTNEED) // advice: nothing is lost if refused
 	}
 }
 
 // releasePostingsIn gives back the pages wholly within the postings bytes [from, to): a page
 // shared with bytes outside is kept, as another reader may be on it.
 func (ix *Index) releasePostingsIn(from, to uint64) {
-	page := uint64(os.Getpagesize())
-	lo, hi := (from+page-1)/page*page, min(to/page*page, uint64(len(ix.postings)))
-	if hi > lo {
-		_ = syscall.Madvise(ix.postings[lo:hi], syscall.MADV_DONTNEED) // advice: nothing is lost if refused
-	}
+	releaseIn(ix.postings, int(min(from, uint64(len(ix.postings)))), int(min(to, uint64(len(ix.postings)))))
 }
 
 // releaseNorms is how many bytes of a segment's postings an index set's norms pass reads before
