@@ -201,7 +201,7 @@ func TestCopyRowsByteExact(t *testing.T) {
 	if err := ix.CopyRows(&whole, all); err != nil {
 		t.Fatal(err)
 	}
-	ix.piece = 3
+	ix.piece, ix.resident = 3, false
 	if err := ix.CopyRows(&pieces, all); err != nil || !bytes.Equal(whole.Bytes(), pieces.Bytes()) || whole.Len() < len(data)/2 {
 		t.Errorf("copied 3 rows at a time: %v, or the bytes differ from one copy", err)
 	}

@@ -21,6 +21,7 @@ func TestCursorMatchesPostings(t *testing.T) {
 		t.Fatal(err)
 	}
 	defer ix.Close()
+	ix.resident = false // read as an index past residentMax is
 	for _, window := range []int{0, 1, 21, 64} {
 		ix.window = window
 		cursorMatchesPostings(t, ix)
@@ -73,6 +74,10 @@ func TestReleasePagesKeepsThem(t *testing.T) {
 		t.Fatal(err)
 	}
 	defer ix.Close()
+	if !ix.resident {
+		t.Fatalf("an index of %d rows is not left resident", ix.NumRows())
+	}
+	ix.resident = false // released and read alone, as an index past residentMax is
 	var terms []string
 	ix.lex.each(func(t []byte) { terms = append(terms, string(t)) })
 	n := ix.NumRows()
@@ -149,6 +154,7 @@ func TestAppendRowIDRead(t *testing.T) {
 		t.Fatal(err)
 	}
 	defer ix.Close()
+	ix.resident = false // read alone, as an index past residentMax is
 	for r := range ix.NumRows() {
 		if got, want := string(ix.AppendRowIDRead(nil, r)), ix.RowID(r); got != want {
 			t.Fatalf("row %d: read alone %d bytes, the mapping %d", r, len(got), len(want))
