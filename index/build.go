@@ -236,6 +236,10 @@ type batchOut struct {
 	err      error
 }
 
+// maxWorkers bounds Options.Workers: each worker holds a share of Mem and batches of its own, so a
+// mistyped count would exhaust memory before any work was done.
+const maxWorkers = 256
+
 // Check refuses options that name a field, spec, analyzer or threshold that cannot be, each error
 // naming its command-line flag, before any work.
 func (opt Options) Check() error {
@@ -255,6 +259,12 @@ func (opt Options) Check() error {
 	}
 	if t := opt.NearDup; !opt.NoDups && t != 0 && !(t > 0 && t <= 1) {
 		return fmt.Errorf("--near-dup %v: give a Jaccard similarity above 0 and at most 1", t)
+	}
+	if opt.Tokens != "" && opt.Tokenizer != "" {
+		return errors.New("give --tokens (a field) or --tokenizer (a file), not both")
+	}
+	if opt.Workers < 0 || opt.Workers > maxWorkers {
+		return fmt.Errorf("--workers %d: give 0 (one per core) to %d", opt.Workers, maxWorkers)
 	}
 	if opt.ExcludeN < 0 {
 		return fmt.Errorf("--exclude-ngram %d: give a number of words, at least 1", opt.ExcludeN)

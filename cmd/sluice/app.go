@@ -56,6 +56,9 @@ func required(missing ...string) error {
 	}
 }
 
+// flagStr is the value of the string flag name.
+func flagStr(fs *pflag.FlagSet, name string) string { v, _ := fs.GetString(name); return v }
+
 // unset is "--name" when the string flag name, or string array, was left empty, else "".
 func unset(fs *pflag.FlagSet, name string) string {
 	if v := fs.Lookup(name).Value.String(); v == "" || v == "[]" {
@@ -170,10 +173,10 @@ func runCommand(ctx context.Context, c command, args []string, e *env) int {
 		}
 	}
 	if err != nil {
-		fmt.Fprintf(e.stderr, "sluice %s: %v\nRun 'sluice %s --help' for usage.\n", name, err, name)
-		return 2
+		err = &usageError{err.Error()}
+	} else {
+		err = c.run(ctx, e, fs)
 	}
-	err = c.run(ctx, e, fs)
 	var ue *usageError
 	switch {
 	case err == nil:

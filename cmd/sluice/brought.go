@@ -11,7 +11,6 @@ import (
 // broughtFlags resolves the flags of the methods whose scores or vectors are made elsewhere, and
 // of the static word vectors.
 func broughtFlags(fs *pflag.FlagSet, opt *run.Options) error {
-	str := func(n string) string { v, _ := fs.GetString(n); return v }
 	for _, f := range []struct{ flag, method string }{
 		{"scores", run.MethodScores}, {"join", run.MethodScores}, {"missing", run.MethodScores},
 		{"passes", run.MethodScores}, {"target-passes", run.MethodScores},
@@ -29,7 +28,7 @@ func broughtFlags(fs *pflag.FlagSet, opt *run.Options) error {
 	}
 	if named(opt.Method, run.MethodVectors) {
 		v := &opt.Vectors
-		v.Pool, v.Target, v.Words = str("pool-vectors"), str("target-vectors"), str("word-vectors")
+		v.Pool, v.Target, v.Words = flagStr(fs, "pool-vectors"), flagStr(fs, "target-vectors"), flagStr(fs, "word-vectors")
 		v.IDF, _ = fs.GetBool("idf")
 		switch {
 		case v.Words != "" && (v.Pool != "" || v.Target != ""):

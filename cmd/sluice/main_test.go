@@ -191,6 +191,8 @@ func TestUsageErrors(t *testing.T) {
 		{[]string{"index", "--out", dir + "/i"}, 2, "no pool files"},
 		{[]string{"index", "--out", dir + "/i", "--mem", "lots", "x"}, 2, "--mem"},
 		{[]string{"index", "--out", dir + "/i", dir + "/missing.jsonl"}, 1, "missing.jsonl"},
+		{[]string{"index", "--out", dir + "/i", "--workers", "257", "x"}, 2, "--workers 257: give 0 (one per core) to 256"},
+		{[]string{"index", "--out", dir + "/i", "--tokens", "n", "--tokenizer", "t.json", "x"}, 2, "not both"},
 		{[]string{"pick", "--index", dir, "--target", "t", "--out", "o", "--train-params", "1B"}, 2, "a budget is required"},
 		{[]string{"pick", "--index", dir, "--target", "t", "--out", "o", "--budget", "-1", "--train-params", "1B"}, 2, "--budget"},
 		{[]string{"pick", "--index", dir, "--target", "t", "--out", "o", "--budget", "1e18", "--train-params", "1B", "--gpu-hours", "3"}, 2, "either --budget"},

@@ -153,9 +153,8 @@ func pickOptions(fs *pflag.FlagSet, pilots bool) (run.Options, error) {
 
 // pickInputs resolves where a pick reads and writes, and how it reads the target.
 func pickInputs(fs *pflag.FlagSet, pilots bool) (run.Options, error) {
-	str := func(n string) string { v, _ := fs.GetString(n); return v }
-	opt := run.Options{Index: str("index"), TargetText: str("target-text"),
-		TargetID: str("target-id"), Analyzer: str("analyzer"), Out: str("out"), Compress: str("compress"), KeptFormat: str("kept-format")}
+	opt := run.Options{Index: flagStr(fs, "index"), TargetText: flagStr(fs, "target-text"),
+		TargetID: flagStr(fs, "target-id"), Analyzer: flagStr(fs, "analyzer"), Out: flagStr(fs, "out"), Compress: flagStr(fs, "compress"), KeptFormat: flagStr(fs, "kept-format")}
 	if targets, _ := fs.GetStringArray("target"); len(targets) > 0 {
 		opt.Target, opt.ExtraTargets = targets[0], targets[1:]
 	}
@@ -177,7 +176,7 @@ func pickInputs(fs *pflag.FlagSet, pilots bool) (run.Options, error) {
 		return opt, err
 	}
 	var err error
-	if opt.Weights, err = run.ParseWeights(str("weights"), 1+len(opt.ExtraTargets)); err != nil {
+	if opt.Weights, err = run.ParseWeights(flagStr(fs, "weights"), 1+len(opt.ExtraTargets)); err != nil {
 		return opt, usagef("--weights %v", err)
 	} else if pilots && opt.Weights != nil {
 		return opt, usagef("pilots take one --target")
@@ -190,10 +189,9 @@ func pickInputs(fs *pflag.FlagSet, pilots bool) (run.Options, error) {
 
 // scoreParams resolves the scoring flags.
 func scoreParams(fs *pflag.FlagSet) (score.Params, error) {
-	str := func(n string) string { v, _ := fs.GetString(n); return v }
 	var err error
 	p := score.DefaultParams()
-	for _, m := range strings.Split(str("method"), ",") {
+	for _, m := range strings.Split(flagStr(fs, "method"), ",") {
 		if !slices.Contains(run.Methods(), m) {
 			return p, usagef("--method %q: give %s", m, strings.Join(run.Methods(), ", "))
 		}
@@ -201,7 +199,7 @@ func scoreParams(fs *pflag.FlagSet) (score.Params, error) {
 			p.Method = lm
 		}
 	}
-	if p.Aggregate, err = score.ParseAggregate(str("aggregate")); err != nil {
+	if p.Aggregate, err = score.ParseAggregate(flagStr(fs, "aggregate")); err != nil {
 		return p, usagef("--aggregate: %v", err)
 	}
 	p.K1, _ = fs.GetFloat64("k1")
@@ -212,7 +210,7 @@ func scoreParams(fs *pflag.FlagSet) (score.Params, error) {
 	if err := p.CheckK1B(); err != nil {
 		return p, usagef("--%v", err)
 	}
-	if p.CacheBytes, err = budget.ParseBound(str("mem"), 1<<20); err != nil {
+	if p.CacheBytes, err = budget.ParseBound(flagStr(fs, "mem"), 1<<20); err != nil {
 		return p, usagef("--mem: %v", err)
 	}
 	return p, nil
@@ -223,12 +221,10 @@ func methodFlags(fs *pflag.FlagSet, opt *run.Options) error {
 	opt.Method, _ = fs.GetString("method")
 	opt.Ngram.Order, _ = fs.GetInt("order")
 	opt.Ngram.Seed, _ = fs.GetUint64("ngram-seed")
-	ns, _ := fs.GetString("ngram-score")
-	targetOnly, ok := run.ParseNgramScore(ns)
-	if !ok {
+	ns, ok := flagStr(fs, "ngram-score"), false
+	if opt.Ngram.TargetOnly, ok = run.ParseNgramScore(ns); !ok {
 		return usagef("--ngram-score %q: give difference or target", ns)
 	}
-	opt.Ngram.TargetOnly = targetOnly
 	if opt.Ngram.Order < 3 || opt.Ngram.Order > 5 {
 		return usagef("--order %d: give 3, 4 or 5", opt.Ngram.Order)
 	}

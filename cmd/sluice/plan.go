@@ -42,19 +42,18 @@ func (*planCmd) flags() *pflag.FlagSet {
 }
 
 func (c *planCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
-	get := func(n string) string { s, _ := fs.GetString(n); return s }
 	if fs.NArg() > 0 {
 		return usagef("unexpected argument %q", fs.Arg(0))
 	}
 	sims, _ := fs.GetStringArray("simulate")
 	switch {
-	case get("pilots") == "" && len(sims) == 0:
+	case flagStr(fs, "pilots") == "" && len(sims) == 0:
 		return usagef("--pilots is required (or --simulate curves)")
-	case get("pilots") != "" && len(sims) > 0:
+	case flagStr(fs, "pilots") != "" && len(sims) > 0:
 		return usagef("give --pilots or --simulate, not both")
 	}
 	either := ""
-	if (get("pool-tokens") == "") == (get("index") == "") {
+	if (flagStr(fs, "pool-tokens") == "") == (flagStr(fs, "index") == "") {
 		either = "one of --pool-tokens and --index"
 	}
 	if err := required(unset(fs, "train-params"), unset(fs, "out"), either); err != nil {
@@ -66,7 +65,7 @@ func (c *planCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 	}
 	// Checked before any work: the folder must be nothing, empty or an earlier plan, and not hold
 	// the pilots.
-	if err := atomicdir.CheckOut(get("out"), plan.Folder(), []string{get("pilots")}, index.Folder(), run.Folder()); err != nil {
+	if err := atomicdir.CheckOut(flagStr(fs, "out"), plan.Folder(), []string{flagStr(fs, "pilots")}, index.Folder(), run.Folder()); err != nil {
 		return err
 	}
 	curves, err := planCurves(fs, sims, cfg.TrainParams)
@@ -85,23 +84,22 @@ func (c *planCmd) run(ctx context.Context, e *env, fs *pflag.FlagSet) error {
 		s := p.StepAt(f)
 		p.Asked = &s
 	}
-	return writePlan(e, get("out"), p, len(sims) == 0)
+	return writePlan(e, flagStr(fs, "out"), p, len(sims) == 0)
 }
 
 // planConfig reads the numbers a plan is made for; every fault is a usage error.
 func planConfig(fs *pflag.FlagSet) (plan.Config, error) {
-	get := func(n string) string { s, _ := fs.GetString(n); return s }
 	var cfg plan.Config
 	var err error
-	if get("index") != "" {
-		if cfg.PoolTokens, err = run.PoolTokens(get("index")); err != nil {
+	if flagStr(fs, "index") != "" {
+		if cfg.PoolTokens, err = run.PoolTokens(flagStr(fs, "index")); err != nil {
 			return cfg, err
 		}
-		cfg.Index = get("index")
-	} else if cfg.PoolTokens, err = budget.ParseCount(get("pool-tokens")); err != nil {
+		cfg.Index = flagStr(fs, "index")
+	} else if cfg.PoolTokens, err = budget.ParseCount(flagStr(fs, "pool-tokens")); err != nil {
 		return cfg, usagef("--pool-tokens: %v", err)
 	}
-	if cfg.TrainParams, err = budget.ParseCount(get("train-params")); err != nil {
+	if cfg.TrainParams, err = budget.ParseCount(flagStr(fs, "train-params")); err != nil {
 		return cfg, usagef("--train-params: %v", err)
 	}
 	cfg.Epochs, _ = fs.GetFloat64("epochs")
@@ -115,7 +113,7 @@ func planConfig(fs *pflag.FlagSet) (plan.Config, error) {
 	if cfg.Points > maxPlanPoints {
 		return cfg, usagef("--points %d: give at most %d (a chart cannot show more)", cfg.Points, maxPlanPoints)
 	}
-	if b := get("budgets"); b != "" {
+	if b := flagStr(fs, "budgets"); b != "" {
 		if cfg.Lo, cfg.Hi, err = plan.ParseBudgets(b); err != nil {
 			return cfg, usagef("--budgets %v", err)
 		}
@@ -125,19 +123,18 @@ func planConfig(fs *pflag.FlagSet) (plan.Config, error) {
 
 // planCurves are the --simulate curves, or else the curves fitted to the --pilots file.
 func planCurves(fs *pflag.FlagSet, sims []string, trainParams float64) ([]plan.Curve, error) {
-	get := func(n string) string { s, _ := fs.GetString(n); return s }
 	if len(sims) > 0 {
-		if get("p0") == "" {
+		if flagStr(fs, "p0") == "" {
 			return nil, usagef("--simulate needs --p0, the base model's score")
 		}
-		c, err := plan.ParseCurves(sims, get("p0"), trainParams)
+		c, err := plan.ParseCurves(sims, flagStr(fs, "p0"), trainParams)
 		if err != nil {
 			return nil, usagef("--simulate: %v", err)
 		}
 		return c, nil
 	}
 	free, _ := fs.GetBool("free-p0")
-	return plan.FitFile(get("pilots"), plan.FitOptions{FreeP0: free})
+	return plan.FitFile(flagStr(fs, "pilots"), plan.FitOptions{FreeP0: free})
 }
 
 // writePlan writes plan.json and the charts into out, residuals.svg only when
