@@ -41,7 +41,7 @@ func (ix *Index) CopyRows(w io.Writer, rows []int) error {
 		if err := ix.copyFrom(w, int(src), rows[i:j], copySpan, &buf); err != nil {
 			return err
 		}
-		ix.ReleaseRows(rows[i], rows[j-1])
+		ix.ReleaseRows(rows[i], rows[j-1]+1)
 		i = j
 	}
 	return nil

@@ -530,12 +530,6 @@ func (ix *Index) releaseIn(b []byte, from, to int) {
 	}
 }
 
-// releasePostingsIn gives back the pages wholly within the postings bytes [from, to): a page
-// shared with bytes outside is kept, as another reader may be on it.
-func (ix *Index) releasePostingsIn(from, to uint64) {
-	ix.releaseIn(ix.postings, int(min(from, uint64(len(ix.postings)))), int(min(to, uint64(len(ix.postings)))))
-}
-
 // releaseNorms is how many bytes of a segment's postings an index set's norms pass reads before
 // it gives their pages back.
 const releaseNorms = 64 << 20

@@ -3,6 +3,7 @@ package index
 import (
 	"bufio"
 	"bytes"
+	"cmp"
 	"errors"
 	"fmt"
 	"io"
@@ -376,12 +377,8 @@ func (s *segSet) sumNorms(half int, acc []float64, base []int, n int64) error {
 	// The pass reads each segment's postings in file order (terms in byte order), so what it has
 	// read is given back behind it as it goes, a stretch at a time: a pass over a large set would
 	// otherwise hold every posting of every segment resident by its end.
-	every := s.releaseEvery
-	if every == 0 {
-		every = releaseNorms
-	}
-	from := make([]uint64, len(s.segs))
-	started := make([]bool, len(s.segs))
+	every := cmp.Or(s.releaseEvery, releaseNorms)
+	given := make([]uint64, len(s.segs)) // each segment's postings below this are given back
 	err := s.terms(func(term []byte, in []int, ents []termEntry) error {
 		switch from := string(term) >= mergeSplit; {
 		case from && half == 0:
@@ -407,12 +404,9 @@ func (s *segSet) sumNorms(half int, acc []float64, base []int, n int64) error {
 				w := float64(tfs[k]) * idf
 				acc[base[i]+int(r)] += w * w
 			}
-			if !started[i] {
-				from[i], started[i] = ents[i].post, true
-			}
-			if end := ents[i].postEnd; end-from[i] >= every {
-				s.segs[i].releasePostingsIn(from[i], end)
-				from[i] = end
+			if g := s.segs[i]; ents[i].postEnd-given[i] >= every {
+				g.releaseIn(g.postings, int(given[i]), int(ents[i].postEnd))
+				given[i] = ents[i].postEnd
 			}
 		}
 		return nil

@@ -17,8 +17,7 @@ import (
 // (28 bytes), and, while Find runs, one band's table (16 to 32 bytes a row) and 8 bytes a
 // candidate pair.
 type Bulk struct {
-	p     Params // resolved
-	k, b  int
+	p     Params   // resolved
 	rows  []uint32 // the rows added that have words, ascending
 	marks [][]byte // each row's marks
 	last  int
@@ -30,7 +29,7 @@ func NewBulk(p Params) (*Bulk, error) {
 	if err != nil {
 		return nil, fmt.Errorf("new bulk: %w", err)
 	}
-	return &Bulk{p: p, k: p.Hashes, b: p.Bands, last: -1}, nil
+	return &Bulk{p: p, last: -1}, nil
 }
 
 // Reserve makes room for rows more rows with words.
@@ -45,8 +44,8 @@ func (u *Bulk) Add(row int, marks []byte) error {
 	if row <= u.last || row > MaxRow {
 		return fmt.Errorf("near duplicates: row %d after row %d: %w", row, u.last, ErrRow)
 	}
-	if len(marks) != 0 && len(marks) != 8*u.b+u.k {
-		return fmt.Errorf("near duplicates: row %d: %d bytes of marks, want %d: %w", row, len(marks), 8*u.b+u.k, ErrLength)
+	if want := 8*u.p.Bands + u.p.Hashes; len(marks) != 0 && len(marks) != want {
+		return fmt.Errorf("near duplicates: row %d: %d bytes of marks, want %d: %w", row, len(marks), want, ErrLength)
 	}
 	u.last = row
 	if len(marks) == 0 {

@@ -441,7 +441,7 @@ func (p *picked) tally() {
 	r.Dropped = map[string]int{}
 	for row, d := range p.dec {
 		if row%(1<<16) == 0 {
-			p.ix.ReleaseRows(row-1<<16, row) // the records read so far, in a pass of their own
+			p.ix.ReleaseRows(row-(1<<16), row) // the records read so far, in a pass of their own
 		}
 		if !d.Kept {
 			r.Dropped[d.Reason.String()]++

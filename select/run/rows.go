@@ -65,7 +65,6 @@ func eachRowText(ctx context.Context, ix *index.Index, rows []int, fn func(row i
 		next = func(i int) int { return rows[i] }
 		total = len(rows)
 	}
-	released := 0
 	for i := 0; i < total; {
 		if err := ctx.Err(); err != nil {
 			return err
@@ -78,9 +77,6 @@ func eachRowText(ctx context.Context, ix *index.Index, rows []int, fn func(row i
 		for ; i < total && ix.RowLocation(next(i)).Source == src && (compressed || len(chunk) < rowChunk); i++ {
 			chunk = append(chunk, next(i))
 		}
-		// The rows' records are read in order: their pages go behind.
-		ix.ReleaseRows(released, chunk[0])
-		released = chunk[0]
 		lw.rows, lw.at = chunk, 0
 		if err := ix.CopyRows(lw, chunk); err != nil {
 			return err
