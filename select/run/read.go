@@ -10,6 +10,7 @@ import (
 	"math"
 	"os"
 	"path/filepath"
+	"unicode/utf8"
 
 	"sluice/budget"
 )
@@ -143,21 +144,50 @@ func FindScores(dir string, ids []string) (map[string][]Score, error) {
 		want[id] = nil
 	}
 	err := EachScoreLine(dir, func(row int, line []byte) error {
-		var probe struct {
-			ID string `json:"id"`
+		id, ok := plainID(line)
+		if !ok {
+			var probe struct {
+				ID string `json:"id"`
+			}
+			if err := json.Unmarshal(line, &probe); err != nil {
+				return err
+			}
+			id = []byte(probe.ID)
 		}
-		if err := json.Unmarshal(line, &probe); err != nil {
-			return err
-		}
-		if _, ok := want[probe.ID]; !ok {
+		if _, ok := want[string(id)]; !ok {
 			return nil
 		}
 		s := Score{Row: row}
 		if err := json.Unmarshal(line, &s); err != nil {
 			return err
 		}
-		want[probe.ID] = append(want[probe.ID], s)
+		if _, ok := want[s.ID]; ok { // differs from id only where a line repeats its "id" key
+			want[s.ID] = append(want[s.ID], s)
+		}
 		return nil
 	})
 	return want, err
+}
+
+// plainID returns the id of a scores.jsonl line as a pick writes it, `{"id":"…",` first, when the
+// string holds no escape and is valid UTF-8, so that its bytes are the id; ok is false otherwise,
+// and the line is then decoded. Decoding every line to find a few made why take 12.7 s on a run of
+// 8 million rows, 84 % of it in encoding/json.
+func plainID(line []byte) (id []byte, ok bool) {
+	const head = `{"id":"`
+	if !bytes.HasPrefix(line, []byte(head)) {
+		return nil, false
+	}
+	rest := line[len(head):]
+	end := bytes.IndexAny(rest, `"\`)
+	if end < 0 || rest[end] != '"' || end+1 >= len(rest) || rest[end+1] != ',' {
+		return nil, false
+	}
+	id = rest[:end]
+	for _, c := range id {
+		if c < 0x20 {
+			return nil, false
+		}
+	}
+	return id, utf8.Valid(id)
 }

@@ -146,3 +146,51 @@ func TestMaxMem(t *testing.T) {
 		t.Errorf("the duplicate guard adds %d to the estimate, want %d for %d rows", got, want, n)
 	}
 }
+
+// TestPlainID holds FindScores' quick look at a line's id to what encoding/json decodes from the
+// same line (the standard library as the reference): where plainID answers, the two agree, and it
+// declines every line it cannot read as written.
+func TestPlainID(t *testing.T) {
+	for _, tc := range []struct {
+		line string
+		ok   bool
+	}{
+		{`{"id":"pool.jsonl:12","score":1.5}`, true},
+		{`{"id":"","score":null}`, true},
+		{`{"id":"caf\u00e9","score":1}`, false}, // an escape: decoded instead
+		{`{"id":"café","score":1}`, true},
+		{`{"id":"a\"b","score":1}`, false},
+		{"{\"id\":\"a\xffb\",\"score\":1}", false}, // not UTF-8: the decoder would replace the byte
+		{"{\"id\":\"a\tb\",\"score\":1}", false},   // a control byte, which JSON refuses unescaped
+		{`{"id":"x"}`, false},                      // not a pick's line: decoded
+		{`{ "id":"x","score":1}`, false},
+		{`{"id":"x`, false},
+	} {
+		id, ok := plainID([]byte(tc.line))
+		if ok != tc.ok {
+			t.Errorf("%q: ok %v, want %v", tc.line, ok, tc.ok)
+			continue
+		}
+		var probe struct {
+			ID string `json:"id"`
+		}
+		if ok && (json.Unmarshal([]byte(tc.line), &probe) != nil || probe.ID != string(id)) {
+			t.Errorf("%q: plainID %q, encoding/json %q", tc.line, id, probe.ID)
+		}
+	}
+}
+
+// FuzzPlainID checks plainID against encoding/json on any line both read.
+func FuzzPlainID(f *testing.F) {
+	f.Add([]byte(`{"id":"pool.jsonl:12","score":1.5,"rank":3}`))
+	f.Add([]byte(`{"id":"a\\u0041","score":1}`))
+	f.Fuzz(func(t *testing.T, line []byte) {
+		id, ok := plainID(line)
+		var probe struct {
+			ID string `json:"id"`
+		}
+		if ok && json.Unmarshal(line, &probe) == nil && probe.ID != string(id) {
+			t.Fatalf("%q: plainID %q, encoding/json %q", line, id, probe.ID)
+		}
+	})
+}
