@@ -220,8 +220,30 @@ func TestOpenDamaged(t *testing.T) {
 	b, _ := os.ReadFile(p)
 	b[len(b)/2] ^= 0xff
 	os.WriteFile(p, b, 0o644)
+	// The postings are checked as they are read: Open finds nothing, a read of every list does.
+	ix, err := Open(dir)
+	if err != nil {
+		t.Fatalf("open: %v; the damaged postings are found when read", err)
+	}
+	var failed error
+	ix.lex.each(func(term []byte) {
+		if _, _, err := ix.Postings(string(term), nil, nil); err != nil && failed == nil {
+			failed = err
+		}
+	})
+	ix.Close()
+	if !errors.Is(failed, ErrDamaged) {
+		t.Errorf("damaged postings, every list read: %v, want ErrDamaged", failed)
+	}
+	// An index without block sums (built before them) is checked whole at open.
+	editMeta(t, dir, func(m map[string]any) {
+		for _, f := range m["files"].(map[string]any) {
+			delete(f.(map[string]any), "block")
+			delete(f.(map[string]any), "block_crc32c")
+		}
+	})
 	if _, err := Open(dir); !errors.Is(err, ErrDamaged) {
-		t.Errorf("damaged postings: %v, want ErrDamaged", err)
+		t.Errorf("damaged postings, no block sums: %v, want ErrDamaged", err)
 	}
 	if _, err := Open(t.TempDir()); !errors.Is(err, ErrNotIndex) {
 		t.Errorf("empty folder: %v, want ErrNotIndex", err)

@@ -29,6 +29,11 @@ func (ix *Index) CopyRows(w io.Writer, rows []int) error {
 	rows = slices.Compact(rows)
 	var buf []byte // one read buffer for every source
 	for i := 0; i < len(rows); {
+		// The records are read here and by copyFrom: checked first, so that a damaged one is
+		// reported as such rather than as a row that does not match its pool file.
+		if err := ix.chk.rows.check(rows[i]*rowRecSize, (rows[min(i+cmp.Or(ix.piece, copyPiece), len(rows))-1]+1)*rowRecSize); err != nil {
+			return err
+		}
 		src := ix.rec(rows[i]).src
 		// A plain source is copied copyPiece rows at a time, each piece's records given back once
 		// it is done (ReleaseRows): a pick keeping 4 million rows of 40 million read every page of
@@ -83,6 +88,9 @@ func (ix *Index) openSource(s Source) (sourceFile, int64, error) {
 		b, ok := ix.stored[s.Stored]
 		if !ok {
 			return nil, 0, fmt.Errorf("copy rows from %s: the index is closed or lacks %s", s.Path, s.Stored)
+		}
+		if err := ix.chk.stored[s.Stored].all(); err != nil {
+			return nil, 0, fmt.Errorf("copy rows from %s: %w", s.Path, err)
 		}
 		return nopCloser{bytes.NewReader(b)}, int64(len(b)), nil
 	}

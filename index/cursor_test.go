@@ -110,7 +110,7 @@ func TestReleasePagesKeepsThem(t *testing.T) {
 		}
 	}
 	ix.ReleasePages()
-	if ix.idOff == nil || ix.dups == nil {
+	if ix.idOffsets() != nil || ix.idOff == nil || ix.dups == nil {
 		t.Fatal("the test index has no ids or clusters: their release is not tried")
 	}
 	for _, span := range [][2]int{{0, n / 2}, {n / 2, n}, {0, 3}, {n - 5, n + 5}, {-1, 2}} {

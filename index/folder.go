@@ -17,7 +17,7 @@ func Folder() atomicdir.Kind {
 		},
 		Holds: func(name string) bool {
 			switch name {
-			case metaFile, lexiconFile, postingsFile, rowsFile, normsFile, idsFile, rejectedFile, dupsFile, contamFile, sketchesFile:
+			case metaFile, lexiconFile, lexKeysFile, postingsFile, rowsFile, normsFile, idsFile, rejectedFile, dupsFile, contamFile, sketchesFile:
 				return true
 			}
 			// Input read from stdin or a pipe is stored under this prefix so rows can be copied later.

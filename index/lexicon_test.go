@@ -49,6 +49,9 @@ func TestSparseLexiconAndIDs(t *testing.T) {
 	if want := (len(df) + lexStride - 1) / lexStride; len(ix.lex.end) != want || cap(ix.lex.at) > want+1 {
 		t.Errorf("%d terms kept in memory (room for %d), want %d", len(ix.lex.end), cap(ix.lex.at), want)
 	}
+	if err := ix.idOffsets(); err != nil { // found when an id is first asked
+		t.Fatal(err)
+	}
 	if want := (rows + idStride - 1) / idStride; len(ix.idOff) != want {
 		t.Errorf("%d id offsets kept, want %d", len(ix.idOff), want)
 	}
@@ -69,6 +72,27 @@ func TestSparseLexiconAndIDs(t *testing.T) {
 	for r := rows - 1; r >= 0; r-- {
 		if got := ix.RowID(r); got != ids[r] {
 			t.Errorf("row %d: id %q, want %q", r, got, ids[r])
+		}
+	}
+	// Open kept the terms of the keys file, reading no entry: every look-up, present or absent,
+	// finds what a lexicon walked whole finds.
+	if !ix.lex.keyed {
+		t.Fatal("Open walked the lexicon; the build wrote its keys")
+	}
+	var whole lexicon
+	if err := whole.load(ix.lex.b, ix.meta.Terms, ix.meta.Rows, uint64(len(ix.postings))); err != nil {
+		t.Fatal(err)
+	}
+	if !bytes.Equal(whole.keep, ix.lex.keep) || fmt.Sprint(whole.at, whole.post) != fmt.Sprint(ix.lex.at, ix.lex.post) {
+		t.Error("the keys file keeps other terms than a walk of the lexicon")
+	}
+	for i := range 2*words + 2 {
+		for _, term := range []string{fmt.Sprintf("q%04dq", i), fmt.Sprintf("q%04d", i), fmt.Sprintf("q%04dqa", i)} {
+			e, ok, err := ix.lex.find(term)
+			we, wok, _ := whole.find(term)
+			if e != we || ok != wok || err != nil {
+				t.Errorf("%q: keyed %v %v (%v), walked %v %v", term, e, ok, err, we, wok)
+			}
 		}
 	}
 }

@@ -424,6 +424,9 @@ func (b *builder) merge(ctx context.Context) (*Stats, error) {
 			return nil, err
 		}
 	}
+	if err := b.writeLexKeys(ctx); err != nil {
+		return nil, err
+	}
 	nw, err := b.wd.create(b.wd.path(normsFile))
 	if err != nil {
 		return nil, err
@@ -697,7 +700,7 @@ func (b *builder) writeMeta(ctx context.Context) error {
 		if e.Name() == metaFile || e.IsDir() {
 			continue
 		}
-		f, err := checksumFile(ctx, b.wd.path(e.Name()))
+		f, err := checksumFile(ctx, b.wd.path(e.Name()), blockSize(e.Name()))
 		if err != nil {
 			return b.wd.err("build index: read", err)
 		}

@@ -13,6 +13,7 @@ import (
 	"sort"
 	"strconv"
 	"sync"
+	"sync/atomic"
 	"syscall"
 
 	"golang.org/x/sys/unix"
@@ -53,14 +54,23 @@ type Index struct {
 	// The sketches' checksum, checked once, when they are first read (checkSketches).
 	sketchOnce sync.Once
 	sketchErr  error
+
+	chk     checks                // the files checked a block at a time as they are read
+	fault   atomic.Pointer[error] // the first damage found by a read without an error (Err)
+	idsOnce sync.Once             // idOffsets, once
+	idsErr  error
+	idsDone atomic.Bool // idOff is found: ReleaseRows reads it
+	lexOnce sync.Once   // lexWalked, once
+	lexErr  error
 }
 
 // openAttempts bounds how often Open starts again when a rebuild replaced the folder while it read.
 const openAttempts = 3
 
-// Open reads an index folder, checking its format version and the checksum of every file, or an
-// index-set file (see WriteSet), whose segments it reads as one index: rows in order, statistics
-// summed, so that every score is what one index of the same files would give.
+// Open reads an index folder, checking its format version and, for an index built without block
+// sums, the checksum of every file (others are checked a block at a time as they are read: see
+// Err), or an index-set file (see WriteSet), whose segments it reads as one index: rows in order,
+// statistics summed, so that every score is what one index of the same files would give.
 //
 // Every file is read through one handle on the folder, so one Open sees one version of the index
 // even while a rebuild publishes another over it: the rebuild renames the new folder into place and
@@ -174,15 +184,22 @@ func (ix *Index) load(d *os.File) error {
 		case idsFile:
 			keep = &ix.idsFile
 		}
-		b, sum, err := ix.mapFile(d, name, buf, name != sketchesFile, keep)
+		// A file with block sums is checked a block at a time as it is read (blocks).
+		lazy := want.Block > 0
+		b, sum, err := ix.mapFile(d, name, buf, name != sketchesFile && !lazy, keep)
 		if err != nil {
 			return err
 		}
 		if int64(len(b)) != want.Size {
 			return fmt.Errorf("open index %s: %s is %d bytes, meta.json says %d: %w", dir, name, len(b), want.Size, ErrDamaged)
 		}
-		if got := fmt.Sprintf("%08x", sum); got != want.CRC32C && name != sketchesFile {
+		if got := fmt.Sprintf("%08x", sum); got != want.CRC32C && name != sketchesFile && !lazy {
 			return fmt.Errorf("open index %s: %s checksum %s, meta.json says %s: %w", dir, name, got, want.CRC32C, ErrDamaged)
+		}
+		if lazy {
+			if err := ix.chk.add(ix, name, b); err != nil {
+				return err
+			}
 		}
 		data[name] = b
 	}
@@ -192,6 +209,16 @@ func (ix *Index) load(d *os.File) error {
 	// n is compared by division: n*rowRecSize overflows for a count as large as meta.json may say.
 	if n < 0 || n > int64(len(ix.rows))/rowRecSize || int64(len(ix.rows)) != n*rowRecSize {
 		return fmt.Errorf("open index %s: rows holds %d bytes for %d rows: %w", dir, len(ix.rows), n, ErrDamaged)
+	}
+	// What the rows' records are checked against (rowRecs), checked here as they may be checked
+	// only when a row is read: a row must have a source, and a plain source a size.
+	if n > 0 && len(m.Sources) == 0 {
+		return fmt.Errorf("open index %s: %d rows and no source: %w", dir, n, ErrDamaged)
+	}
+	for i, s := range m.Sources {
+		if s.Compression == jsonl.None.String() && s.Size < 0 {
+			return fmt.Errorf("open index %s: source %d of %d bytes: %w", dir, i, s.Size, ErrDamaged)
+		}
 	}
 	ix.stored = map[string][]byte{}
 	for i, s := range m.Sources {
@@ -205,19 +232,15 @@ func (ix *Index) load(d *os.File) error {
 		ix.stored[s.Stored] = b
 	}
 	// Every row must name a source the index has, and lie where a source can hold it: rows are
-	// trusted from here on.
-	for i := int64(0); i < n; i++ {
-		if i%openRelease == 0 {
+	// trusted from here on, or from when their block is checked.
+	if ix.chk.rows != nil {
+		ix.chk.rows.records = ix.rowRecs
+	} else {
+		for i := int64(0); i < n; i += openRelease {
 			ix.releaseIn(ix.rows, 0, int(i*rowRecSize))
-		}
-		r := getRowRec(ix.rows[i*rowRecSize:])
-		if int(r.src) >= len(m.Sources) {
-			return fmt.Errorf("open index %s: row %d names source %d of %d: %w", dir, i, r.src, len(m.Sources), ErrDamaged)
-		}
-		s := &m.Sources[r.src]
-		end := r.off + uint64(r.n)
-		if r.off > math.MaxInt64-uint64(r.n) || s.Compression == jsonl.None.String() && (s.Size < 0 || end > uint64(s.Size)) {
-			return fmt.Errorf("open index %s: row %d lies at bytes %d to %d of a source of %d: %w", dir, i, r.off, end, s.Size, ErrDamaged)
+			if err := ix.rowRecs(int(i*rowRecSize), int(min(i+openRelease, n)*rowRecSize)); err != nil {
+				return err
+			}
 		}
 	}
 	nb := data[normsFile]
@@ -225,8 +248,8 @@ func (ix *Index) load(d *os.File) error {
 		return fmt.Errorf("open index %s: norms holds %d bytes for %d rows: %w", dir, len(nb), n, ErrDamaged)
 	}
 	ix.norms = nb
-	if err := ix.lex.load(data[lexiconFile], ix.meta.Terms, ix.meta.Rows, uint64(len(ix.postings))); err != nil {
-		return fmt.Errorf("open index %s: lexicon: %w", dir, err)
+	if err := ix.loadLexicon(data); err != nil {
+		return err
 	}
 	if m.Dups != nil {
 		db := data[dupsFile]
@@ -234,16 +257,17 @@ func (ix *Index) load(d *os.File) error {
 			return fmt.Errorf("open index %s: dups holds %d bytes for %d rows: %w", dir, len(db), n, ErrDamaged)
 		}
 		// Each row's first must be itself or an earlier row that is its own first: the pick trusts it.
-		for r := int64(0); r < n; r++ {
-			if r%openRelease == 0 {
+		ix.dups = db
+		if ix.chk.dups != nil {
+			ix.chk.dups.records = ix.dupRecs
+		} else {
+			for r := int64(0); r < n; r += openRelease {
 				ix.releaseIn(db, 0, int(r*dupRecSize))
-			}
-			f := int64(binary.LittleEndian.Uint32(db[r*dupRecSize:]))
-			if f > r || int64(binary.LittleEndian.Uint32(db[f*dupRecSize:])) != f {
-				return fmt.Errorf("open index %s: dups: row %d names %d as its cluster's first: %w", dir, r, f, ErrDamaged)
+				if err := ix.dupRecs(int(r*dupRecSize), int(min(r+openRelease, n)*dupRecSize)); err != nil {
+					return err
+				}
 			}
 		}
-		ix.dups = db
 		if sk, listed := m.Files[sketchesFile]; listed {
 			// One record for every row that is the first of its key, of a size the settings give.
 			size := int64(sketchHead + m.Dups.marksLen())
@@ -260,8 +284,11 @@ func (ix *Index) load(d *os.File) error {
 		ix.contam = data[contamFile]
 	}
 	if m.IDField != "" {
-		if err := ix.loadIDs(data[idsFile]); err != nil {
-			return err
+		ix.ids = data[idsFile]
+		if ix.chk.ids == nil { // else found when an id is first asked (idOffsets)
+			if err := ix.idOffsets(); err != nil {
+				return err
+			}
 		}
 	}
 	// The checks above read the rows' records, the clusters, the ids and the lexicon through the
@@ -344,6 +371,9 @@ func (ix *Index) DupFirst(row int) (int, bool) {
 	if ix.dups == nil { // a set has none until Duplicates finds them across its segments
 		return row, false
 	}
+	if !ix.need(ix.chk.dups, row*dupRecSize, (row+1)*dupRecSize) {
+		return row, true
+	}
 	return int(binary.LittleEndian.Uint32(ix.dups[row*dupRecSize:])), true
 }
 
@@ -399,6 +429,9 @@ func (ix *Index) DupKey(row int) (dedup.Key, bool) {
 	if ix.dups == nil {
 		return k, false
 	}
+	if !ix.need(ix.chk.dups, row*dupRecSize, (row+1)*dupRecSize) {
+		return k, true
+	}
 	copy(k[:], ix.dups[row*dupRecSize+4:])
 	return k, true
 }
@@ -424,22 +457,25 @@ const idStride = 16
 
 func (ix *Index) loadIDs(b []byte) error {
 	n := ix.meta.Rows
-	ix.idOff = make([]uint64, 0, n/idStride+1)
+	idOff := make([]uint64, 0, n/idStride+1)
 	off := 0
 	for i := int64(0); i < n; i++ {
 		l, k := binary.Uvarint(b[off:])
 		if k <= 0 || uint64(len(b)-off-k) < l {
-			return fmt.Errorf("open index %s: ids: truncated at row %d: %w", ix.dir, i, ErrDamaged)
+			return fmt.Errorf("index %s: ids: truncated at row %d: %w", ix.dir, i, ErrDamaged)
+		}
+		if err := ix.chk.ids.check(off, off+k+int(l)); err != nil {
+			return err
 		}
 		if i%idStride == 0 {
-			ix.idOff = append(ix.idOff, uint64(off))
+			idOff = append(idOff, uint64(off))
 		}
 		if i%openRelease == 0 {
 			ix.releaseIn(b, 0, off)
 		}
 		off += k + int(l)
 	}
-	ix.ids = b
+	ix.ids, ix.idOff = b, idOff
 	return nil
 }
 
@@ -506,7 +542,7 @@ func (ix *Index) ReleaseRows(from, to int) {
 	ix.releaseIn(ix.rows, from*rowRecSize, to*rowRecSize)
 	ix.releaseIn(ix.norms, from*8, to*8)
 	ix.releaseIn(ix.dups, from*dupRecSize, to*dupRecSize)
-	if ix.idOff != nil {
+	if ix.idsDone.Load() { // else no id was read, and none is resident
 		idAt := func(row int) int { // the first byte of row's id, or the end
 			if k := row / idStride; k < len(ix.idOff) {
 				return int(ix.idOff[k])
@@ -554,7 +590,13 @@ func (ix *Index) NumRows() int {
 // AvgLen returns the mean analysed length of a row.
 func (ix *Index) AvgLen() float64 { return ix.meta.AvgLen }
 
-func (ix *Index) rec(row int) rowRec { return getRowRec(ix.rows[row*rowRecSize:]) }
+// rec returns row's record, or a zero one when its block fails its check (Err).
+func (ix *Index) rec(row int) rowRec {
+	if !ix.need(ix.chk.rows, row*rowRecSize, (row+1)*rowRecSize) {
+		return rowRec{}
+	}
+	return getRowRec(ix.rows[row*rowRecSize:])
+}
 
 // RowLen returns the analysed length of a row: its number of terms, repeats counted.
 func (ix *Index) RowLen(row int) int {
@@ -569,6 +611,9 @@ func (ix *Index) RowLen(row int) int {
 func (ix *Index) RowNorm(row int) float64 {
 	if ix.set != nil {
 		return ix.set.rowNorm(row, ix.meta.Rows)
+	}
+	if !ix.need(ix.chk.norms, 8*row, 8*row+8) {
+		return 0
 	}
 	return math.Float64frombits(binary.LittleEndian.Uint64(ix.norms[8*row:]))
 }
@@ -595,6 +640,9 @@ func (ix *Index) ReadRowTokens(row int) (tokens int64, ok bool, textBytes int64,
 	if ix.rowsFile == nil || ix.resident {
 		t, ok, tb := ix.RowTokens(row)
 		return t, ok, tb, nil
+	}
+	if err := ix.chk.rows.check(row*rowRecSize, (row+1)*rowRecSize); err != nil {
+		return 0, false, 0, err
 	}
 	var b [rowRecSize]byte
 	if _, err := ix.rowsFile.ReadAt(b[:], int64(row)*rowRecSize); err != nil {
@@ -634,8 +682,12 @@ func (ix *Index) AppendRowIDRead(b []byte, row int) []byte {
 		g, r, _ := ix.set.seg(row)
 		return g.AppendRowIDRead(b, r)
 	}
-	if ix.idOff == nil || ix.idsFile == nil || ix.resident {
+	if ix.meta.IDField == "" || ix.idsFile == nil || ix.resident {
 		return ix.AppendRowID(b, row)
+	}
+	if err := ix.idOffsets(); err != nil {
+		ix.fail(err)
+		return b
 	}
 	var win [1024]byte
 	n, _ := ix.idsFile.ReadAt(win[:], int64(ix.idOff[row/idStride])) // a short read ends the file
@@ -664,8 +716,12 @@ func (ix *Index) AppendRowID(b []byte, row int) []byte {
 		g, r, _ := ix.set.seg(row)
 		return g.AppendRowID(b, r)
 	}
-	if ix.idOff != nil {
-		// Open checked every length, so the walk from the nearest kept offset stays in ids.
+	if ix.meta.IDField != "" {
+		if err := ix.idOffsets(); err != nil {
+			ix.fail(err)
+			return b
+		}
+		// idOffsets checked every length, so the walk from the nearest kept offset stays in ids.
 		id := ix.ids[ix.idOff[row/idStride]:]
 		for range row % idStride {
 			l, k := binary.Uvarint(id)
@@ -689,10 +745,14 @@ func (ix *Index) DF(term string) int {
 		}
 		return df
 	}
-	if e, ok := ix.lex.find(term); ok {
-		return int(e.df)
+	e, ok, err := ix.lex.find(term)
+	if err != nil {
+		ix.fail(fmt.Errorf("index %s: lexicon: %w", ix.dir, err))
 	}
-	return 0
+	if !ok {
+		return 0
+	}
+	return int(e.df)
 }
 
 // NumTerms returns the size of the lexicon.
@@ -703,7 +763,10 @@ func (ix *Index) Postings(term string, rows, tfs []uint32) ([]uint32, []uint32, 
 	if ix.set != nil {
 		return ix.set.postings(term, rows, tfs)
 	}
-	e, ok := ix.lex.find(term)
+	e, ok, err := ix.lex.find(term)
+	if err != nil {
+		return rows, tfs, fmt.Errorf("index %s: lexicon: %w", ix.dir, err)
+	}
 	if !ok {
 		return rows, tfs, nil
 	}
@@ -731,6 +794,8 @@ type Cursor struct {
 
 	parts []*Cursor // for a set, a cursor on each segment, read in turn
 	part  int       // the segment being read
+
+	err error // the list failed its check (cursorAt)
 }
 
 // NewCursor returns a cursor at the start of term's postings; a term the index lacks has none.
@@ -738,8 +803,10 @@ func (ix *Index) NewCursor(term string) *Cursor {
 	if ix.set != nil {
 		return ix.set.cursor(ix, term)
 	}
-	e, ok := ix.lex.find(term)
+	e, ok, err := ix.lex.find(term)
 	switch {
+	case err != nil:
+		return &Cursor{ix: ix, term: term, row: -1, next: -1, err: fmt.Errorf("index %s: lexicon: %w", ix.dir, err)}
 	case !ok:
 		return &Cursor{ix: ix, term: term, row: -1, next: -1}
 	case ix.postFile == nil || ix.resident:
@@ -752,7 +819,12 @@ func (ix *Index) NewCursor(term string) *Cursor {
 	return &Cursor{ix: ix, term: term, off: int64(e.post), end: int64(e.postEnd), row: -1, next: -1}
 }
 
+// cursorAt returns a cursor reading term's list, whose entry is e, through the mapping; one whose
+// list fails its check gives the error at its first Next.
 func (ix *Index) cursorAt(e termEntry, term string) Cursor {
+	if err := ix.chk.post.check(int(e.post), int(e.postEnd)); err != nil {
+		return Cursor{ix: ix, term: term, row: -1, next: -1, err: err}
+	}
 	return Cursor{ix: ix, term: term, b: ix.postings[e.post:e.postEnd], row: -1, next: -1}
 }
 
@@ -771,6 +843,9 @@ func (c *Cursor) refill() error {
 		c.win = make([]byte, int(min(int64(max(size, 2*binary.MaxVarintLen64)), c.end-c.off)))
 	}
 	n := copy(c.win, c.b)
+	if err := c.ix.chk.post.check(int(c.off), int(c.off+min(int64(len(c.win)-n), c.end-c.off))); err != nil {
+		return err
+	}
 	k, err := c.ix.postFile.ReadAt(c.win[n:n+int(min(int64(len(c.win)-n), c.end-c.off))], c.off)
 	c.off += int64(k)
 	c.b = c.win[:n+k]
@@ -785,6 +860,9 @@ func (c *Cursor) refill() error {
 func (c *Cursor) Next(end int, rows, tfs []uint32) ([]uint32, []uint32, error) {
 	if c.parts != nil {
 		return c.nextParts(end, rows, tfs)
+	}
+	if c.err != nil {
+		return rows, tfs, c.err
 	}
 	if c.next >= 0 {
 		if c.next >= int64(end) {

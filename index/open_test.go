@@ -75,7 +75,7 @@ func openNoPanic(dir string) (err error) {
 		ix.RowID(r)
 		ix.RowLocation(r)
 	}
-	return nil
+	return ix.Err() // what the reads above found, the files being checked as they are read
 }
 
 // TestOpenDamagedMeta: counts and sizes in meta.json may say anything, including numbers whose

@@ -283,6 +283,9 @@ func (s *segSet) terms(fn func(term []byte, in []int, ents []termEntry) error) e
 	heads := make([][]byte, len(s.segs))
 	ents := make([]termEntry, len(s.segs))
 	for i, g := range s.segs {
+		if err := g.lexWalked(); err != nil { // the walk below trusts every entry
+			return err
+		}
 		rest[i] = g.lex.b
 	}
 	advance := func(i int) {
@@ -358,11 +361,14 @@ func (s *segSet) rowNorm(row int, n int64) float64 {
 		}
 		wg.Wait()
 		err := errors.Join(errs[0], errs[1])
+		if err != nil {
+			s.segs[0].fail(err) // Err reports it; the norms are NaN
+		}
 		s.norms = parts[0]
 		for r := range s.norms {
 			s.norms[r] = math.Sqrt(s.norms[r] + parts[1][r])
 			if err != nil {
-				s.norms[r] = math.NaN() // Open checked every file's checksum: a list that fails to decode here is not expected
+				s.norms[r] = math.NaN()
 			}
 		}
 	})

@@ -237,10 +237,9 @@ func openRowIDs(dir string) (*Index, error) {
 		if m.IDField == "" {
 			return nil
 		}
-		ids, err := ix.mapChecked(d, idsFile, buf)
-		if err != nil {
+		if ix.ids, err = ix.mapChecked(d, idsFile, buf); err != nil {
 			return err
 		}
-		return ix.loadIDs(ids)
+		return ix.idOffsets()
 	})
 }

@@ -179,6 +179,9 @@ func (s *segSet) findDups(ctx context.Context) (*Dups, []uint32, error) {
 					return nil, nil, fmt.Errorf("index set: duplicates: %w", err)
 				}
 			}
+			if err := g.Err(); err != nil { // a key whose block failed its check read as zeros
+				return nil, nil, err
+			}
 		}
 	}
 	bulk.Reserve(n - int(nexact))

@@ -355,7 +355,7 @@ func checkPicked(t *testing.T, tc poolCase) {
 	for _, f := range tc.files {
 		allowed[f] = true
 	}
-	for _, f := range []string{"meta.json", "lexicon", "postings", "rows", "norms", "ids", "rejected.jsonl", "dups", "sketches"} {
+	for _, f := range []string{"meta.json", "lexicon", "lexicon.keys", "postings", "rows", "norms", "ids", "rejected.jsonl", "dups", "sketches"} {
 		allowed[filepath.Join("idx", f)] = true
 	}
 	for _, f := range []string{"kept.jsonl", "scores.jsonl", "ledger.json", "rejected.jsonl", "manifest.json"} {
@@ -422,7 +422,7 @@ func TestBadPickInput(t *testing.T) {
 		{"target truncated gzip", with("--target", "truncated.jsonl.gz"), 1, []string{"read target truncated.jsonl.gz:", "gzip stream ends early"}},
 		{"target missing", with("--target", "nope.jsonl"), 1, []string{"read target nope.jsonl: no such file or directory"}},
 		{"budget below the selection cost", with("--budget", "10"), 1, []string{"the selection cost alone", "exceeds the budget of 1.000e+01 FLOPs", "nothing was written"}},
-		{"damaged postings", with("--index", "idx-flipped"), 1, []string{"open index idx-flipped: postings checksum", "index is damaged"}},
+		{"damaged postings", with("--index", "idx-flipped"), 1, []string{"index idx-flipped: postings bytes 0 to", "index is damaged"}},
 		{"cut rows file", with("--index", "idx-cut"), 1, []string{"open index idx-cut: rows is 10 bytes", "index is damaged"}},
 		{"other format version", with("--index", "idx-version"), 1, []string{"open index idx-version: version 99, this sluice reads versions 1 to 2 (rebuild the index)"}},
 		{"not an index", with("--index", "."), 1, []string{"not a sluice index"}},

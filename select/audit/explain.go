@@ -238,6 +238,14 @@ func (x *Explainer) Targets() []index.Target { return x.targets }
 // is recomputed from the index (and, for an n-gram run, the row's text) and must agree with
 // s.Score to the last bit.
 func (x *Explainer) Explain(s run.Score, top int) (Row, error) {
+	r, err := x.explain(s, top)
+	if err == nil {
+		err = x.ix.Err() // a part of the index that failed its check as it was read answered zeros
+	}
+	return r, err
+}
+
+func (x *Explainer) explain(s run.Score, top int) (Row, error) {
 	st := x.m.Settings
 	loc := x.ix.RowLocation(s.Row)
 	r := Row{ID: s.ID, Row: s.Row, Source: fmt.Sprintf("%s:%d", loc.File, loc.Line), Score: s.Score, Rank: s.Rank,

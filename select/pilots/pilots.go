@@ -248,6 +248,9 @@ func Make(ctx context.Context, opt Options) (*Result, error) {
 	if err := writeCSV(filepath.Join(tmp, File), lines); err != nil {
 		return nil, fmt.Errorf("write %s: %w", filepath.Join(opt.Out, File), err)
 	}
+	if err := ix.Err(); err != nil { // a part of the index that failed its check as it was read answered zeros
+		return nil, err
+	}
 	if err := atomicdir.Publish(tmp, opt.Out); err != nil {
 		return nil, err
 	}

@@ -123,6 +123,10 @@ func Build(ctx context.Context, dir string, o Options) (*Page, error) {
 			return nil, err
 		}
 	}
+	// A part of the index that failed its check as it was read answered zeros.
+	if err := ix.Err(); err != nil {
+		return nil, err
+	}
 	return rep, nil
 }
 

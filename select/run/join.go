@@ -106,7 +106,10 @@ func WriteShard(ctx context.Context, opt Options, work string, shard int) (*Shar
 	plain.Compress = "none" // the join compresses the parts as one stream
 	p.opt = &plain
 	err = publishWork(dir, partKind(), []string{opt.Index, opt.Target}, func(tmp string) error {
-		return writeWork(tmp, dir, []workFill{{ScoresFile, p.writeScores}, {partKept, p.copyKept}}, pf.Files, partMark, pf)
+		if err := writeWork(tmp, dir, []workFill{{ScoresFile, p.writeScores}, {partKept, p.copyKept}}, pf.Files, partMark, pf); err != nil {
+			return err
+		}
+		return ix.Err() // a part of the index that failed its check as it was read answered zeros
 	})
 	if err != nil {
 		return nil, err

@@ -605,6 +605,9 @@ func IndexTokens(ix *index.Index) (float64, error) {
 	for r := 0; r < ix.NumRows(); r++ {
 		t += rowTokens(ix, r)
 	}
+	if err := ix.Err(); err != nil { // a record whose block failed its check read as zeros
+		return 0, err
+	}
 	if t == 0 {
 		return 0, fmt.Errorf("index %s holds no tokens", ix.Dir())
 	}

@@ -298,7 +298,10 @@ func ScoreShard(ctx context.Context, opt Options, work string, shard int) (*Shar
 				return err
 			}
 		}
-		return writeWork(tmp, dir, fills, sf.Files, shardMark, sf)
+		if err := writeWork(tmp, dir, fills, sf.Files, shardMark, sf); err != nil {
+			return err
+		}
+		return ix.Err() // a part of the index that failed its check as it was read answered zeros
 	})
 	if err != nil {
 		return nil, err

@@ -57,6 +57,10 @@ func (p *picked) write() error {
 		}
 		hashes[o.name] = sums[i]
 	}
+	// A part of the index that failed its check as it was read answered zeros: nothing is published.
+	if err := p.ix.Err(); err != nil {
+		return err
+	}
 	if err := writeManifest(tmp, opt.Out, p.manifest(), hashes); err != nil {
 		return err
 	}
