@@ -1,6 +1,7 @@
 package index
 
 import (
+	"cmp"
 	"context"
 	"encoding/binary"
 	"fmt"
@@ -31,21 +32,22 @@ type Index struct {
 
 	lex lexicon
 
-	postings []byte   // mapped
-	postFile *os.File // the postings file as mapped, which cursors read through windows of their own
-	rowsFile *os.File // the rows file as mapped, for reads of one record (ReadRowTokens)
-	idsFile  *os.File // the ids file as mapped, for reads of one id (AppendRowIDRead)
-	window   int      // bytes of a cursor's window (CursorWindow; tests set less)
-	piece    int      // rows CopyRows copies from a plain source at a time (copyPiece; tests set less)
-	resident bool     // small enough to read through the mapping alone and keep (residentMax)
-	rows     []byte   // mapped, rowRecSize per row
-	norms    []byte   // mapped, a little-endian float64 per row
-	dups     []byte   // mapped, dupRecSize bytes per row, when the build found duplicates
-	sketches []byte   // mapped sketches file, when the build wrote one
-	contam   []byte   // mapped contaminated.jsonl, when the build checked evaluation files
-	idOff    []uint64 // where row i·idStride's length-prefixed id starts in ids, when the index has an id field
-	ids      []byte
-	stored   map[string][]byte // mapped copies of sources read from a stream, by file name
+	postings  []byte   // mapped
+	postFile  *os.File // the postings file as mapped, which cursors read through windows of their own
+	rowsFile  *os.File // the rows file as mapped, for reads of one record (ReadRowTokens)
+	idsFile   *os.File // the ids file as mapped, for reads of one id (AppendRowIDRead)
+	window    int      // bytes of a cursor's window (CursorWindow; tests set less)
+	piece     int      // rows CopyRows copies from a plain source at a time (copyPiece; tests set less)
+	tfStretch int      // rows RowTF reads a call (rowTFStretch; tests set less)
+	resident  bool     // small enough to read through the mapping alone and keep (residentMax)
+	rows      []byte   // mapped, rowRecSize per row
+	norms     []byte   // mapped, a little-endian float64 per row
+	dups      []byte   // mapped, dupRecSize bytes per row, when the build found duplicates
+	sketches  []byte   // mapped sketches file, when the build wrote one
+	contam    []byte   // mapped contaminated.jsonl, when the build checked evaluation files
+	idOff     []uint64 // where row i·idStride's length-prefixed id starts in ids, when the index has an id field
+	ids       []byte
+	stored    map[string][]byte // mapped copies of sources read from a stream, by file name
 
 	maps [][]byte
 
@@ -917,3 +919,24 @@ func (c *Cursor) Next(end int, rows, tfs []uint32) ([]uint32, []uint32, error) {
 	c.b, c.row = b, row
 	return rows, tfs, nil
 }
+
+// RowTF returns row's frequency of term, 0 when the row lacks it, reading the term's list only as
+// far as the row, and holding a stretch of it at a time: what explaining one row needs of a list.
+func (ix *Index) RowTF(term string, row int) (int, error) {
+	c := ix.NewCursor(term)
+	var rows, tfs []uint32
+	for end := 0; end <= row; {
+		end = min(end+cmp.Or(ix.tfStretch, rowTFStretch), row+1)
+		var err error
+		if rows, tfs, err = c.Next(end, rows[:0], tfs[:0]); err != nil {
+			return 0, err
+		}
+	}
+	if len(rows) > 0 && rows[len(rows)-1] == uint32(row) {
+		return int(tfs[len(tfs)-1]), nil
+	}
+	return 0, nil
+}
+
+// rowTFStretch is how many rows' postings RowTF decodes a call.
+const rowTFStretch = 1 << 16

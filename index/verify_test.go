@@ -88,3 +88,36 @@ func TestChecksAsRead(t *testing.T) {
 		})
 	}
 }
+
+// TestRowTF checks RowTF, which reads a list only as far as the row, against the whole list read by
+// Postings, for every term and every row, read through the mapping and through small windows, one
+// stretch and many. Internal property: no reference values are involved.
+func TestRowTF(t *testing.T) {
+	pool := testPool(t, 900)
+	dir, _ := build(t, pool, Options{})
+	ix, err := Open(dir)
+	if err != nil {
+		t.Fatal(err)
+	}
+	defer ix.Close()
+	var terms []string
+	ix.lex.each(func(term []byte) { terms = append(terms, string(term)) })
+	for _, resident := range []bool{true, false} {
+		ix.resident, ix.window, ix.tfStretch = resident, 64, 100
+		for _, term := range append(terms, "absent") {
+			rows, tfs, err := ix.Postings(term, nil, nil)
+			if err != nil {
+				t.Fatal(err)
+			}
+			want := make([]int, ix.NumRows())
+			for i, r := range rows {
+				want[r] = int(tfs[i])
+			}
+			for r := range ix.NumRows() {
+				if got, err := ix.RowTF(term, r); got != want[r] || err != nil {
+					t.Fatalf("resident %v: RowTF(%q, %d) = %d (%v), want %d", resident, term, r, got, err, want[r])
+				}
+			}
+		}
+	}
+}

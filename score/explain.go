@@ -45,6 +45,12 @@ type Explanation struct {
 	Targets []TargetMatch
 }
 
+// rowTFer is a Corpus that reads one row's term frequency from a list without reading the rest of
+// it (an index reads the list up to the row): Explain asks it rather than Postings.
+type rowTFer interface {
+	RowTF(term string, row int) (int, error)
+}
+
 // Explain recomputes the score of pool row row as Score would and breaks it
 // into parts. Explanation.Score and Best equal Result.Scores[row] and
 // Result.Best[row] exactly. topTargets caps len(Targets): 0 omits them and a
@@ -61,11 +67,21 @@ func Explain(c Corpus, q []Query, p Params, row int, topTargets int) (*Explanati
 		return nil, fmt.Errorf("score: explain row %d of %d: %w", row, pl.n, ErrRowRange)
 	}
 
-	// The corpus has no forward index, so look the row up in every posting list.
+	// The corpus has no forward index, so look the row up in every posting list: read up to the
+	// row alone where the corpus can stop there.
 	tf := make([]int, len(pl.vocab))
 	found := false
 	var rows, tfs []uint32
 	for k, term := range pl.vocab {
+		if rc, ok := c.(rowTFer); ok {
+			n, err := rc.RowTF(term, row)
+			if err != nil {
+				return nil, fmt.Errorf("score: postings of %q: %w", term, err)
+			}
+			tf[k] = n
+			found = found || n > 0
+			continue
+		}
 		rows, tfs, err = c.Postings(term, rows[:0], tfs[:0])
 		if err != nil {
 			return nil, fmt.Errorf("score: postings of %q: %w", term, err)
