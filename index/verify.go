@@ -266,3 +266,42 @@ func (ix *Index) lexWalked() error {
 	})
 	return ix.lexErr
 }
+
+// Check checks every byte of the index (of every segment, for a set) against its checksums, with
+// the records, lexicon and ids as the reads of them check them: what the reads of a command check
+// of the parts they read, done for the whole, as sluice verify asks. It gives back the pages it
+// read.
+func (ix *Index) Check() error {
+	if ix.set != nil {
+		for _, g := range ix.set.segs {
+			if err := g.Check(); err != nil {
+				return err
+			}
+		}
+		return nil
+	}
+	cs := []*blocks{ix.chk.lex, ix.chk.post, ix.chk.rows, ix.chk.norms, ix.chk.dups, ix.chk.ids}
+	for _, c := range ix.chk.stored {
+		cs = append(cs, c)
+	}
+	for _, c := range cs {
+		if err := c.all(); err != nil {
+			return err
+		}
+	}
+	if err := ix.lexWalked(); err != nil {
+		return err
+	}
+	if ix.meta.IDField != "" {
+		if err := ix.idOffsets(); err != nil {
+			return err
+		}
+	}
+	if ix.sketches != nil {
+		if err := ix.checkSketches(); err != nil {
+			return err
+		}
+	}
+	ix.ReleasePages()
+	return ix.Err()
+}

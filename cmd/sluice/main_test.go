@@ -336,6 +336,14 @@ func TestWhyAgreesWithScores(t *testing.T) {
 	if code, _, stderr := sluice(t, "verify", filepath.Join(dir, "run-bm25sum")); code != 1 || !strings.Contains(stderr, "kept.jsonl: changed") {
 		t.Errorf("verify of a changed run: exit %d: %s", code, stderr)
 	}
+	// A damaged index file that no command has read yet: verify reads every byte of the index.
+	ids := filepath.Join(idx, "ids")
+	b, _ := os.ReadFile(ids)
+	b[len(b)/2] ^= 0x20
+	os.WriteFile(ids, b, 0o644)
+	if code, _, stderr := sluice(t, "verify", filepath.Join(dir, "run-bm25max")); code != 1 || !strings.Contains(stderr, "ids bytes 0 to") || !strings.Contains(stderr, "index is damaged") {
+		t.Errorf("verify over a damaged index: exit %d: %s", code, stderr)
+	}
 }
 
 // TestTargetTextMustMatch: a target read from other fields than the pool's is refused unless the

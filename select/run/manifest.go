@@ -245,6 +245,8 @@ func Verify(dir string, m *Manifest) []string {
 		bad = append(bad, fmt.Sprintf("index %s: %v", m.Index.Path, err))
 	} else if !same {
 		bad = append(bad, fmt.Sprintf("index %s: not the index the run used (%s)", m.Index.Path, what))
+	} else if err := checkIndex(m.Index.Path); err != nil {
+		bad = append(bad, fmt.Sprintf("index %s: %v", m.Index.Path, err))
 	}
 	if got, err := sha256File(m.Target.Path); err != nil {
 		bad = append(bad, fmt.Sprintf("target %s: %v", m.Target.Path, err))
@@ -259,6 +261,17 @@ func Verify(dir string, m *Manifest) []string {
 		}
 	}
 	return bad
+}
+
+// checkIndex checks every byte of the index at dir against its checksums (index.Index.Check): a
+// command checks only the parts it reads.
+func checkIndex(dir string) error {
+	ix, err := index.Open(dir)
+	if err != nil {
+		return err
+	}
+	defer ix.Close()
+	return ix.Check()
 }
 
 // short is the first 12 hex digits of a hash, or all of a damaged one.
