@@ -293,10 +293,10 @@ func (ix *Index) load(d *os.File) error {
 			}
 		}
 	}
-	// The checks above read the rows' records, the clusters, the ids and the lexicon through the
-	// mapping: about 100 bytes a row that a pick only needs later, each in a pass of its own. Each
-	// pass gives back its pages behind it as well (openRelease), or they would all be resident at
-	// once: 2.2 GB at 40 million rows, more than the pick then holds.
+	// For an index without block sums, the checks above read the rows' records, the clusters, the
+	// ids and the lexicon through the mapping: about 100 bytes a row that a pick only needs later,
+	// each in a pass of its own. Each pass gives back its pages behind it as well (openRelease), or
+	// they would all be resident at once: 2.2 GB at 40 million rows, more than the pick then holds.
 	ix.ReleasePages()
 	return nil
 }

@@ -30,8 +30,6 @@ type blocks struct {
 	summed []atomic.Uint64 // a bit per block: summed (the clusters' check reads other blocks' sums)
 	// records checks the records of the block's bytes [from, to), once their sum matched.
 	records func(from, to int) error
-	// give, when set, gives back the pages a check read (files read through pread, not the mapping).
-	give bool
 }
 
 // newBlocks reads meta.json's block sums for the file name mapped as b; nil when it has none, the
@@ -89,9 +87,9 @@ func (c *blocks) sum(k int) error {
 	if got := crc32.Checksum(c.b[lo:hi], castagnoli); got != c.sums[k] {
 		return fmt.Errorf("index %s: %s bytes %d to %d: checksum %08x, meta.json says %08x: %w", c.ix.dir, c.name, lo, hi, got, c.sums[k], ErrDamaged)
 	}
-	if c.give {
-		c.ix.releaseIn(c.b, lo, hi)
-	}
+	// The pages go back unless the index stays resident: the command reads what it needs of them
+	// again, from the page cache, and a check never holds a file resident.
+	c.ix.releaseIn(c.b, lo, hi)
 	c.summed[k/64].Or(1 << (k % 64))
 	return nil
 }
@@ -117,9 +115,6 @@ func (cs *checks) add(ix *Index, name string, b []byte) error {
 	if err != nil {
 		return err
 	}
-	// Pages a check read go back unless the index stays resident: the command reads what it
-	// needs of them again, from the page cache, and a check never holds the file resident.
-	c.give = true
 	switch name {
 	case rowsFile:
 		cs.rows = c
