@@ -144,8 +144,8 @@ func (ix *Index) fail(err error) {
 }
 
 // Err reports the first damage found by a read that returns no error of its own (RowLen, RowNorm,
-// RowTokens, RowLocation, RowID, DupFirst, DupKey): those answer zero values once their part of a
-// file fails its check, so a command checks Err before it trusts what it made from them.
+// RowTokens, RowLocation, RowID, DupFirst, DupKey, DF): those answer zero values once their part
+// of a file fails its check, so a command checks Err before it trusts what it made from them.
 func (ix *Index) Err() error {
 	if ix.set != nil {
 		for _, g := range ix.set.segs {
