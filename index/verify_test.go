@@ -2,6 +2,7 @@ package index
 
 import (
 	"errors"
+	"io"
 	"os"
 	"path/filepath"
 	"testing"
@@ -24,6 +25,9 @@ func TestChecksAsRead(t *testing.T) {
 		{rowsFile, func(size int) int { return size - 1 }, func(ix *Index) error {
 			ix.RowLen(last)
 			return ix.Err()
+		}},
+		{rowsFile, func(size int) int { return size - 1 }, func(ix *Index) error {
+			return ix.CopyRows(io.Discard, []int{0, last}) // the damage, not a row unlike its pool file
 		}},
 		{normsFile, func(int) int { return 3 }, func(ix *Index) error {
 			ix.RowNorm(0)

@@ -226,10 +226,10 @@ func Pick(ctx context.Context, opt Options) (*Result, error) {
 		pick = p.several
 	}
 	if err := pick(ctx); err != nil {
-		return nil, err
+		return nil, cmp.Or(ix.Err(), err) // the damage a read met, not what its zeros led to
 	}
 	if err := p.write(); err != nil {
-		return nil, err
+		return nil, cmp.Or(ix.Err(), err)
 	}
 	return &p.out, nil
 }
